@@ -1,0 +1,509 @@
+"""Characters of the symmetric group by the Murnaghan–Nakayama rule on beta-sets.
+
+A partition ``lambda`` with ``l`` parts is held as its *beta-set* (abacus) encoded in the
+bits of one Python int: bead ``b_i = lambda_i + (l - i)`` for ``i = 1..l``. Removing a rim
+hook of length ``r`` moves a bead from ``b`` to an empty position ``b - r``, and the sign of
+that rim hook is ``(-1)^(beads strictly between)`` ([1], 2.7.25; [2], I.1 Ex. 8). A
+beta-set is *normalised* when position 0 is empty (no zero parts), which makes the
+encoding canonical: equal ints, equal partitions.
+
+* :func:`character` evaluates one value ``chi^lambda(mu)``: recursion on the parts of
+  ``mu`` (largest first) memoised on ``(beta-set, remaining parts)``; as soon as all the
+  remaining parts are equal to ``r`` it finishes in closed form through the ``r``-quotient
+  ([1], 2.7.32): ``chi^lambda(r^k) = delta_r(lambda) * k!/prod |q_j|! * prod d(q_j)`` when
+  the ``r``-core is empty and 0 otherwise (for ``r = 1`` this is the hook length formula).
+* :func:`character_table` builds a whole table column block by column block: for a fixed
+  largest part ``r`` the Murnaghan–Nakayama rule is one sparse ``+-1`` matrix ``M_r``
+  (partitions of ``m`` by partitions of ``m - r``), and the columns of ``S_m`` whose
+  largest part is ``r`` are ``M_r`` times the columns of ``S_{m-r}`` for the tails. Tails
+  are shared across classes, so the work is a few sparse-times-dense products in int64.
+
+Values are exact integers: int64 while the largest dimension of ``S_n`` (which bounds every
+entry *and* every partial sum, because ``sum_xi d(lambda - xi) <= d(lambda)`` over rim hooks
+``xi`` of one length) fits in 63 bits, which holds up to ``n = 35``; Python ints beyond.
+
+References
+----------
+.. [1] G. James and A. Kerber, *The Representation Theory of the Symmetric Group*,
+       Encyclopedia of Mathematics and its Applications 16, Addison-Wesley, 1981.
+.. [2] I. G. Macdonald, *Symmetric Functions and Hall Polynomials*, 2nd ed., Oxford, 1995.
+.. [3] P. Diaconis and M. Shahshahani, "Generating a random permutation with random
+       transpositions", Z. Wahrsch. Verw. Gebiete 57 (1981) 159-179 (character ratio at a
+       transposition, eigenvalues of class-function step laws).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from fractions import Fraction
+
+import numpy as np
+
+from shufflecheck.errors import InputError
+from shufflecheck.partitions import (
+    Partition,
+    check_partition,
+    check_shape,
+    class_size,
+    content_sum,
+    count_partitions,
+    dimension,
+    format_partition,
+    partitions,
+)
+
+__all__ = [
+    "CharacterTable",
+    "Eigenvalue",
+    "character",
+    "character_table",
+    "class_eigenvalues",
+    "group_eigenvalues",
+    "ratio",
+    "table_memory_estimate",
+    "transposition_ratio",
+]
+
+#: Default ceiling for the memory of one whole table (bytes); see :func:`table_memory_estimate`.
+DEFAULT_TABLE_MEMORY = 2 * 1024**3
+
+# ---------------------------------------------------------------------------------------
+# beta-sets as bit masks
+
+
+def _beta_mask(shape: Sequence[int]) -> int:
+    """Normalised beta-set of a partition: bit ``lambda_i + (l - i)`` set for each part."""
+    length = len(shape)
+    mask = 0
+    for i, part in enumerate(shape):
+        mask |= 1 << (part + length - 1 - i)
+    return mask
+
+
+def _normalise(mask: int) -> int:
+    """Drop beads packed at the bottom (zero parts): shift out the trailing one bits."""
+    trailing_ones = (mask ^ (mask + 1)).bit_length() - 1
+    return mask >> trailing_ones
+
+
+def _beads(mask: int) -> list[int]:
+    """Bead positions in increasing order."""
+    out = []
+    while mask:
+        low = mask & -mask
+        out.append(low.bit_length() - 1)
+        mask ^= low
+    return out
+
+
+def _mask_to_shape(mask: int) -> Partition:
+    beads = _beads(mask)  # increasing
+    return tuple(b - i for i, b in reversed(list(enumerate(beads))) if b - i > 0)
+
+
+def _dimension_from_levels(levels: Sequence[int]) -> tuple[int, int]:
+    """(size, dimension) of the partition with beta-set ``levels`` (any bead count).
+
+    ``d = |q|! * prod_{i<j} (l_i - l_j) / prod l_i!`` ([1], 2.3.21).
+    """
+    t = len(levels)
+    size = sum(levels) - t * (t - 1) // 2
+    numerator = math.factorial(size)
+    for i in range(t):
+        for j in range(i + 1, t):
+            numerator *= abs(levels[i] - levels[j])
+    denominator = 1
+    for level in levels:
+        denominator *= math.factorial(level)
+    return size, numerator // denominator
+
+
+def _equal_parts_value(mask: int, r: int, k: int) -> int:
+    """``chi^lambda(r^k)`` for the partition with beta-set ``mask`` of size ``r * k``.
+
+    Closed form through the ``r``-quotient ([1], 2.7.32): zero unless the ``r``-core is
+    empty; otherwise the ``r``-sign times the number of ways to strip ``lambda`` by ``r``-rim
+    hooks, ``k! / prod |q_j|! * prod d(q_j)``. The sign does not depend on the order in which
+    the hooks are stripped ([1], 2.7.26), so one greedy stripping computes it.
+    """
+    beads = _beads(mask)
+    runners: list[list[int]] = [[] for _ in range(r)]
+    for b in beads:
+        runners[b % r].append(b // r)
+    total = 0
+    count = math.factorial(k)
+    for levels in runners:
+        size, dim = _dimension_from_levels(levels)
+        total += size
+        count = count // math.factorial(size) * dim if size else count
+    if total != k:  # the r-core is not empty
+        return 0
+    # sign: strip r-hooks greedily
+    sign = 1
+    current = mask
+    for _ in range(k):
+        probe = current
+        while probe:
+            low = probe & -probe
+            b = low.bit_length() - 1
+            probe ^= low
+            if b >= r and not (current >> (b - r)) & 1:
+                between = ((current >> (b - r + 1)) & ((1 << (r - 1)) - 1)).bit_count()
+                if between % 2:
+                    sign = -sign
+                current ^= (1 << b) | (1 << (b - r))
+                break
+        else:  # pragma: no cover - impossible when the core is empty
+            raise AssertionError("r-core computation inconsistent")
+    return sign * count
+
+
+def _removal_order(parts: Partition) -> Partition:
+    """Order in which to strip the parts: the Murnaghan–Nakayama rule allows any order.
+
+    Largest first by default: few long rim hooks fit, so the recursion branches little
+    near the top, and the smallest parts form the closing block of equal parts. When some
+    other part size is repeated much more often than the smallest one, that size goes last
+    instead, so the closed form for equal parts finishes a much longer block.
+    """
+    if not parts:
+        return parts
+    counts: dict[int, int] = {}
+    for p in parts:
+        counts[p] = counts.get(p, 0) + 1
+    last = max(counts, key=lambda p: (counts[p], -p))
+    smallest = parts[-1]
+    if counts[last] <= 2 * counts[smallest] + 2:
+        return parts
+    head = tuple(p for p in parts if p != last)
+    return head + (last,) * counts[last]
+
+
+def _character_value(mask: int, parts: Partition) -> int:
+    """Murnaghan–Nakayama recursion; ``parts`` a partition whose size matches ``mask``."""
+    parts = _removal_order(parts)
+    length = len(parts)
+    # first index from which all remaining parts are equal
+    equal_from = length
+    while equal_from > 0 and parts[equal_from - 1] == parts[-1]:
+        equal_from -= 1
+    memo: dict[tuple[int, int], int] = {}
+
+    def value(current: int, i: int) -> int:
+        if i >= equal_from:
+            if i == length:
+                return 1 if current == 0 else 0
+            return _equal_parts_value(current, parts[i], length - i)
+        key = (current, i)
+        cached = memo.get(key)
+        if cached is not None:
+            return cached
+        r = parts[i]
+        total = 0
+        probe = current >> r
+        offset = r
+        while probe:
+            low = probe & -probe
+            b = low.bit_length() - 1 + offset
+            probe ^= low
+            if not (current >> (b - r)) & 1:
+                between = ((current >> (b - r + 1)) & ((1 << (r - 1)) - 1)).bit_count()
+                moved = _normalise(current ^ (1 << b) ^ (1 << (b - r)))
+                term = value(moved, i + 1)
+                total += -term if between % 2 else term
+        memo[key] = total
+        return total
+
+    return value(_normalise(mask), 0)
+
+
+def character(shape: Sequence[int], cycle_type: Sequence[int]) -> int:
+    """The irreducible character value ``chi^shape(cycle_type)`` as an exact integer.
+
+    Parameters
+    ----------
+    shape : sequence of int
+        A partition of ``n`` in weakly decreasing order (the Young diagram's rows).
+    cycle_type : sequence of int
+        The cycle lengths of the class, in any order, summing to ``n``.
+
+    Returns
+    -------
+    int
+        The character value, by the Murnaghan–Nakayama rule on beta-sets ([1], 2.4.7).
+
+    Examples
+    --------
+    The 2-dimensional character of ``S_3`` at a 3-cycle is ``-1``:
+
+    >>> character((2, 1), (3,))
+    -1
+    """
+    lam = check_shape(shape, "shape")
+    mu = check_partition(cycle_type, "class")
+    if sum(lam) != sum(mu):
+        raise InputError(
+            f"shape {format_partition(lam)} has size {sum(lam)} but class "
+            f"{format_partition(mu)} has size {sum(mu)}; both must partition the same n"
+        )
+    return _character_value(_beta_mask(lam), mu)
+
+
+def ratio(shape: Sequence[int], cycle_type: Sequence[int]) -> Fraction:
+    """Character ratio ``chi^shape(cycle_type) / d_shape`` as an exact fraction."""
+    lam = check_shape(shape, "shape")
+    return Fraction(character(lam, cycle_type), dimension(lam))
+
+
+def transposition_ratio(shape: Sequence[int]) -> Fraction:
+    """``chi(tau) / d`` at a transposition by the content formula ([3], Lemma 7).
+
+    ``chi(tau)/d = 2 * (sum of contents) / (n (n - 1))``; for ``n < 2`` there is no
+    transposition and the ratio is returned as 1 by convention (the class is empty).
+    """
+    lam = check_shape(shape, "shape")
+    n = sum(lam)
+    if n < 2:
+        return Fraction(1)
+    return Fraction(2 * content_sum(lam), n * (n - 1))
+
+
+# ---------------------------------------------------------------------------------------
+# whole tables
+
+
+def table_memory_estimate(n: int) -> tuple[int, str]:
+    """(bytes, dtype) the exact table of ``S_n`` needs: ``p(n)^2`` entries.
+
+    int64 (8 bytes) while ``n <= 35``; Python ints beyond, estimated at 48 bytes an entry
+    (pointer plus a small int object). Computed from ``p(n)`` alone, before any work.
+    """
+    p = count_partitions(n)
+    dtype = "int64" if _int64_safe(n) else "object"
+    per_entry = 8 if dtype == "int64" else 48
+    return p * p * per_entry, dtype
+
+
+#: Largest n whose every character value (bounded by the largest dimension) fits in int64;
+#: the test suite recomputes the largest dimensions of S_35 and S_36 to confirm it.
+INT64_MAX_N = 35
+
+
+def _int64_safe(n: int) -> bool:
+    # Every entry and every partial sum is bounded by the largest dimension of S_n.
+    return n <= INT64_MAX_N
+
+
+@dataclass(frozen=True)
+class CharacterTable:
+    """The exact character table of ``S_n``.
+
+    ``values[i, j]`` is ``chi^{shapes[i]}`` at the class ``classes[j]``. Shapes and classes
+    are both in the reverse lexicographic order of :func:`shufflecheck.partitions.partitions`
+    (trivial character first, sign character last; identity class last). ``values`` is
+    read-only, int64 while that cannot overflow (``n <= 35``) and Python ints otherwise.
+    """
+
+    n: int
+    shapes: tuple[Partition, ...]
+    classes: tuple[Partition, ...]
+    class_sizes: tuple[int, ...]
+    values: np.ndarray
+
+    def value(self, shape: Sequence[int], cycle_type: Sequence[int]) -> int:
+        """One entry, looked up by shape and class."""
+        i = self.shapes.index(check_shape(shape, "shape", self.n))
+        j = self.classes.index(check_partition(cycle_type, "class", self.n))
+        return int(self.values[i, j])
+
+    @property
+    def dimensions(self) -> tuple[int, ...]:
+        """``d_lambda`` for each shape: the column of the identity class."""
+        return tuple(int(v) for v in self.values[:, -1])
+
+
+def character_table(n: int, *, max_bytes: int = DEFAULT_TABLE_MEMORY) -> CharacterTable:
+    """The whole exact character table of ``S_n`` (see :class:`CharacterTable`).
+
+    Parameters
+    ----------
+    n : int
+        Degree, ``n >= 0``.
+    max_bytes : int
+        Refuse (with the estimate) when the table alone would need more memory than this.
+
+    Notes
+    -----
+    Built column block by column block with sparse Murnaghan–Nakayama matrices (module
+    docstring). Cost is dominated by ``sum_r nnz(M_r) * (classes with largest part r)``.
+    """
+    if isinstance(n, bool) or not isinstance(n, int) or n < 0:
+        raise InputError(f"n must be a non-negative integer, got {n!r}")
+    estimate, dtype = table_memory_estimate(n)
+    if estimate > max_bytes:
+        p = count_partitions(n)
+        raise InputError(
+            f"the character table of S_{n} has {p} x {p} entries, about "
+            f"{estimate / 1e9:.1f} GB as {dtype}, over the limit of {max_bytes / 1e9:.1f} GB; "
+            "ask for single values with --shape and --class instead"
+        )
+    return _build_table(n, object_values=(dtype == "object"))
+
+
+def _build_table(n: int, *, object_values: bool) -> CharacterTable:
+    from scipy import sparse
+
+    shapes = partitions(n)
+    # which columns of each smaller S_m are needed: tails of needed classes
+    needed: list[set[Partition]] = [set() for _ in range(n + 1)]
+    needed[n] = set(shapes)
+    for m in range(n, 0, -1):
+        for mu in needed[m]:
+            needed[m - mu[0]].add(mu[1:])
+
+    index: list[dict[int, int]] = []  # normalised beta mask -> row index, per m
+    columns: list[dict[Partition, int]] = []  # class -> column position, per m
+    blocks: list[np.ndarray | None] = []
+    dtype = object if object_values else np.int64
+
+    for m in range(n + 1):
+        parts_m = partitions(m)
+        masks = [_beta_mask(shape) for shape in parts_m]
+        index.append({mask: i for i, mask in enumerate(masks)})
+        wanted = [mu for mu in parts_m if mu in needed[m]]  # keeps reverse lex order
+        columns.append({mu: j for j, mu in enumerate(wanted)})
+        if m == 0:
+            blocks.append(np.ones((1, 1), dtype=dtype))
+            continue
+        if not wanted:
+            blocks.append(None)
+            continue
+        # rim-hook removals, grouped by hook length r (only lengths that are needed)
+        lengths = {mu[0] for mu in wanted}
+        entries: dict[int, tuple[list[int], list[int], list[int]]] = {
+            r: ([], [], []) for r in lengths
+        }
+        for row, mask in enumerate(masks):
+            beads = _beads(mask)
+            top = beads[-1]
+            holes = [h for h in range(top) if not (mask >> h) & 1]
+            for bead_idx, b in enumerate(beads):
+                for hole_idx, h in enumerate(holes):
+                    if h > b:
+                        break
+                    r = b - h
+                    if r not in entries:
+                        continue
+                    beads_below_h = h - hole_idx
+                    between = bead_idx - beads_below_h
+                    target = _normalise(mask ^ (1 << b) ^ (1 << h))
+                    rows, cols, vals = entries[r]
+                    rows.append(row)
+                    cols.append(index[m - r][target])
+                    vals.append(-1 if between % 2 else 1)
+        block = np.zeros((len(parts_m), len(wanted)), dtype=dtype)
+        for r, (rows, cols, vals) in entries.items():
+            positions = [j for j, mu in enumerate(wanted) if mu[0] == r]
+            tails = blocks[m - r]
+            assert tails is not None
+            tail_cols = [columns[m - r][wanted[j][1:]] for j in positions]
+            source = tails[:, tail_cols]
+            if object_values:
+                out = np.zeros((len(parts_m), len(positions)), dtype=object)
+                for i, j, s in zip(rows, cols, vals, strict=True):
+                    out[i] += source[j] if s > 0 else -source[j]
+            else:
+                matrix = sparse.csr_matrix(
+                    (np.asarray(vals, dtype=np.int64), (rows, cols)),
+                    shape=(len(parts_m), len(index[m - r])),
+                )
+                out = np.asarray(matrix @ source)
+            block[:, positions] = out
+        blocks.append(block)
+
+    values = blocks[n]
+    assert values is not None
+    values.flags.writeable = False
+    sizes = tuple(class_size(mu) for mu in shapes)
+    return CharacterTable(n=n, shapes=shapes, classes=shapes, class_sizes=sizes, values=values)
+
+
+# ---------------------------------------------------------------------------------------
+# eigenvalues of class-function step laws
+
+
+@dataclass(frozen=True)
+class Eigenvalue:
+    """One distinct eigenvalue of a step law's transition operator on all ``n!`` decks.
+
+    ``value`` is exact (a :class:`~fractions.Fraction`) when the weights were exact.
+    ``multiplicity`` is ``sum d_lambda^2`` over the ``shapes`` giving it.
+    """
+
+    value: Fraction | float
+    multiplicity: int
+    shapes: tuple[Partition, ...]
+
+
+def class_eigenvalues(
+    n: int, weights: Mapping[Sequence[int], Fraction | int | float]
+) -> list[tuple[Partition, Fraction | float, int]]:
+    """Eigenvalues of the step law that gives total weight ``w_mu`` to the class ``mu``.
+
+    The law puts ``w_mu / |C_mu|`` on each permutation of cycle type ``mu``; on the
+    irreducible ``lambda`` it acts as the scalar ``sum_mu w_mu chi^lambda(mu) / d_lambda``
+    with multiplicity ``d_lambda^2`` ([3], Lemma 5). Random transpositions with holding
+    probability ``h`` are ``{(1^n): h, (2, 1^(n-2)): 1 - h}``.
+
+    Returns
+    -------
+    list of (shape, eigenvalue, multiplicity)
+        One entry per shape, in reverse lexicographic order.
+    """
+    if not weights:
+        raise InputError("the step law needs at least one class with positive weight")
+    law: list[tuple[Partition, Fraction | float]] = []
+    exact = True
+    for cycle_type, w in weights.items():
+        mu = check_partition(cycle_type, "class", n)
+        if isinstance(w, float):
+            exact = False
+        if w < 0:
+            raise InputError(f"weight of class {format_partition(mu)} is negative ({w})")
+        law.append((mu, Fraction(w) if not isinstance(w, float) else w))
+    total = sum(w for _, w in law)
+    if abs(float(total) - 1.0) > 1e-12:
+        raise InputError(f"class weights must sum to 1, they sum to {float(total)}")
+    identity = (1,) * n
+    transposition = (2,) + (1,) * (n - 2) if n >= 2 else None
+    out = []
+    for lam in partitions(n):
+        value: Fraction | float = Fraction(0) if exact else 0.0
+        d = dimension(lam)
+        for mu, w in law:
+            if mu == identity:
+                r: Fraction = Fraction(1)
+            elif mu == transposition:
+                r = transposition_ratio(lam)
+            else:
+                r = Fraction(_character_value(_beta_mask(lam), mu), d)
+            value += w * r if exact else float(w) * float(r)
+        out.append((lam, value, d * d))
+    return out
+
+
+def group_eigenvalues(
+    rows: Sequence[tuple[Partition, Fraction | float, int]],
+) -> list[Eigenvalue]:
+    """Merge per-shape eigenvalues into distinct values, largest first."""
+    merged: dict[Fraction | float, tuple[int, list[Partition]]] = {}
+    for lam, value, mult in rows:
+        total, shapes = merged.get(value, (0, []))
+        shapes.append(lam)
+        merged[value] = (total + mult, shapes)
+    return [
+        Eigenvalue(value=v, multiplicity=m, shapes=tuple(s))
+        for v, (m, s) in sorted(merged.items(), key=lambda item: item[0], reverse=True)
+    ]

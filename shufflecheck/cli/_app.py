@@ -1,0 +1,88 @@
+"""The typer application, its error handling and output helpers shared by all commands.
+
+Commands live in one small module each (``shufflecheck/cli/<command>.py``) and only call
+the library: no mathematics lives in the CLI. Bad input raised anywhere as
+:class:`shufflecheck.errors.InputError` becomes one line on stderr and exit code 2.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from fractions import Fraction
+from typing import Any
+
+import typer
+from typer.core import TyperGroup
+
+from shufflecheck.errors import EXIT_BAD_INPUT, InputError
+
+
+class _Group(TyperGroup):
+    """Turns :class:`InputError` from any command into ``error: ...`` on stderr, exit 2."""
+
+    def invoke(self, ctx: Any) -> Any:
+        try:
+            return super().invoke(ctx)
+        except InputError as exc:
+            typer.echo(f"error: {exc}", err=True)
+            raise typer.Exit(code=EXIT_BAD_INPUT) from None
+
+
+app = typer.Typer(
+    cls=_Group,
+    name="shufflecheck",
+    help=(
+        "Audit card shuffling with the mathematics of the symmetric group: exact distances to "
+        "random, policy minimums, and tests on recorded deck orders. Every number is labelled "
+        "exact, bound or estimate. Results are statistical evidence, not certification."
+    ),
+    no_args_is_help=True,
+    add_completion=False,
+    pretty_exceptions_enable=False,
+    rich_markup_mode=None,
+)
+
+
+def _json_default(value: Any) -> Any:
+    if isinstance(value, Fraction):
+        return float(value)
+    if hasattr(value, "item"):  # numpy scalars
+        return value.item()
+    if hasattr(value, "tolist"):  # numpy arrays
+        return value.tolist()
+    if isinstance(value, (set, frozenset, tuple)):
+        return list(value)
+    raise TypeError(f"cannot write {type(value).__name__} as JSON")
+
+
+def _clean(value: Any) -> Any:
+    """Replace non-finite floats (not valid JSON) by strings and Fractions by floats."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return "inf" if value > 0 else ("-inf" if value < 0 else "nan")
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_clean(v) for v in value]
+    return value
+
+
+def to_json(payload: Any) -> str:
+    """Serialise a result for ``--json`` (strict JSON: no NaN or Infinity literals)."""
+    return json.dumps(_clean(json.loads(json.dumps(payload, default=_json_default))), indent=2)
+
+
+def emit_json(payload: Any) -> None:
+    """Print a result as JSON on stdout."""
+    sys.stdout.write(to_json(payload) + "\n")
+
+
+def echo(text: str = "") -> None:
+    """Human-readable output on stdout."""
+    typer.echo(text)
+
+
+def warn(text: str) -> None:
+    """A notice on stderr (never mixed into ``--json`` output)."""
+    typer.echo(text, err=True)

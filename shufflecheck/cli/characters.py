@@ -1,0 +1,178 @@
+"""``shufflecheck characters`` and ``shufflecheck spectrum``."""
+
+from __future__ import annotations
+
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import app, echo, emit_json
+from shufflecheck.errors import InputError
+
+#: above this many entries the terminal gets a summary and the table goes to --csv
+_PRINT_LIMIT = 400
+
+
+@app.command()
+def characters(
+    n: Annotated[
+        int, typer.Argument(help="Degree n of the symmetric group S_n (number of cards).")
+    ],
+    shape: Annotated[
+        str | None, typer.Option("--shape", help="One character: its shape, e.g. 4,2,1 (or 3^2,1).")
+    ] = None,
+    cycle_class: Annotated[
+        str | None,
+        typer.Option("--class", help="With --shape: the class as a cycle type, e.g. 3,3,1."),
+    ] = None,
+    csv: Annotated[
+        Path | None, typer.Option("--csv", help="Write the whole table to this CSV file.")
+    ] = None,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Exact irreducible characters of S_n (Murnaghan-Nakayama rule on beta-sets).
+
+    With --shape and --class: one value. Otherwise the whole table, rows = shapes and
+    columns = classes, both in reverse lexicographic order; a large table goes to --csv.
+    """
+    from shufflecheck.characters import character, character_table
+    from shufflecheck.partitions import (
+        check_partition,
+        check_shape,
+        format_partition,
+        parse_partition,
+    )
+
+    if n < 0:
+        raise InputError(f"n must be >= 0, got {n}")
+    if (shape is None) != (cycle_class is None):
+        raise InputError("give both --shape and --class for one value, or neither for the table")
+    if shape is not None and cycle_class is not None:
+        lam = check_shape(parse_partition(shape, "shape"), "shape", n)
+        mu = check_partition(parse_partition(cycle_class, "class"), "class", n)
+        value = character(lam, mu)
+        if json_out:
+            emit_json({"n": n, "shape": list(lam), "class": list(mu), "value": value})
+        else:
+            echo(
+                f"chi^({format_partition(lam)})({format_partition(mu)}) = {value}   "
+                "[exact: Murnaghan-Nakayama rule]"
+            )
+        return
+
+    table = character_table(n)
+    if csv is not None:
+        _write_csv(csv, table)
+    if json_out:
+        emit_json(
+            {
+                "n": n,
+                "shapes": [list(s) for s in table.shapes],
+                "classes": [list(c) for c in table.classes],
+                "values": [[int(v) for v in row] for row in table.values],
+            }
+        )
+        return
+    size = len(table.shapes)
+    if size * size <= _PRINT_LIMIT:
+        from shufflecheck.report.terminal import format_table
+
+        headers = ["shape \\ class", *(format_partition(c) for c in table.classes)]
+        rows = [
+            [format_partition(s), *(int(v) for v in row)]
+            for s, row in zip(table.shapes, table.values, strict=True)
+        ]
+        echo(f"Character table of S_{n} (exact integers; rows = shapes, columns = classes)")
+        echo(format_table(headers, rows, align="l" + "r" * size))
+    else:
+        echo(
+            f"Character table of S_{n}: {size} shapes x {size} classes, exact integers "
+            f"({table.values.dtype})."
+        )
+        if csv is None:
+            echo("Too large to print; write it with --csv FILE or read it with --json.")
+    if csv is not None:
+        echo(f"Wrote {csv}")
+
+
+def _write_csv(path: Path, table) -> None:
+    from shufflecheck.fileio import atomic_open
+    from shufflecheck.partitions import format_partition
+
+    with atomic_open(path) as handle:
+        handle.write("shape," + ",".join(f'"{format_partition(c)}"' for c in table.classes) + "\n")
+        for shape, row in zip(table.shapes, table.values, strict=True):
+            handle.write(
+                f'"{format_partition(shape)}",' + ",".join(str(int(v)) for v in row) + "\n"
+            )
+
+
+class SpectrumModel(str, Enum):
+    transposition = "transposition"
+    riffle = "riffle"
+    top_to_random = "top-to-random"
+
+
+@app.command()
+def spectrum(
+    model: Annotated[SpectrumModel, typer.Argument(help="Shuffle model.")],
+    cards: Annotated[int, typer.Option("--cards", "-n", help="Number of cards n.")] = 52,
+    hold: Annotated[
+        float | None,
+        typer.Option(help="transposition: holding probability (default 1/n, the two-hands model)."),
+    ] = None,
+    hands: Annotated[
+        int, typer.Option(help="riffle: number of packets a (2 = ordinary riffle).")
+    ] = 2,
+    shapes_shown: Annotated[
+        int, typer.Option("--show-shapes", help="Terminal view: shapes listed per eigenvalue.")
+    ] = 3,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Distinct eigenvalues of a shuffle's transition operator, with multiplicities.
+
+    Multiplicities count eigenvalues of the operator on all n! arrangements. For
+    transposition the shapes giving each eigenvalue are listed (the block of the irreducible
+    lambda has eigenvalue hold + (1 - hold) chi(tau)/d, multiplicity d^2).
+    """
+    from shufflecheck.models import spectrum as model_spectrum
+    from shufflecheck.report.terminal import format_table
+
+    rows = model_spectrum(model.value, cards, hold=hold, hands=hands)
+    if json_out:
+        emit_json(
+            {
+                "model": model.value,
+                "cards": cards,
+                "rows": [
+                    {
+                        "eigenvalue": float(r.value),
+                        "eigenvalue_exact": str(r.value),
+                        "multiplicity": r.multiplicity,
+                        "shapes": [list(s) for s in r.shapes],
+                    }
+                    for r in rows
+                ],
+            }
+        )
+        return
+    from shufflecheck.partitions import format_partition
+
+    table_rows = []
+    for r in rows:
+        shown = ", ".join(f"({format_partition(s)})" for s in r.shapes[:shapes_shown])
+        if len(r.shapes) > shapes_shown:
+            shown += f", ... ({len(r.shapes)} shapes)"
+        table_rows.append([f"{float(r.value):.6f}", str(r.value), _big(r.multiplicity), shown])
+    echo(f"Spectrum of {model.value} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
+    echo(format_table(["eigenvalue", "exact", "multiplicity", "shapes"], table_rows, align="rlrl"))
+
+
+def _big(value: int) -> str:
+    """Exact digits when short, otherwise scientific notation built from the digits."""
+    text = str(value)
+    if len(text) <= 15:
+        return text
+    return f"{text[0]}.{text[1:7]}e+{len(text) - 1}"

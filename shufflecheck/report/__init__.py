@@ -1,0 +1,1 @@
+"""Rendering of results: terminal tables, Markdown, self-contained HTML, JSON, figures."""

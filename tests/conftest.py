@@ -1,0 +1,24 @@
+"""Shared test configuration.
+
+Tests marked ``slow`` (exhaustive checks, large simulations) are skipped unless
+``--run-slow`` is given or ``SHUFFLECHECK_SLOW=1`` is set; CI runs them when time allows.
+"""
+
+from __future__ import annotations
+
+import os
+
+import pytest
+
+
+def pytest_addoption(parser: pytest.Parser) -> None:
+    parser.addoption("--run-slow", action="store_true", default=False, help="run tests marked slow")
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    if config.getoption("--run-slow") or os.environ.get("SHUFFLECHECK_SLOW") == "1":
+        return
+    skip = pytest.mark.skip(reason="slow: run with --run-slow or SHUFFLECHECK_SLOW=1")
+    for item in items:
+        if "slow" in item.keywords:
+            item.add_marker(skip)
