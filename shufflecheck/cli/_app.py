@@ -7,9 +7,11 @@ the library: no mathematics lives in the CLI. Bad input raised anywhere as
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import sys
+from collections.abc import Callable, Iterator
 from fractions import Fraction
 from typing import Any
 
@@ -86,3 +88,22 @@ def echo(text: str = "") -> None:
 def warn(text: str) -> None:
     """A notice on stderr (never mixed into ``--json`` output)."""
     typer.echo(text, err=True)
+
+
+@contextlib.contextmanager
+def progress(total: int, label: str) -> Iterator[Callable[[int], None]]:
+    """A progress bar on stderr for long work (shown only when stderr is a terminal).
+
+    Yields ``update(done)`` taking the number of units finished so far.
+    """
+    if total <= 0 or not sys.stderr.isatty():
+        yield lambda done: None
+        return
+    with typer.progressbar(length=total, label=label, file=sys.stderr) as bar:
+        state = {"done": 0}
+
+        def update(done: int) -> None:
+            bar.update(done - state["done"])
+            state["done"] = done
+
+        yield update

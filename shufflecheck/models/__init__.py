@@ -11,10 +11,63 @@ design brief's 1..n shifted by one).
 
 from __future__ import annotations
 
+import math
+from collections.abc import Callable
+
 from shufflecheck.characters import Eigenvalue
 from shufflecheck.errors import InputError
+from shufflecheck.mixing import MixingCurve
 
-__all__ = ["spectrum"]
+__all__ = ["EXACT_MODELS", "default_max_steps", "distance_curve", "spectrum"]
+
+#: models with an exact distance curve (``shufflecheck mix``)
+EXACT_MODELS = ("riffle", "transposition", "top-to-random", "random-to-top")
+
+
+def default_max_steps(model: str, cards: int) -> int:
+    """Steps shown by default: comfortably past each model's cutoff.
+
+    riffle ``1.5 log2 n + 5`` (cutoff ``1.5 log2 n``), transposition ``n ln n`` (cutoff
+    ``n ln n / 2``), top-to-random ``1.5 n ln n`` (cutoff ``n ln n``).
+    """
+    if model == "riffle":
+        return math.ceil(1.5 * math.log2(cards)) + 5
+    if model == "transposition":
+        return math.ceil(cards * math.log(cards))
+    return math.ceil(1.5 * cards * math.log(cards))
+
+
+def distance_curve(
+    model: str,
+    cards: int,
+    max_steps: int | None = None,
+    *,
+    hands: int = 2,
+    hold: float | None = None,
+    method: str = "chain",
+    progress: Callable[[int], None] | None = None,
+) -> MixingCurve:
+    """Exact distances to uniform for ``k = 1..max_steps`` steps of a classical model."""
+    if cards < 2:
+        raise InputError(f"--cards must be at least 2, got {cards}")
+    if model not in EXACT_MODELS:
+        raise InputError(f"unknown model {model!r}; choose {', '.join(EXACT_MODELS)}")
+    steps = default_max_steps(model, cards) if max_steps is None else max_steps
+    if steps < 1:
+        raise InputError(f"--max-steps must be at least 1, got {steps}")
+    if model == "riffle":
+        from shufflecheck.models import riffle
+
+        return riffle.distance_curve(cards, steps, hands=hands)
+    if model == "transposition":
+        from shufflecheck.models import transposition
+
+        return transposition.distance_curve(
+            cards, steps, hold=hold, method=method, progress=progress
+        )
+    from shufflecheck.models import top_to_random
+
+    return top_to_random.distance_curve(cards, steps, inverse=(model == "random-to-top"))
 
 
 def spectrum(

@@ -1,24 +1,69 @@
 """The Gilbert–Shannon–Reeds riffle and its generalisation, the a-shuffle.
 
-An ``a``-shuffle cuts the deck into ``a`` packets with multinomial sizes and drops cards
-from packet ``j`` with probability proportional to the packet's current size; ``a = 2`` is
-the ordinary riffle (GSR). ``k`` successive ``a``-shuffles are one ``a^k``-shuffle.
+An ``a``-shuffle cuts the deck into ``a`` packets with multinomial sizes and interleaves
+them so that every interleaving of those packets is equally likely; ``a = 2`` is the
+ordinary riffle (GSR: cut binomially, drop from each hand with probability proportional to
+its size). An ``a``-shuffle followed by a ``b``-shuffle is an ``ab``-shuffle, so ``k``
+riffles are one ``2^k``-shuffle ([1], Lemma 1).
+
+Exact law ([1], Thm. 1): after an ``a``-shuffle of a deck in reference order, an arrangement
+with ``r`` rising sequences has probability ``C(a + n - r, n) / a^n``. A rising sequence is a
+maximal run of consecutive labels ``v, v+1, ...`` found in increasing positions; the number
+of them is ``1 + #{v : label v+1 lies above label v}``, and ``A(n, r-1)`` arrangements (an
+Eulerian number) have ``r`` of them. Hence every distance to uniform is a sum of ``n``
+terms, exact for any ``n`` (a shoe of 8 decks is ``n = 416``).
+
+Sampler: every *new* position gets an independent uniform packet label in ``[0, a^k)``; the
+positions labelled ``j``, top to bottom, receive packet ``j`` of the old deck in order. This
+is the forward (physical) shuffle. Sorting the old cards by iid labels instead gives the
+inverse shuffle, with the same distance to uniform but a different law for statistics such
+as the number of rising sequences, so it is not used.
 
 References
 ----------
 .. [1] D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl.
        Probab. 2 (1992) 294-313.
+.. [2] E. N. Gilbert, "Theory of shuffling", Bell Laboratories technical memorandum, 1955;
+       J. Reeds, unpublished manuscript, 1981 (the GSR model).
 """
 
 from __future__ import annotations
 
+import dataclasses
+import math
 from fractions import Fraction
 
-from shufflecheck.characters import Eigenvalue
-from shufflecheck.counting import stirling1_row
-from shufflecheck.errors import InputError
+import numpy as np
 
-__all__ = ["check_hands", "spectrum"]
+from shufflecheck.characters import Eigenvalue
+from shufflecheck.counting import eulerian_row, stirling1_row
+from shufflecheck.errors import InputError
+from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.models.base import Step, register_step
+from shufflecheck.models.permute import (
+    CHUNK_DECKS,
+    identity_decks,
+    label_bits,
+    place_by_sort_key,
+)
+
+__all__ = [
+    "MAX_EXACT_CARDS",
+    "MAX_EXACT_STEPS",
+    "Riffle",
+    "arrangement_probability",
+    "check_hands",
+    "distance_curve",
+    "exact_distances",
+    "rising_sequence_law",
+    "sample",
+    "spectrum",
+]
+
+SOURCE = "exact: rising-sequence law of the a-shuffle (Bayer & Diaconis 1992, Thm. 1)"
+#: the exact method's limits (cost grows like cards^2 * steps big-integer operations)
+MAX_EXACT_CARDS = 2000
+MAX_EXACT_STEPS = 200
 
 
 def check_hands(hands: int) -> int:
@@ -26,6 +71,13 @@ def check_hands(hands: int) -> int:
     if isinstance(hands, bool) or not isinstance(hands, int) or hands < 2:
         raise InputError(f"hands (packets of an a-shuffle) must be an integer >= 2, got {hands!r}")
     return hands
+
+
+def _check_cards_steps(cards: int, steps: int) -> None:
+    if cards < 2:
+        raise InputError(f"cards must be at least 2, got {cards}")
+    if steps < 0:
+        raise InputError(f"steps must be >= 0, got {steps}")
 
 
 def spectrum(cards: int, *, hands: int = 2) -> list[Eigenvalue]:
@@ -40,3 +92,162 @@ def spectrum(cards: int, *, hands: int = 2) -> list[Eigenvalue]:
         for i in range(cards)
         if row[cards - i]
     ]
+
+
+def _group_law(cards: int, packets: int) -> tuple[tuple[int, ...], list[int], int]:
+    """(arrangements with r = 1..n rising sequences, C(a+n-r, n) for each r, a^n)."""
+    counts = eulerian_row(cards)  # counts[r - 1]: arrangements with r rising sequences
+    numerators = []
+    value = math.comb(packets + cards - 1, cards)  # r = 1
+    for r in range(1, cards + 1):
+        numerators.append(value)
+        # C(a + n - r - 1, n) = C(a + n - r, n) * (a - r) / (a + n - r)
+        value = value * (packets - r) // (packets + cards - r) if packets - r > 0 else 0
+    return counts, numerators, packets**cards
+
+
+def exact_distances(cards: int, steps: int, *, hands: int = 2) -> DistanceRow:
+    """Exact TV, separation and KL (bits) after ``steps`` a-shuffles of ``cards`` cards.
+
+    Equivalent to one ``a^steps``-shuffle ([1], Lemma 1); formula of [1], Thm. 1 summed over
+    the Eulerian groups. ``steps = 0`` is the unshuffled deck.
+    """
+    a = check_hands(hands)
+    _check_cards_steps(cards, steps)
+    if cards > MAX_EXACT_CARDS or steps > MAX_EXACT_STEPS:
+        raise InputError(
+            f"the exact riffle law is limited to {MAX_EXACT_CARDS} cards and "
+            f"{MAX_EXACT_STEPS} steps; use Monte Carlo assessment (shufflecheck assess)"
+        )
+    if steps == 0:
+        fact = math.factorial(cards)
+        tv = 1 - Fraction(1, fact)
+        return DistanceRow(0, float(tv), 1.0, math.log2(fact), "exact")
+    counts, numerators, denominator = _group_law(cards, a**steps)
+    tv, sep, kl = distances_from_groups(counts, numerators, denominator, math.factorial(cards))
+    return DistanceRow(steps, tv, sep, kl, "exact")
+
+
+def distance_curve(cards: int, max_steps: int, *, hands: int = 2) -> MixingCurve:
+    """Exact distances after ``k = 1..max_steps`` a-shuffles (see :func:`exact_distances`)."""
+    check_hands(hands)
+    _check_cards_steps(cards, max_steps)
+    rows = tuple(exact_distances(cards, k, hands=hands) for k in range(1, max_steps + 1))
+    return MixingCurve("riffle", cards, {"hands": hands}, rows, SOURCE)
+
+
+def rising_sequence_law(cards: int, steps: int, *, hands: int = 2) -> tuple[Fraction, ...]:
+    """Exact law of the number of rising sequences after ``steps`` a-shuffles.
+
+    ``law[r - 1] = A(n, r - 1) C(a + n - r, n) / a^n`` for ``r = 1..n`` ([1], Thm. 1).
+    """
+    a = check_hands(hands)
+    _check_cards_steps(cards, steps)
+    counts, numerators, denominator = _group_law(cards, a**steps)
+    return tuple(Fraction(c * m, denominator) for c, m in zip(counts, numerators, strict=True))
+
+
+def arrangement_probability(
+    arrangement: np.ndarray | list[int], steps: int, *, hands: int = 2
+) -> Fraction:
+    """Exact probability of one arrangement (labels top to bottom, 0-based) after ``steps``
+    a-shuffles of the reference order: ``C(a + n - r, n) / a^n`` ([1], Thm. 1)."""
+    a = check_hands(hands) ** steps
+    labels = [int(v) for v in arrangement]
+    n = len(labels)
+    position = [0] * n
+    for i, v in enumerate(labels):
+        position[v] = i
+    r = 1 + sum(position[v + 1] < position[v] for v in range(n - 1))
+    return Fraction(math.comb(a + n - r, n), a**n)
+
+
+# ---------------------------------------------------------------------------------------
+# sampling
+
+
+def _packet_labels(rng: np.random.Generator, shape: tuple[int, int], packets: int) -> np.ndarray:
+    """iid uniform labels in ``[0, packets)``, cheapest draw for powers of two."""
+    if packets & (packets - 1) == 0 and packets <= 256:
+        raw = np.frombuffer(rng.bytes(shape[0] * shape[1]), dtype=np.uint8).reshape(shape)
+        return raw & np.uint8(packets - 1)
+    if packets & (packets - 1) == 0 and packets <= 1 << 16:
+        raw = np.frombuffer(rng.bytes(2 * shape[0] * shape[1]), dtype=np.uint16).reshape(shape)
+        return raw & np.uint16(packets - 1)
+    dtype = np.uint32 if packets <= 1 << 32 else np.uint64
+    return rng.integers(0, packets, size=shape, dtype=dtype)
+
+
+def _block_sizes(cards: int, hands: int, steps: int) -> list[int]:
+    """Split ``steps`` a-shuffles into blocks whose packet count keeps sort keys in 32 bits."""
+    room = 32 - label_bits(cards)
+    per_block = max(1, int(room // math.log2(hands)))
+    blocks, left = [], steps
+    while left > 0:
+        blocks.append(min(per_block, left))
+        left -= blocks[-1]
+    return blocks
+
+
+def riffle_decks(
+    decks: np.ndarray, steps: int, rng: np.random.Generator, *, hands: int = 2
+) -> np.ndarray:
+    """Apply ``steps`` forward a-shuffles to every row of ``decks`` (returns a new array)."""
+    cards = decks.shape[1]
+    out = decks
+    for block in _block_sizes(cards, hands, steps):
+        packets = hands**block
+        field_bits = max(1, (packets - 1).bit_length())
+        labels = _packet_labels(rng, out.shape, packets)
+        out = place_by_sort_key(out, labels, field_bits)
+    return out if out is not decks else decks.copy()
+
+
+def sample(
+    decks: int,
+    cards: int,
+    steps: int = 1,
+    *,
+    rng: np.random.Generator | int | None = None,
+    hands: int = 2,
+) -> np.ndarray:
+    """``decks`` decks after ``steps`` forward a-shuffles of the reference order.
+
+    Returns an int16 array of shape ``(decks, cards)``; ``row[i]`` is the label of the card at
+    position ``i`` (0 = top). Works in chunks of :data:`CHUNK_DECKS` decks.
+    """
+    check_hands(hands)
+    _check_cards_steps(cards, steps)
+    if decks < 0:
+        raise InputError(f"decks must be >= 0, got {decks}")
+    generator = np.random.default_rng(rng)
+    out = identity_decks(decks, cards)
+    for start in range(0, decks, CHUNK_DECKS):
+        stop = min(decks, start + CHUNK_DECKS)
+        out[start:stop] = riffle_decks(out[start:stop], steps, generator, hands=hands)
+    return out
+
+
+@register_step
+@dataclasses.dataclass(frozen=True)
+class Riffle(Step):
+    """The ideal riffle (GSR), or an a-shuffle with ``hands`` packets."""
+
+    keyword = "riffle"
+    summary = "ideal riffle (Gilbert-Shannon-Reeds); hands=a for an a-shuffle"
+
+    hands: int = 2
+
+    def __post_init__(self) -> None:
+        check_hands(self.hands)
+
+    def apply(self, decks: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+        return riffle_decks(decks, 1, rng, hands=self.hands)
+
+    def apply_repeated(self, decks: np.ndarray, times: int, rng: np.random.Generator) -> np.ndarray:
+        return riffle_decks(decks, times, rng, hands=self.hands)
+
+    def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+            return None
+        return exact_distances(cards, times, hands=self.hands)

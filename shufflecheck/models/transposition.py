@@ -5,30 +5,102 @@ swapped; nothing happens when both pick the same card. The step law is a class f
 weight ``hold`` (default ``1/n``) on the identity and ``1 - hold`` spread evenly over the
 ``n(n-1)/2`` transpositions (each ``2/n^2`` in the two-hands model).
 
+Exact law, two independent ways:
+
+* the *lumped chain* on cycle types: the law after ``k`` steps is constant on conjugacy
+  classes, and a transposition merges two cycles of lengths ``s, t`` into one of ``s + t``
+  (``s t`` pairs per pair of cycles) or splits an ``s``-cycle into ``j`` and ``s - j`` (``s``
+  pairs for each ``j < s/2``, ``s/2`` for ``j = s/2``). The uniform law puts mass ``1/z_mu`` on
+  cycle type ``mu``. For ``n = 52`` the chain has ``p(52) = 281,589`` states and about 8.8
+  million transitions; it is propagated in double precision (sums of positive terms, so the
+  relative error stays near ``k * 1e-16``);
+* *Fourier inversion* with the character table ([1], Section 2):
+  ``P_k(mu) = (1/z_mu) sum_lambda d_lambda chi^lambda(mu) r_lambda^k`` with
+  ``r_lambda = hold + (1 - hold) chi^lambda(tau)/d_lambda``; with a rational ``hold`` this is
+  exact rational arithmetic (used for small ``n`` and to check the chain).
+
+Upper bound lemma ([1], Lemma 4; [2], ch. 3): ``4 TV^2 <= sum_{lambda != (n)} d_lambda^2
+r_lambda^(2k)``, evaluated in log space grouped by distinct eigenvalue.
+
 References
 ----------
 .. [1] P. Diaconis and M. Shahshahani, "Generating a random permutation with random
        transpositions", Z. Wahrsch. Verw. Gebiete 57 (1981) 159-179.
+.. [2] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
+       Notes - Monograph Series 11, 1988.
 """
 
 from __future__ import annotations
 
+import dataclasses
+import math
+from collections.abc import Callable
 from fractions import Fraction
+from functools import lru_cache
 
-from shufflecheck.characters import Eigenvalue, group_eigenvalues, transposition_ratio
+import numpy as np
+
+from shufflecheck.characters import (
+    Eigenvalue,
+    character_table,
+    group_eigenvalues,
+    transposition_ratio,
+)
 from shufflecheck.errors import InputError
-from shufflecheck.partitions import dimension, partitions
+from shufflecheck.mixing import DistanceRow, MixingCurve
+from shufflecheck.models.base import Step, register_step
+from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.partitions import (
+    content_sum,
+    content_sums,
+    count_partitions,
+    dimension,
+    log_dimensions,
+    multiplicity_matrix,
+    partitions,
+    z,
+)
 
-__all__ = ["check_hold", "spectrum"]
+__all__ = [
+    "MAX_CHAIN_CARDS",
+    "MAX_CHAIN_STEPS",
+    "MAX_FOURIER_CARDS",
+    "LumpedChain",
+    "Transposition",
+    "check_hold",
+    "class_law_fourier",
+    "distance_curve",
+    "lumped_chain",
+    "sample",
+    "spectrum",
+    "upper_bound_curve",
+]
+
+SOURCE = "exact: lumped chain on cycle types (Diaconis & Shahshahani 1981), double precision"
+FOURIER_SOURCE = "exact: Fourier inversion with the character table (Diaconis & Shahshahani 1981)"
+BOUND_SOURCE = "bound: upper bound lemma, 4 TV^2 <= sum d^2 r^(2k) (Diaconis & Shahshahani 1981)"
+#: the lumped chain is offered up to this many cards (p(55) = 451,276 states)
+MAX_CHAIN_CARDS = 55
+#: and this many steps (each step is one sparse product over all transitions)
+MAX_CHAIN_STEPS = 5000
+#: Fourier inversion needs the whole character table; p(20) = 627 classes
+MAX_FOURIER_CARDS = 20
 
 
 def check_hold(cards: int, hold: float | Fraction | None) -> Fraction | float:
     """The holding probability: ``1/n`` by default (exact), else a value in [0, 1)."""
     if hold is None:
         return Fraction(1, cards)
-    if not 0 <= hold < 1:
+    if isinstance(hold, bool) or not 0 <= hold < 1:
         raise InputError(f"hold must be in [0, 1), got {hold}")
     return hold
+
+
+def _eigenvalue(lam: tuple[int, ...], hold: Fraction | float) -> Fraction | float:
+    r = transposition_ratio(lam)
+    if isinstance(hold, Fraction):
+        return hold + (1 - hold) * r
+    return hold + (1 - hold) * float(r)
 
 
 def spectrum(cards: int, *, hold: float | Fraction | None = None) -> list[Eigenvalue]:
@@ -40,8 +112,413 @@ def spectrum(cards: int, *, hold: float | Fraction | None = None) -> list[Eigenv
     h = check_hold(cards, hold)
     rows = []
     for lam in partitions(cards):
-        r = transposition_ratio(lam)
-        value = h + (1 - h) * r if isinstance(h, Fraction) else h + (1 - h) * float(r)
         d = dimension(lam)
-        rows.append((lam, value, d * d))
+        rows.append((lam, _eigenvalue(lam, h), d * d))
     return group_eigenvalues(rows)
+
+
+# ---------------------------------------------------------------------------------------
+# the lumped chain
+
+
+@dataclasses.dataclass(frozen=True)
+class LumpedChain:
+    """The random-transposition walk lumped to cycle types.
+
+    ``step(p)`` maps a law on cycle types (a float vector over the rows of
+    ``multiplicities``) to the law one step later. ``log_z`` holds ``ln z_mu`` per state;
+    ``identity`` is the index of the cycle type ``(1^n)``.
+    """
+
+    cards: int
+    hold: float
+    multiplicities: np.ndarray
+    log_z: np.ndarray
+    identity: int
+    matrix: object  # scipy.sparse CSR, rows = destination, columns = source
+    transitions: int
+
+    @property
+    def uniform(self) -> np.ndarray:
+        """The uniform law on cycle types, ``1 / z_mu``."""
+        return np.exp(-self.log_z)
+
+    def step(self, law: np.ndarray) -> np.ndarray:
+        """The law one step later (sparse product, split in two row blocks run in threads)."""
+        return _threaded_product(self.matrix, law)
+
+
+def _log_z(m: np.ndarray) -> np.ndarray:
+    """``ln z_mu = sum_s (m_s ln s + ln m_s!)`` for every row of a multiplicity matrix."""
+    from scipy.special import gammaln
+
+    n = m.shape[1] - 1
+    sizes = np.log(np.arange(1, n + 1, dtype=np.float64))
+    log_factorial = gammaln(np.arange(n + 2, dtype=np.float64) + 1.0)
+    counts = m[:, 1:]
+    return counts.astype(np.float64) @ sizes + log_factorial[counts].sum(axis=1)
+
+
+@lru_cache(maxsize=2)
+def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChain:
+    """Build the lumped chain (vectorized; states are looked up by a 64-bit linear hash of
+    the multiplicity vector, checked to be collision-free on all states)."""
+    import pandas as pd
+    from scipy import sparse
+
+    if not 2 <= cards <= MAX_CHAIN_CARDS:
+        raise InputError(
+            f"the lumped chain is offered for 2..{MAX_CHAIN_CARDS} cards (p(n) states); for "
+            f"{cards} cards use the upper bound lemma (bound) or Monte Carlo assessment"
+        )
+    h = float(check_hold(cards, hold))
+    n = cards
+    m = multiplicity_matrix(n)
+    states = len(m)
+    weights = np.random.default_rng(0x5EED).integers(1, 2**63, size=n + 1, dtype=np.uint64)
+    weights |= np.uint64(1)
+    keys = np.zeros(states, dtype=np.uint64)
+    mf = np.asfortranarray(m)
+    with np.errstate(over="ignore"):
+        for s in range(1, n + 1):
+            keys += mf[:, s].astype(np.uint64) * weights[s]
+    index = pd.Index(keys)
+    if not index.is_unique:  # pragma: no cover - a 64-bit collision among p(n) states
+        raise RuntimeError("hash collision among cycle types; change the hash seed")
+    rows_with = [np.nonzero(mf[:, s])[0] if s else None for s in range(n + 1)]
+    # Every split is the reverse of exactly one merge: generate the merges mu -> nu (one hash
+    # lookup each) and read the reverse split nu -> mu off the same pair of states.
+    merge_from: list[np.ndarray] = []
+    merge_to: list[np.ndarray] = []
+    merge_count: list[np.ndarray] = []
+    split_count: list[np.ndarray] = []
+    for t in range(1, n // 2 + 1 if n > 1 else 1):
+        holders = rows_with[t]
+        if holders.size == 0:
+            continue
+        mt = mf[holders, t].astype(np.int64)
+        top = min(t, n - t)
+        # merge an s-cycle (s <= t, s + t <= n) with a different t-cycle: s t pairs each
+        s_sizes = np.arange(1, top + 1)
+        ms = mf[holders, 1 : top + 1].astype(np.int64)
+        c = (s_sizes * t) * ms * mt[:, None]
+        if top == t:  # s == t: pairs of distinct t-cycles
+            c[:, t - 1] = t * t * mt * (mt - 1) // 2
+        which, s_index = np.nonzero(c)
+        s_values = s_index + 1
+        rows = holders[which]
+        merge_from.append(rows)
+        merge_count.append(c[which, s_index])
+        merge_to.append(keys[rows] + (weights[s_values + t] - weights[s_values] - weights[t]))
+        # the reverse: split one (s + t)-cycle of nu into s and t; s + t pairs per cycle
+        # (s pairs when s == t), times the number of (s + t)-cycles of nu
+        m_sum = mf[rows, s_values + t].astype(np.int64) + 1
+        split_count.append(np.where(s_values == t, t, s_values + t) * m_sum)
+    for t in range(n // 2 + 1, n + 1):
+        # parts larger than n/2 can only merge with smaller ones; those pairs were covered
+        # above from the smaller part's side (s <= t) only when t <= n/2, so add them here
+        holders = rows_with[t]
+        if holders.size == 0 or n - t < 1:
+            continue
+        mt = mf[holders, t].astype(np.int64)
+        s_sizes = np.arange(1, n - t + 1)
+        ms = mf[holders, 1 : n - t + 1].astype(np.int64)
+        c = (s_sizes * t) * ms * mt[:, None]
+        which, s_index = np.nonzero(c)
+        s_values = s_index + 1
+        rows = holders[which]
+        merge_from.append(rows)
+        merge_count.append(c[which, s_index])
+        merge_to.append(keys[rows] + (weights[s_values + t] - weights[s_values] - weights[t]))
+        m_sum = mf[rows, s_values + t].astype(np.int64) + 1
+        split_count.append((s_values + t) * m_sum)
+    source = np.concatenate(merge_from)
+    target = index.get_indexer(np.concatenate(merge_to))
+    if (target < 0).any():  # pragma: no cover - would mean a wrong transition
+        raise RuntimeError("lumped chain: a transition left the state space")
+    pairs = n * (n - 1) // 2
+    scale = (1.0 - h) / pairs
+    merges = np.concatenate(merge_count).astype(np.float64) * scale
+    splits = np.concatenate(split_count).astype(np.float64) * scale
+    diagonal = np.arange(states)
+    matrix = sparse.csr_matrix(
+        (
+            np.concatenate([merges, splits, np.full(states, h)]),
+            (
+                np.concatenate([target, source, diagonal]),  # rows: destination
+                np.concatenate([source, target, diagonal]),  # columns: source
+            ),
+        ),
+        shape=(states, states),
+    )
+    identity = int(np.nonzero(m[:, 1] == n)[0][0])
+    return LumpedChain(n, h, m, _log_z(m), identity, matrix, int(matrix.nnz))
+
+
+def _threaded_product(matrix, vector: np.ndarray) -> np.ndarray:
+    """``matrix @ vector`` in two row blocks of equal work on two threads (scipy's sparse
+    product releases the GIL)."""
+    if matrix.nnz < 2_000_000:
+        return matrix @ vector
+    from concurrent.futures import ThreadPoolExecutor
+
+    top, bottom = _row_blocks(matrix)
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        upper = pool.submit(top.dot, vector)
+        lower = bottom.dot(vector)
+        return np.concatenate([upper.result(), lower])
+
+
+_BLOCKS: dict[int, tuple[object, object]] = {}
+
+
+def _row_blocks(matrix) -> tuple[object, object]:
+    key = id(matrix)
+    if key not in _BLOCKS:
+        half = int(np.searchsorted(matrix.indptr, matrix.nnz // 2))
+        _BLOCKS.clear()
+        _BLOCKS[key] = (matrix[:half], matrix[half:])
+    return _BLOCKS[key]
+
+
+def _distances_from_class_law(
+    law: np.ndarray, uniform: np.ndarray, z_values: np.ndarray
+) -> tuple[float, float, float]:
+    """(TV, separation, KL bits) of a law on cycle types; ``t = P(mu) z_mu = n! P(sigma)``.
+
+    KL is ``sum_mu (1/z_mu) f(t_mu)`` with ``f(t) = t ln t - t + 1 >= 0`` (a series near
+    ``t = 1``), so no digits are lost to cancellation.
+    """
+    from scipy.special import xlogy
+
+    t = law * z_values
+    tv = 0.5 * float(np.abs(law - uniform).sum())
+    separation = float(max(0.0, 1.0 - t.min()))
+    u = t - 1.0
+    direct = xlogy(t, t) - u  # t ln t - t + 1, and 1 at t = 0
+    series = u * u * (0.5 + u * (-1.0 / 6.0 + u * (1.0 / 12.0 - u / 20.0)))
+    f = np.where(np.abs(u) < 1e-3, series, direct)
+    kl_bits = float(np.dot(uniform, f)) / math.log(2)
+    return tv, separation, kl_bits
+
+
+def _chain_rows(
+    cards: int,
+    max_steps: int,
+    hold: float | Fraction | None,
+    progress: Callable[[int], None] | None,
+) -> tuple[DistanceRow, ...]:
+    chain = lumped_chain(cards, hold)
+    uniform = chain.uniform
+    z_values = np.exp(chain.log_z)
+    law = np.zeros(len(chain.log_z))
+    law[chain.identity] = 1.0
+    rows = []
+    for k in range(1, max_steps + 1):
+        law = chain.step(law)
+        # Probabilities below 1e-300 cannot move any distance at double precision; zeroing
+        # them keeps the arithmetic out of subnormal numbers, which are very slow.
+        np.putmask(law, law < 1e-300, 0.0)
+        tv, sep, kl = _distances_from_class_law(law, uniform, z_values)
+        rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
+        if progress is not None:
+            progress(k)
+    return tuple(rows)
+
+
+# ---------------------------------------------------------------------------------------
+# Fourier inversion and the upper bound lemma
+
+
+def class_law_fourier(
+    cards: int, steps: int, hold: Fraction | None = None
+) -> dict[tuple[int, ...], Fraction]:
+    """Exact law of the cycle type after ``steps`` steps, by Fourier inversion ([1], §2).
+
+    ``P_k(mu) = (1/z_mu) sum_lambda d_lambda chi^lambda(mu) r_lambda^k``, in exact rationals
+    (``hold`` must be rational; default ``1/n``).
+    """
+    if not 2 <= cards <= MAX_FOURIER_CARDS:
+        raise InputError(f"Fourier inversion is offered for 2..{MAX_FOURIER_CARDS} cards")
+    h = check_hold(cards, hold)
+    if not isinstance(h, Fraction):
+        h = Fraction(h)
+    table = character_table(cards)
+    # r_lambda = (A + B c_lambda) / D with integers, so powers stay integers
+    pairs = cards * (cards - 1) // 2
+    den = h.denominator * pairs
+    powers = []
+    for lam in table.shapes:
+        r = h + (1 - h) * Fraction(content_sum(lam), pairs)
+        numerator = r * den
+        assert numerator.denominator == 1
+        powers.append(int(numerator) ** steps)
+    dims = table.dimensions
+    weights = [d * p for d, p in zip(dims, powers, strict=True)]
+    law = {}
+    scale = den**steps
+    for j, mu in enumerate(table.classes):
+        total = sum(int(table.values[i, j]) * weights[i] for i in range(len(weights)))
+        law[mu] = Fraction(total, z(mu) * scale)
+    return law
+
+
+def _fourier_rows(cards: int, max_steps: int, hold: Fraction | None) -> tuple[DistanceRow, ...]:
+    from shufflecheck.mixing import distances_from_groups
+
+    fact = math.factorial(cards)
+    rows = []
+    for k in range(1, max_steps + 1):
+        law = class_law_fourier(cards, k, hold)
+        counts = [fact // z(mu) for mu in law]
+        probs = list(law.values())
+        den = math.lcm(*(p.denominator for p in probs))
+        # per arrangement: P(mu) / |C_mu| = P(mu) z_mu / n!
+        nums = [int(p * den * z(mu)) for mu, p in law.items()]
+        tv, sep, kl = distances_from_groups(counts, nums, den * fact, fact)
+        rows.append(DistanceRow(k, tv, sep, kl, "exact", "Fourier inversion, exact rationals"))
+    return tuple(rows)
+
+
+def upper_bound_curve(
+    cards: int, max_steps: int, hold: float | Fraction | None = None
+) -> tuple[DistanceRow, ...]:
+    """``TV_k <= 1/2 sqrt(sum_{lambda != (n)} d_lambda^2 r_lambda^(2k))`` for ``k = 1..K``.
+
+    The sum is grouped by distinct eigenvalue and evaluated in log space; the bound is
+    capped at 1 (TV never exceeds 1).
+    """
+    h = check_hold(cards, hold)
+    if count_partitions(cards) > 3_000_000:
+        raise InputError(f"the upper bound lemma sums over p({cards}) shapes; too many here")
+    from scipy.special import logsumexp
+
+    m = multiplicity_matrix(cards)
+    pairs = cards * (cards - 1) // 2
+    ratios = content_sums(m) / pairs  # chi(tau)/d by the content formula
+    eigen = float(h) + (1.0 - float(h)) * ratios
+    log_mult = 2.0 * log_dimensions(m)
+    trivial = m[:, cards] == 1
+    keep = ~trivial & (eigen != 0.0)
+    # group shapes by |eigenvalue| (content sums are integers: exact grouping)
+    values, inverse = np.unique(np.abs(eigen[keep]), return_inverse=True)
+    order = np.argsort(inverse, kind="stable")
+    starts = np.searchsorted(inverse[order], np.arange(len(values)))
+    grouped = np.split(log_mult[keep][order], starts[1:])
+    log_weights = np.array([logsumexp(g) for g in grouped])
+    rows = []
+    for k in range(1, max_steps + 1):
+        log_sum = logsumexp(log_weights + 2 * k * np.log(values)) if values.size else -np.inf
+        bound = min(1.0, 0.5 * math.exp(0.5 * log_sum))
+        rows.append(DistanceRow(k, bound, None, None, "bound", "upper bound lemma"))
+    return tuple(rows)
+
+
+def distance_curve(
+    cards: int,
+    max_steps: int,
+    *,
+    hold: float | Fraction | None = None,
+    method: str = "chain",
+    bound: bool = True,
+    progress: Callable[[int], None] | None = None,
+) -> MixingCurve:
+    """Exact distances for ``k = 1..max_steps`` (``method="chain"`` or ``"fourier"``) and,
+    with ``bound=True``, the upper-bound-lemma curve."""
+    h = check_hold(cards, hold)
+    if max_steps < 1:
+        raise InputError(f"max steps must be >= 1, got {max_steps}")
+    if method == "chain":
+        if max_steps > MAX_CHAIN_STEPS:
+            raise InputError(
+                f"the lumped chain is offered up to {MAX_CHAIN_STEPS} steps; for more, the upper "
+                "bound lemma curve (bound) serves"
+            )
+        rows = _chain_rows(cards, max_steps, hold, progress)
+        source = SOURCE
+    elif method == "fourier":
+        if not isinstance(h, Fraction):
+            raise InputError("Fourier inversion needs a rational hold (e.g. the default 1/n)")
+        rows = _fourier_rows(cards, max_steps, h)
+        source = FOURIER_SOURCE
+    else:
+        raise InputError(f"unknown method {method!r}; choose chain or fourier")
+    bounds = upper_bound_curve(cards, max_steps, hold) if bound else ()
+    parameters = {"hold": float(h)}
+    return MixingCurve(
+        "transposition", cards, parameters, rows, source, bounds, BOUND_SOURCE if bound else ""
+    )
+
+
+# ---------------------------------------------------------------------------------------
+# sampling
+
+
+def _swap_step(decks: np.ndarray, hold: float, rng: np.random.Generator) -> np.ndarray:
+    count, cards = decks.shape
+    rows = np.arange(count)
+    if hold == 1.0 / cards:
+        # the two-hands model: independent uniform picks (equal picks do nothing)
+        a = rng.integers(0, cards, size=count)
+        b = rng.integers(0, cards, size=count)
+    else:
+        a = rng.integers(0, cards, size=count)
+        b = (a + 1 + rng.integers(0, cards - 1, size=count)) % cards
+        stay = rng.random(count) < hold
+        b = np.where(stay, a, b)
+    out = decks.copy()
+    out[rows, a] = decks[rows, b]
+    out[rows, b] = decks[rows, a]
+    return out
+
+
+def sample(
+    decks: int,
+    cards: int,
+    steps: int = 1,
+    *,
+    rng: np.random.Generator | int | None = None,
+    hold: float | Fraction | None = None,
+) -> np.ndarray:
+    """``decks`` decks after ``steps`` random transpositions of the reference order."""
+    h = float(check_hold(cards, hold))
+    if decks < 0 or cards < 2 or steps < 0:
+        raise InputError("decks >= 0, cards >= 2 and steps >= 0 are required")
+    generator = np.random.default_rng(rng)
+    out = identity_decks(decks, cards)
+    for start in range(0, decks, CHUNK_DECKS):
+        stop = min(decks, start + CHUNK_DECKS)
+        block = out[start:stop]
+        for _ in range(steps):
+            block = _swap_step(block, h, generator)
+        out[start:stop] = block
+    return out
+
+
+@register_step
+@dataclasses.dataclass(frozen=True)
+class Transposition(Step):
+    """Two hands each pick a uniformly random card and swap them (hold = chance of no swap)."""
+
+    keyword = "transposition"
+    summary = "two uniformly chosen cards swapped; hold = chance nothing happens (default 1/n)"
+
+    hold: float | None = None
+
+    def __post_init__(self) -> None:
+        if self.hold is not None and not 0 <= self.hold < 1:
+            raise InputError(f"transposition: hold must be in [0, 1), got {self.hold}")
+
+    def apply(self, decks: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+        return _swap_step(decks, float(check_hold(decks.shape[1], self.hold)), rng)
+
+    def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
+        if cards > MAX_CHAIN_CARDS or times > MAX_CHAIN_STEPS or times < 1:
+            return None
+        bucket = 1 << (times - 1).bit_length()  # compute in powers of two, reuse the prefix
+        return _cached_chain_rows(cards, self.hold, min(bucket, MAX_CHAIN_STEPS))[times - 1]
+
+
+@lru_cache(maxsize=8)
+def _cached_chain_rows(cards: int, hold: float | None, steps: int) -> tuple[DistanceRow, ...]:
+    return _chain_rows(cards, steps, hold, None)

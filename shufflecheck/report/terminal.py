@@ -43,7 +43,7 @@ def format_table(
             out.append(value.rjust(widths[j]) if align[j] == "r" else value.ljust(widths[j]))
         return "  ".join(out).rstrip()
 
-    rule = "  ".join("-" * w for w in widths)
+    rule = "  ".join(("-" if h else " ") * w for h, w in zip(head, widths, strict=True))
     return "\n".join([line(head), rule, *(line(row) for row in cells)])
 
 

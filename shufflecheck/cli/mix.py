@@ -1,0 +1,210 @@
+"""``shufflecheck mix``: exact distance to random after k steps, and the minimum steps."""
+
+from __future__ import annotations
+
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import app, echo, emit_json, progress
+
+
+class MixModel(str, Enum):
+    riffle = "riffle"
+    transposition = "transposition"
+    top_to_random = "top-to-random"
+    random_to_top = "random-to-top"
+
+
+class Metric(str, Enum):
+    total_variation = "total-variation"
+    separation = "separation"
+    kl = "kl"
+
+
+class ChainMethod(str, Enum):
+    chain = "chain"
+    fourier = "fourier"
+
+
+@app.command()
+def mix(
+    model: Annotated[MixModel, typer.Argument(help="Shuffle model with an exact law.")],
+    cards: Annotated[
+        int, typer.Option("--cards", "-n", help="Number of cards (52; 312 for a 6-deck shoe).")
+    ] = 52,
+    max_steps: Annotated[
+        int | None,
+        typer.Option(
+            "--max-steps", "-k", help="Show k = 1..K steps (default: well past the cutoff)."
+        ),
+    ] = None,
+    target: Annotated[
+        float | None,
+        typer.Option(help="Distance target in (0, 1]; the first step meeting it is marked."),
+    ] = None,
+    metric: Annotated[
+        Metric, typer.Option(help="Metric the target applies to.")
+    ] = Metric.total_variation,
+    hands: Annotated[
+        int, typer.Option(help="riffle: packets a of an a-shuffle (2 = ordinary riffle).")
+    ] = 2,
+    hold: Annotated[
+        float | None, typer.Option(help="transposition: chance a step does nothing (default 1/n).")
+    ] = None,
+    method: Annotated[
+        ChainMethod,
+        typer.Option(help="transposition: lumped chain, or Fourier inversion (n <= 20)."),
+    ] = ChainMethod.chain,
+    plot: Annotated[
+        Path | None, typer.Option(help="Draw distance against steps to this PNG file.")
+    ] = None,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Exact distance to a perfectly random deck after k steps of a classical shuffle.
+
+    Total variation (largest advantage on any yes/no event), separation (a guarantee
+    P >= (1 - s) U) and KL divergence in bits, for k = 1..K, each labelled exact or bound,
+    and the smallest k that meets --target. These describe the idealised model, not a
+    particular dealer or machine; the output is statistical evidence, not certification.
+    """
+    from shufflecheck.mixing import METRIC_NAMES, check_target, minimum_steps
+    from shufflecheck.models import default_max_steps, distance_curve
+
+    goal = check_target(target)
+    steps = max_steps if max_steps is not None else default_max_steps(model.value, max(cards, 2))
+    long_work = model is MixModel.transposition and cards >= 30
+    with progress(steps if long_work else 0, "lumped chain") as update:
+        curve = distance_curve(
+            model.value, cards, steps, hands=hands, hold=hold, method=method.value, progress=update
+        )
+    minimum = {m: minimum_steps(curve.rows, m, goal) for m in METRIC_NAMES.values()}
+    bound_minimum = {m: minimum_steps(curve.bounds, m, goal) for m in METRIC_NAMES.values()}
+    chosen = METRIC_NAMES[metric.value]
+    if plot is not None:
+        _plot(curve, chosen, goal, minimum[chosen], plot)
+    if json_out:
+        emit_json(_payload(curve, goal, metric.value, minimum, bound_minimum))
+        return
+    _print(curve, goal, chosen, minimum, bound_minimum)
+    if plot is not None:
+        echo(f"Wrote {plot}")
+
+
+def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
+    def row(r):
+        return {
+            "steps": r.steps,
+            "total_variation": r.total_variation,
+            "separation": r.separation,
+            "kl_bits": r.kl_bits,
+            "method": r.method,
+        }
+
+    return {
+        "model": curve.model,
+        "cards": curve.cards,
+        "parameters": curve.parameters,
+        "target": goal,
+        "metric": metric,
+        "source": curve.source,
+        "rows": [row(r) for r in curve.rows],
+        "minimum_steps": minimum,
+        "bounds": [row(r) for r in curve.bounds],
+        "bound_source": curve.bound_source or None,
+        "minimum_steps_from_bounds": bound_minimum if curve.bounds else None,
+    }
+
+
+def _fmt(value: float | None) -> str:
+    """Six significant digits (scientific below 1e-4); '-' when the method gives no value."""
+    return "-" if value is None else f"{value:.6g}"
+
+
+_LABELS = {"total_variation": "total variation", "separation": "separation", "kl_bits": "KL (bits)"}
+
+
+def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
+    from shufflecheck.report.terminal import format_table
+
+    params = ", ".join(
+        f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
+        for k, v in curve.parameters.items()
+    )
+    title = f"{curve.model} on {curve.cards} cards" + (f" ({params})" if params else "")
+    echo(f"Distance to a uniformly random deck: {title}")
+    echo(f"Method: {curve.source}.")
+    if curve.bounds:
+        echo(f"Extra column: {curve.bound_source}.")
+    if goal is not None:
+        echo(f"Target: {_LABELS[chosen]} <= {goal:g}")
+    echo()
+    headers = ["steps", "total variation", "separation", "KL (bits)", "how"]
+    bound_metric = None
+    if curve.bounds:
+        bound_metric = "separation" if curve.bounds[0].separation is not None else "total_variation"
+        headers.append(f"{_LABELS[bound_metric]} bound")
+    rows, marks = [], []
+    first = minimum[chosen]
+    for i, r in enumerate(curve.rows):
+        cells = [r.steps, _fmt(r.total_variation), _fmt(r.separation), _fmt(r.kl_bits), r.method]
+        if bound_metric is not None:
+            cells.append(_fmt(curve.bounds[i].value(bound_metric)))
+        rows.append(cells)
+        marks.append("*" if first is not None and r.steps == first else "")
+    echo(format_table(headers, rows, marks=marks if goal is not None else None))
+    echo()
+    if goal is None:
+        echo("No --target given; add --target 0.1 (say) to get the minimum number of steps.")
+        return
+    for m, label in _LABELS.items():
+        k = minimum[m]
+        if k is not None:
+            echo(f"Minimum steps for {label} <= {goal:g}: {k} (exact)")
+        else:
+            kb = bound_minimum.get(m)
+            hint = f"; the bound certifies {kb} steps" if kb is not None else ""
+            echo(
+                f"Minimum steps for {label} <= {goal:g}: not reached within "
+                f"{curve.rows[-1].steps} steps (raise --max-steps){hint}"
+            )
+    echo("* marks the first step meeting the target on the chosen metric.")
+    echo(
+        "These are exact distances for the idealised model; real hands and machines differ. "
+        "Statistical evidence, not certification: device approval and dealing rules are for "
+        "the local gaming regulator and accredited test laboratories."
+    )
+
+
+def _plot(curve, metric, goal, first, path: Path) -> None:
+    from shufflecheck.fileio import atomic_save
+    from shufflecheck.report.figures import distance_curves_figure
+
+    figure = distance_curves_figure(
+        curve_series(curve, metric), target=goal, minimum=first, metric=metric
+    )
+    atomic_save(path, lambda tmp: figure.savefig(tmp, format="png", dpi=150))
+
+
+def curve_series(curve, metric: str) -> list[dict]:
+    """The exact curve and any bound curve as plain series for the figure functions."""
+    series = [
+        {
+            "label": f"{curve.model}, exact",
+            "steps": [r.steps for r in curve.rows],
+            "values": [r.value(metric) for r in curve.rows],
+            "kind": "exact",
+        }
+    ]
+    if curve.bounds and curve.bounds[0].value(metric) is not None:
+        series.append(
+            {
+                "label": f"{curve.model}, upper bound",
+                "steps": [r.steps for r in curve.bounds],
+                "values": [r.value(metric) for r in curve.bounds],
+                "kind": "bound",
+            }
+        )
+    return series

@@ -1,0 +1,87 @@
+"""The common shape of a shuffle step: a frozen dataclass that acts on many decks at once.
+
+A :class:`Step` is one move of a dealing procedure (a riffle, a strip, a cut, ...). Its
+fields are its parameters, with documented defaults; ``__post_init__`` validates them and
+raises :class:`~shufflecheck.errors.InputError` naming the parameter. The procedure parser
+builds steps from text such as ``strip(packets=5)`` through :data:`STEP_TYPES`.
+
+``apply(decks, rng)`` performs one physical step on every row of ``decks`` (see
+DEVELOPERS.md for the deck-array convention) and returns a new array; ``apply_repeated``
+performs ``times`` steps in a row (models override it when ``k`` steps have a faster direct
+form, like ``k`` riffles being one ``2^k``-shuffle).
+
+Steps that have an exact analysis implement :meth:`Step.exact_distances`: the exact
+distances to uniform after ``times`` consecutive applications starting from a fixed deck.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from abc import ABC, abstractmethod
+from typing import TYPE_CHECKING, ClassVar
+
+import numpy as np
+
+from shufflecheck.errors import InputError
+
+if TYPE_CHECKING:
+    from shufflecheck.mixing import DistanceRow
+
+__all__ = ["STEP_TYPES", "Step", "register_step"]
+
+#: procedure keyword -> step class; filled by :func:`register_step`.
+STEP_TYPES: dict[str, type[Step]] = {}
+
+
+def register_step(cls: type[Step]) -> type[Step]:
+    """Class decorator: make a step available to procedure text under ``cls.keyword``."""
+    if cls.keyword in STEP_TYPES and STEP_TYPES[cls.keyword] is not cls:
+        raise RuntimeError(f"two step classes claim the keyword {cls.keyword!r}")
+    STEP_TYPES[cls.keyword] = cls
+    return cls
+
+
+@dataclasses.dataclass(frozen=True)
+class Step(ABC):
+    """One move of a dealing procedure, acting on a batch of decks."""
+
+    #: the word that names the step in procedure text
+    keyword: ClassVar[str] = ""
+    #: one line for help texts and reports
+    summary: ClassVar[str] = ""
+    #: True when the step rearranges every deck the same way (mixes nothing by itself)
+    deterministic: ClassVar[bool] = False
+
+    @abstractmethod
+    def apply(self, decks: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+        """One step on every row of ``decks``; returns a new array of the same shape."""
+
+    def apply_repeated(self, decks: np.ndarray, times: int, rng: np.random.Generator) -> np.ndarray:
+        """``times`` consecutive steps on every row."""
+        for _ in range(times):
+            decks = self.apply(decks, rng)
+        return decks
+
+    def check_cards(self, cards: int) -> None:
+        """Raise :class:`InputError` when the step cannot act on a deck of ``cards`` cards."""
+        if cards < 2:
+            raise InputError(f"{self.keyword}: a deck needs at least 2 cards, got {cards}")
+
+    def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
+        """Exact distances to uniform after ``times`` consecutive steps, or None when this
+        step has no exact analysis for ``cards`` cards."""
+        return None
+
+    def parameters(self) -> dict[str, object]:
+        """The step's parameters as a plain dict (for reports and JSON)."""
+        return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}
+
+    def describe(self) -> str:
+        """Procedure text for this step, e.g. ``strip(packets=5)`` (defaults omitted)."""
+        changed = []
+        for f in dataclasses.fields(self):
+            value = getattr(self, f.name)
+            default = f.default if f.default is not dataclasses.MISSING else None
+            if value != default:
+                changed.append(f"{f.name}={value}")
+        return f"{self.keyword}({', '.join(changed)})" if changed else self.keyword
