@@ -48,6 +48,7 @@ __all__ = [
     "METRIC_NAMES",
     "DistanceRow",
     "MixingCurve",
+    "Quantity",
     "check_metric",
     "check_target",
     "distances_from_groups",
@@ -91,6 +92,48 @@ class MixingCurve:
     source: str
     bounds: tuple[DistanceRow, ...] = field(default_factory=tuple)
     bound_source: str = ""
+    bound_name: str = ""
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """One number with how it was obtained.
+
+    ``kind`` is ``exact``, ``bound`` (with ``side`` upper or lower, and ``confidence`` when
+    the bound holds at a confidence level rather than surely) or ``estimate`` (with its
+    ``stderr`` and confidence ``interval``). ``method`` says which method gave it.
+    """
+
+    value: float | None
+    kind: Method
+    side: Literal["upper", "lower"] | None = None
+    confidence: float | None = None
+    interval: tuple[float, float] | None = None
+    stderr: float | None = None
+    method: str = ""
+
+    @property
+    def label(self) -> str:
+        """Short label: ``exact``, ``upper bound``, ``lower bound (99% confidence)``,
+        ``estimate``."""
+        if self.kind == "bound":
+            text = f"{self.side} bound" if self.side else "bound"
+            return f"{text} ({self.confidence:.0%} confidence)" if self.confidence else text
+        return self.kind
+
+    def as_dict(self) -> dict[str, object]:
+        out: dict[str, object] = {"value": self.value, "kind": self.kind, "label": self.label}
+        if self.side is not None:
+            out["side"] = self.side
+        if self.confidence is not None:
+            out["confidence"] = self.confidence
+        if self.interval is not None:
+            out["interval"] = list(self.interval)
+        if self.stderr is not None:
+            out["stderr"] = self.stderr
+        if self.method:
+            out["method"] = self.method
+        return out
 
 
 def check_metric(metric: str) -> str:

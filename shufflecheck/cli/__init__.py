@@ -6,6 +6,7 @@ the shared :data:`app`.
 
 from __future__ import annotations
 
+from shufflecheck.cli import assess as _assess  # noqa: F401
 from shufflecheck.cli import characters as _characters  # noqa: F401  (registers commands)
 from shufflecheck.cli import mix as _mix  # noqa: F401
 from shufflecheck.cli._app import app

@@ -179,32 +179,47 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
 
 
 def _plot(curve, metric, goal, first, path: Path) -> None:
-    from shufflecheck.fileio import atomic_save
-    from shufflecheck.report.figures import distance_curves_figure
+    from shufflecheck.fileio import atomic_write
+    from shufflecheck.report.figures import distance_figure
 
-    figure = distance_curves_figure(
-        curve_series(curve, metric), target=goal, minimum=first, metric=metric
+    figure = distance_figure(
+        curve_series(curve, metric, first),
+        target=goal,
+        metric=_METRIC_AXIS[metric],
+        steps_name=_STEP_NAMES.get(curve.model, "steps"),
     )
-    atomic_save(path, lambda tmp: figure.savefig(tmp, format="png", dpi=150))
+    atomic_write(path, figure.png)
 
 
-def curve_series(curve, metric: str) -> list[dict]:
+_METRIC_AXIS = {
+    "total_variation": "total variation distance",
+    "separation": "separation distance",
+    "kl_bits": "KL divergence (bits)",
+}
+_STEP_NAMES = {"riffle": "riffles", "transposition": "transpositions"}
+
+
+def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:
     """The exact curve and any bound curve as plain series for the figure functions."""
     series = [
         {
-            "label": f"{curve.model}, exact",
+            "label": curve.model,
             "steps": [r.steps for r in curve.rows],
             "values": [r.value(metric) for r in curve.rows],
-            "kind": "exact",
+            "how": "exact",
+            "group": curve.model,
+            **({"minimum": minimum} if minimum is not None else {}),
         }
     ]
     if curve.bounds and curve.bounds[0].value(metric) is not None:
         series.append(
             {
-                "label": f"{curve.model}, upper bound",
+                "label": curve.bound_name or "bound",
                 "steps": [r.steps for r in curve.bounds],
                 "values": [r.value(metric) for r in curve.bounds],
-                "kind": "bound",
+                "how": "bound",
+                "side": "upper",
+                "group": curve.model,
             }
         )
     return series

@@ -18,7 +18,38 @@ from shufflecheck.characters import Eigenvalue
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import MixingCurve
 
-__all__ = ["EXACT_MODELS", "default_max_steps", "distance_curve", "spectrum"]
+__all__ = [
+    "EXACT_MODELS",
+    "STEP_MODULES",
+    "default_max_steps",
+    "distance_curve",
+    "load_step_types",
+    "spectrum",
+]
+
+#: modules that register procedure steps (imported on first use of the procedure grammar)
+STEP_MODULES = (
+    "riffle",
+    "hand_riffle",
+    "overhand",
+    "cut",
+    "pile",
+    "shelf",
+    "transposition",
+    "top_to_random",
+)
+
+
+def load_step_types() -> dict[str, type]:
+    """Import every step module and return the registry keyword -> step class."""
+    import importlib
+
+    from shufflecheck.models.base import STEP_TYPES
+
+    for name in STEP_MODULES:
+        importlib.import_module(f"shufflecheck.models.{name}")
+    return dict(STEP_TYPES)
+
 
 #: models with an exact distance curve (``shufflecheck mix``)
 EXACT_MODELS = ("riffle", "transposition", "top-to-random", "random-to-top")

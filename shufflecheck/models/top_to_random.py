@@ -120,7 +120,9 @@ def distance_curve(cards: int, max_steps: int, *, inverse: bool = False) -> Mixi
         tail = float(Fraction(den - fact * columns[k][cards], den))
         bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
     name = "random-to-top" if inverse else "top-to-random"
-    return MixingCurve(name, cards, {}, tuple(rows), SOURCE, tuple(bounds), BOUND_SOURCE)
+    return MixingCurve(
+        name, cards, {}, tuple(rows), SOURCE, tuple(bounds), BOUND_SOURCE, "strong uniform time"
+    )
 
 
 def exact_distances(cards: int, steps: int) -> DistanceRow:

@@ -446,7 +446,14 @@ def distance_curve(
     bounds = upper_bound_curve(cards, max_steps, hold) if bound else ()
     parameters = {"hold": float(h)}
     return MixingCurve(
-        "transposition", cards, parameters, rows, source, bounds, BOUND_SOURCE if bound else ""
+        "transposition",
+        cards,
+        parameters,
+        rows,
+        source,
+        bounds,
+        BOUND_SOURCE if bound else "",
+        "upper bound lemma" if bound else "",
     )
 
 

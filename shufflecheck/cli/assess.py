@@ -1,0 +1,231 @@
+"""``shufflecheck assess``: how far from random a dealing procedure leaves the deck."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import app, echo, emit_json, progress
+
+CAUTION = (
+    "Statistical evidence about the modelled procedure, not a certification: shuffling "
+    "devices and dealing rules are for the local gaming regulator and accredited test "
+    "laboratories to approve."
+)
+
+
+@app.command()
+def assess(
+    procedure: Annotated[
+        str,
+        typer.Argument(
+            help="Procedure text, e.g. 'riffle x3, strip(packets=5), riffle, cut', or a .toml file."
+        ),
+    ],
+    cards: Annotated[
+        int | None,
+        typer.Option("--cards", "-n", help="Number of cards (default: the file's, else 52)."),
+    ] = None,
+    repeat: Annotated[
+        int, typer.Option("--repeat", "-r", help="Assess r = 1..R repetitions.")
+    ] = 10,
+    decks: Annotated[
+        int, typer.Option(help="Simulated decks for the Monte Carlo parts.")
+    ] = 100_000,
+    seed: Annotated[int, typer.Option(help="Random seed (results are reproducible from it).")] = 1,
+    confidence: Annotated[
+        float, typer.Option(help="Confidence of lower bounds and intervals.")
+    ] = 0.99,
+    plot: Annotated[
+        Path | None, typer.Option(help="Draw the bounds against r to this PNG.")
+    ] = None,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Distance to a random deck and an observant player's edge, for r = 1..R repetitions.
+
+    Each number says how it was obtained: exact (the whole procedure is an exactly analysed
+    model), an upper bound from exactly analysed blocks, a lower bound at the stated
+    confidence from simulated decks, or an estimate with its interval (the guessing game).
+    """
+    from shufflecheck.assessment import assess as run_assessment
+    from shufflecheck.models.permute import CHUNK_DECKS
+    from shufflecheck.procedures import procedure_from_argument
+
+    proc = procedure_from_argument(procedure)
+    n = cards if cards is not None else (proc.cards or 52)
+    units = -(-decks // CHUNK_DECKS) * repeat
+    with progress(units if decks * repeat >= 200_000 else 0, "simulating") as update:
+        result = run_assessment(
+            proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
+        )
+    if plot is not None:
+        _plot(result, plot)
+    if json_out:
+        emit_json(assessment_payload(result))
+        return
+    _print(result)
+    if plot is not None:
+        echo(f"Wrote {plot}")
+
+
+def assessment_payload(result) -> dict:
+    """The JSON form of an :class:`~shufflecheck.assessment.Assessment`."""
+
+    def distances(row):
+        if row is None:
+            return None
+        return {
+            "total_variation": row.total_variation,
+            "separation": row.separation,
+            "kl_bits": row.kl_bits,
+            "method": row.method,
+        }
+
+    rows = []
+    for row in result.rows:
+        rows.append(
+            {
+                "repeats": row.repeats,
+                "exact": distances(row.exact),
+                "upper_bound": {k: q.as_dict() for k, q in row.upper.items()},
+                "upper_bound_blocks": list(row.upper_blocks),
+                "lower_bound": {k: q.as_dict() for k, q in row.lower.items()},
+                "lower_bound_by_statistic": [
+                    {
+                        "statistic": b.statistic,
+                        "total_variation_lower_bound": b.lower_bound,
+                        "event_probability_uniform": b.event_probability_uniform,
+                        "event_count": b.event_count,
+                        "measured_decks": b.measured_decks,
+                    }
+                    for b in row.lower_by_statistic
+                ],
+                "guessing": {
+                    "uniform_mean": row.uniform_guesses,
+                    "uniform_method": "exact: H_n, sum of Bernoulli(1/j)",
+                    "strategies": {k: q.as_dict() for k, q in row.guessing.items()},
+                    "best_strategy": row.best_strategy,
+                    "extra_correct_guesses_per_deck": row.extra_guesses.as_dict(),
+                },
+            }
+        )
+    return {
+        "procedure": result.procedure,
+        "name": result.name,
+        "cards": result.cards,
+        "decks": result.decks,
+        "seed": result.seed,
+        "confidence": result.confidence,
+        "rows": rows,
+        "notes": list(result.notes),
+        "caution": CAUTION,
+    }
+
+
+def _num(value: float) -> str:
+    return f"{value:.4g}"
+
+
+def _range(row, metric: str) -> tuple[str, str]:
+    """(value text, how) for one metric of one row."""
+    if row.exact is not None:
+        return f"= {_num(row.exact.value(metric))}", "exact"
+    low = row.lower.get(metric)
+    high = row.upper.get(metric)
+    lo = _num(low.value) if low is not None else "0"
+    hi = _num(high.value) if high is not None else "1" if metric != "kl_bits" else "?"
+    how = "bounds" if high is not None else "lower bound"
+    return f"{lo} to {hi}", how
+
+
+def _print(result) -> None:
+    from shufflecheck.report.terminal import format_table
+
+    title = f"'{result.procedure}'" + (f" ({result.name})" if result.name else "")
+    echo(f"Assessment of {title} on {result.cards} cards")
+    echo(
+        f"{result.decks:,} simulated decks, seed {result.seed}; lower bounds hold at "
+        f"{result.confidence:.0%} confidence."
+    )
+    for note in result.notes:
+        echo(f"Note: {note}")
+    echo()
+    headers = ["r", "total variation", "how", "separation", "extra guesses/deck", "best strategy"]
+    rows = []
+    for row in result.rows:
+        tv, how = _range(row, "total_variation")
+        sep, _ = _range(row, "separation")
+        extra = row.extra_guesses
+        lo, hi = extra.interval
+        rows.append(
+            [
+                row.repeats,
+                tv,
+                how,
+                sep,
+                f"{extra.value:+.3f} ({lo:+.3f} to {hi:+.3f})",
+                row.best_strategy,
+            ]
+        )
+    echo(format_table(headers, rows, align="rlllll"))
+    echo()
+    first = result.rows[0]
+    echo("How each number was obtained:")
+    echo("  exact       the whole repeated procedure is one exactly analysed model")
+    echo("  bounds      upper: exactly analysed blocks (a further step never increases the")
+    echo("              distance; separation multiplies over blocks); lower: statistics of the")
+    echo(f"              simulated decks, split sample, Clopper-Pearson ({result.confidence:.0%})")
+    echo(
+        f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per deck "
+        f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck (H_{result.cards})"
+    )
+    echo()
+    echo(CAUTION)
+
+
+def _plot(result, path: Path) -> None:
+    from shufflecheck.fileio import atomic_write
+    from shufflecheck.report.figures import distance_figure
+
+    figure = distance_figure(
+        assessment_series(result), metric="total variation distance", steps_name="repetitions"
+    )
+    atomic_write(path, figure.png)
+
+
+def assessment_series(result) -> list[dict]:
+    """Exact values and bounds on total variation against r, as plain series."""
+    series = []
+    exact = [r for r in result.rows if r.exact is not None]
+    if exact:
+        series.append(
+            {
+                "label": result.procedure,
+                "how": "exact",
+                "steps": [r.repeats for r in exact],
+                "values": [r.exact.total_variation for r in exact],
+            }
+        )
+    upper = [r for r in result.rows if "total_variation" in r.upper]
+    if upper:
+        series.append(
+            {
+                "label": "from exactly analysed blocks",
+                "how": "bound",
+                "side": "upper",
+                "steps": [r.repeats for r in upper],
+                "values": [r.upper["total_variation"].value for r in upper],
+            }
+        )
+    series.append(
+        {
+            "label": f"from {result.decks:,} simulated decks, {result.confidence:.0%} confidence",
+            "how": "bound",
+            "side": "lower",
+            "steps": [r.repeats for r in result.rows],
+            "values": [r.lower["total_variation"].value for r in result.rows],
+        }
+    )
+    return series

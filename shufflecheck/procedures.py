@@ -1,0 +1,380 @@
+"""Dealing procedures: text such as ``riffle x3, strip(packets=5), riffle, cut``.
+
+Grammar (whitespace is free between tokens)::
+
+    procedure := item ("," item)*
+    item      := step [ "(" [ param ("," param)* ] ")" ] [ "x" count ]
+    param     := name "=" value          value := number | word | "quoted text"
+
+``x3`` (also ``×3`` or ``*3``) repeats a step. Step names are the keywords of the
+registered step models (see :data:`shufflecheck.models.base.STEP_TYPES`); parameters are
+the step's dataclass fields and are converted to the field's type. Errors point at the
+offending column: ``unknown step 'rifle' at column 1; did you mean 'riffle'?``.
+
+A procedure can also be read from a TOML file::
+
+    name = "Main floor, hand-dealt games"
+    cards = 52            # or: decks = 6   (a shoe of 6 x 52 distinct cards)
+    steps = "riffle x3, strip(packets=5), riffle, cut"   # or a list of items
+
+A :class:`Procedure` applies its steps in order to a batch of decks; repeating the whole
+procedure ``r`` times is ``apply(decks, rng, repeats=r)``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import difflib
+import re
+import types
+import typing
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from shufflecheck.errors import InputError
+from shufflecheck.models import load_step_types
+from shufflecheck.models.base import Step
+from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+
+__all__ = [
+    "Procedure",
+    "ProcedureItem",
+    "load_procedure",
+    "parse_procedure",
+    "procedure_from_argument",
+]
+
+#: cards in one standard pack; a shoe of d decks has d * 52 distinct cards here
+PACK = 52
+
+
+@dataclass(frozen=True)
+class ProcedureItem:
+    """One item of a procedure: a step, how many times in a row, and where it was written."""
+
+    step: Step
+    times: int = 1
+    column: int = 1
+
+    def describe(self) -> str:
+        text = self.step.describe()
+        return f"{text} x{self.times}" if self.times != 1 else text
+
+
+@dataclass(frozen=True)
+class Procedure:
+    """A sequence of steps applied in order; ``cards`` and ``name`` when read from a file."""
+
+    items: tuple[ProcedureItem, ...]
+    text: str
+    name: str | None = None
+    cards: int | None = None
+
+    def describe(self) -> str:
+        """Canonical procedure text (defaults omitted)."""
+        return ", ".join(item.describe() for item in self.items)
+
+    def expanded(self, repeats: int = 1) -> list[Step]:
+        """The individual steps of ``repeats`` consecutive runs of the procedure."""
+        one = [item.step for item in self.items for _ in range(item.times)]
+        return one * repeats
+
+    def runs(self, repeats: int = 1) -> list[tuple[Step, int]]:
+        """The steps of ``repeats`` runs as maximal runs of equal consecutive steps."""
+        out: list[tuple[Step, int]] = []
+        for step in self.expanded(repeats):
+            if out and out[-1][0] == step:
+                out[-1] = (step, out[-1][1] + 1)
+            else:
+                out.append((step, 1))
+        return out
+
+    @property
+    def deterministic(self) -> bool:
+        """True when every step is a fixed rearrangement (the procedure mixes nothing)."""
+        return all(item.step.deterministic for item in self.items)
+
+    def check_cards(self, cards: int) -> None:
+        for item in self.items:
+            item.step.check_cards(cards)
+
+    def apply(self, decks: np.ndarray, rng: np.random.Generator, repeats: int = 1) -> np.ndarray:
+        """Run the procedure ``repeats`` times on every row of ``decks`` (a new array)."""
+        out = decks
+        for step, times in self.runs(repeats):
+            out = step.apply_repeated(out, times, rng)
+        return out if out is not decks else decks.copy()
+
+    def sample(
+        self,
+        decks: int,
+        cards: int,
+        repeats: int = 1,
+        *,
+        rng: np.random.Generator | int | None = None,
+    ) -> np.ndarray:
+        """``decks`` decks after ``repeats`` runs of the procedure from the reference order."""
+        self.check_cards(cards)
+        generator = np.random.default_rng(rng)
+        out = identity_decks(decks, cards)
+        for start in range(0, decks, CHUNK_DECKS):
+            stop = min(decks, start + CHUNK_DECKS)
+            out[start:stop] = self.apply(out[start:stop], generator, repeats)
+        return out
+
+
+# ---------------------------------------------------------------------------------------
+# parsing
+
+
+@dataclass
+class _Cursor:
+    text: str
+    pos: int = 0
+
+    @property
+    def column(self) -> int:
+        return self.pos + 1
+
+    def skip_space(self) -> None:
+        while self.pos < len(self.text) and self.text[self.pos].isspace():
+            self.pos += 1
+
+    def peek(self) -> str:
+        return self.text[self.pos] if self.pos < len(self.text) else ""
+
+    def at_end(self) -> bool:
+        self.skip_space()
+        return self.pos >= len(self.text)
+
+
+_NAME = re.compile(r"[A-Za-z][A-Za-z0-9_-]*")
+_COUNT = re.compile(r"(?:[xX×*])\s*(\d+)\b")
+_VALUE = re.compile(r'"[^"]*"|\'[^\']*\'|[^,()\s]+')
+
+
+def _fail(message: str, column: int) -> InputError:
+    return InputError(f"{message} at column {column}")
+
+
+def parse_procedure(text: str, *, name: str | None = None, cards: int | None = None) -> Procedure:
+    """Parse procedure text (see the module docstring) into a :class:`Procedure`."""
+    if not isinstance(text, str) or not text.strip():
+        raise InputError("the procedure is empty; give steps like 'riffle x3, strip, riffle, cut'")
+    types_by_name = load_step_types()
+    cursor = _Cursor(text)
+    items: list[ProcedureItem] = []
+    while True:
+        cursor.skip_space()
+        start = cursor.column
+        if cursor.peek() == ",":
+            raise _fail("empty step (two commas in a row?)", start)
+        if cursor.at_end():
+            raise _fail("the procedure ends with a comma; a step is missing", start)
+        match = _NAME.match(text, cursor.pos)
+        if match is None:
+            raise _fail(f"expected a step name, found {cursor.peek()!r}", start)
+        word = match.group(0)
+        keyword = word.lower()
+        if keyword not in types_by_name:
+            close = difflib.get_close_matches(keyword, list(types_by_name), n=1, cutoff=0.6)
+            known = ", ".join(sorted(types_by_name))
+            hint = f"; did you mean '{close[0]}'?" if close else f"; steps: {known}"
+            raise InputError(f"unknown step '{word}' at column {start}{hint}")
+        cursor.pos = match.end()
+        cursor.skip_space()
+        params: dict[str, object] = {}
+        if cursor.peek() == "(":
+            params = _parse_params(cursor, types_by_name[keyword], keyword)
+            cursor.skip_space()
+        times = 1
+        count = _COUNT.match(text, cursor.pos)
+        if count is not None:
+            times = int(count.group(1))
+            if times < 1:
+                raise _fail(
+                    f"{keyword}: the repeat count must be at least 1, got {times}", cursor.column
+                )
+            cursor.pos = count.end()
+            cursor.skip_space()
+        elif cursor.peek() and cursor.peek() in "xX×*":
+            raise _fail(f"{keyword}: expected a repeat count like x3", cursor.column)
+        try:
+            step = types_by_name[keyword](**params)
+        except InputError as exc:
+            raise InputError(f"{exc} (step at column {start})") from None
+        items.append(ProcedureItem(step, times, start))
+        cursor.skip_space()
+        if cursor.pos >= len(text):
+            break
+        if cursor.peek() != ",":
+            raise _fail(f"expected ',' between steps, found {cursor.peek()!r}", cursor.column)
+        cursor.pos += 1
+    return Procedure(tuple(items), text.strip(), name, cards)
+
+
+def _field_types(cls: type[Step]) -> dict[str, object]:
+    hints = typing.get_type_hints(cls)
+    return {f.name: hints[f.name] for f in dataclasses.fields(cls)}
+
+
+def _parse_params(cursor: _Cursor, cls: type[Step], keyword: str) -> dict[str, object]:
+    text = cursor.text
+    fields = _field_types(cls)
+    cursor.pos += 1  # "("
+    params: dict[str, object] = {}
+    while True:
+        cursor.skip_space()
+        if cursor.peek() == ")":
+            cursor.pos += 1
+            return params
+        column = cursor.column
+        match = _NAME.match(text, cursor.pos)
+        if match is None:
+            if not cursor.peek():
+                raise _fail(f"{keyword}: missing ')'", column)
+            raise _fail(f"{keyword}: expected a parameter name, found {cursor.peek()!r}", column)
+        key = match.group(0).lower().replace("-", "_")
+        if key not in fields:
+            allowed = ", ".join(fields) if fields else "none"
+            raise _fail(
+                f"{keyword}: unknown parameter '{match.group(0)}' (parameters: {allowed})", column
+            )
+        cursor.pos = match.end()
+        cursor.skip_space()
+        if cursor.peek() != "=":
+            raise _fail(f"{keyword}: expected '=' after {key}", cursor.column)
+        cursor.pos += 1
+        cursor.skip_space()
+        value_column = cursor.column
+        value = _VALUE.match(text, cursor.pos)
+        if value is None:
+            raise _fail(f"{keyword}: missing value for {key}", value_column)
+        cursor.pos = value.end()
+        if key in params:
+            raise _fail(f"{keyword}: parameter {key} given twice", column)
+        params[key] = _convert(value.group(0), fields[key], keyword, key, value_column)
+        cursor.skip_space()
+        if cursor.peek() == ",":
+            cursor.pos += 1
+        elif cursor.peek() != ")":
+            raise _fail(
+                f"{keyword}: expected ',' or ')' after {key}={value.group(0)}", cursor.column
+            )
+
+
+def _convert(raw: str, annotation: object, keyword: str, key: str, column: int) -> object:
+    """Convert parameter text to the field's type (int, float, str, bool, or X | None)."""
+    options = typing.get_args(annotation) if isinstance(annotation, types.UnionType) else ()
+    if typing.get_origin(annotation) is typing.Union:
+        options = typing.get_args(annotation)
+    candidates = [t for t in options if t is not type(None)] if options else [annotation]
+    if raw.lower() in ("none", "null", "default") and type(None) in options:
+        return None
+    if raw[:1] in "\"'" and raw[-1:] == raw[:1]:
+        raw = raw[1:-1]
+    for kind in candidates:
+        if kind is bool:
+            if raw.lower() in ("true", "yes", "on", "1"):
+                return True
+            if raw.lower() in ("false", "no", "off", "0"):
+                return False
+        elif kind is int:
+            if re.fullmatch(r"[+-]?\d+", raw):
+                return int(raw)
+        elif kind is float:
+            try:
+                return float(raw)
+            except ValueError:
+                pass
+        elif kind is str:
+            return raw
+    wanted = " or ".join(getattr(k, "__name__", str(k)) for k in candidates)
+    raise _fail(f"{keyword}: {key} must be {_article(wanted)}, got '{raw}'", column)
+
+
+def _article(kind: str) -> str:
+    names = {"int": "an integer", "float": "a number", "bool": "true or false", "str": "text"}
+    return " or ".join(names.get(part.strip(), part.strip()) for part in kind.split(" or "))
+
+
+# ---------------------------------------------------------------------------------------
+# files and command-line arguments
+
+_PROCEDURE_KEYS = {"name", "cards", "decks", "steps", "description"}
+
+
+def load_procedure(path: str | Path) -> Procedure:
+    """Read a procedure TOML file (keys: name, cards or decks, steps, description)."""
+    from shufflecheck.tomlfiles import load_toml
+
+    doc = load_toml(path)
+    return procedure_from_table(doc, doc.data, table=None)
+
+
+def procedure_from_table(doc, data: dict, table: str | None, index: int = 0) -> Procedure:
+    """Build a procedure from one TOML table (shared with policy files)."""
+    for key in data:
+        if key not in _PROCEDURE_KEYS and table is None:
+            raise doc.error(
+                f"unknown key (allowed: {', '.join(sorted(_PROCEDURE_KEYS))})", key, table, index
+            )
+    steps = data.get("steps")
+    if steps is None:
+        raise doc.error(
+            'missing: give steps = "riffle x3, strip, riffle, cut"', "steps", table, index
+        )
+    if isinstance(steps, list):
+        if not all(isinstance(s, str) for s in steps):
+            raise doc.error("must be a string or a list of strings", "steps", table, index)
+        text = ", ".join(steps)
+    elif isinstance(steps, str):
+        text = steps
+    else:
+        raise doc.error("must be a string or a list of strings", "steps", table, index)
+    cards = deck_size(doc, data, table, index)
+    name = data.get("name")
+    if name is not None and not isinstance(name, str):
+        raise doc.error("must be text", "name", table, index)
+    try:
+        return parse_procedure(text, name=name, cards=cards)
+    except InputError as exc:
+        raise doc.error(f"{exc}", "steps", table, index) from None
+
+
+def deck_size(doc, data: dict, table: str | None, index: int = 0) -> int | None:
+    """``cards`` (an integer >= 2) or ``decks`` (a shoe of ``decks x 52`` cards), not both."""
+    cards = data.get("cards")
+    decks = data.get("decks")
+    if cards is not None and decks is not None:
+        raise doc.error("give cards or decks, not both", "decks", table, index)
+    if cards is not None:
+        if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
+            raise doc.error(f"must be an integer >= 2, got {cards!r}", "cards", table, index)
+        return cards
+    if decks is not None:
+        if isinstance(decks, bool) or not isinstance(decks, int) or not 1 <= decks <= 16:
+            raise doc.error(
+                f"must be an integer from 1 to 16, got {decks!r}", "decks", table, index
+            )
+        return decks * PACK
+    return None
+
+
+def procedure_from_argument(argument: str) -> Procedure:
+    """A command-line PROCEDURE: a path to a ``.toml`` file, or procedure text."""
+    path = Path(argument)
+    if argument.lower().endswith(".toml"):
+        if not path.exists():
+            raise InputError(f"{argument}: no such procedure file")
+        return load_procedure(path)
+    return parse_procedure(argument)
+
+
+def iter_chunks(decks: int, size: int = CHUNK_DECKS) -> Iterator[tuple[int, int]]:
+    """``(start, stop)`` ranges covering ``decks`` in chunks of ``size``."""
+    for start in range(0, decks, size):
+        yield start, min(decks, start + size)
