@@ -1,0 +1,1060 @@
+"""Figures for reports, drawn with matplotlib (Agg, imported only when a figure is drawn).
+
+Each public function takes plain data (lists, arrays, dicts), draws one chart in the
+project's own style and returns a :class:`~shufflecheck.report.document.Figure` holding the
+PNG and the plotted numbers (``Figure.data``, written to ``report.json``).
+
+Visual grammar, the same on every chart:
+
+* how a number was obtained is shown by line style as well as by the legend:
+  solid = exact, dashed = rigorous bound, dotted with a shaded band = estimate with its
+  confidence band; thresholds (a target, a significance level) are dash-dot lines;
+* series differ by colour *and* marker shape, so a chart printed in grey still reads;
+* colours come from the Okabe & Ito palette for colour-vision deficiency [1]_ (yellow is
+  left out: it is too light on white); heat maps use the ColorBrewer purple-orange diverging
+  scheme, rated colour-blind safe [2]_, for residuals, and cividis [3]_ for counts.
+
+Figures are built on :class:`matplotlib.figure.Figure` directly (no pyplot state), laid out
+with the constrained layout engine and rendered by :func:`render_png` at a fixed dpi without
+a ``Software`` tag, so the same data and matplotlib version give the same bytes.
+
+References
+----------
+.. [1] M. Okabe and K. Ito, "Color Universal Design (CUD): how to make figures and
+       presentations that are friendly to colorblind people", J*Fly, 2008.
+.. [2] M. Harrower and C. A. Brewer, "ColorBrewer.org: an online tool for selecting colour
+       schemes for maps", The Cartographic Journal 40 (2003) 27-37.
+.. [3] J. R. Nuñez, C. R. Anderton and R. S. Renslow, "Optimizing colormaps with
+       consideration for color vision deficiency to enable accurate interpretation of
+       scientific data", PLoS ONE 13 (2018) e0199239.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from collections.abc import Mapping, Sequence
+from typing import Any
+
+import numpy as np
+
+from shufflecheck.errors import InputError
+from shufflecheck.report.document import HOW_OBTAINED, Figure
+
+__all__ = [
+    "DPI",
+    "HOW_LINESTYLES",
+    "OKABE_ITO",
+    "SERIES_COLOURS",
+    "SERIES_MARKERS",
+    "distance_figure",
+    "heatmap_figure",
+    "power_figure",
+    "pvalue_figure",
+    "render_png",
+    "score_histogram_figure",
+]
+
+#: Resolution of every report figure, in dots per inch.
+DPI = 150
+
+#: The Okabe & Ito (2008) colours, by their published names.
+OKABE_ITO: dict[str, str] = {
+    "black": "#000000",
+    "orange": "#E69F00",
+    "sky blue": "#56B4E9",
+    "bluish green": "#009E73",
+    "yellow": "#F0E442",
+    "blue": "#0072B2",
+    "vermillion": "#D55E00",
+    "reddish purple": "#CC79A7",
+}
+#: Colour of series 1, 2, ... (cycled beyond seven series, markers then still differ).
+SERIES_COLOURS: tuple[str, ...] = tuple(
+    OKABE_ITO[c]
+    for c in ("blue", "vermillion", "bluish green", "reddish purple", "orange", "sky blue", "black")
+)
+SERIES_MARKERS: tuple[str, ...] = ("o", "s", "D", "^", "v", "P", "X", "h")
+#: Line style by how the numbers were obtained.
+HOW_LINESTYLES: dict[str, str] = {"exact": "-", "bound": "--", "estimate": ":"}
+_THRESHOLD = {"color": "#333333", "linestyle": "-.", "linewidth": 1.1}
+_INK = "#222222"
+_STYLE = {
+    "font.family": "DejaVu Sans",
+    "font.size": 9.0,
+    "axes.titlesize": 10.0,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.labelsize": 9.0,
+    "axes.labelcolor": _INK,
+    "axes.edgecolor": "#555555",
+    "axes.linewidth": 0.8,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "axes.axisbelow": True,
+    "grid.color": "#dddddd",
+    "grid.linewidth": 0.6,
+    "xtick.color": "#444444",
+    "ytick.color": "#444444",
+    "xtick.labelsize": 8.5,
+    "ytick.labelsize": 8.5,
+    "legend.frameon": False,
+    "legend.fontsize": 8.0,
+    "lines.linewidth": 1.8,
+    "lines.markersize": 4.5,
+    "figure.facecolor": "white",
+    "axes.facecolor": "white",
+    "savefig.facecolor": "white",
+    "hatch.linewidth": 0.8,
+    "image.interpolation": "nearest",
+    # our dash patterns (in line widths): long dashes for bounds, fine dots for estimates
+    "lines.dashed_pattern": [3.4, 1.7],
+    "lines.dotted_pattern": [0.6, 1.2],
+    "lines.dashdot_pattern": [4.0, 1.2, 0.8, 1.2],
+}
+
+
+def render_png(figure: Any, *, dpi: int = DPI) -> bytes:
+    """Render a matplotlib figure to PNG bytes, deterministically.
+
+    Fixed ``dpi`` and no ``Software`` text chunk (PNG output from Agg carries no timestamp),
+    so the same figure and matplotlib version give the same bytes. The figure is not closed.
+    """
+    if isinstance(dpi, bool) or not isinstance(dpi, int) or not 30 <= dpi <= 1200:
+        raise InputError(f"dpi must be an integer from 30 to 1200, got {dpi!r}")
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": None})
+    return buffer.getvalue()
+
+
+# --------------------------------------------------------------------------- helpers
+
+
+def _new_figure(size: tuple[float, float]) -> Any:
+    from matplotlib.figure import Figure as MplFigure
+
+    return MplFigure(figsize=size, layout="constrained")
+
+
+def _style() -> Any:
+    import matplotlib
+
+    return matplotlib.rc_context(_STYLE)
+
+
+def _finish(fig: Any, name: str, caption: str, alt: str, data: dict[str, Any]) -> Figure:
+    return Figure(name=name, caption=caption, png=render_png(fig), alt=alt, data=data)
+
+
+def _plain_log_ticks(axis: Any) -> None:
+    """Label the major ticks of a log axis as plain numbers (0.01, 0.1, 1, 10, 1,000)."""
+    from matplotlib.ticker import FuncFormatter
+
+    def label(v: float, _pos: int) -> str:
+        return f"{v:,.0f}" if v >= 1 else f"{v:g}"
+
+    axis.set_major_formatter(FuncFormatter(label))
+
+
+def _numbers(values: Any, what: str, *, allow_missing: bool = False) -> np.ndarray:
+    """A 1-d float array; None becomes inf when ``allow_missing`` (meaning 'not reached')."""
+    if isinstance(values, (str, bytes)) or not hasattr(values, "__len__"):
+        raise InputError(f"{what} must be a list of numbers")
+    out = []
+    for k, v in enumerate(values):
+        if v is None and allow_missing:
+            out.append(math.inf)
+            continue
+        if isinstance(v, bool) or not isinstance(v, (int, float, np.integer, np.floating)):
+            raise InputError(f"{what}[{k}] must be a number, got {v!r}")
+        v = float(v)
+        if math.isnan(v) or (math.isinf(v) and not allow_missing):
+            raise InputError(f"{what}[{k}] must be finite, got {v!r}")
+        out.append(v)
+    return np.asarray(out, dtype=float)
+
+
+def _how(value: Any, what: str) -> str:
+    if value not in HOW_OBTAINED:
+        raise InputError(f"{what} must be one of {', '.join(HOW_OBTAINED)}, got {value!r}")
+    return str(value)
+
+
+def _check_keys(spec: Any, allowed: set[str], required: set[str], what: str) -> None:
+    if not isinstance(spec, Mapping):
+        raise InputError(f"{what} must be a mapping (dict), got {type(spec).__name__}")
+    unknown = sorted(set(spec) - allowed)
+    if unknown:
+        raise InputError(
+            f"{what}: unknown key {unknown[0]!r} (allowed: {', '.join(sorted(allowed))})"
+        )
+    missing = sorted(required - set(spec))
+    if missing:
+        raise InputError(f"{what}: missing key {missing[0]!r}")
+
+
+def _how_phrase(how: str, side: str | None) -> str:
+    return f"{side} bound" if how == "bound" else how
+
+
+def _level_text(level: float) -> str:
+    return f"{100 * level:.2f}".rstrip("0").rstrip(".") + "%"
+
+
+def _check_level(level: float) -> float:
+    if isinstance(level, bool) or not isinstance(level, (int, float)) or not 0 < level < 1:
+        raise InputError(f"confidence level must be in (0, 1), got {level!r}")
+    return float(level)
+
+
+def _series(
+    spec: Mapping[str, Any],
+    *,
+    x_key: str,
+    y_key: str,
+    what: str,
+    allow_missing: bool = False,
+) -> dict[str, Any]:
+    label = spec["label"]
+    if not isinstance(label, str) or not label.strip():
+        raise InputError(f"{what}: label must be non-empty text")
+    what = f"{what} {label!r}"
+    x = _numbers(spec[x_key], f"{what}: {x_key}")
+    y = _numbers(spec[y_key], f"{what}: {y_key}", allow_missing=allow_missing)
+    if len(x) == 0:
+        raise InputError(f"{what}: no points")
+    if len(x) != len(y):
+        raise InputError(f"{what}: {len(x)} {x_key} but {len(y)} {y_key}")
+    how = _how(spec["how"], f"{what}: how")
+    side = spec.get("side")
+    if how == "bound":
+        side = "upper" if side is None else side
+        if side not in ("upper", "lower"):
+            raise InputError(f"{what}: side must be 'upper' or 'lower', got {side!r}")
+    elif side is not None:
+        raise InputError(f"{what}: side is only for bounds")
+    low = high = None
+    if how == "estimate":
+        if "low" not in spec or "high" not in spec:
+            raise InputError(f"{what}: an estimate needs its confidence band (low and high)")
+        low = _numbers(spec["low"], f"{what}: low", allow_missing=allow_missing)
+        high = _numbers(spec["high"], f"{what}: high", allow_missing=allow_missing)
+        if len(low) != len(x) or len(high) != len(x):
+            raise InputError(f"{what}: low and high need one value per point")
+        finite = np.isfinite(y)
+        if np.any(low[finite] > y[finite]) or np.any(high[finite] < y[finite]):
+            raise InputError(f"{what}: the band must contain the estimate (low <= value <= high)")
+    elif "low" in spec or "high" in spec:
+        raise InputError(f"{what}: a confidence band (low, high) is only for estimates")
+    return {"label": label, "x": x, "y": y, "how": how, "side": side, "low": low, "high": high}
+
+
+def _as_list(a: np.ndarray | None) -> list[float | None] | None:
+    if a is None:
+        return None
+    return [
+        None if not math.isfinite(v) else (int(v) if float(v).is_integer() else float(v))
+        for v in a.tolist()
+    ]
+
+
+# --------------------------------------------------------------------------- distance
+
+
+_DISTANCE_KEYS = {"label", "steps", "values", "how", "side", "low", "high", "minimum", "group"}
+
+
+def _draw_distance(
+    series: list[dict[str, Any]],
+    *,
+    target: float | None,
+    metric: str,
+    steps_name: str,
+    log_scale: bool,
+    level: float,
+) -> Any:
+    fig = _new_figure((7.2, 4.4))
+    ax = fig.add_subplot()
+    groups: dict[str, int] = {}
+    for s in series:
+        g = groups.setdefault(s["group"], len(groups))
+        colour = SERIES_COLOURS[g % len(SERIES_COLOURS)]
+        marker = SERIES_MARKERS[g % len(SERIES_MARKERS)]
+        how_text = _how_phrase(s["how"], s["side"])
+        ax.plot(
+            s["x"],
+            s["y"],
+            color=colour,
+            marker=marker,
+            linestyle=HOW_LINESTYLES[s["how"]],
+            label=f"{s['label']} ({how_text})",
+            zorder=3,
+        )
+        if s["how"] == "estimate":
+            low = s["low"]
+            if log_scale:  # a band reaching 0 is drawn down to the bottom of the axis
+                low = np.where(low > 0, low, np.nan)
+            ax.fill_between(
+                s["x"],
+                low,
+                s["high"],
+                color=colour,
+                alpha=0.2,
+                linewidth=0,
+                zorder=2,
+                label=f"{s['label']}: {_level_text(level)} band",
+            )
+        if s["minimum"] is not None:
+            k = int(np.flatnonzero(s["x"] == s["minimum"])[0])
+            ax.plot(
+                [s["x"][k]],
+                [s["y"][k]],
+                marker="o",
+                markersize=13,
+                markerfacecolor="none",
+                markeredgecolor=_INK,
+                markeredgewidth=1.5,
+                linestyle="none",
+                zorder=4,
+            )
+            ax.annotate(
+                f"minimum: {s['minimum']:g} {steps_name} ({how_text})",
+                xy=(s["x"][k], s["y"][k]),
+                xytext=(10, 12),
+                textcoords="offset points",
+                fontsize=8,
+                color=_INK,
+                arrowprops={"arrowstyle": "-", "color": _INK, "linewidth": 0.8},
+                zorder=5,
+            )
+    if target is not None:
+        ax.axhline(target, **_THRESHOLD, label=f"target = {target:g}", zorder=1)
+    if log_scale:
+        ax.set_yscale("log")
+        _plain_log_ticks(ax.yaxis)
+    else:
+        ax.set_ylim(bottom=0)
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_xlabel(f"number of {steps_name}")
+    ax.set_ylabel(f"{metric} to random" + (" (log scale)" if log_scale else ""))
+    if any(s["minimum"] is not None for s in series):
+        ax.plot(
+            [],
+            [],
+            marker="o",
+            markersize=9,
+            markerfacecolor="none",
+            markeredgecolor=_INK,
+            linestyle="none",
+            label="chosen minimum",
+        )
+    ax.legend(loc="best")
+    return fig
+
+
+def distance_figure(
+    curves: Sequence[Mapping[str, Any]],
+    *,
+    target: float | None = None,
+    metric: str = "total variation distance",
+    steps_name: str = "steps",
+    log_scale: bool = False,
+    level: float = 0.95,
+    name: str = "distance",
+    caption: str | None = None,
+) -> Figure:
+    """Distance to random against the number of steps, one or several curves on one chart.
+
+    Parameters
+    ----------
+    curves : sequence of dict
+        One dict per curve with keys ``label`` (text), ``steps`` (step counts), ``values``
+        (distances), ``how`` (``"exact"``, ``"bound"`` or ``"estimate"``); for a bound
+        optionally ``side`` (``"upper"``, the default, or ``"lower"``); for an estimate
+        ``low`` and ``high`` (its confidence band, required); optionally ``minimum`` (a step
+        count in ``steps`` to mark as the chosen minimum) and ``group`` (curves with the same
+        group share colour and marker, e.g. the exact values and a bound for one procedure;
+        default: the label).
+    target : float or None
+        Drawn as a horizontal dash-dot line.
+    metric : str
+        Name of the distance, for the axis label (unitless; say ``"KL divergence (bits)"``
+        for a quantity with a unit).
+    steps_name : str
+        What a step is, plural (``"riffles"``, ``"passes"``), for the axis label.
+    log_scale : bool
+        Logarithmic distance axis (every value must then be > 0).
+    level : float
+        Confidence level of the estimate bands, for the legend and caption.
+    name, caption : str
+        File stem and caption of the figure (a caption is written if none is given).
+
+    Returns
+    -------
+    Figure
+        PNG at :data:`DPI` (1080 x 660 pixels) and ``data`` with every plotted number.
+    """
+    level = _check_level(level)
+    if isinstance(curves, Mapping) or not len(curves):
+        raise InputError("distance figure needs a list of one or more curves")
+    series = []
+    for k, spec in enumerate(curves):
+        what = f"distance figure, curve {k + 1}"
+        _check_keys(spec, _DISTANCE_KEYS, {"label", "steps", "values", "how"}, what)
+        s = _series(spec, x_key="steps", y_key="values", what=what)
+        s["group"] = str(spec.get("group", s["label"]))
+        minimum = spec.get("minimum")
+        if minimum is not None and not np.any(s["x"] == minimum):
+            raise InputError(f"{what}: minimum {minimum!r} is not one of its steps")
+        s["minimum"] = minimum
+        if log_scale and np.any(s["y"] <= 0):
+            raise InputError(f"{what}: a value <= 0 cannot be shown on a log scale")
+        series.append(s)
+    if target is not None:
+        if isinstance(target, bool) or not isinstance(target, (int, float)):
+            raise InputError(f"target must be a number, got {target!r}")
+        if not math.isfinite(target) or (log_scale and target <= 0):
+            raise InputError(f"target {target!r} cannot be drawn")
+    with _style():
+        fig = _draw_distance(
+            series,
+            target=target,
+            metric=metric,
+            steps_name=steps_name,
+            log_scale=log_scale,
+            level=level,
+        )
+        if caption is None:
+            caption = (
+                f"{metric[:1].upper()}{metric[1:]} to random against the number of "
+                f"{steps_name}. Line style shows how each value was obtained: solid = exact, "
+                f"dashed = rigorous bound, dotted with a shaded band = estimate with its "
+                f"{_level_text(level)} confidence band."
+            )
+            if target is not None:
+                caption += " The dash-dot line is the target."
+            if any(s["minimum"] is not None for s in series):
+                caption += " A ring marks the chosen minimum."
+        data = {
+            "kind": "distance",
+            "metric": metric,
+            "steps_name": steps_name,
+            "log_scale": log_scale,
+            "target": target,
+            "level": level,
+            "curves": [
+                {
+                    "label": s["label"],
+                    "group": s["group"],
+                    "how": s["how"],
+                    "side": s["side"],
+                    "steps": _as_list(s["x"]),
+                    "values": s["y"].tolist(),
+                    "low": None if s["low"] is None else s["low"].tolist(),
+                    "high": None if s["high"] is None else s["high"].tolist(),
+                    "minimum": s["minimum"],
+                }
+                for s in series
+            ],
+        }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- heat map
+
+
+def _draw_heatmap(
+    matrix: np.ndarray,
+    *,
+    kind: str,
+    limit: float,
+    row_name: str,
+    col_name: str,
+    value_name: str,
+    row_labels: Sequence[str] | None,
+    col_labels: Sequence[str] | None,
+) -> Any:
+    rows, cols = matrix.shape
+    width = 6.8
+    height = min(max(2.6, width * rows / cols * 0.86 + 0.9), 8.0)
+    fig = _new_figure((width, height))
+    ax = fig.add_subplot()
+    ax.grid(False)
+    if kind == "residuals":
+        cmap, vmin, vmax = "PuOr_r", -limit, limit
+    else:
+        cmap, vmin, vmax = "cividis", 0.0, max(float(matrix.max()), 1.0)
+    image = ax.imshow(
+        matrix,
+        cmap=cmap,
+        vmin=vmin,
+        vmax=vmax,
+        aspect="equal" if rows == cols else "auto",
+        interpolation="nearest",
+        extent=(0.5, cols + 0.5, rows + 0.5, 0.5),
+    )
+    bar = fig.colorbar(image, ax=ax, shrink=0.85, pad=0.02)
+    bar.set_label(value_name)
+    bar.outline.set_linewidth(0.6)
+    for axis, count, labels in ((ax.xaxis, cols, col_labels), (ax.yaxis, rows, row_labels)):
+        step = max(1, math.ceil(count / 13))
+        ticks = list(range(1, count + 1, step))
+        axis.set_ticks(ticks)
+        if labels is not None:
+            axis.set_ticklabels([labels[t - 1] for t in ticks])
+    for side in ("top", "right", "left", "bottom"):
+        ax.spines[side].set_visible(True)
+    ax.set_xlabel(col_name)
+    ax.set_ylabel(row_name)
+    return fig
+
+
+def heatmap_figure(
+    matrix: Any,
+    *,
+    kind: str = "counts",
+    limit: float | None = None,
+    row_name: str = "card (reference order, 1 = top)",
+    col_name: str = "position in the deck (1 = top)",
+    value_name: str | None = None,
+    row_labels: Sequence[str] | None = None,
+    col_labels: Sequence[str] | None = None,
+    name: str = "positions",
+    caption: str | None = None,
+) -> Figure:
+    """Heat map of a rows x columns table, e.g. how often each card was found at each position.
+
+    Parameters
+    ----------
+    matrix : 2-d array-like of numbers
+        ``matrix[i][j]`` for row ``i`` (card) and column ``j`` (position), as given (nothing
+        is computed here).
+    kind : {"counts", "residuals"}
+        ``"counts"``: non-negative counts on the sequential cividis scale from 0.
+        ``"residuals"``: signed standardised residuals on a diverging purple-orange scale
+        centred at 0 (orange = more often than expected, purple = less often).
+    limit : float or None
+        For residuals, the colour scale runs from ``-limit`` to ``limit``; default
+        ``max(3, largest |residual|)``, so that residuals within ±3 (ordinary chance
+        variation for one cell) stay pale.
+    row_name, col_name, value_name : str
+        Axis and colour-bar titles.
+    row_labels, col_labels : sequence of str or None
+        Tick labels (e.g. card codes); default 1, 2, ...
+    name, caption : str
+
+    Returns
+    -------
+    Figure
+    """
+    if kind not in ("counts", "residuals"):
+        raise InputError(f"heat map kind must be 'counts' or 'residuals', got {kind!r}")
+    try:
+        array = np.asarray(matrix, dtype=float)
+    except (TypeError, ValueError):
+        raise InputError("heat map matrix must be a rectangular table of numbers") from None
+    if array.ndim != 2 or array.shape[0] < 1 or array.shape[1] < 1:
+        raise InputError(f"heat map matrix must be 2-d and non-empty, got shape {array.shape}")
+    if not np.all(np.isfinite(array)):
+        raise InputError("heat map matrix must hold finite numbers only")
+    if kind == "counts" and np.any(array < 0):
+        raise InputError("heat map counts must be >= 0 (use kind='residuals' for signed values)")
+    for labels, count, what in (
+        (row_labels, array.shape[0], "row"),
+        (col_labels, array.shape[1], "column"),
+    ):
+        if labels is not None and len(labels) != count:
+            raise InputError(f"heat map: {len(labels)} {what} labels for {count} {what}s")
+    if kind == "residuals":
+        largest = float(np.max(np.abs(array)))
+        limit = max(3.0, largest) if limit is None else float(limit)
+        if not limit > 0:
+            raise InputError(f"heat map limit must be > 0, got {limit!r}")
+    if value_name is None:
+        value_name = "standardised residual" if kind == "residuals" else "number of decks"
+    with _style():
+        fig = _draw_heatmap(
+            array,
+            kind=kind,
+            limit=limit or 0.0,
+            row_name=row_name,
+            col_name=col_name,
+            value_name=value_name,
+            row_labels=row_labels,
+            col_labels=col_labels,
+        )
+        if caption is None:
+            if kind == "residuals":
+                caption = (
+                    f"Standardised residuals by {row_name} and {col_name}: orange = more often "
+                    "than expected under a random deck, purple = less often; the scale runs "
+                    f"from -{limit:g} to {limit:g}."
+                )
+            else:
+                caption = f"Counts by {row_name} and {col_name}."
+        data = {
+            "kind": "heatmap",
+            "values_kind": kind,
+            "row_name": row_name,
+            "col_name": col_name,
+            "value_name": value_name,
+            "limit": limit if kind == "residuals" else None,
+            "row_labels": list(row_labels) if row_labels is not None else None,
+            "col_labels": list(col_labels) if col_labels is not None else None,
+            "values": [[int(v) if v.is_integer() else v for v in row] for row in array.tolist()],
+        }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- p-values
+
+
+def _draw_pvalues(
+    tests: list[str],
+    pvalues: np.ndarray,
+    how: list[str],
+    flagged: list[bool],
+    alpha: float,
+    xlabel: str,
+) -> Any:
+    count = len(tests)
+    fig = _new_figure((7.2, 1.3 + 0.36 * count))
+    ax = fig.add_subplot()
+    y = np.arange(count)
+    low = min(float(pvalues.min()), alpha) / 4
+    left = 10.0 ** math.floor(math.log10(low))
+    colours = [OKABE_ITO["vermillion"] if f else OKABE_ITO["sky blue"] for f in flagged]
+    hatches = ["////" if f else "" for f in flagged]
+    bars = ax.barh(
+        y,
+        1.0 - pvalues,
+        left=pvalues,
+        height=0.62,
+        color=colours,
+        edgecolor=_INK,
+        linewidth=0.7,
+        zorder=2,
+    )
+    for bar, hatch in zip(bars, hatches, strict=True):
+        bar.set_hatch(hatch)
+    ax.axvline(alpha, **_THRESHOLD, zorder=3, label=f"alpha = {alpha:g}")
+    ax.set_xscale("log")
+    _plain_log_ticks(ax.xaxis)
+    ax.set_xlim(left, 1.0)
+    ax.set_ylim(count - 0.5, -0.5)
+    ax.set_yticks(y)
+    ax.set_yticklabels(tests)
+    for tick, f in zip(ax.get_yticklabels(), flagged, strict=True):
+        if f:
+            tick.set_fontweight("bold")
+    values = ax.secondary_yaxis("right")
+    values.set_yticks(
+        y, [f"{pvalues[k]:.3g} ({how[k]})" + (" flagged" if flagged[k] else "") for k in y]
+    )
+    values.tick_params(length=0, labelsize=8)
+    values.spines["right"].set_visible(False)
+    for tick, f in zip(values.get_yticklabels(), flagged, strict=True):
+        if f:
+            tick.set_fontweight("bold")
+    from matplotlib.patches import Patch
+
+    handles = [
+        Patch(facecolor=OKABE_ITO["vermillion"], edgecolor=_INK, hatch="////", label="flagged"),
+        Patch(facecolor=OKABE_ITO["sky blue"], edgecolor=_INK, label="not flagged"),
+        ax.get_lines()[0],
+    ]
+    ax.legend(
+        handles=handles, loc="lower left", bbox_to_anchor=(0.0, 1.0), ncols=3, borderaxespad=0.3
+    )
+    ax.grid(axis="y", visible=False)
+    ax.set_xlabel(xlabel)
+    return fig
+
+
+def pvalue_figure(
+    tests: Sequence[str],
+    pvalues: Sequence[float],
+    how: Sequence[str],
+    *,
+    alpha: float = 0.05,
+    flagged: Sequence[bool] | None = None,
+    xlabel: str = "adjusted p-value (log scale)",
+    name: str = "pvalues",
+    caption: str | None = None,
+) -> Figure:
+    """Adjusted p-values per test as horizontal bars on a log axis, with the level alpha.
+
+    Each bar runs from the p-value to 1, so a longer bar means stronger evidence. Flagged
+    tests are hatched, bold and marked ``flagged`` in words, not by colour alone.
+
+    Parameters
+    ----------
+    tests : sequence of str
+        Test names, drawn top to bottom in this order.
+    pvalues : sequence of float
+        Adjusted p-values in (0, 1].
+    how : sequence of str
+        How each p-value was obtained (``"exact"`` or ``"estimate"``; shown beside it).
+    alpha : float
+        Family-wise significance level, drawn as a dash-dot line.
+    flagged : sequence of bool or None
+        Which tests to flag; default: those with p-value <= alpha.
+    xlabel, name, caption : str
+
+    Returns
+    -------
+    Figure
+    """
+    names = [str(t) for t in tests]
+    p = _numbers(pvalues, "p-value figure: pvalues")
+    labels = [_how(h, "p-value figure: how") for h in how]
+    if not names:
+        raise InputError("p-value figure needs at least one test")
+    if len(p) != len(names) or len(labels) != len(names):
+        raise InputError(
+            f"p-value figure: {len(names)} tests, {len(p)} p-values, {len(labels)} labels"
+        )
+    bad = [k for k in range(len(p)) if not 0 < p[k] <= 1]
+    if bad:
+        raise InputError(
+            f"p-value figure: p-value of {names[bad[0]]!r} must be in (0, 1], got {p[bad[0]]!r}"
+        )
+    if isinstance(alpha, bool) or not isinstance(alpha, (int, float)) or not 0 < alpha < 1:
+        raise InputError(f"alpha must be in (0, 1), got {alpha!r}")
+    marks = [bool(v <= alpha) for v in p] if flagged is None else [bool(f) for f in flagged]
+    if len(marks) != len(names):
+        raise InputError(f"p-value figure: {len(marks)} flags for {len(names)} tests")
+    with _style():
+        fig = _draw_pvalues(names, p, labels, marks, float(alpha), xlabel)
+        if caption is None:
+            caption = (
+                f"Adjusted p-value of each test (log scale); each bar runs from the p-value "
+                f"to 1, so longer bars mean stronger evidence against a random deck. The "
+                f"dash-dot line is the level alpha = {alpha:g}; flagged tests are hatched, "
+                "in bold and marked 'flagged'."
+            )
+        data = {
+            "kind": "pvalues",
+            "alpha": float(alpha),
+            "tests": [
+                {"test": t, "pvalue": float(v), "how": h, "flagged": f}
+                for t, v, h, f in zip(names, p, labels, marks, strict=True)
+            ],
+        }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- scores
+
+
+def _draw_scores(
+    observed: np.ndarray,
+    expected: np.ndarray,
+    *,
+    observed_mean: float,
+    null_mean: float,
+    shown: int,
+    score_name: str,
+    count_name: str,
+) -> Any:
+    fig = _new_figure((7.2, 4.2))
+    ax = fig.add_subplot()
+    k = np.arange(shown)
+    ax.bar(
+        k,
+        observed[:shown],
+        width=0.72,
+        color=OKABE_ITO["sky blue"],
+        edgecolor=_INK,
+        linewidth=0.7,
+        label="recorded decks",
+        zorder=2,
+    )
+    ax.step(
+        k,
+        expected[:shown],
+        where="mid",
+        color=_INK,
+        linewidth=1.0,
+        linestyle=HOW_LINESTYLES["exact"],
+        zorder=3,
+    )
+    ax.plot(
+        k,
+        expected[:shown],
+        color=_INK,
+        marker="o",
+        markersize=4.5,
+        linestyle="none",
+        label="expected under a random deck (exact law)",
+        zorder=4,
+    )
+    ax.axvline(
+        null_mean,
+        color=_INK,
+        linewidth=1.0,
+        linestyle=HOW_LINESTYLES["exact"],
+        label="mean under a random deck (exact)",
+        zorder=1,
+    )
+    ax.axvline(
+        observed_mean,
+        color=OKABE_ITO["vermillion"],
+        linewidth=1.8,
+        linestyle=HOW_LINESTYLES["estimate"],
+        label="mean of the recorded decks",
+        zorder=1,
+    )
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_xlim(-0.6, shown - 0.4)
+    ax.set_ylim(bottom=0)
+    ax.set_xlabel(score_name)
+    ax.set_ylabel(count_name)
+    ax.grid(axis="x", visible=False)
+    ax.legend(loc="upper right")
+    return fig
+
+
+def score_histogram_figure(
+    scores: Sequence[int],
+    null_pmf: Sequence[float],
+    *,
+    score_name: str = "score per deck",
+    count_name: str = "number of decks",
+    name: str = "scores",
+    caption: str | None = None,
+) -> Figure:
+    """Histogram of per-deck scores of a log against the exact null law of the score.
+
+    Bars: how many recorded decks had each score. Points joined by a step line: the expected
+    number under a random deck, ``decks * null_pmf[k]``. Vertical lines: the mean of the
+    recorded decks (dotted) and the null mean (solid).
+
+    Parameters
+    ----------
+    scores : sequence of int
+        One score per recorded deck, each in ``0 .. len(null_pmf) - 1``.
+    null_pmf : sequence of float
+        ``null_pmf[k]`` is the probability of score ``k`` under a random deck (sums to 1
+        within 1e-9).
+    score_name, count_name, name, caption : str
+
+    Returns
+    -------
+    Figure
+        The score axis stops after the last score that was recorded or whose expected count
+        is at least 0.5; ``data`` holds the whole law.
+    """
+    pmf = _numbers(null_pmf, "score figure: null_pmf")
+    if len(pmf) == 0 or np.any(pmf < 0) or abs(float(pmf.sum()) - 1.0) > 1e-9:
+        raise InputError("score figure: null_pmf must be probabilities summing to 1")
+    values = _numbers(scores, "score figure: scores")
+    if len(values) == 0:
+        raise InputError("score figure: no scores")
+    if np.any(values != np.round(values)) or np.any(values < 0) or np.any(values >= len(pmf)):
+        bad = next(v for v in values if v != round(v) or not 0 <= v < len(pmf))
+        raise InputError(
+            f"score figure: score {bad:g} is not a whole number from 0 to {len(pmf) - 1}"
+        )
+    ints = values.astype(np.int64)
+    observed = np.bincount(ints, minlength=len(pmf)).astype(float)
+    decks = len(ints)
+    expected = decks * pmf
+    visible = np.flatnonzero((observed > 0) | (expected >= 0.5))
+    shown = int(visible.max()) + 2 if len(visible) else len(pmf)
+    shown = min(shown, len(pmf))
+    null_mean = float(np.dot(np.arange(len(pmf)), pmf))
+    observed_mean = float(ints.mean())
+    with _style():
+        fig = _draw_scores(
+            observed,
+            expected,
+            observed_mean=observed_mean,
+            null_mean=null_mean,
+            shown=shown,
+            score_name=score_name,
+            count_name=count_name,
+        )
+        if caption is None:
+            caption = (
+                f"{score_name[:1].upper()}{score_name[1:]} in the recorded decks (bars) "
+                "against the number expected under a random deck (points on a step line, "
+                "exact law). The dotted line is the mean of the recorded decks, the solid "
+                "line the mean under a random deck."
+            )
+        data = {
+            "kind": "scores",
+            "score_name": score_name,
+            "decks": decks,
+            "observed_counts": [int(v) for v in observed],
+            "null_pmf": pmf.tolist(),
+            "expected_counts": expected.tolist(),
+            "observed_mean": observed_mean,
+            "null_mean": null_mean,
+        }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- power
+
+
+_POWER_KEYS = {"label", "x", "decks", "how", "side", "low", "high"}
+
+
+def _draw_power(
+    series: list[dict[str, Any]], *, x_name: str, y_name: str, log_scale: bool, level: float
+) -> Any:
+    fig = _new_figure((7.2, 4.4))
+    ax = fig.add_subplot()
+    finite = np.concatenate([s["y"][np.isfinite(s["y"])] for s in series] or [np.array([])])
+    finite_high = np.concatenate(
+        [s["high"][np.isfinite(s["high"])] for s in series if s["high"] is not None]
+        or [np.array([])]
+    )
+    top_data = float(max(finite.max(initial=1.0), finite_high.max(initial=1.0)))
+    ceiling = top_data * (3.0 if log_scale else 1.15)
+    unreached_drawn = False
+    for g, s in enumerate(series):
+        colour = SERIES_COLOURS[g % len(SERIES_COLOURS)]
+        marker = SERIES_MARKERS[g % len(SERIES_MARKERS)]
+        reached = np.isfinite(s["y"])
+        y = np.where(reached, s["y"], np.nan)
+        ax.plot(
+            s["x"],
+            y,
+            color=colour,
+            marker=marker,
+            linestyle=HOW_LINESTYLES[s["how"]],
+            label=f"{s['label']} ({_how_phrase(s['how'], s['side'])})",
+            zorder=3,
+        )
+        if s["how"] == "estimate":
+            ok = reached & np.isfinite(s["low"]) & np.isfinite(s["high"])
+            ax.fill_between(
+                s["x"],
+                np.where(ok, s["low"], np.nan),
+                np.where(ok, s["high"], np.nan),
+                color=colour,
+                alpha=0.2,
+                linewidth=0,
+                zorder=2,
+            )
+        if not reached.all():  # side by side when several tests miss at the same count
+            shift = 0.08 * (g - (len(series) - 1) / 2)
+            ax.plot(
+                s["x"][~reached] + shift,
+                np.full((~reached).sum(), ceiling),
+                marker="^",
+                markersize=8,
+                markerfacecolor="white",
+                markeredgecolor=colour,
+                markeredgewidth=1.5,
+                linestyle="none",
+                clip_on=False,
+                zorder=4,
+            )
+            unreached_drawn = True
+    if unreached_drawn:
+        ax.plot(
+            [],
+            [],
+            marker="^",
+            markersize=8,
+            markerfacecolor="white",
+            markeredgecolor=_INK,
+            linestyle="none",
+            label="not reached within the planning limit (drawn at the top)",
+        )
+    if log_scale:
+        ax.set_yscale("log")
+        _plain_log_ticks(ax.yaxis)
+        ax.set_ylim(top=ceiling)
+    else:
+        ax.set_ylim(0, ceiling)
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_xlabel(f"number of {x_name}")
+    ax.set_ylabel(y_name + (" (log scale)" if log_scale else ""))
+    ax.legend(loc="best")
+    return fig
+
+
+def power_figure(
+    curves: Sequence[Mapping[str, Any]],
+    *,
+    x_name: str = "riffles",
+    y_name: str = "decks needed",
+    log_scale: bool = True,
+    level: float = 0.95,
+    name: str = "power",
+    caption: str | None = None,
+) -> Figure:
+    """Sample size needed to detect a procedure, against its repetition count, per test.
+
+    Parameters
+    ----------
+    curves : sequence of dict
+        One dict per test with keys ``label``, ``x`` (repetition counts), ``decks`` (decks
+        needed; ``None`` or ``inf`` where the planning limit was not enough, drawn as a hollow
+        triangle at the top), ``how``; for a bound optionally ``side``; for an estimate ``low``
+        and ``high`` (its confidence band, required).
+    x_name : str
+        What is repeated, plural (``"riffles"``, ``"repetitions"``).
+    y_name : str
+        The sample-size axis title.
+    log_scale : bool
+        Logarithmic sample-size axis (the default; values must then be > 0).
+    level : float
+        Confidence level of estimate bands (for the caption).
+    name, caption : str
+
+    Returns
+    -------
+    Figure
+    """
+    level = _check_level(level)
+    if isinstance(curves, Mapping) or not len(curves):
+        raise InputError("power figure needs a list of one or more curves")
+    series = []
+    for k, spec in enumerate(curves):
+        what = f"power figure, curve {k + 1}"
+        _check_keys(spec, _POWER_KEYS, {"label", "x", "decks", "how"}, what)
+        s = _series(spec, x_key="x", y_key="decks", what=what, allow_missing=True)
+        if np.any(s["y"] < 0) or (log_scale and np.any(s["y"] <= 0)):
+            raise InputError(f"{what}: decks needed must be > 0")
+        series.append(s)
+    with _style():
+        fig = _draw_power(series, x_name=x_name, y_name=y_name, log_scale=log_scale, level=level)
+        if caption is None:
+            caption = (
+                f"{y_name[:1].upper()}{y_name[1:]} against the number of {x_name}, one line "
+                "per test. Solid = exact, dashed = bound, dotted with a shaded band = estimate "
+                f"with its {_level_text(level)} confidence band. A hollow triangle at the top "
+                "means the planning limit was not enough."
+            )
+        data = {
+            "kind": "power",
+            "x_name": x_name,
+            "y_name": y_name,
+            "log_scale": log_scale,
+            "level": level,
+            "curves": [
+                {
+                    "label": s["label"],
+                    "how": s["how"],
+                    "side": s["side"],
+                    "x": _as_list(s["x"]),
+                    "decks": _as_list(s["y"]),
+                    "low": _as_list(s["low"]),
+                    "high": _as_list(s["high"]),
+                }
+                for s in series
+            ],
+        }
+        return _finish(fig, name, caption, caption, data)

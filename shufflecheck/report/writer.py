@@ -1,0 +1,189 @@
+"""Write a report folder atomically: ``report.md``, ``report.html``, ``report.json``, figures.
+
+Everything is rendered in memory first, then written into a temporary sibling folder
+(``.<name>.<random>.tmp`` beside the target) and renamed into place in one step, so a reader
+never sees a half-written report and a failure leaves no partial folder behind.
+
+An existing report folder is replaced only with ``force=True``: the old folder is first
+renamed aside, the new one renamed in, and only then is the old one deleted; if the second
+rename fails the old folder is put back. Between those two renames (a few microseconds)
+the path is briefly absent, but it never holds a mix of old and new files.
+
+Replacing is refused unless the existing folder holds nothing but what a report writes
+(``report.md``, ``report.html``, ``report.json`` naming the report format, and
+``figures/*.png``): a mistyped ``--report`` pointing at a folder of input logs can never
+delete them.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import os
+import shutil
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from shufflecheck.errors import InputError
+from shufflecheck.report.document import FORMAT_NAME, Report, render_json
+from shufflecheck.report.html import render_html
+from shufflecheck.report.markdown import render_markdown
+
+__all__ = ["REPORT_FILES", "WrittenReport", "render_files", "write_report"]
+
+#: The files at the top of a report folder (figures go in ``figures/``).
+REPORT_FILES = ("report.md", "report.html", "report.json")
+
+
+@dataclass(frozen=True)
+class WrittenReport:
+    """Where a report was written and the files it holds (relative, ``/``-separated)."""
+
+    folder: Path
+    files: tuple[str, ...]
+
+
+def render_files(report: Report) -> dict[str, bytes]:
+    """Every file of the report folder, by relative path, as bytes (UTF-8 for text).
+
+    Rendering is pure: the same report gives the same bytes. Text that cannot be encoded
+    (an undecodable file name, kept by Python as lone surrogates) is written as ``\\udcXX``.
+    """
+    files = {
+        "report.md": render_markdown(report).encode("utf-8", "backslashreplace"),
+        "report.html": render_html(report).encode("utf-8", "backslashreplace"),
+        "report.json": render_json(report).encode("utf-8", "backslashreplace"),
+    }
+    for _, _, figure in report.numbered_figures():
+        files[figure.file] = figure.png
+    return files
+
+
+def write_report(
+    report: Report, folder: str | os.PathLike[str], *, force: bool = False
+) -> WrittenReport:
+    """Write ``report`` as a folder at ``folder``, atomically.
+
+    Parameters
+    ----------
+    report : Report
+    folder : path
+        The report folder to create. Its parent must exist.
+    force : bool
+        Replace an existing report folder (atomically, see the module notes). Without it an
+        existing ``folder`` is an error.
+
+    Returns
+    -------
+    WrittenReport
+
+    Raises
+    ------
+    InputError
+        The parent folder does not exist; ``folder`` exists and ``force`` is not given;
+        ``folder`` is a file; or ``folder`` holds files a report does not write.
+    """
+    target = Path(folder)
+    if target.name in ("", ".", ".."):
+        raise InputError(f"report folder {str(folder)!r} must name a new folder")
+    parent = target.parent
+    if not parent.is_dir():
+        raise InputError(f"cannot write report to {target}: folder {parent} does not exist")
+    if target.exists() or target.is_symlink():
+        if not target.is_dir() or target.is_symlink():
+            raise InputError(f"cannot write report to {target}: it exists and is not a folder")
+        if not force:
+            raise InputError(f"report folder {target} exists; pass --force to replace it")
+        _check_replaceable(target)
+
+    files = render_files(report)  # render everything before touching the disk
+    staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".tmp", dir=parent))
+    try:
+        for relative, content in files.items():
+            path = staging / relative
+            path.parent.mkdir(exist_ok=True)
+            _write_file(path, content)
+        _fsync_dir(staging)
+        if target.exists():
+            _swap_in(staging, target)
+        else:
+            try:
+                os.rename(staging, target)
+            except OSError as exc:
+                if not target.exists():
+                    raise
+                raise InputError(
+                    f"report folder {target} appeared while the report was written; "
+                    "nothing was changed"
+                ) from exc
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    _fsync_dir(parent)
+    return WrittenReport(folder=target, files=tuple(files))
+
+
+def _write_file(path: Path, content: bytes) -> None:
+    with open(path, "xb") as handle:
+        handle.write(content)
+        handle.flush()
+        os.fsync(handle.fileno())
+
+
+def _fsync_dir(path: Path) -> None:
+    """Flush a folder's entries to disk where the platform allows it."""
+    with contextlib.suppress(OSError):
+        fd = os.open(path, os.O_RDONLY)
+        try:
+            os.fsync(fd)
+        finally:
+            os.close(fd)
+
+
+def _swap_in(staging: Path, target: Path) -> None:
+    """Rename ``target`` aside, ``staging`` into its place, then delete the old folder."""
+    trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".old", dir=target.parent))
+    old = trash / target.name
+    os.rename(target, old)
+    try:
+        os.rename(staging, target)
+    except BaseException:
+        os.rename(old, target)  # put the old report back
+        shutil.rmtree(trash, ignore_errors=True)
+        raise
+    shutil.rmtree(trash, ignore_errors=True)
+
+
+def _check_replaceable(target: Path) -> None:
+    """Refuse to replace a folder that holds anything a report does not write."""
+    foreign = []
+    for entry in sorted(target.iterdir()):
+        if entry.name in REPORT_FILES and entry.is_file() and not entry.is_symlink():
+            continue
+        if entry.name == "figures" and entry.is_dir() and not entry.is_symlink():
+            foreign += [
+                f"figures/{f.name}"
+                for f in sorted(entry.iterdir())
+                if f.suffix != ".png" or not f.is_file() or f.is_symlink()
+            ]
+            continue
+        foreign.append(entry.name)
+    if foreign:
+        raise InputError(
+            f"refusing to replace {target}: it holds files a report does not write "
+            f"({', '.join(foreign[:3])}{', ...' if len(foreign) > 3 else ''})"
+        )
+    if not any(target.iterdir()):
+        return  # an empty folder holds nothing to lose
+    marker = target / "report.json"
+    try:
+        with open(marker, encoding="utf-8") as handle:
+            fmt = json.load(handle).get("format")
+    except (OSError, ValueError, AttributeError):
+        fmt = None
+    if fmt != FORMAT_NAME:
+        raise InputError(
+            f"refusing to replace {target}: it is not a report folder "
+            f"(no report.json of format {FORMAT_NAME!r})"
+        )
