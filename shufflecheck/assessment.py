@@ -394,6 +394,7 @@ def _row(
         guessing[name] = Quantity(
             mean,
             "estimate",
+            confidence=confidence,
             interval=(mean - hw, mean + hw),
             stderr=stderr,
             method=f"Monte Carlo, {decks:,} decks",
@@ -408,6 +409,7 @@ def _row(
     extra = Quantity(
         mean1 - uniform_mean,
         "estimate",
+        confidence=confidence,
         interval=(mean1 - uniform_mean - hw1, mean1 - uniform_mean + hw1),
         stderr=stderr1,
         method=(

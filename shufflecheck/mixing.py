@@ -119,6 +119,8 @@ class Quantity:
         if self.kind == "bound":
             text = f"{self.side} bound" if self.side else "bound"
             return f"{text} ({self.confidence:.0%} confidence)" if self.confidence else text
+        if self.kind == "estimate" and self.confidence and self.interval:
+            return f"estimate ({self.confidence:.0%} interval)"
         return self.kind
 
     def as_dict(self) -> dict[str, object]:

@@ -13,7 +13,8 @@ import math
 import sys
 from collections.abc import Callable, Iterator
 from fractions import Fraction
-from typing import Any
+from pathlib import Path
+from typing import Annotated, Any
 
 import typer
 from typer.core import TyperGroup
@@ -45,6 +46,14 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     rich_markup_mode=None,
 )
+
+
+#: ``--report DIR`` and ``--force``, shared by every analysis command
+ReportOption = Annotated[
+    Path | None,
+    typer.Option(help="Write a report folder here: report.md, report.html, report.json, figures/."),
+]
+ForceOption = Annotated[bool, typer.Option(help="Replace an existing report folder.")]
 
 
 def _json_default(value: Any) -> Any:
@@ -107,3 +116,11 @@ def progress(total: int, label: str) -> Iterator[Callable[[int], None]]:
             state["done"] = done
 
         yield update
+
+
+def save_report(document: Any, folder: Any, *, force: bool) -> str:
+    """Write a report folder (atomically; refuses to replace without ``force``)."""
+    from shufflecheck.report.writer import write_report
+
+    written = write_report(document, folder, force=force)
+    return str(written.folder)

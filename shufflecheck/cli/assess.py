@@ -7,7 +7,15 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import app, echo, emit_json, progress
+from shufflecheck.cli._app import (
+    ForceOption,
+    ReportOption,
+    app,
+    echo,
+    emit_json,
+    progress,
+    save_report,
+)
 
 CAUTION = (
     "Statistical evidence about the modelled procedure, not a certification: shuffling "
@@ -41,6 +49,8 @@ def assess(
     plot: Annotated[
         Path | None, typer.Option(help="Draw the bounds against r to this PNG.")
     ] = None,
+    report: ReportOption = None,
+    force: ForceOption = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
 ) -> None:
     """Distance to a random deck and an observant player's edge, for r = 1..R repetitions.
@@ -60,14 +70,32 @@ def assess(
         result = run_assessment(
             proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
         )
+    payload = assessment_payload(result)
+    figure = _figure(result) if plot or report else None
     if plot is not None:
-        _plot(result, plot)
+        from shufflecheck.fileio import atomic_write
+
+        atomic_write(plot, figure.png)
+    if report is not None:
+        from shufflecheck.report.assess_report import assessment_report
+        from shufflecheck.report.provenance import collect_provenance
+
+        inputs = [procedure] if procedure.lower().endswith(".toml") else []
+        document = assessment_report(
+            result,
+            payload=payload,
+            figure=figure,
+            provenance=collect_provenance(inputs, seeds={"simulation": seed}),
+        )
+        written = save_report(document, report, force=force)
     if json_out:
-        emit_json(assessment_payload(result))
+        emit_json(payload)
         return
     _print(result)
     if plot is not None:
         echo(f"Wrote {plot}")
+    if report is not None:
+        echo(f"Wrote report {written}")
 
 
 def assessment_payload(result) -> dict:
@@ -185,14 +213,12 @@ def _print(result) -> None:
     echo(CAUTION)
 
 
-def _plot(result, path: Path) -> None:
-    from shufflecheck.fileio import atomic_write
+def _figure(result):
     from shufflecheck.report.figures import distance_figure
 
-    figure = distance_figure(
+    return distance_figure(
         assessment_series(result), metric="total variation distance", steps_name="repetitions"
     )
-    atomic_write(path, figure.png)
 
 
 def assessment_series(result) -> list[dict]:

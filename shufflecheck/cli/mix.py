@@ -8,7 +8,15 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import app, echo, emit_json, progress
+from shufflecheck.cli._app import (
+    ForceOption,
+    ReportOption,
+    app,
+    echo,
+    emit_json,
+    progress,
+    save_report,
+)
 
 
 class MixModel(str, Enum):
@@ -61,6 +69,8 @@ def mix(
     plot: Annotated[
         Path | None, typer.Option(help="Draw distance against steps to this PNG file.")
     ] = None,
+    report: ReportOption = None,
+    force: ForceOption = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
 ) -> None:
     """Exact distance to a perfectly random deck after k steps of a classical shuffle.
@@ -83,14 +93,34 @@ def mix(
     minimum = {m: minimum_steps(curve.rows, m, goal) for m in METRIC_NAMES.values()}
     bound_minimum = {m: minimum_steps(curve.bounds, m, goal) for m in METRIC_NAMES.values()}
     chosen = METRIC_NAMES[metric.value]
+    payload = _payload(curve, goal, metric.value, minimum, bound_minimum)
+    figure = _figure(curve, chosen, goal, minimum[chosen]) if plot or report else None
     if plot is not None:
-        _plot(curve, chosen, goal, minimum[chosen], plot)
+        from shufflecheck.fileio import atomic_write
+
+        atomic_write(plot, figure.png)
+    if report is not None:
+        from shufflecheck.report.mix_report import mixing_report
+        from shufflecheck.report.provenance import collect_provenance
+
+        document = mixing_report(
+            curve,
+            metric=chosen,
+            target=goal,
+            minimum=minimum,
+            payload=payload,
+            figure=figure,
+            provenance=collect_provenance(),
+        )
+        written = save_report(document, report, force=force)
     if json_out:
-        emit_json(_payload(curve, goal, metric.value, minimum, bound_minimum))
+        emit_json(payload)
         return
     _print(curve, goal, chosen, minimum, bound_minimum)
     if plot is not None:
         echo(f"Wrote {plot}")
+    if report is not None:
+        echo(f"Wrote report {written}")
 
 
 def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
@@ -178,17 +208,15 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
     )
 
 
-def _plot(curve, metric, goal, first, path: Path) -> None:
-    from shufflecheck.fileio import atomic_write
+def _figure(curve, metric, goal, first):
     from shufflecheck.report.figures import distance_figure
 
-    figure = distance_figure(
+    return distance_figure(
         curve_series(curve, metric, first),
         target=goal,
         metric=_METRIC_AXIS[metric],
         steps_name=_STEP_NAMES.get(curve.model, "steps"),
     )
-    atomic_write(path, figure.png)
 
 
 _METRIC_AXIS = {

@@ -1,0 +1,174 @@
+"""Report for ``shufflecheck assess``: a dealing procedure repeated r = 1..R times."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from shufflecheck.mixing import Quantity
+from shufflecheck.report.document import (
+    MethodNote,
+    Report,
+    Section,
+    Table,
+    Value,
+    estimate,
+    exact,
+    lower_bound,
+    upper_bound,
+)
+from shufflecheck.report.provenance import Provenance
+from shufflecheck.report.sources import (
+    ALDOUS_DIACONIS_1987,
+    BAYER_DIACONIS,
+    CLOPPER_PEARSON,
+    COVER_THOMAS,
+    DIACONIS_1988,
+    DIACONIS_GRAHAM,
+)
+
+__all__ = ["as_value", "assessment_methods", "assessment_report"]
+
+
+def as_value(q: Quantity | None, *, digits: int = 4) -> Value | None:
+    """A labelled report cell from a :class:`~shufflecheck.mixing.Quantity`."""
+    if q is None or q.value is None:
+        return None
+    if q.kind == "exact":
+        return exact(q.value, digits=digits)
+    if q.kind == "bound":
+        return (upper_bound if q.side == "upper" else lower_bound)(q.value, digits=digits)
+    level = q.confidence or 0.95
+    return estimate(q.value, stderr=q.stderr, ci=q.interval, level=level if q.interval else None)
+
+
+def _distance_cells(row, metric: str) -> tuple[Value | None, Value | None]:
+    """(lower, upper) cells, or (exact, exact) when the row is exact."""
+    if row.exact is not None:
+        value = exact(row.exact.value(metric))
+        return value, value
+    return as_value(row.lower.get(metric)), as_value(row.upper.get(metric))
+
+
+def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
+    """Method notes shared by the assessment and policy reports."""
+    return (
+        MethodNote(
+            "distance when the repeated procedure is one exactly analysed model",
+            "exact",
+            "exact law of the model (rising sequences for riffles, Stirling numbers for "
+            "top-to-random, the lumped chain for transpositions, rotations for cuts)",
+            (BAYER_DIACONIS, DIACONIS_1988),
+        ),
+        MethodNote(
+            "upper bounds",
+            "bound",
+            "exactly analysed contiguous blocks: a further step never increases total "
+            "variation or KL divergence, separation is submultiplicative over blocks",
+            (ALDOUS_DIACONIS_1987, DIACONIS_1988),
+        ),
+        MethodNote(
+            "lower bounds",
+            "bound",
+            f"distance of a statistic's law from its exact uniform law; event chosen on half "
+            f"of the simulated decks, its probability bounded on the other half "
+            f"(Clopper-Pearson, {confidence:.0%} confidence, Bonferroni over 5 statistics); "
+            "separation >= TV; KL >= 2 TV^2 / ln 2 (Pinsker)",
+            (CLOPPER_PEARSON, COVER_THOMAS),
+        ),
+        MethodNote(
+            "correct guesses per deck",
+            "estimate",
+            "guessing game with feedback simulated on the decks; uniform mean H_n is exact "
+            "(sum of Bernoulli(1/j)); best strategy chosen on one half, measured on the other",
+            (DIACONIS_GRAHAM, BAYER_DIACONIS),
+        ),
+    )
+
+
+def assessment_table(result, metric: str = "total_variation") -> Table:
+    """Distance (exact, or lower and upper bounds) and the guessing edge for every r."""
+    rows = []
+    for row in result.rows:
+        low, high = _distance_cells(row, metric)
+        extra = row.extra_guesses
+        rows.append(
+            (
+                str(row.repeats),
+                low,
+                high,
+                as_value(extra),
+                row.best_strategy,
+            )
+        )
+    name = {
+        "total_variation": "total variation",
+        "separation": "separation",
+        "kl_bits": "KL (bits)",
+    }[metric]
+    return Table(
+        f"{name.capitalize()} to a random deck and the guessing edge, by repetitions r",
+        (
+            "r",
+            f"{name}: lower",
+            f"{name}: upper",
+            "extra correct guesses per deck",
+            "best strategy",
+        ),
+        tuple(rows),
+        notes=(
+            "Where the whole repeated procedure is exact, both columns show the exact value.",
+            "An upper bound of 1 means no exactly analysed block certifies anything smaller.",
+        ),
+    )
+
+
+def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Provenance) -> Report:
+    """Build the report of one procedure assessment (``payload`` is the ``--json`` result)."""
+    first = result.rows[0]
+    last = result.rows[-1]
+    answer = []
+    for row in (first, last) if len(result.rows) > 1 else (first,):
+        low, high = _distance_cells(row, "total_variation")
+        if row.exact is not None:
+            answer.append(f"After {row.repeats} repetition(s): total variation {low}.")
+        else:
+            answer.append(
+                f"After {row.repeats} repetition(s): total variation {low}"
+                + (f", {high}." if high is not None else ".")
+            )
+    edge = first.extra_guesses
+    answer.append(
+        f"An observant player following the '{first.best_strategy}' strategy gains "
+        f"{as_value(edge)} correct guesses per deck after one repetition (a random deck "
+        f"allows {exact(first.uniform_guesses)} on average)."
+    )
+    answer.extend(result.notes)
+    table = assessment_table(result)
+    sections = [
+        Section(
+            "Distance and exploitability by repetitions",
+            paragraphs=(
+                f"Procedure: {result.procedure} on {result.cards} cards; {result.decks:,} "
+                f"simulated decks (seed {result.seed}).",
+                "Total variation is the largest advantage a player can have on any yes/no "
+                "event about the deck. The guessing edge is what a player who sees each card "
+                "as it is dealt can gain by naming the next card: extra correct guesses per "
+                "deck over a perfectly random deck.",
+            ),
+            tables=(table,),
+            figures=(figure,) if figure is not None else (),
+        )
+    ]
+    return Report(
+        title=f"Procedure assessment: {result.name or result.procedure}",
+        question=(
+            f"How far from a perfectly random deck does '{result.procedure}' leave a "
+            f"{result.cards}-card deck when repeated 1 to {len(result.rows)} times, and what "
+            "could an observant player gain?"
+        ),
+        answer=tuple(answer),
+        reproducibility=provenance,
+        sections=tuple(sections),
+        methods=assessment_methods(result.confidence),
+        data=payload,
+    )

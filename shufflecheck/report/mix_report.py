@@ -1,0 +1,151 @@
+"""Report for ``shufflecheck mix``: exact distance curve of a classical model."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from shufflecheck.mixing import MixingCurve
+from shufflecheck.report.document import MethodNote, Report, Section, Table, exact, upper_bound
+from shufflecheck.report.provenance import Provenance
+from shufflecheck.report.sources import (
+    ALDOUS_DIACONIS_1986,
+    BAYER_DIACONIS,
+    COVER_THOMAS,
+    DIACONIS_SHAHSHAHANI,
+)
+
+__all__ = ["METRIC_LABELS", "mixing_report"]
+
+METRIC_LABELS = {
+    "total_variation": "total variation",
+    "separation": "separation",
+    "kl_bits": "KL divergence (bits)",
+}
+
+_SOURCES = {
+    "riffle": (BAYER_DIACONIS,),
+    "transposition": (DIACONIS_SHAHSHAHANI,),
+    "top-to-random": (ALDOUS_DIACONIS_1986,),
+    "random-to-top": (ALDOUS_DIACONIS_1986,),
+}
+
+_STEP_WORDS = {"riffle": "riffles", "transposition": "random transpositions"}
+
+
+def _cell(value: float | None, kind: str):
+    if value is None:
+        return None
+    return exact(value) if kind == "exact" else upper_bound(value)
+
+
+def mixing_report(
+    curve: MixingCurve,
+    *,
+    metric: str,
+    target: float | None,
+    minimum: dict[str, int | None],
+    payload: dict[str, Any],
+    figure,
+    provenance: Provenance,
+) -> Report:
+    """Build the report of one exact mixing curve (``payload`` is the ``--json`` result)."""
+    steps_word = _STEP_WORDS.get(curve.model, f"{curve.model} steps")
+    label = METRIC_LABELS[metric]
+    params = ", ".join(
+        f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
+        for k, v in curve.parameters.items()
+    )
+    subject = f"a {curve.cards}-card deck after k {steps_word}" + (f" ({params})" if params else "")
+    if target is not None:
+        question = (
+            f"How far from a perfectly random deck is {subject}, and what is the smallest k "
+            f"with {label} at most {target:g}?"
+        )
+    else:
+        question = f"How far from a perfectly random deck is {subject}?"
+    answer = []
+    if target is not None:
+        k = minimum[metric]
+        if k is not None:
+            row = curve.rows[k - 1]
+            answer.append(
+                f"{k} {steps_word} bring {label} to at most {target:g}: {exact(row.value(metric))}."
+            )
+        else:
+            answer.append(
+                f"{label.capitalize()} stays above {target:g} for every k up to "
+                f"{curve.rows[-1].steps}; more steps are needed."
+            )
+        for other, text in METRIC_LABELS.items():
+            if other != metric and minimum[other] is not None:
+                answer.append(
+                    f"For {text} at most {target:g}: {minimum[other]} {steps_word} (exact)."
+                )
+    last = curve.rows[-1]
+    answer.append(
+        f"After {last.steps} {steps_word}: total variation {exact(last.total_variation)}, "
+        f"separation {exact(last.separation)}."
+    )
+    headers = ["k", "total variation", "separation", "KL divergence (bits)"]
+    bound_metric = None
+    if curve.bounds:
+        bound_metric = "separation" if curve.bounds[0].separation is not None else "total_variation"
+        headers.append(f"{METRIC_LABELS[bound_metric]}, {curve.bound_name}")
+    rows = []
+    for i, r in enumerate(curve.rows):
+        cells = [
+            str(r.steps),
+            _cell(r.total_variation, r.method),
+            _cell(r.separation, r.method),
+            _cell(r.kl_bits, r.method),
+        ]
+        if bound_metric is not None:
+            cells.append(_cell(curve.bounds[i].value(bound_metric), "bound"))
+        rows.append(tuple(cells))
+    marked = ()
+    if target is not None and minimum[metric] is not None:
+        marked = (minimum[metric] - 1,)
+    table = Table(
+        f"Distance to a uniformly random deck after k {steps_word}",
+        tuple(headers),
+        tuple(rows),
+        notes=("Exact values come from the model's exact law; bounds are rigorous upper bounds.",),
+        marked_rows=marked,
+        mark_note=f"first k with {label} at most {target:g}" if marked else "",
+    )
+    sources = _SOURCES.get(curve.model, (BAYER_DIACONIS,))
+    methods = [
+        MethodNote("total variation, separation", "exact", curve.source, sources),
+        MethodNote(
+            "KL divergence (bits)",
+            "exact",
+            f"{curve.source}; KL(P||U) = sum U f(P/U) with f(t) = t ln t - t + 1",
+            (*sources, COVER_THOMAS),
+        ),
+    ]
+    if curve.bounds:
+        methods.append(
+            MethodNote(METRIC_LABELS[bound_metric], "bound", curve.bound_source, sources)
+        )
+    section = Section(
+        "Distances after k steps",
+        paragraphs=(
+            "Total variation is the largest advantage a player can have on any single yes/no "
+            "event about the deck; separation s guarantees that every arrangement has at "
+            "least (1 - s) times its fair chance; KL divergence is the information, in bits, "
+            "that the deck's order still carries about the starting order.",
+            "These are distances for the idealised model; real hands and machines differ and "
+            "should be assessed with their own procedure (shufflecheck assess).",
+        ),
+        tables=(table,),
+        figures=(figure,) if figure is not None else (),
+    )
+    return Report(
+        title=f"Distance to random: {curve.model}, {curve.cards} cards",
+        question=question,
+        answer=tuple(answer),
+        reproducibility=provenance,
+        sections=(section,),
+        methods=tuple(methods),
+        data=payload,
+    )

@@ -1,0 +1,46 @@
+"""Full citations of the published methods, shared by the report builders."""
+
+BAYER_DIACONIS = (
+    'D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl. '
+    "Probab. 2 (1992) 294-313."
+)
+DIACONIS_SHAHSHAHANI = (
+    'P. Diaconis and M. Shahshahani, "Generating a random permutation with random '
+    'transpositions", Z. Wahrsch. Verw. Gebiete 57 (1981) 159-179.'
+)
+ALDOUS_DIACONIS_1986 = (
+    'D. Aldous and P. Diaconis, "Shuffling cards and stopping times", Amer. Math. Monthly '
+    "93 (1986) 333-348."
+)
+ALDOUS_DIACONIS_1987 = (
+    'D. Aldous and P. Diaconis, "Strong uniform times and finite random walks", Adv. in '
+    "Appl. Math. 8 (1987) 69-97."
+)
+DIACONIS_1988 = (
+    "P. Diaconis, Group Representations in Probability and Statistics, IMS Lecture Notes - "
+    "Monograph Series 11, 1988."
+)
+CLOPPER_PEARSON = (
+    'C. J. Clopper and E. S. Pearson, "The use of confidence or fiducial limits illustrated '
+    'in the case of the binomial", Biometrika 26 (1934) 404-413.'
+)
+COVER_THOMAS = "T. M. Cover and J. A. Thomas, Elements of Information Theory, 2nd ed., Wiley, 2006."
+DIACONIS_GRAHAM = (
+    'P. Diaconis and R. Graham, "The analysis of sequential experiments with feedback to '
+    'subjects", Ann. Statist. 9 (1981) 3-23.'
+)
+HOLM = (
+    'S. Holm, "A simple sequentially rejective multiple test procedure", Scand. J. Statist. '
+    "6 (1979) 65-70."
+)
+DIACONIS_FULMAN_HOLMES = (
+    'P. Diaconis, J. Fulman and S. Holmes, "Analysis of casino shelf shuffling machines", '
+    "Ann. Appl. Probab. 23 (2013) 1692-1720."
+)
+PEMANTLE = (
+    'R. Pemantle, "Randomization time for the overhand shuffle", J. Theoret. Probab. 2 '
+    "(1989) 37-49."
+)
+STANLEY = (
+    "R. P. Stanley, Enumerative Combinatorics, vol. 1, 2nd ed., Cambridge University Press, 2012."
+)
