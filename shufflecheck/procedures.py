@@ -40,12 +40,17 @@ from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
 
 __all__ = [
+    "SIMULATION_REFERENCES",
     "Procedure",
     "ProcedureItem",
     "load_procedure",
     "parse_procedure",
     "procedure_from_argument",
+    "simulate_play",
 ]
+
+#: how simulated decks relate to each other: see :func:`simulate_play`
+SIMULATION_REFERENCES = ("previous", "first")
 
 #: cards in one standard pack; a shoe of d decks has d * 52 distinct cards here
 PACK = 52
@@ -372,6 +377,39 @@ def procedure_from_argument(argument: str) -> Procedure:
             raise InputError(f"{argument}: no such procedure file")
         return load_procedure(path)
     return parse_procedure(argument)
+
+
+def simulate_play(
+    procedure: Procedure,
+    cards: int,
+    decks: int,
+    *,
+    rng: np.random.Generator | int | None = None,
+    reference: str = "previous",
+    repeats: int = 1,
+) -> np.ndarray:
+    """Deck orders as a table would record them: ``decks + 1`` rows, the first being the
+    starting (reference) order ``0..n-1``.
+
+    ``reference="previous"``: every deck is the procedure applied to the deck before it (the
+    pickup order is the previous recorded deck; audit with ``--reference previous``).
+    ``reference="first"``: every deck is the procedure applied to the first row (audit with
+    ``--reference first``). The relative permutations are iid either way.
+    """
+    if reference not in SIMULATION_REFERENCES:
+        raise InputError(f"reference must be previous or first, got {reference!r}")
+    if decks < 1:
+        raise InputError(f"--decks must be at least 1, got {decks}")
+    relative = procedure.sample(decks, cards, repeats, rng=rng)
+    out = np.empty((decks + 1, cards), dtype=relative.dtype)
+    out[0] = np.arange(cards)
+    if reference == "first":
+        out[1:] = relative
+        return out
+    # deck_t[i] = deck_{t-1}[relative_t[i]]: a running composition, one deck at a time
+    for t in range(decks):
+        out[t + 1] = out[t][relative[t]]
+    return out
 
 
 def iter_chunks(decks: int, size: int = CHUNK_DECKS) -> Iterator[tuple[int, int]]:

@@ -1,0 +1,366 @@
+"""``shufflecheck audit`` and ``shufflecheck power``: recorded deck orders and their planning."""
+
+from __future__ import annotations
+
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import (
+    ForceOption,
+    ReportOption,
+    app,
+    echo,
+    emit_json,
+    progress,
+    save_report,
+)
+
+CAUTION = (
+    "Statistical evidence about these recorded decks, not a certification: shuffling devices "
+    "and dealing rules are for the local gaming regulator and accredited test laboratories "
+    "to approve. The log was only read, never changed."
+)
+
+
+class Labels(str, Enum):
+    codes = "codes"
+    int_ = "int"
+    int0 = "int0"
+    int1 = "int1"
+
+
+@app.command()
+def audit(
+    log: Annotated[
+        Path,
+        typer.Argument(
+            help="Recorded log: CSV (order column or one column per position), JSON Lines, Parquet."
+        ),
+    ],
+    reference: Annotated[
+        str,
+        typer.Option(
+            help="Reference order of each deck: previous (default: the deck before it in the "
+            "log, i.e. the pickup order), first (row 1 is the reference), or an order/file."
+        ),
+    ] = "previous",
+    by: Annotated[str | None, typer.Option(help="Column to group results by, e.g. table.")] = None,
+    time: Annotated[
+        str | None, typer.Option(help="Column with the time of each deck (log in time order).")
+    ] = None,
+    alpha: Annotated[float, typer.Option(help="Family-wise error level (Holm).")] = 0.01,
+    quarantine: Annotated[
+        Path | None, typer.Option(help="Set bad rows aside into this CSV and audit the rest.")
+    ] = None,
+    labels: Annotated[
+        Labels, typer.Option(help="Card codes, or integer labels (0..n-1 or 1..n).")
+    ] = Labels.codes,
+    deck: Annotated[
+        Path | None, typer.Option(help="Deck definition TOML for non-standard decks.")
+    ] = None,
+    log_format: Annotated[
+        str | None,
+        typer.Option("--format", help="csv, wide, jsonl or parquet (default: extension)."),
+    ] = None,
+    report: ReportOption = None,
+    force: ForceOption = False,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Test recorded deck orders for bias: exact nulls, Holm control, plain-unit effects.
+
+    Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
+    """
+    from shufflecheck.logaudit import audit_log
+
+    with progress(0, "reading") as update:
+        result = audit_log(
+            log,
+            reference=reference,
+            labels=labels.value,
+            fmt=log_format,
+            deck=deck,
+            by=by,
+            time=time,
+            alpha=alpha,
+            quarantine=quarantine,
+            progress=update,
+        )
+    payload = result.as_json()
+    if report is not None:
+        from shufflecheck.report.audit_report import audit_report
+        from shufflecheck.report.provenance import collect_provenance
+
+        inputs = [log] + ([deck] if deck is not None else [])
+        document = audit_report(
+            result,
+            payload=payload,
+            provenance=collect_provenance(inputs, seeds={"monte-carlo nulls": 0}),
+        )
+        written = save_report(document, report, force=force)
+    if json_out:
+        emit_json(payload)
+        return
+    print_audit(result)
+    if report is not None:
+        echo(f"Wrote report {written}")
+
+
+def print_audit(result) -> None:
+    """Terminal view: verdict line, then the tests sorted by adjusted p-value."""
+    from shufflecheck.audit.results import format_p
+    from shufflecheck.report.terminal import format_table
+
+    overall = result.result.overall
+    echo(f"{result.path}: {overall.verdict()}")
+    info = result.reader
+    echo(
+        f"{result.tested:,} decks tested against reference '{result.reference}'"
+        f" ({info.decks:,} read, {info.set_aside:,} set aside, {result.reference_only:,} only a "
+        f"reference, {result.after_set_aside:,} untested after a set-aside row); "
+        f"alpha {overall.alpha:g}."
+    )
+    echo()
+    rows = []
+    for t in overall.by_adjusted_p():
+        rows.append(
+            [
+                t.title,
+                f"{t.statistic:.6g}",
+                format_p(t.log10_p_value),
+                format_p(t.log10_p_adjusted),
+                t.method,
+                "FLAGGED" if t.flagged else "",
+                t.effect.text,
+            ]
+        )
+    echo(
+        format_table(
+            ["test", "statistic", "p", "p (Holm)", "method", "", "effect (estimate)"],
+            rows,
+            align="lrrrlll",
+        )
+    )
+    if overall.since_when is not None:
+        where = result.since_when_rows.get("all", {})
+        place = (
+            f" (row {where['row']}" + (f", {where['time']}" if "time" in where else "") + ")"
+            if where
+            else ""
+        )
+        echo()
+        echo(f"Since when (estimate): {overall.since_when.text}{place}.")
+    for key, battery in result.result.groups:
+        echo(f"  {result.by} = {key}: {battery.verdict()}")
+    for name, why in overall.skipped:
+        echo(f"Not run: {name}: {why}")
+    echo()
+    echo(
+        "p-values: exact null laws unless the method says asymptotic or monte-carlo; effects are "
+        "estimates from the recorded decks against exact expectations for a random deck."
+    )
+    echo(CAUTION)
+
+
+def _repeat_range(text: str) -> list[int]:
+    """``"5"`` -> [5]; ``"4-8"`` or ``"4..8"`` -> [4, ..., 8]."""
+    from shufflecheck.errors import InputError
+
+    cleaned = text.replace("..", "-").strip()
+    try:
+        if "-" in cleaned:
+            low, high = (int(part) for part in cleaned.split("-", 1))
+        else:
+            low = high = int(cleaned)
+    except ValueError:
+        raise InputError(
+            f"--repeat must be a count like 5 or a range like 4-8, got {text!r}"
+        ) from None
+    if not 1 <= low <= high <= 50:
+        raise InputError(f"--repeat must lie within 1..50 with low <= high, got {text!r}")
+    return list(range(low, high + 1))
+
+
+@app.command()
+def power(
+    procedure: Annotated[str, typer.Argument(help="Procedure text or a .toml procedure file.")],
+    cards: Annotated[
+        int | None, typer.Option("--cards", "-n", help="Cards per deck (default 52).")
+    ] = None,
+    alpha: Annotated[
+        float, typer.Option(help="Family-wise error level of the audit (Holm).")
+    ] = 0.01,
+    power_target: Annotated[
+        float, typer.Option("--power", help="Chance of flagging the procedure.")
+    ] = 0.9,
+    repeat: Annotated[
+        str,
+        typer.Option("--repeat", "-r", help="Procedure repetitions per deck: 5, or a range 4-8."),
+    ] = "1",
+    simulate: Annotated[
+        int, typer.Option(help="Decks simulated to learn the procedure's laws.")
+    ] = 4000,
+    seed: Annotated[int, typer.Option(help="Random seed.")] = 1,
+    plot: Annotated[
+        Path | None, typer.Option(help="Draw decks needed against repetitions (PNG).")
+    ] = None,
+    report: ReportOption = None,
+    force: ForceOption = False,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """How many recorded decks each test needs to flag a procedure against a random deck.
+
+    Simulates the procedure (estimate), uses each test's exact null for its critical value,
+    and searches the smallest number of decks with the requested power.
+    """
+    from shufflecheck.procedures import procedure_from_argument
+
+    proc = procedure_from_argument(procedure)
+    n = cards if cards is not None else (proc.cards or 52)
+    counts = _repeat_range(repeat)
+    plans = plan_power(
+        proc, n, counts, alpha=alpha, power=power_target, simulate=simulate, seed=seed
+    )
+    payload = power_payload(plans, proc, seed)
+    figure = None
+    if (plot or report) and len(plans) > 1:
+        from shufflecheck.report.figures import power_figure
+        from shufflecheck.report.power_report import power_curves
+
+        figure = power_figure(power_curves(plans), x_name="repetitions of the procedure")
+    if plot is not None:
+        from shufflecheck.errors import InputError
+        from shufflecheck.fileio import atomic_write
+
+        if figure is None:
+            raise InputError("--plot needs a range of repetitions, e.g. --repeat 4-8")
+        atomic_write(plot, figure.png)
+    if report is not None:
+        from shufflecheck.report.power_report import power_report
+        from shufflecheck.report.provenance import collect_provenance
+
+        inputs = [procedure] if procedure.lower().endswith(".toml") else []
+        document = power_report(
+            plans,
+            proc.describe(),
+            payload=payload,
+            figure=figure,
+            provenance=collect_provenance(inputs, seeds={"simulation": seed}),
+        )
+        written = save_report(document, report, force=force)
+    if json_out:
+        emit_json(payload)
+        return
+    _print_power(plans, proc)
+    if plot is not None:
+        echo(f"Wrote {plot}")
+    if report is not None:
+        echo(f"Wrote report {written}")
+
+
+def plan_power(
+    proc, cards: int, counts: list[int], *, alpha: float, power: float, simulate: int, seed: int
+):
+    """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
+    from shufflecheck.audit import plan_decks
+    from shufflecheck.decks import load_deck
+
+    proc.check_cards(cards)
+    deck = load_deck() if cards == 52 else None
+    plans = []
+    for r in counts:
+
+        def sample(count: int, rng, _r: int = r):
+            return proc.sample(count, cards, _r, rng=rng)
+
+        plan = plan_decks(
+            sample,
+            cards,
+            alpha=alpha,
+            power=power,
+            simulate=simulate,
+            suits=deck.suit_codes() if deck is not None else None,
+            colours=deck.colour_codes() if deck is not None else None,
+            rng=seed + r,
+        )
+        plans.append((r, plan))
+    return plans
+
+
+def power_payload(plans, proc, seed: int) -> dict:
+    first = plans[0][1]
+    return {
+        "procedure": proc.describe(),
+        "cards": first.cards,
+        "alpha": first.alpha,
+        "power": first.power,
+        "seed": seed,
+        "simulated_decks": first.simulated_decks,
+        "tests_in_battery": first.tests_in_battery,
+        "per_test_level": first.per_test_level,
+        "plans": [
+            {
+                "repeats": r,
+                "rows": [
+                    {
+                        "test": row.test,
+                        "title": row.title,
+                        "decks": row.decks,
+                        "power": row.power,
+                        "how": "estimate",
+                        "shift": row.shift,
+                        "shift_standard_error": row.shift_standard_error,
+                        "relative_standard_error": row.relative_standard_error,
+                        "method": row.method,
+                        "note": row.note,
+                    }
+                    for row in plan.rows
+                ],
+            }
+            for r, plan in plans
+        ],
+    }
+
+
+def _print_power(plans, proc) -> None:
+    from shufflecheck.report.terminal import format_table
+
+    first = plans[0][1]
+    echo(
+        f"Recorded decks needed to flag '{proc.describe()}' on {first.cards} cards with power "
+        f"{first.power:g} at family-wise alpha {first.alpha:g} (each test at "
+        f"{first.per_test_level:.2g}: Bonferroni over {first.tests_in_battery} tests, "
+        "conservative for Holm)."
+    )
+    echo(
+        f"Estimates from {first.simulated_decks:,} simulated decks per repetition count; "
+        "null laws exact."
+    )
+    echo()
+    headers = ["test", *(f"r = {r}" for r, _ in plans)]
+    tests = [row.test for row in first.rows]
+    titles = {row.test: row.title for row in first.rows}
+    rows = []
+    for name in tests:
+        cells = []
+        for _, plan in plans:
+            row = next(x for x in plan.rows if x.test == name)
+            cells.append(f"{row.decks:,}" if row.decks is not None else "-")
+        rows.append([titles[name], *cells])
+    rows.sort(
+        key=lambda cells: [int(c.replace(",", "")) if c != "-" else 10**12 for c in cells[1:]]
+    )
+    echo(format_table(headers, rows, align="l" + "r" * len(plans)))
+    echo("'-': not detected within the search range.")
+    echo()
+    for r, plan in plans:
+        best = plan.best()
+        if best is not None:
+            echo(
+                f"r = {r}: log at least {best.decks:,} deck{'s' if best.decks != 1 else ''} before "
+                f"an audit can be expected to flag it ({best.title})."
+            )
+        else:
+            echo(f"r = {r}: no test of the battery detects it within the search range.")

@@ -1,0 +1,108 @@
+"""``shufflecheck simulate``: synthetic logs of recorded deck orders (for demos and power)."""
+
+from __future__ import annotations
+
+from enum import Enum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import app, echo, emit_json
+
+
+class SimulatedReference(str, Enum):
+    previous = "previous"
+    first = "first"
+
+
+@app.command()
+def simulate(
+    procedure: Annotated[str, typer.Argument(help="Procedure text or a .toml procedure file.")],
+    out: Annotated[Path, typer.Option(help="Log file to write (.csv or .jsonl).")],
+    cards: Annotated[
+        int | None, typer.Option("--cards", "-n", help="Cards per deck (default 52).")
+    ] = None,
+    decks: Annotated[int, typer.Option(help="Recorded decks to simulate.")] = 1000,
+    seed: Annotated[int, typer.Option(help="Random seed.")] = 1,
+    repeat: Annotated[
+        int, typer.Option("--repeat", "-r", help="Run the procedure r times per deck.")
+    ] = 1,
+    reference: Annotated[
+        SimulatedReference,
+        typer.Option(
+            help="previous: each deck shuffled from the one before; first: all from row 1."
+        ),
+    ] = SimulatedReference.previous,
+    deck: Annotated[
+        Path | None,
+        typer.Option(help="Deck definition TOML for card codes (default: standard 52)."),
+    ] = None,
+    table: Annotated[str | None, typer.Option(help="Add a 'table' column with this value.")] = None,
+    start: Annotated[
+        str | None,
+        typer.Option(help="Add 'recorded_at' times from this ISO time (e.g. 2026-11-02T18:00)."),
+    ] = None,
+    every: Annotated[int, typer.Option(help="Seconds between decks for recorded_at.")] = 120,
+    force: Annotated[bool, typer.Option(help="Replace --out if it exists.")] = False,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable summary.")] = False,
+) -> None:
+    """Write a synthetic log: one deck per row, card codes top to bottom (invented data).
+
+    The first row is the starting order (the reference); the rest follow the procedure. The
+    log is read by `shufflecheck audit` exactly as a recorded one.
+    """
+    import datetime as dt
+
+    from shufflecheck.decks import load_deck
+    from shufflecheck.errors import InputError
+    from shufflecheck.logs import write_log
+    from shufflecheck.procedures import procedure_from_argument, simulate_play
+
+    if out.exists() and not force:
+        raise InputError(f"{out} exists; pass --force to replace it")
+    proc = procedure_from_argument(procedure)
+    n = cards if cards is not None else (proc.cards or 52)
+    definition = load_deck(deck) if deck is not None else (load_deck() if n == 52 else None)
+    if definition is not None and definition.size != n:
+        raise InputError(f"deck definition has {definition.size} cards but --cards is {n}")
+    orders = simulate_play(proc, n, decks, rng=seed, reference=reference.value, repeats=repeat)
+    columns: dict[str, list] = {"deck": list(range(decks + 1))}
+    if table is not None:
+        columns["table"] = [table] * (decks + 1)
+    if start is not None:
+        try:
+            first = dt.datetime.fromisoformat(start)
+        except ValueError:
+            raise InputError(
+                f"--start {start!r} is not an ISO time like 2026-11-02T18:00"
+            ) from None
+        columns["recorded_at"] = [
+            (first + dt.timedelta(seconds=every * i)).isoformat(timespec="seconds")
+            for i in range(decks + 1)
+        ]
+    if definition is not None:
+        write_log(out, orders, definition, columns)
+    else:
+        from shufflecheck.decks import DeckDefinition
+
+        integers = DeckDefinition.from_cards(f"cards-{n}", [f"C{k + 1}" for k in range(n)])
+        write_log(out, orders, integers, columns, labels="int1")
+    summary = {
+        "out": str(out),
+        "procedure": proc.describe(),
+        "cards": n,
+        "decks": decks,
+        "rows": decks + 1,
+        "seed": seed,
+        "reference": reference.value,
+        "labels": "codes" if definition is not None else "int (1..n)",
+    }
+    if json_out:
+        emit_json(summary)
+        return
+    echo(
+        f"Wrote {out}: {decks:,} simulated decks of {n} cards after '{proc.describe()}' "
+        f"(seed {seed}; row 1 is the starting order; audit with --reference {reference.value})."
+    )
+    echo("Invented data for demonstrations and planning, not a recording.")

@@ -1,0 +1,442 @@
+"""Shuffle policies: the fewest repetitions of each house procedure that meet a target.
+
+A policy file (TOML) names the metric, the target, the confidence level for Monte Carlo
+numbers, and the procedures in use, optionally with recorded logs per table::
+
+    [policy]
+    title = "Shuffle policy, main floor"
+    metric = "total-variation"      # or "separation" or "kl" (bits)
+    target = 0.1                    # in (0, 1]
+    confidence = 0.99               # of lower bounds and intervals
+    decks = 20000                   # simulated decks per procedure
+    seed = 2027
+    max_repeats = 12                # search r = 1..max_repeats
+
+    [[procedure]]
+    name = "Hand-dealt poker"
+    cards = 52                      # or: decks = 6 (a shoe of 6 x 52 distinct cards)
+    steps = "riffle x3, strip(packets=5), riffle, cut"
+    house = 2                       # repetitions the house performs now (optional)
+
+    [[procedure.log]]               # optional, any number
+    table = "Table 3"
+    path = "logs/table3.csv"        # relative to the policy file
+    reference = "previous"          # or "first", or an explicit order
+
+For each procedure the decision is, at the first repetition count that meets the target:
+
+* ``exact`` — the repeated procedure is one exactly analysed model; the minimum is exact;
+* ``bound`` — a rigorous upper bound from exactly analysed blocks meets the target, so the
+  minimum is certified (it may be smaller: the lower bounds say how much smaller at most);
+* ``estimate`` — nothing certifies the target within ``max_repeats``; the lower confidence
+  bounds only exclude the repetition counts they push above the target, so the smallest
+  count they do not exclude is reported as an estimate, never as a certified minimum.
+
+The house count's standing is ``meets`` (certified), ``fails`` (exact, or a lower
+confidence bound above the target) or ``undetermined``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from shufflecheck.errors import InputError
+from shufflecheck.mixing import METRIC_NAMES, check_target
+from shufflecheck.procedures import Procedure, deck_size, parse_procedure
+from shufflecheck.tomlfiles import TomlFile, load_toml
+
+__all__ = [
+    "LogSpec",
+    "Policy",
+    "PolicyDecision",
+    "PolicyProcedure",
+    "PolicyResult",
+    "evaluate_policy",
+    "load_policy",
+]
+
+_POLICY_KEYS = {
+    "title": str,
+    "metric": str,
+    "target": float,
+    "confidence": float,
+    "decks": int,
+    "seed": int,
+    "max_repeats": int,
+    "alpha": float,
+}
+_PROCEDURE_KEYS = {"name", "cards", "decks", "steps", "house", "log", "description", "max_repeats"}
+_LOG_KEYS = {"table", "path", "reference", "labels", "format", "deck", "by", "time"}
+
+
+@dataclass(frozen=True)
+class LogSpec:
+    """A recorded log attached to a procedure (paths resolved against the policy file)."""
+
+    path: Path
+    table: str | None = None
+    reference: str = "previous"
+    labels: str = "cards"
+    format: str | None = None
+    deck: Path | None = None
+    time: str | None = None
+
+
+@dataclass(frozen=True)
+class PolicyProcedure:
+    name: str
+    procedure: Procedure
+    cards: int
+    house: int | None
+    max_repeats: int
+    logs: tuple[LogSpec, ...] = ()
+
+
+@dataclass(frozen=True)
+class Policy:
+    path: Path
+    title: str
+    metric: str  # field name: total_variation | separation | kl_bits
+    target: float
+    confidence: float
+    decks: int
+    seed: int
+    alpha: float
+    procedures: tuple[PolicyProcedure, ...]
+
+    @property
+    def inputs(self) -> tuple[Path, ...]:
+        """Every file the policy reads (for fingerprints in reports)."""
+        files = [self.path]
+        for proc in self.procedures:
+            for log in proc.logs:
+                files.append(log.path)
+                if log.deck is not None:
+                    files.append(log.deck)
+        return tuple(files)
+
+
+def _typed(
+    doc: TomlFile, value: Any, kind: type, key: str, table: str | None, index: int = 0
+) -> Any:
+    if kind is float and isinstance(value, int) and not isinstance(value, bool):
+        return float(value)
+    if isinstance(value, bool) or not isinstance(value, kind):
+        names = {str: "text", int: "an integer", float: "a number"}
+        raise doc.error(f"must be {names[kind]}, got {value!r}", key, table, index)
+    return value
+
+
+def load_policy(path: str | Path) -> Policy:
+    """Read and check a policy file; errors name the file, line and key (exit code 2)."""
+    doc = load_toml(path)
+    data = doc.data
+    for key in data:
+        if key not in ("policy", "procedure"):
+            raise doc.error("unknown table or key (allowed: [policy], [[procedure]])", key)
+    settings = data.get("policy", {})
+    if not isinstance(settings, dict):
+        raise doc.error("must be a table: [policy]", "policy")
+    for key, value in settings.items():
+        if key not in _POLICY_KEYS:
+            raise doc.error(
+                f"unknown key (allowed: {', '.join(sorted(_POLICY_KEYS))})", key, "policy"
+            )
+        _typed(doc, value, _POLICY_KEYS[key], key, "policy")
+    metric_text = settings.get("metric", "total-variation")
+    if metric_text not in METRIC_NAMES:
+        raise doc.error(
+            f"unknown metric {metric_text!r}; choose total-variation, separation or kl",
+            "metric",
+            "policy",
+        )
+    if "target" not in settings:
+        raise doc.error("missing: give target = 0.1 (say) in [policy]", "target", "policy")
+    target = float(settings["target"])
+    try:
+        check_target(target)
+    except InputError as exc:
+        raise doc.error(str(exc), "target", "policy") from None
+    confidence = float(settings.get("confidence", 0.99))
+    if not 0.5 <= confidence < 1:
+        raise doc.error(f"must be in [0.5, 1), got {confidence}", "confidence", "policy")
+    decks = settings.get("decks", 20000)
+    if not 100 <= decks <= 10_000_000:
+        raise doc.error(f"must be from 100 to 10,000,000, got {decks}", "decks", "policy")
+    max_repeats = settings.get("max_repeats", 12)
+    if not 1 <= max_repeats <= 100:
+        raise doc.error(f"must be from 1 to 100, got {max_repeats}", "max_repeats", "policy")
+    alpha = float(settings.get("alpha", 0.01))
+    if not 0 < alpha < 0.5:
+        raise doc.error(f"must be in (0, 0.5), got {alpha}", "alpha", "policy")
+    raw = data.get("procedure")
+    if not raw:
+        raise doc.error("no procedures: add at least one [[procedure]] table")
+    if not isinstance(raw, list):
+        raise doc.error("must be an array of tables: write [[procedure]]", "procedure")
+    procedures = tuple(_procedure(doc, entry, i, max_repeats) for i, entry in enumerate(raw))
+    names = [p.name for p in procedures]
+    for i, name in enumerate(names):
+        if name in names[:i]:
+            raise doc.error(f"two procedures are called {name!r}", "name", "procedure", i)
+    return Policy(
+        path=doc.path,
+        title=_typed(doc, settings.get("title", doc.path.stem), str, "title", "policy"),
+        metric=METRIC_NAMES[metric_text],
+        target=target,
+        confidence=confidence,
+        decks=decks,
+        seed=settings.get("seed", 1),
+        alpha=alpha,
+        procedures=procedures,
+    )
+
+
+def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> PolicyProcedure:
+    table = "procedure"
+    for key in entry:
+        if key not in _PROCEDURE_KEYS:
+            allowed = ", ".join(sorted(_PROCEDURE_KEYS))
+            raise doc.error(f"unknown key (allowed: {allowed})", key, table, index)
+    name = entry.get("name", f"procedure {index + 1}")
+    _typed(doc, name, str, "name", table, index)
+    steps = entry.get("steps")
+    if steps is None:
+        raise doc.error(
+            'missing: give steps = "riffle x3, strip, riffle, cut"', "steps", table, index
+        )
+    if isinstance(steps, list) and all(isinstance(s, str) for s in steps):
+        steps = ", ".join(steps)
+    if not isinstance(steps, str):
+        raise doc.error("must be a string or a list of strings", "steps", table, index)
+    try:
+        procedure = parse_procedure(steps, name=name)
+    except InputError as exc:
+        raise doc.error(str(exc), "steps", table, index) from None
+    cards = deck_size(doc, entry, table, index) or 52
+    try:
+        procedure.check_cards(cards)
+    except InputError as exc:
+        raise doc.error(str(exc), "steps", table, index) from None
+    house = entry.get("house")
+    if house is not None:
+        _typed(doc, house, int, "house", table, index)
+        if house < 1:
+            raise doc.error(f"must be a repetition count >= 1, got {house}", "house", table, index)
+    max_repeats = entry.get("max_repeats", default_repeats)
+    _typed(doc, max_repeats, int, "max_repeats", table, index)
+    if not 1 <= max_repeats <= 100:
+        raise doc.error(f"must be from 1 to 100, got {max_repeats}", "max_repeats", table, index)
+    if house is not None and house > max_repeats:
+        max_repeats = house
+    logs_raw = entry.get("log", [])
+    if not isinstance(logs_raw, list):
+        raise doc.error("must be an array of tables: write [[procedure.log]]", "log", table, index)
+    logs = tuple(_log(doc, log, index, j) for j, log in enumerate(logs_raw))
+    return PolicyProcedure(name, procedure, cards, house, max_repeats, logs)
+
+
+def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:
+    table = "procedure.log"
+    # [[procedure.log]] headers are counted across all procedures by the line finder
+    occurrence = sum(len(p.get("log", [])) for p in doc.data["procedure"][:proc_index]) + index
+    for key in entry:
+        if key not in _LOG_KEYS:
+            raise doc.error(
+                f"unknown key (allowed: {', '.join(sorted(_LOG_KEYS))})", key, table, occurrence
+            )
+    if "path" not in entry:
+        raise doc.error('missing: give path = "logs/table3.csv"', "path", table, occurrence)
+    for key in ("path", "table", "reference", "labels", "format", "deck", "time"):
+        if key in entry:
+            _typed(doc, entry[key], str, key, table, occurrence)
+    base = doc.path.parent
+    path = (
+        (base / entry["path"]).resolve()
+        if not Path(entry["path"]).is_absolute()
+        else Path(entry["path"])
+    )
+    if not path.exists():
+        raise doc.error(
+            f"log file {entry['path']!r} not found (looked in {base})", "path", table, occurrence
+        )
+    labels = entry.get("labels", "cards")
+    if labels not in ("cards", "int"):
+        raise doc.error(f"must be 'cards' or 'int', got {labels!r}", "labels", table, occurrence)
+    deck = entry.get("deck")
+    deck_path = None
+    if deck is not None:
+        deck_path = (base / deck).resolve()
+        if not deck_path.exists():
+            raise doc.error(f"deck definition {deck!r} not found", "deck", table, occurrence)
+    return LogSpec(
+        path=path,
+        table=entry.get("table"),
+        reference=entry.get("reference", "previous"),
+        labels=labels,
+        format=entry.get("format"),
+        deck=deck_path,
+        time=entry.get("time"),
+    )
+
+
+# ---------------------------------------------------------------------------------------
+# evaluation
+
+
+@dataclass(frozen=True)
+class PolicyDecision:
+    """The answer for one procedure.
+
+    ``minimum`` is certified (``how`` exact or bound) or None; ``estimate_low`` is the
+    smallest repetition count the lower confidence bounds do not exclude; ``standing`` is
+    the house count's standing (meets / fails / undetermined) with ``standing_how``.
+    """
+
+    procedure: PolicyProcedure
+    minimum: int | None
+    how: str  # exact | bound | estimate
+    estimate_low: int | None
+    standing: str | None
+    standing_how: str | None
+    assessment: Any
+    audits: tuple[tuple[LogSpec, Any], ...] = ()
+
+    def summary(self, metric_label: str, target: float) -> str:
+        """One sentence a manager can read."""
+        name = self.procedure.name
+        if self.minimum is not None and self.how == "exact":
+            text = (
+                f"{name}: {self.minimum} repetitions bring {metric_label} to <= {target:g} (exact)"
+            )
+        elif self.minimum is not None:
+            low = self.estimate_low or 1
+            text = (
+                f"{name}: {self.minimum} repetitions are certified to bring {metric_label} to "
+                f"<= {target:g} (rigorous upper bound); fewer than {low} are excluded at the "
+                "stated confidence"
+            )
+        elif self.estimate_low is not None:
+            text = (
+                f"{name}: not certified within {self.procedure.max_repeats} repetitions; the "
+                f"smallest count not excluded by the lower bounds is {self.estimate_low} "
+                "(estimate, not a certified minimum)"
+            )
+        else:
+            text = (
+                f"{name}: every count up to {self.procedure.max_repeats} is excluded: "
+                f"{metric_label} stays above {target:g}"
+            )
+        if self.standing is not None:
+            text += f"; house count {self.procedure.house}: {self.standing} ({self.standing_how})"
+        return text
+
+
+@dataclass(frozen=True)
+class PolicyResult:
+    policy: Policy
+    decisions: tuple[PolicyDecision, ...]
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def all_met(self) -> bool:
+        """True when every procedure with a house count is certified to meet the target."""
+        return all(d.standing in (None, "meets") for d in self.decisions)
+
+
+def _value(row, metric: str):
+    """(exact value or None, upper bound or None, lower bound or None) at one row."""
+    if row.exact is not None:
+        value = row.exact.value(metric)
+        return value, value, value
+    upper = row.upper.get(metric)
+    lower = row.lower.get(metric)
+    return None, upper.value if upper else None, lower.value if lower else None
+
+
+def decide(
+    assessment, metric: str, target: float, house: int | None, proc: PolicyProcedure
+) -> PolicyDecision:
+    """Turn an assessment into the policy decision for one procedure."""
+    minimum = None
+    how = "estimate"
+    estimate_low = None
+    for row in assessment.rows:
+        exact, upper, lower = _value(row, metric)
+        if estimate_low is None and (lower is None or lower <= target):
+            estimate_low = row.repeats
+        if upper is not None and upper <= target:
+            minimum = row.repeats
+            how = "exact" if exact is not None else "bound"
+            break
+    standing = standing_how = None
+    if house is not None:
+        row = assessment.rows[house - 1]
+        exact, upper, lower = _value(row, metric)
+        if upper is not None and upper <= target:
+            standing, standing_how = "meets", "exact" if exact is not None else "upper bound"
+        elif exact is not None:
+            standing, standing_how = "fails", "exact"
+        elif lower is not None and lower > target:
+            standing, standing_how = "fails", f"lower bound, {assessment.confidence:.0%} confidence"
+        else:
+            standing, standing_how = "undetermined", "bounds straddle the target"
+    return PolicyDecision(proc, minimum, how, estimate_low, standing, standing_how, assessment)
+
+
+def evaluate_policy(
+    policy: Policy, *, progress: Callable[[str, int, int], None] | None = None
+) -> PolicyResult:
+    """Assess every procedure of the policy, decide, and audit the attached logs."""
+    from shufflecheck.assessment import assess
+
+    decisions = []
+    for i, proc in enumerate(policy.procedures):
+        update = None
+        if progress is not None:
+
+            def update(done: int, _name: str = proc.name) -> None:
+                progress(_name, done, 0)
+
+        result = assess(
+            proc.procedure,
+            proc.cards,
+            repeats=proc.max_repeats,
+            decks=policy.decks,
+            rng=policy.seed + i,
+            confidence=policy.confidence,
+            progress=update,
+        )
+        decision = decide(result, policy.metric, policy.target, proc.house, proc)
+        audits = tuple((log, _audit(log, proc, policy)) for log in proc.logs)
+        decisions.append(
+            PolicyDecision(
+                decision.procedure,
+                decision.minimum,
+                decision.how,
+                decision.estimate_low,
+                decision.standing,
+                decision.standing_how,
+                decision.assessment,
+                audits,
+            )
+        )
+    return PolicyResult(policy, tuple(decisions))
+
+
+def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
+    from shufflecheck.logaudit import audit_log
+
+    return audit_log(
+        log.path,
+        reference=log.reference,
+        labels=log.labels,
+        fmt=log.format,
+        deck=log.deck,
+        cards=proc.cards,
+        time=log.time,
+        alpha=policy.alpha,
+    )

@@ -1,0 +1,209 @@
+"""Report for ``shufflecheck audit`` (and the audit part of policy and demo reports)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from shufflecheck.report.document import MethodNote, Report, Section, Table, estimate, exact
+from shufflecheck.report.provenance import Provenance
+from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
+
+__all__ = ["audit_figures", "audit_methods", "audit_report", "audit_section"]
+
+#: how a p-value was obtained, in the report's three labels
+_P_LABEL = {"exact": "exact", "asymptotic": "estimate", "monte-carlo": "estimate"}
+
+
+def _p_cell(log10_p: float, method: str):
+    """A p-value cell: exact when the null law is exact; text with its method otherwise.
+
+    Asymptotic and Monte Carlo p-values are approximations without a stated standard
+    error, so they are written as text that names their method.
+    """
+    from shufflecheck.audit.results import format_p
+
+    if method == "exact" and log10_p > -300:
+        return exact(10.0**log10_p, digits=2)
+    return f"{format_p(log10_p)} ({method})"
+
+
+def _tests_table(battery, caption: str) -> Table:
+    rows = []
+    for t in battery.by_adjusted_p():
+        effect = t.effect
+        rows.append(
+            (
+                t.title,
+                _p_cell(t.log10_p_value, t.method),
+                _p_cell(t.log10_p_adjusted, t.method),
+                "flagged" if t.flagged else "",
+                estimate(effect.value, stderr=effect.standard_error, unit=effect.unit)
+                if math.isfinite(effect.standard_error)
+                else effect.text,
+                effect.text,
+            )
+        )
+    return Table(
+        caption,
+        ("test", "p-value", "p-value (Holm)", "verdict", "effect", "in plain words"),
+        tuple(rows),
+        notes=(
+            "Tests sorted by Holm-adjusted p-value; 'flagged' means the test rejects a "
+            f"uniformly random deck at family-wise level {battery.alpha:g}.",
+            "Effects are estimates from the recorded decks (observed mean minus the exact "
+            "mean for a random deck) with their standard errors.",
+        ),
+    )
+
+
+def audit_figures(audit, prefix: str = "") -> tuple:
+    """p-values, guessing scores against the exact null, and the position heat map."""
+    from shufflecheck.audit.guessing import guessing_null
+    from shufflecheck.report.figures import (
+        heatmap_figure,
+        pvalue_figure,
+        score_histogram_figure,
+    )
+
+    battery = audit.result.overall
+    tests = battery.by_adjusted_p()
+    figures = [
+        pvalue_figure(
+            [t.title for t in tests],
+            [max(t.p_adjusted, 1e-300) for t in tests],
+            [_P_LABEL.get(t.method, "estimate") for t in tests],
+            alpha=battery.alpha,
+            flagged=[t.flagged for t in tests],
+            name=f"{prefix}pvalues",
+        )
+    ]
+    guesses = [t for t in tests if t.name.startswith("guess-")]
+    if guesses:
+        best = min(guesses, key=lambda t: t.log10_p_value)
+        hist = audit.histograms.get(best.name)
+        if hist is not None and hist.sum() > 0:
+            n = audit.deck.size
+            law = guessing_null(n)
+            pmf = np.zeros(max(n + 1, hist.size))
+            pmf[law.offset : law.offset + len(law.counts)] = law.pmf
+            scores = np.repeat(np.arange(hist.size), hist)
+            figures.append(
+                score_histogram_figure(
+                    scores.tolist(),
+                    pmf[: max(hist.size, n + 1)].tolist(),
+                    score_name=f"correct guesses per deck ({best.title.split(', ')[-1]})",
+                    name=f"{prefix}guessing",
+                )
+            )
+    counts = np.asarray(audit.positions, dtype=float)
+    decks = counts.sum(axis=1, keepdims=True)
+    n = counts.shape[0]
+    expected = decks / n
+    with np.errstate(divide="ignore", invalid="ignore"):
+        residuals = np.where(
+            expected > 0, (counts - expected) / np.sqrt(expected * (1 - 1 / n)), 0.0
+        )
+    figures.append(
+        heatmap_figure(
+            residuals,
+            kind="residuals",
+            value_name="standardised residual",
+            name=f"{prefix}positions",
+            caption=(
+                "Where each card of the reference order was found (standardised residuals of "
+                "the position-by-card counts; orange = more often than a random deck, purple = "
+                "less often)."
+            ),
+        )
+    )
+    return tuple(figures)
+
+
+def audit_section(audit, title: str, *, prefix: str = "", figures: bool = True) -> Section:
+    """One log's results as a report section."""
+    battery = audit.result.overall
+    info = audit.reader
+    paragraphs = [
+        f"Log {audit.path.name}: {info.decks:,} decks read ({info.format}), {info.set_aside:,} set "
+        f"aside, {audit.tested:,} tested against reference '{audit.reference}'"
+        f"{f', grouped by {audit.by}' if audit.by else ''}.",
+        f"Verdict: {battery.verdict()}.",
+    ]
+    if battery.since_when is not None:
+        where = audit.since_when_rows.get("all", {})
+        place = ""
+        if where:
+            place = f" First deck of that stretch: row {where['row']}"
+            place += f", {where['time']}." if "time" in where else "."
+        paragraphs.append(f"Since when (estimate): {battery.since_when.text}.{place}")
+    for key, group in audit.result.groups:
+        paragraphs.append(f"{audit.by} = {key}: {group.verdict()}.")
+    tables = [_tests_table(battery, f"Tests on {audit.path.name}")]
+    return Section(
+        title,
+        paragraphs=tuple(paragraphs),
+        tables=tuple(tables),
+        figures=audit_figures(audit, prefix) if figures else (),
+    )
+
+
+def audit_methods(alpha: float) -> tuple[MethodNote, ...]:
+    return (
+        MethodNote(
+            "p-values of the per-deck statistics",
+            "exact",
+            "sum over the decks compared with the exact D-fold convolution of the statistic's "
+            "law under a random deck (Eulerian, rencontres, Stirling, Mahonian, succession and "
+            "adjacency counts; runs of a multiset; guessing scores: Stirling numbers of the "
+            "first kind / n!)",
+            (STANLEY, BAYER_DIACONIS, DIACONIS_GRAHAM),
+        ),
+        MethodNote(
+            "position-by-card test",
+            "estimate",
+            "chi-square with (n-1)^2 degrees of freedom (asymptotic), or a Monte Carlo null "
+            "when expected counts are small",
+            (STANLEY,),
+        ),
+        MethodNote(
+            "family-wise error",
+            "exact",
+            f"Holm's step-down adjustment over the battery at level {alpha:g}",
+            (HOLM,),
+        ),
+        MethodNote(
+            "effects and 'since when'",
+            "estimate",
+            "observed per-deck means against exact expectations; change point by a scan of "
+            "standardised excess over the null mean",
+            (DIACONIS_GRAHAM,),
+        ),
+    )
+
+
+def audit_report(audit, *, payload: dict[str, Any], provenance: Provenance) -> Report:
+    """Build the report of one log audit (``payload`` is the ``--json`` result)."""
+    battery = audit.result.overall
+    answer = [battery.verdict() + "."]
+    if battery.flagged:
+        worst = battery.by_adjusted_p()[0]
+        answer.append(f"Largest effect on the strongest test: {worst.effect.text} (estimate).")
+    if battery.since_when is not None:
+        answer.append(f"Since when: {battery.since_when.text} (estimate).")
+    if audit.set_aside:
+        answer.append(f"{audit.set_aside:,} rows were set aside as invalid and not audited.")
+    return Report(
+        title=f"Audit of recorded deck orders: {audit.path.name}",
+        question=(
+            f"Is anything detectably non-random in the {audit.tested:,} deck orders of "
+            f"{audit.path.name}, which test says so, how strongly, and since when?"
+        ),
+        answer=tuple(answer),
+        reproducibility=provenance,
+        sections=(audit_section(audit, "Tests on the recorded decks"),),
+        methods=audit_methods(battery.alpha),
+        data=payload,
+    )

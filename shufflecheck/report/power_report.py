@@ -1,0 +1,131 @@
+"""Report for ``shufflecheck power``: decks an audit needs to flag a procedure."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from shufflecheck.report.document import MethodNote, Report, Section, Table, estimate
+from shufflecheck.report.provenance import Provenance
+from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
+
+__all__ = ["decks_value", "power_curves", "power_report", "power_section"]
+
+
+def decks_value(row, level: float = 0.95):
+    """Decks needed as a labelled estimate (with an interval from the simulation's relative
+    standard error), or text when no test detects the procedure."""
+    if row.decks is None:
+        return "not detected"
+    rse = row.relative_standard_error
+    if rse is None or not math.isfinite(rse):
+        return f"{row.decks:,} (estimate)"
+    z = 1.959963984540054 if level == 0.95 else 2.5758293035489
+    low = max(1.0, row.decks * (1 - z * rse))
+    high = row.decks * (1 + z * rse)
+    return estimate(float(row.decks), ci=(low, high), level=level, unit="decks", digits=3)
+
+
+def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
+    """One curve per test, decks needed against the repetition count, for the ``top`` tests
+    that need the fewest decks (summed over the repetition counts they detect)."""
+
+    def need(test: str) -> tuple[int, float]:
+        decks = [next(x for x in plan.rows if x.test == test).decks for _, plan in plans]
+        return (-sum(d is not None for d in decks), sum(d for d in decks if d is not None))
+
+    tests = sorted((row.test for row in plans[0][1].rows), key=need)[:top]
+    curves = []
+    for name in tests:
+        xs, decks, low, high = [], [], [], []
+        title = name
+        for r, plan in plans:
+            row = next(x for x in plan.rows if x.test == name)
+            title = row.title
+            xs.append(r)
+            decks.append(row.decks)
+            rse = row.relative_standard_error or 0.0
+            low.append(None if row.decks is None else max(1.0, row.decks * (1 - 1.96 * rse)))
+            high.append(None if row.decks is None else row.decks * (1 + 1.96 * rse))
+        if all(d is None for d in decks):
+            continue
+        curves.append(
+            {"label": title, "x": xs, "decks": decks, "how": "estimate", "low": low, "high": high}
+        )
+    return curves
+
+
+def power_section(plans: list[tuple[int, Any]], procedure: str, *, figure=None) -> Section:
+    rows = []
+    for r, plan in plans:
+        for row in sorted(plan.rows, key=lambda x: (x.decks is None, x.decks or 0)):
+            rows.append((str(r), row.title, decks_value(row), row.note or ""))
+    first = plans[0][1]
+    table = Table(
+        f"Recorded decks needed to flag '{procedure}' "
+        f"(power {first.power:g}, alpha {first.alpha:g})",
+        ("repetitions", "test", "decks needed", "note"),
+        tuple(rows),
+        notes=(
+            f"Each test at level {first.per_test_level:.2g} (Bonferroni over "
+            f"{first.tests_in_battery} tests, conservative for Holm's method).",
+            f"Laws under the procedure estimated from {first.simulated_decks:,} simulated decks; "
+            "null laws exact.",
+        ),
+    )
+    return Section(
+        "Sample size for an audit",
+        paragraphs=(
+            "How many recorded decks a lab must log before an audit can be expected to flag "
+            "this procedure against a perfectly random deck.",
+        ),
+        tables=(table,),
+        figures=(figure,) if figure is not None else (),
+    )
+
+
+def power_methods() -> tuple[MethodNote, ...]:
+    return (
+        MethodNote(
+            "decks needed",
+            "estimate",
+            "statistic's law under the procedure simulated, exact null law for the critical "
+            "value, power of the exact sum test computed by convolution; smallest D by "
+            "bisection",
+            (STANLEY, BAYER_DIACONIS, DIACONIS_GRAHAM),
+        ),
+        MethodNote(
+            "family-wise level",
+            "exact",
+            "Bonferroni split of alpha over the battery (Holm's method is at least as powerful)",
+            (HOLM,),
+        ),
+    )
+
+
+def power_report(
+    plans: list[tuple[int, Any]], procedure: str, *, payload: dict, figure, provenance: Provenance
+) -> Report:
+    """Build the report of a power plan for one or several repetition counts."""
+    answer = []
+    for r, plan in plans:
+        best = plan.best()
+        if best is None:
+            answer.append(f"{procedure} x{r}: no test detects it within the search range.")
+        else:
+            answer.append(
+                f"{procedure} x{r}: about {best.decks:,} recorded decks (estimate) let the "
+                f"{best.title} test flag it with power {plan.power:g}."
+            )
+    return Report(
+        title=f"Audit planning: {procedure}",
+        question=(
+            f"How many recorded decks must be logged before an audit can be expected to flag "
+            f"'{procedure}' against a perfectly random deck?"
+        ),
+        answer=tuple(answer),
+        reproducibility=provenance,
+        sections=(power_section(plans, procedure, figure=figure),),
+        methods=power_methods(),
+        data=payload,
+    )
