@@ -24,6 +24,7 @@ class MixModel(str, Enum):
     transposition = "transposition"
     top_to_random = "top-to-random"
     random_to_top = "random-to-top"
+    shelf = "shelf"
 
 
 class Metric(str, Enum):
@@ -59,6 +60,7 @@ def mix(
     hands: Annotated[
         int, typer.Option(help="riffle: packets a of an a-shuffle (2 = ordinary riffle).")
     ] = 2,
+    shelves: Annotated[int, typer.Option(help="shelf: number of shelves of the machine.")] = 10,
     hold: Annotated[
         float | None, typer.Option(help="transposition: chance a step does nothing (default 1/n).")
     ] = None,
@@ -88,7 +90,14 @@ def mix(
     long_work = model is MixModel.transposition and cards >= 30
     with progress(steps if long_work else 0, "lumped chain") as update:
         curve = distance_curve(
-            model.value, cards, steps, hands=hands, hold=hold, method=method.value, progress=update
+            model.value,
+            cards,
+            steps,
+            hands=hands,
+            hold=hold,
+            shelves=shelves,
+            method=method.value,
+            progress=update,
         )
     minimum = {m: minimum_steps(curve.rows, m, goal) for m in METRIC_NAMES.values()}
     bound_minimum = {m: minimum_steps(curve.bounds, m, goal) for m in METRIC_NAMES.values()}
@@ -224,7 +233,7 @@ _METRIC_AXIS = {
     "separation": "separation distance",
     "kl_bits": "KL divergence (bits)",
 }
-_STEP_NAMES = {"riffle": "riffles", "transposition": "transpositions"}
+_STEP_NAMES = {"riffle": "riffles", "transposition": "transpositions", "shelf": "machine passes"}
 
 
 def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:

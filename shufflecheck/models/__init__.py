@@ -52,17 +52,19 @@ def load_step_types() -> dict[str, type]:
 
 
 #: models with an exact distance curve (``shufflecheck mix``)
-EXACT_MODELS = ("riffle", "transposition", "top-to-random", "random-to-top")
+EXACT_MODELS = ("riffle", "transposition", "top-to-random", "random-to-top", "shelf")
 
 
 def default_max_steps(model: str, cards: int) -> int:
     """Steps shown by default: comfortably past each model's cutoff.
 
     riffle ``1.5 log2 n + 5`` (cutoff ``1.5 log2 n``), transposition ``n ln n`` (cutoff
-    ``n ln n / 2``), top-to-random ``1.5 n ln n`` (cutoff ``n ln n``).
+    ``n ln n / 2``), top-to-random ``1.5 n ln n`` (cutoff ``n ln n``), shelf machine 6 passes.
     """
     if model == "riffle":
         return math.ceil(1.5 * math.log2(cards)) + 5
+    if model == "shelf":
+        return 6
     if model == "transposition":
         return math.ceil(cards * math.log(cards))
     return math.ceil(1.5 * cards * math.log(cards))
@@ -75,6 +77,7 @@ def distance_curve(
     *,
     hands: int = 2,
     hold: float | None = None,
+    shelves: int = 10,
     method: str = "chain",
     progress: Callable[[int], None] | None = None,
 ) -> MixingCurve:
@@ -90,6 +93,10 @@ def distance_curve(
         from shufflecheck.models import riffle
 
         return riffle.distance_curve(cards, steps, hands=hands)
+    if model == "shelf":
+        from shufflecheck.models import shelf
+
+        return shelf.distance_curve(cards, steps, shelves=shelves)
     if model == "transposition":
         from shufflecheck.models import transposition
 

@@ -27,7 +27,7 @@ from shufflecheck.errors import InputError
 if TYPE_CHECKING:
     from shufflecheck.mixing import DistanceRow
 
-__all__ = ["STEP_TYPES", "Step", "register_step"]
+__all__ = ["STEP_TYPES", "Step", "register_step", "sample_step"]
 
 #: procedure keyword -> step class; filled by :func:`register_step`.
 STEP_TYPES: dict[str, type[Step]] = {}
@@ -85,3 +85,26 @@ class Step(ABC):
             if value != default:
                 changed.append(f"{f.name}={value}")
         return f"{self.keyword}({', '.join(changed)})" if changed else self.keyword
+
+
+def sample_step(
+    step: Step, decks: int, cards: int, steps: int, rng: np.random.Generator | int | None
+) -> np.ndarray:
+    """``decks`` reference-order decks after ``steps`` applications of ``step``.
+
+    The common body of the ``sample`` functions of the step modules: validates the sizes,
+    normalises ``rng`` once and works in chunks of
+    :data:`~shufflecheck.models.permute.CHUNK_DECKS` decks.
+    """
+    from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+
+    for name, value, least in (("decks", decks, 0), ("cards", cards, 2), ("steps", steps, 0)):
+        if isinstance(value, bool) or not isinstance(value, int) or value < least:
+            raise InputError(f"{step.keyword}: {name} must be an integer >= {least}, got {value!r}")
+    step.check_cards(cards)
+    generator = np.random.default_rng(rng)
+    out = identity_decks(decks, cards)
+    for start in range(0, decks, CHUNK_DECKS):
+        stop = min(decks, start + CHUNK_DECKS)
+        out[start:stop] = step.apply_repeated(out[start:stop], steps, generator)
+    return out

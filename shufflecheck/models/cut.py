@@ -38,23 +38,20 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from collections.abc import Callable
 from fractions import Fraction
 
 import numpy as np
 
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow, distances_from_groups
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.permute import apply_in_blocks
 
 __all__ = [
-    "BLOCK_DECKS",
     "MAX_EXACT_CARDS",
     "MAX_EXACT_STEPS",
     "WEIGHT_BITS",
     "Cut",
-    "apply_in_blocks",
     "centred_weights",
     "check_spread",
     "cut_law",
@@ -63,16 +60,12 @@ __all__ = [
     "rotate",
     "rotation_law",
     "sample",
-    "sample_step",
 ]
 
 #: weights of the discretised normal are integers of at most this many bits
 WEIGHT_BITS = 40
 MAX_EXACT_CARDS = 5000
 MAX_EXACT_STEPS = 10000
-#: decks handled at once inside a step whose work is several passes over (decks, n)
-#: temporaries: small enough for the temporaries to stay in cache
-BLOCK_DECKS = 1 << 14
 
 
 def check_spread(spread: float | None, keyword: str) -> float | None:
@@ -236,39 +229,6 @@ def exact_distances(
 
 # ---------------------------------------------------------------------------------------
 # sampling
-
-
-def apply_in_blocks(
-    function: Callable[..., np.ndarray], decks: np.ndarray, *args: object
-) -> np.ndarray:
-    """``function(block, *args)`` on blocks of :data:`BLOCK_DECKS` rows, into one new array."""
-    if decks.shape[0] <= BLOCK_DECKS:
-        return function(decks, *args)
-    out = np.empty_like(decks)
-    for start in range(0, decks.shape[0], BLOCK_DECKS):
-        stop = start + BLOCK_DECKS
-        out[start:stop] = function(decks[start:stop], *args)
-    return out
-
-
-def sample_step(
-    step: Step, decks: int, cards: int, steps: int, rng: np.random.Generator | int | None
-) -> np.ndarray:
-    """``decks`` reference-order decks after ``steps`` applications of ``step``.
-
-    The common body of the ``sample`` functions of the step modules: validates the sizes,
-    normalises ``rng`` once and works in chunks of :data:`CHUNK_DECKS` decks.
-    """
-    for name, value, least in (("decks", decks, 0), ("cards", cards, 2), ("steps", steps, 0)):
-        if isinstance(value, bool) or not isinstance(value, int) or value < least:
-            raise InputError(f"{step.keyword}: {name} must be an integer >= {least}, got {value!r}")
-    step.check_cards(cards)
-    generator = np.random.default_rng(rng)
-    out = identity_decks(decks, cards)
-    for start in range(0, decks, CHUNK_DECKS):
-        stop = min(decks, start + CHUNK_DECKS)
-        out[start:stop] = step.apply_repeated(out[start:stop], steps, generator)
-    return out
 
 
 def sample(

@@ -67,15 +67,9 @@ import numpy as np
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow, distances_from_groups
 from shufflecheck.models import riffle
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.cut import (
-    apply_in_blocks,
-    centred_weights,
-    check_spread,
-    draw_from_weights,
-    sample_step,
-)
-from shufflecheck.models.permute import place_by_sort_key
+from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
+from shufflecheck.models.permute import apply_in_blocks, place_by_sort_key
 from shufflecheck.models.pile import fixed_arrangement_distances, power_sources
 
 __all__ = [

@@ -11,10 +11,14 @@ Conventions (see DEVELOPERS.md): a batch is an integer array of shape ``(decks, 
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 __all__ = [
+    "BLOCK_DECKS",
     "CHUNK_DECKS",
+    "apply_in_blocks",
     "apply_sources",
     "deck_dtype",
     "identity_decks",
@@ -25,8 +29,24 @@ __all__ = [
     "place_by_sort_key",
 ]
 
-#: Decks processed at once by samplers that work in chunks (keeps temporaries in cache).
+#: Decks processed at once by samplers that work in chunks (bounds memory).
 CHUNK_DECKS = 1 << 16
+#: Decks handled at once inside a step whose work is several passes over (decks, n)
+#: temporaries: small enough for the temporaries to stay in cache.
+BLOCK_DECKS = 1 << 14
+
+
+def apply_in_blocks(
+    function: Callable[..., np.ndarray], decks: np.ndarray, *args: object
+) -> np.ndarray:
+    """``function(block, *args)`` on blocks of :data:`BLOCK_DECKS` rows, into one new array."""
+    if decks.shape[0] <= BLOCK_DECKS:
+        return function(decks, *args)
+    out = np.empty_like(decks)
+    for start in range(0, decks.shape[0], BLOCK_DECKS):
+        stop = start + BLOCK_DECKS
+        out[start:stop] = function(decks[start:stop], *args)
+    return out
 
 
 def deck_dtype(cards: int) -> np.dtype:

@@ -42,8 +42,7 @@ import numpy as np
 
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.cut import sample_step
+from shufflecheck.models.base import Step, register_step, sample_step
 
 __all__ = [
     "Pile",

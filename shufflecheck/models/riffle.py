@@ -39,13 +39,8 @@ from shufflecheck.characters import Eigenvalue
 from shufflecheck.counting import eulerian_row, stirling1_row
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.permute import (
-    CHUNK_DECKS,
-    identity_decks,
-    label_bits,
-    place_by_sort_key,
-)
+from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.permute import apply_in_blocks, label_bits, place_by_sort_key
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -190,7 +185,7 @@ def _block_sizes(cards: int, hands: int, steps: int) -> list[int]:
 
 
 def riffle_decks(
-    decks: np.ndarray, steps: int, rng: np.random.Generator, *, hands: int = 2
+    decks: np.ndarray, steps: int, rng: np.random.Generator, hands: int = 2
 ) -> np.ndarray:
     """Apply ``steps`` forward a-shuffles to every row of ``decks`` (returns a new array)."""
     cards = decks.shape[1]
@@ -214,18 +209,9 @@ def sample(
     """``decks`` decks after ``steps`` forward a-shuffles of the reference order.
 
     Returns an int16 array of shape ``(decks, cards)``; ``row[i]`` is the label of the card at
-    position ``i`` (0 = top). Works in chunks of :data:`CHUNK_DECKS` decks.
+    position ``i`` (0 = top).
     """
-    check_hands(hands)
-    _check_cards_steps(cards, steps)
-    if decks < 0:
-        raise InputError(f"decks must be >= 0, got {decks}")
-    generator = np.random.default_rng(rng)
-    out = identity_decks(decks, cards)
-    for start in range(0, decks, CHUNK_DECKS):
-        stop = min(decks, start + CHUNK_DECKS)
-        out[start:stop] = riffle_decks(out[start:stop], steps, generator, hands=hands)
-    return out
+    return sample_step(Riffle(hands=hands), decks, cards, steps, rng)
 
 
 @register_step
@@ -242,10 +228,10 @@ class Riffle(Step):
         check_hands(self.hands)
 
     def apply(self, decks: np.ndarray, rng: np.random.Generator) -> np.ndarray:
-        return riffle_decks(decks, 1, rng, hands=self.hands)
+        return apply_in_blocks(riffle_decks, decks, 1, rng, self.hands)
 
     def apply_repeated(self, decks: np.ndarray, times: int, rng: np.random.Generator) -> np.ndarray:
-        return riffle_decks(decks, times, rng, hands=self.hands)
+        return apply_in_blocks(riffle_decks, decks, times, rng, self.hands)
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:

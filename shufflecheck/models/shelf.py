@@ -70,9 +70,8 @@ import numpy as np
 
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.cut import apply_in_blocks, sample_step
-from shufflecheck.models.permute import key_dtype, label_bits
+from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 
 __all__ = [
     "MAX_EXACT_CARDS",

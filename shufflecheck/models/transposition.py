@@ -48,8 +48,7 @@ from shufflecheck.characters import (
 )
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import DistanceRow, MixingCurve
-from shufflecheck.models.base import Step, register_step
-from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.partitions import (
     content_sum,
     content_sums,
@@ -488,18 +487,10 @@ def sample(
     hold: float | Fraction | None = None,
 ) -> np.ndarray:
     """``decks`` decks after ``steps`` random transpositions of the reference order."""
-    h = float(check_hold(cards, hold))
-    if decks < 0 or cards < 2 or steps < 0:
-        raise InputError("decks >= 0, cards >= 2 and steps >= 0 are required")
-    generator = np.random.default_rng(rng)
-    out = identity_decks(decks, cards)
-    for start in range(0, decks, CHUNK_DECKS):
-        stop = min(decks, start + CHUNK_DECKS)
-        block = out[start:stop]
-        for _ in range(steps):
-            block = _swap_step(block, h, generator)
-        out[start:stop] = block
-    return out
+    check_hold(cards, hold)
+    return sample_step(
+        Transposition(hold=None if hold is None else float(hold)), decks, cards, steps, rng
+    )
 
 
 @register_step

@@ -11,6 +11,7 @@ from shufflecheck.report.sources import (
     ALDOUS_DIACONIS_1986,
     BAYER_DIACONIS,
     COVER_THOMAS,
+    DIACONIS_FULMAN_HOLMES,
     DIACONIS_SHAHSHAHANI,
 )
 
@@ -27,9 +28,14 @@ _SOURCES = {
     "transposition": (DIACONIS_SHAHSHAHANI,),
     "top-to-random": (ALDOUS_DIACONIS_1986,),
     "random-to-top": (ALDOUS_DIACONIS_1986,),
+    "shelf": (DIACONIS_FULMAN_HOLMES,),
 }
 
-_STEP_WORDS = {"riffle": "riffles", "transposition": "random transpositions"}
+_STEP_WORDS = {
+    "riffle": "riffles",
+    "transposition": "random transpositions",
+    "shelf": "machine passes",
+}
 
 
 def _cell(value: float | None, kind: str):
