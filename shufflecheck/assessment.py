@@ -53,10 +53,12 @@ from shufflecheck.models.riffle import Riffle
 from shufflecheck.procedures import Procedure
 
 __all__ = [
+    "CAUTION",
     "Assessment",
     "AssessmentRow",
     "StatisticBound",
     "assess",
+    "assessment_json",
     "exact_blocks",
 ]
 
@@ -68,6 +70,12 @@ LOWER_BOUND_STATISTICS = {
     "bottom card position": "where the original bottom card lies (uniform law)",
     "guessing score": "correct guesses of the best strategy (Stirling law)",
 }
+
+CAUTION = (
+    "Statistical evidence about the modelled procedure, not a certification: shuffling "
+    "devices and dealing rules are for the local gaming regulator and accredited test "
+    "laboratories to approve."
+)
 
 MAX_REPEATS = 100
 MAX_DECKS = 50_000_000
@@ -479,3 +487,57 @@ def _normal_quantile(p: float) -> float:
     from scipy.stats import norm
 
     return float(norm.ppf(p))
+
+
+def assessment_json(result: Assessment) -> dict:
+    """The JSON form of an :class:`Assessment` (``shufflecheck assess --json``)."""
+
+    def distances(row):
+        if row is None:
+            return None
+        return {
+            "total_variation": row.total_variation,
+            "separation": row.separation,
+            "kl_bits": row.kl_bits,
+            "method": row.method,
+        }
+
+    rows = []
+    for row in result.rows:
+        rows.append(
+            {
+                "repeats": row.repeats,
+                "exact": distances(row.exact),
+                "upper_bound": {k: q.as_dict() for k, q in row.upper.items()},
+                "upper_bound_blocks": list(row.upper_blocks),
+                "lower_bound": {k: q.as_dict() for k, q in row.lower.items()},
+                "lower_bound_by_statistic": [
+                    {
+                        "statistic": b.statistic,
+                        "total_variation_lower_bound": b.lower_bound,
+                        "event_probability_uniform": b.event_probability_uniform,
+                        "event_count": b.event_count,
+                        "measured_decks": b.measured_decks,
+                    }
+                    for b in row.lower_by_statistic
+                ],
+                "guessing": {
+                    "uniform_mean": row.uniform_guesses,
+                    "uniform_method": "exact: H_n, sum of Bernoulli(1/j)",
+                    "strategies": {k: q.as_dict() for k, q in row.guessing.items()},
+                    "best_strategy": row.best_strategy,
+                    "extra_correct_guesses_per_deck": row.extra_guesses.as_dict(),
+                },
+            }
+        )
+    return {
+        "procedure": result.procedure,
+        "name": result.name,
+        "cards": result.cards,
+        "decks": result.decks,
+        "seed": result.seed,
+        "confidence": result.confidence,
+        "rows": rows,
+        "notes": list(result.notes),
+        "caution": CAUTION,
+    }

@@ -38,6 +38,7 @@ confidence bound above the target) or ``undetermined``.
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -54,8 +55,10 @@ __all__ = [
     "PolicyDecision",
     "PolicyProcedure",
     "PolicyResult",
+    "decide",
     "evaluate_policy",
     "load_policy",
+    "policy_work",
 ]
 
 _POLICY_KEYS = {
@@ -307,23 +310,25 @@ class PolicyDecision:
 
     def summary(self, metric_label: str, target: float) -> str:
         """One sentence a manager can read."""
+
+        def times(k: int) -> str:
+            return f"{k} repetition{'s' if k != 1 else ''}"
+
         name = self.procedure.name
         if self.minimum is not None and self.how == "exact":
-            text = (
-                f"{name}: {self.minimum} repetitions bring {metric_label} to <= {target:g} (exact)"
-            )
+            text = f"{name}: {times(self.minimum)} bring {metric_label} to <= {target:g} (exact)"
         elif self.minimum is not None:
-            low = self.estimate_low or 1
             text = (
-                f"{name}: {self.minimum} repetitions are certified to bring {metric_label} to "
-                f"<= {target:g} (rigorous upper bound); fewer than {low} are excluded at the "
-                "stated confidence"
+                f"{name}: {times(self.minimum)} certified to bring {metric_label} to <= "
+                f"{target:g} (rigorous upper bound)"
             )
+            if self.estimate_low is not None and self.estimate_low > 1:
+                text += f"; fewer than {self.estimate_low} are excluded at the stated confidence"
         elif self.estimate_low is not None:
             text = (
-                f"{name}: not certified within {self.procedure.max_repeats} repetitions; the "
-                f"smallest count not excluded by the lower bounds is {self.estimate_low} "
-                "(estimate, not a certified minimum)"
+                f"{name}: not certified within {times(self.procedure.max_repeats)}; the smallest "
+                f"count not excluded by the lower bounds is {self.estimate_low} (estimate, not a "
+                "certified minimum)"
             )
         else:
             text = (
@@ -387,19 +392,31 @@ def decide(
     return PolicyDecision(proc, minimum, how, estimate_low, standing, standing_how, assessment)
 
 
+def policy_work(policy: Policy) -> int:
+    """Units of work :func:`evaluate_policy` reports to its progress callback."""
+    from shufflecheck.models.permute import CHUNK_DECKS
+
+    chunks = -(-policy.decks // CHUNK_DECKS)
+    return sum(chunks * proc.max_repeats for proc in policy.procedures)
+
+
 def evaluate_policy(
-    policy: Policy, *, progress: Callable[[str, int, int], None] | None = None
+    policy: Policy, *, progress: Callable[[int], None] | None = None
 ) -> PolicyResult:
-    """Assess every procedure of the policy, decide, and audit the attached logs."""
+    """Assess every procedure of the policy, decide, and audit the attached logs.
+
+    ``progress`` is called with the units done so far (out of :func:`policy_work`).
+    """
     from shufflecheck.assessment import assess
+    from shufflecheck.models.permute import CHUNK_DECKS
 
     decisions = []
+    offset = 0
     for i, proc in enumerate(policy.procedures):
-        update = None
-        if progress is not None:
 
-            def update(done: int, _name: str = proc.name) -> None:
-                progress(_name, done, 0)
+        def update(done: int, _offset: int = offset) -> None:
+            if progress is not None:
+                progress(_offset + done)
 
         result = assess(
             proc.procedure,
@@ -410,20 +427,10 @@ def evaluate_policy(
             confidence=policy.confidence,
             progress=update,
         )
+        offset += -(-policy.decks // CHUNK_DECKS) * proc.max_repeats
         decision = decide(result, policy.metric, policy.target, proc.house, proc)
         audits = tuple((log, _audit(log, proc, policy)) for log in proc.logs)
-        decisions.append(
-            PolicyDecision(
-                decision.procedure,
-                decision.minimum,
-                decision.how,
-                decision.estimate_low,
-                decision.standing,
-                decision.standing_how,
-                decision.assessment,
-                audits,
-            )
-        )
+        decisions.append(dataclasses.replace(decision, audits=audits))
     return PolicyResult(policy, tuple(decisions))
 
 

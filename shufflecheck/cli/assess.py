@@ -17,12 +17,6 @@ from shufflecheck.cli._app import (
     save_report,
 )
 
-CAUTION = (
-    "Statistical evidence about the modelled procedure, not a certification: shuffling "
-    "devices and dealing rules are for the local gaming regulator and accredited test "
-    "laboratories to approve."
-)
-
 
 @app.command()
 def assess(
@@ -60,6 +54,7 @@ def assess(
     confidence from simulated decks, or an estimate with its interval (the guessing game).
     """
     from shufflecheck.assessment import assess as run_assessment
+    from shufflecheck.assessment import assessment_json
     from shufflecheck.models.permute import CHUNK_DECKS
     from shufflecheck.procedures import procedure_from_argument
 
@@ -70,7 +65,7 @@ def assess(
         result = run_assessment(
             proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
         )
-    payload = assessment_payload(result)
+    payload = assessment_json(result)
     figure = _figure(result) if plot or report else None
     if plot is not None:
         from shufflecheck.fileio import atomic_write
@@ -96,60 +91,6 @@ def assess(
         echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")
-
-
-def assessment_payload(result) -> dict:
-    """The JSON form of an :class:`~shufflecheck.assessment.Assessment`."""
-
-    def distances(row):
-        if row is None:
-            return None
-        return {
-            "total_variation": row.total_variation,
-            "separation": row.separation,
-            "kl_bits": row.kl_bits,
-            "method": row.method,
-        }
-
-    rows = []
-    for row in result.rows:
-        rows.append(
-            {
-                "repeats": row.repeats,
-                "exact": distances(row.exact),
-                "upper_bound": {k: q.as_dict() for k, q in row.upper.items()},
-                "upper_bound_blocks": list(row.upper_blocks),
-                "lower_bound": {k: q.as_dict() for k, q in row.lower.items()},
-                "lower_bound_by_statistic": [
-                    {
-                        "statistic": b.statistic,
-                        "total_variation_lower_bound": b.lower_bound,
-                        "event_probability_uniform": b.event_probability_uniform,
-                        "event_count": b.event_count,
-                        "measured_decks": b.measured_decks,
-                    }
-                    for b in row.lower_by_statistic
-                ],
-                "guessing": {
-                    "uniform_mean": row.uniform_guesses,
-                    "uniform_method": "exact: H_n, sum of Bernoulli(1/j)",
-                    "strategies": {k: q.as_dict() for k, q in row.guessing.items()},
-                    "best_strategy": row.best_strategy,
-                    "extra_correct_guesses_per_deck": row.extra_guesses.as_dict(),
-                },
-            }
-        )
-    return {
-        "procedure": result.procedure,
-        "name": result.name,
-        "cards": result.cards,
-        "decks": result.decks,
-        "seed": result.seed,
-        "confidence": result.confidence,
-        "rows": rows,
-        "notes": list(result.notes),
-        "caution": CAUTION,
-    }
 
 
 def _num(value: float) -> str:
@@ -210,6 +151,8 @@ def _print(result) -> None:
         f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck (H_{result.cards})"
     )
     echo()
+    from shufflecheck.assessment import CAUTION
+
     echo(CAUTION)
 
 

@@ -215,6 +215,7 @@ def power(
     Simulates the procedure (estimate), uses each test's exact null for its critical value,
     and searches the smallest number of decks with the requested power.
     """
+    from shufflecheck.planning import plan_power, planning_json
     from shufflecheck.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
@@ -223,7 +224,7 @@ def power(
     plans = plan_power(
         proc, n, counts, alpha=alpha, power=power_target, simulate=simulate, seed=seed
     )
-    payload = power_payload(plans, proc, seed)
+    payload = planning_json(plans, proc, seed)
     figure = None
     if (plot or report) and len(plans) > 1:
         from shufflecheck.report.figures import power_figure
@@ -258,70 +259,6 @@ def power(
         echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")
-
-
-def plan_power(
-    proc, cards: int, counts: list[int], *, alpha: float, power: float, simulate: int, seed: int
-):
-    """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
-    from shufflecheck.audit import plan_decks
-    from shufflecheck.decks import load_deck
-
-    proc.check_cards(cards)
-    deck = load_deck() if cards == 52 else None
-    plans = []
-    for r in counts:
-
-        def sample(count: int, rng, _r: int = r):
-            return proc.sample(count, cards, _r, rng=rng)
-
-        plan = plan_decks(
-            sample,
-            cards,
-            alpha=alpha,
-            power=power,
-            simulate=simulate,
-            suits=deck.suit_codes() if deck is not None else None,
-            colours=deck.colour_codes() if deck is not None else None,
-            rng=seed + r,
-        )
-        plans.append((r, plan))
-    return plans
-
-
-def power_payload(plans, proc, seed: int) -> dict:
-    first = plans[0][1]
-    return {
-        "procedure": proc.describe(),
-        "cards": first.cards,
-        "alpha": first.alpha,
-        "power": first.power,
-        "seed": seed,
-        "simulated_decks": first.simulated_decks,
-        "tests_in_battery": first.tests_in_battery,
-        "per_test_level": first.per_test_level,
-        "plans": [
-            {
-                "repeats": r,
-                "rows": [
-                    {
-                        "test": row.test,
-                        "title": row.title,
-                        "decks": row.decks,
-                        "power": row.power,
-                        "how": "estimate",
-                        "shift": row.shift,
-                        "shift_standard_error": row.shift_standard_error,
-                        "relative_standard_error": row.relative_standard_error,
-                        "method": row.method,
-                        "note": row.note,
-                    }
-                    for row in plan.rows
-                ],
-            }
-            for r, plan in plans
-        ],
-    }
 
 
 def _print_power(plans, proc) -> None:

@@ -1,0 +1,78 @@
+"""Audit planning for procedures: how many recorded decks each test needs, per repetition count.
+
+A thin layer over :func:`shufflecheck.audit.power.plan_decks`: it turns a dealing procedure
+into the sampler the planner needs (decks relative to their reference, after ``r`` runs of
+the procedure) and uses the built-in deck's suits and colours for 52-card decks.
+"""
+
+from __future__ import annotations
+
+from shufflecheck.audit.power import PowerPlan
+from shufflecheck.procedures import Procedure
+
+__all__ = ["plan_power", "planning_json"]
+
+
+def plan_power(
+    proc, cards: int, counts: list[int], *, alpha: float, power: float, simulate: int, seed: int
+):
+    """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
+    from shufflecheck.audit import plan_decks
+    from shufflecheck.decks import load_deck
+
+    proc.check_cards(cards)
+    deck = load_deck() if cards == 52 else None
+    plans = []
+    for r in counts:
+
+        def sample(count: int, rng, _r: int = r):
+            return proc.sample(count, cards, _r, rng=rng)
+
+        plan = plan_decks(
+            sample,
+            cards,
+            alpha=alpha,
+            power=power,
+            simulate=simulate,
+            suits=deck.suit_codes() if deck is not None else None,
+            colours=deck.colour_codes() if deck is not None else None,
+            rng=seed + r,
+        )
+        plans.append((r, plan))
+    return plans
+
+
+def planning_json(plans: list[tuple[int, PowerPlan]], proc: Procedure, seed: int) -> dict:
+    """The ``shufflecheck power --json`` form of :func:`plan_power`'s result."""
+    first = plans[0][1]
+    return {
+        "procedure": proc.describe(),
+        "cards": first.cards,
+        "alpha": first.alpha,
+        "power": first.power,
+        "seed": seed,
+        "simulated_decks": first.simulated_decks,
+        "tests_in_battery": first.tests_in_battery,
+        "per_test_level": first.per_test_level,
+        "plans": [
+            {
+                "repeats": r,
+                "rows": [
+                    {
+                        "test": row.test,
+                        "title": row.title,
+                        "decks": row.decks,
+                        "power": row.power,
+                        "how": "estimate",
+                        "shift": row.shift,
+                        "shift_standard_error": row.shift_standard_error,
+                        "relative_standard_error": row.relative_standard_error,
+                        "method": row.method,
+                        "note": row.note,
+                    }
+                    for row in plan.rows
+                ],
+            }
+            for r, plan in plans
+        ],
+    }

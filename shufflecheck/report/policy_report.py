@@ -1,0 +1,216 @@
+"""Report for ``shufflecheck policy`` and the demo: decisions first, then the evidence."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from shufflecheck.report.assess_report import assessment_methods, assessment_table
+from shufflecheck.report.audit_report import audit_methods, audit_section
+from shufflecheck.report.document import MethodNote, Report, Section, Table
+from shufflecheck.report.mix_report import METRIC_LABELS
+from shufflecheck.report.provenance import Provenance
+
+__all__ = ["policy_figure", "policy_payload", "policy_report", "policy_sections"]
+
+
+def _decision_cells(decision) -> tuple:
+    proc = decision.procedure
+    if decision.minimum is not None:
+        minimum = f"{decision.minimum} ({decision.how})"
+    elif decision.estimate_low is not None:
+        minimum = f"not certified; {decision.estimate_low} not excluded (estimate)"
+    else:
+        minimum = f"more than {proc.max_repeats} (all excluded)"
+    house = str(proc.house) if proc.house is not None else ""
+    standing = f"{decision.standing} ({decision.standing_how})" if decision.standing else ""
+    audits = "; ".join(
+        f"{log.table or log.path.name}: {'FLAGGED' if audit.result.flagged else 'not flagged'}"
+        for log, audit in decision.audits
+    )
+    return (proc.name, proc.procedure.describe(), str(proc.cards), minimum, house, standing, audits)
+
+
+def policy_payload(result) -> dict[str, Any]:
+    """The ``--json`` form of a policy result."""
+    from shufflecheck.assessment import assessment_json
+
+    policy = result.policy
+    out = {
+        "policy": {
+            "file": str(policy.path),
+            "title": policy.title,
+            "metric": policy.metric,
+            "target": policy.target,
+            "confidence": policy.confidence,
+            "simulated_decks": policy.decks,
+            "seed": policy.seed,
+            "alpha": policy.alpha,
+        },
+        "all_house_counts_meet_target": result.all_met,
+        "procedures": [],
+    }
+    for d in result.decisions:
+        proc = d.procedure
+        out["procedures"].append(
+            {
+                "name": proc.name,
+                "procedure": proc.procedure.describe(),
+                "cards": proc.cards,
+                "minimum": d.minimum,
+                "how": d.how if d.minimum is not None else "estimate",
+                "smallest_not_excluded": d.estimate_low,
+                "house": proc.house,
+                "standing": d.standing,
+                "standing_how": d.standing_how,
+                "summary": d.summary(METRIC_LABELS[policy.metric], policy.target),
+                "assessment": assessment_json(d.assessment),
+                "logs": [
+                    {"table": log.table, "path": str(log.path), **audit.as_json()}
+                    for log, audit in d.audits
+                ],
+            }
+        )
+    return out
+
+
+def policy_figure(result):
+    """Every procedure's distance (exact, bounds) against repetitions on one chart."""
+    from shufflecheck.report.figures import distance_figure
+
+    metric = result.policy.metric
+    curves = []
+    for d in result.decisions:
+        rows = d.assessment.rows
+        name = d.procedure.name
+        exact_rows = [r for r in rows if r.exact is not None]
+        if exact_rows:
+            curves.append(
+                {
+                    "label": f"{name}",
+                    "how": "exact",
+                    "group": name,
+                    "steps": [r.repeats for r in exact_rows],
+                    "values": [r.exact.value(metric) for r in exact_rows],
+                    **({"minimum": d.minimum} if d.minimum and d.how == "exact" else {}),
+                }
+            )
+        upper = [r for r in rows if metric in r.upper]
+        if upper:
+            curves.append(
+                {
+                    "label": f"{name}, upper bound",
+                    "how": "bound",
+                    "side": "upper",
+                    "group": name,
+                    "steps": [r.repeats for r in upper],
+                    "values": [r.upper[metric].value for r in upper],
+                    **({"minimum": d.minimum} if d.minimum and d.how == "bound" else {}),
+                }
+            )
+        lower = [r for r in rows if r.exact is None]
+        if lower:
+            curves.append(
+                {
+                    "label": f"{name}, lower bound",
+                    "how": "bound",
+                    "side": "lower",
+                    "group": name,
+                    "steps": [r.repeats for r in lower],
+                    "values": [r.lower[metric].value for r in lower],
+                }
+            )
+    label = {
+        "total_variation": "total variation distance",
+        "separation": "separation distance",
+        "kl_bits": "KL divergence (bits)",
+    }[metric]
+    return distance_figure(
+        curves, target=result.policy.target, metric=label, steps_name="repetitions", name="policy"
+    )
+
+
+def policy_sections(result, *, figures: bool = True) -> list[Section]:
+    policy = result.policy
+    label = METRIC_LABELS[policy.metric]
+    decisions = Table(
+        f"Policy decisions: {label} at most {policy.target:g}",
+        (
+            "procedure",
+            "steps",
+            "cards",
+            "minimum repetitions",
+            "house count",
+            "house standing",
+            "recorded logs",
+        ),
+        tuple(_decision_cells(d) for d in result.decisions),
+        notes=(
+            "A minimum is certified only when it is exact or comes from a rigorous upper bound; "
+            "'not excluded' is the smallest count the lower confidence bounds leave open "
+            "(an estimate, not a certified minimum).",
+        ),
+    )
+    sections = [
+        Section(
+            "Decisions",
+            paragraphs=tuple(d.summary(label, policy.target) + "." for d in result.decisions),
+            tables=(decisions,),
+            figures=(policy_figure(result),) if figures else (),
+        )
+    ]
+    for d in result.decisions:
+        table = assessment_table(d.assessment, policy.metric)
+        sections.append(
+            Section(
+                f"Procedure: {d.procedure.name}",
+                paragraphs=(
+                    f"Steps: {d.procedure.procedure.describe()} on {d.procedure.cards} cards, "
+                    f"assessed for 1 to {d.procedure.max_repeats} repetitions with "
+                    f"{d.assessment.decks:,} simulated decks.",
+                    *d.assessment.notes,
+                ),
+                tables=(table,),
+            )
+        )
+        for i, (log, audit) in enumerate(d.audits):
+            title = f"Recorded decks: {log.table or log.path.name} ({d.procedure.name})"
+            prefix = f"{len(sections)}-{i}-"
+            sections.append(audit_section(audit, title, prefix=prefix, figures=figures))
+    return sections
+
+
+def policy_report(
+    result,
+    *,
+    payload: dict[str, Any],
+    provenance: Provenance,
+    title: str | None = None,
+    extra_sections=(),
+    extra_methods=(),
+    question: str | None = None,
+) -> Report:
+    """Build the report of a policy evaluation."""
+    policy = result.policy
+    label = METRIC_LABELS[policy.metric]
+    answer = [d.summary(label, policy.target) + "." for d in result.decisions]
+    for d in result.decisions:
+        for log, audit in d.audits:
+            answer.append(f"{log.table or log.path.name}: {audit.result.overall.verdict()}.")
+    methods: list[MethodNote] = list(assessment_methods(policy.confidence))
+    if any(d.audits for d in result.decisions):
+        methods.extend(audit_methods(policy.alpha))
+    methods.extend(extra_methods)
+    return Report(
+        title=title or f"Shuffle policy: {policy.title}",
+        question=question
+        or (
+            f"For each house procedure, what is the fewest number of repetitions that brings "
+            f"{label} to at most {policy.target:g}, does the house count meet it, and do the "
+            "recorded decks show bias?"
+        ),
+        answer=tuple(answer),
+        reproducibility=provenance,
+        sections=(*policy_sections(result), *extra_sections),
+        methods=tuple(methods),
+        data=payload,
+    )
