@@ -1,0 +1,52 @@
+"""Tests on recorded deck orders: statistics, exact nulls, the battery, power planning.
+
+* :mod:`~shufflecheck.audit.statistics` — per-deck statistics, vectorized over decks;
+* :mod:`~shufflecheck.audit.nulls` — exact laws of those statistics under a uniform deck
+  and exact tails of their sums over any number of decks;
+* :mod:`~shufflecheck.audit.guessing` — the guessing game with feedback (strategies and
+  the exact law);
+* :mod:`~shufflecheck.audit.positions` — the position-by-card chi-square / G test;
+* :mod:`~shufflecheck.audit.battery` — mergeable summaries, the battery, Holm, effects;
+* :mod:`~shufflecheck.audit.timeline` — "since when" (change-point estimate);
+* :mod:`~shufflecheck.audit.power` — how many recorded decks each test needs.
+
+Results are statistical evidence about a sample of decks, not a certification; approval of
+shuffling devices belongs to the local gaming regulator and accredited test laboratories.
+"""
+
+from __future__ import annotations
+
+from shufflecheck.audit.battery import BatterySummary, battery_specs, deck_values, holm
+from shufflecheck.audit.guessing import (
+    DEFAULT_STRATEGIES,
+    STRATEGIES,
+    guess_scores,
+    guess_scores_many,
+    guessing_null,
+)
+from shufflecheck.audit.nulls import Law, sum_p_value, sum_tail_logs
+from shufflecheck.audit.power import PowerPlan, PowerRow, plan_decks
+from shufflecheck.audit.results import AuditResult, BatteryResult, Effect, SinceWhen, TestResult
+
+__all__ = [
+    "DEFAULT_STRATEGIES",
+    "STRATEGIES",
+    "AuditResult",
+    "BatteryResult",
+    "BatterySummary",
+    "Effect",
+    "Law",
+    "PowerPlan",
+    "PowerRow",
+    "SinceWhen",
+    "TestResult",
+    "battery_specs",
+    "deck_values",
+    "guess_scores",
+    "guess_scores_many",
+    "guessing_null",
+    "holm",
+    "plan_decks",
+    "sum_p_value",
+    "sum_tail_logs",
+]

@@ -1,0 +1,332 @@
+"""The guessing game with feedback: strategies for real procedures, and the exact null law.
+
+A player names the next card of the deck, the card is shown, the player names the next, and
+so on through the deck. Every strategy here names a card that has not been seen yet. Under a
+uniformly random deck the card at position ``i`` (0-based) is then uniform among the
+``n - i`` unseen cards whatever was seen before, so the guess is right with probability
+``1/(n - i)`` independently of the earlier guesses: the number of correct guesses is a sum of
+independent Bernoulli(1/j), ``j = 1..n``, whose exact law is ``stirling1_row(n) / n!`` with
+mean ``H_n`` (4.54 for 52 cards) ([1]_, [2]_). Any excess over ``H_n`` is the strategy's
+advantage, in correct guesses per deck.
+
+Strategies (cards are labels in the reference order, 0 = the reference top card):
+
+``next-card`` (riffles and cuts)
+    Name the card that followed the last seen card in the reference, wrapping from the
+    reference bottom card to the top one (a cut turns the reference into a cycle); if that
+    card has been seen, or at the first card, fall back to ``longest-run``. After a riffle
+    the deck interleaves packets that each keep reference order, and after a cut every card
+    but one follows its predecessor.
+``longest-run`` (riffles with many packets)
+    Name the first card of the longest block of consecutive unseen reference cards (the
+    lowest such block on ties). After ``k`` ideal riffles the next card comes from each of
+    the ``2^k`` packets with probability proportional to the cards it has left ([3]_), and
+    the unseen blocks are the packets' remainders.
+``strip`` (strips and overhand shuffles)
+    A strip takes packets off the top and drops them on a pile, reversing the order of the
+    packets but not of the cards inside a packet. Name the card after the last seen one while
+    it is unseen (the same packet goes on); at a packet's end name the card one packet-length
+    above the packet just seen (packets of similar size), else the unseen card just above
+    it, else the lowest unseen card. The first guess is the reference bottom card.
+``lowest-unseen`` (naive baseline)
+    Name the unseen card that came earliest in the reference: right every time on an
+    unshuffled deck, and on a deck whose top stock was left alone.
+
+All strategies are vectorized over decks: the loop runs over the ``n`` positions, with the
+seen cards of every deck held as a 64-bit mask when ``n <= 63`` (boolean arrays otherwise).
+
+References
+----------
+.. [1] P. Diaconis and R. Graham, "The analysis of sequential experiments with feedback to
+       subjects", Ann. Statist. 9 (1981) 3-23.
+.. [2] R. P. Stanley, *Enumerative Combinatorics*, vol. 1, 2nd ed., Cambridge University
+       Press, 2012, Prop. 1.3.7 (the generating function ``prod_j (x + j - 1)``).
+.. [3] D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl.
+       Probab. 2 (1992) 294-313 (a-shuffles: cards drop with probability proportional to
+       packet size).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from fractions import Fraction
+
+import numpy as np
+
+from shufflecheck.audit.nulls import Law, guessing_law
+from shufflecheck.audit.statistics import as_decks, bitmask_ok
+from shufflecheck.counting import harmonic
+from shufflecheck.errors import InputError
+
+__all__ = [
+    "DEFAULT_STRATEGIES",
+    "STRATEGIES",
+    "guess_scores",
+    "guess_scores_many",
+    "guesses",
+    "guessing_mean",
+    "guessing_null",
+    "guessing_variance",
+]
+
+#: Strategy name -> one-line description (see the module docstring for details).
+STRATEGIES: dict[str, str] = {
+    "next-card": "the card after the last seen one in the reference (cyclic), "
+    "else the start of the longest unseen block (riffles, cuts)",
+    "longest-run": "the start of the longest block of unseen reference cards (riffles)",
+    "strip": "continue the packet; at its end, one packet-length above it (strips, overhand)",
+    "lowest-unseen": "the unseen card earliest in the reference (naive baseline)",
+}
+
+#: Strategies the audit battery plays, in this order.
+DEFAULT_STRATEGIES: tuple[str, ...] = ("next-card", "longest-run", "strip", "lowest-unseen")
+
+_ONE = np.uint64(1)
+_CHUNK = 1 << 15
+
+
+def check_strategies(strategies: Iterable[str]) -> tuple[str, ...]:
+    """Validate strategy names (duplicates removed, order kept)."""
+    out = tuple(dict.fromkeys(strategies))
+    for name in out:
+        if name not in STRATEGIES:
+            allowed = ", ".join(STRATEGIES)
+            raise InputError(f"unknown guessing strategy {name!r}; choose from {allowed}")
+    return out
+
+
+def guessing_null(n: int) -> Law:
+    """Exact law of the number of correct guesses on a uniform deck of ``n`` cards.
+
+    ``counts[k]`` is ``c(n, offset + k)`` (unsigned Stirling numbers of the first kind) and
+    ``total`` is ``n!``; the same for every strategy that names unseen cards.
+    """
+    return guessing_law(n)
+
+
+def guessing_mean(n: int) -> Fraction:
+    """Exact mean number of correct guesses under a uniform deck: ``H_n``."""
+    return harmonic(n)
+
+
+def guessing_variance(n: int) -> Fraction:
+    """Exact variance under a uniform deck: ``sum_j (1/j)(1 - 1/j)``."""
+    return sum((Fraction(1, j) * (1 - Fraction(1, j)) for j in range(1, n + 1)), Fraction(0))
+
+
+def guess_scores(relative: np.ndarray, strategy: str = "next-card") -> np.ndarray:
+    """Correct guesses per deck (``int64``, shape ``(decks,)``) for one strategy.
+
+    Parameters
+    ----------
+    relative : (decks, n) int array
+        ``relative[d, i]`` is the reference position of the card at position ``i``.
+    strategy : str
+        One of :data:`STRATEGIES`.
+    """
+    return guess_scores_many(relative, (strategy,))[strategy]
+
+
+def guess_scores_many(
+    relative: np.ndarray, strategies: Iterable[str] = DEFAULT_STRATEGIES
+) -> dict[str, np.ndarray]:
+    """Correct guesses per deck for several strategies in one pass over the positions."""
+    names = check_strategies(strategies)
+    decks = as_decks(relative, name="relative decks")
+    return _play(decks, names, record=False)[0]
+
+
+def guesses(relative: np.ndarray, strategy: str = "next-card") -> np.ndarray:
+    """The card each strategy names at each position (``int64``, shape ``(decks, n)``)."""
+    names = check_strategies((strategy,))
+    decks = as_decks(relative, name="relative decks")
+    return _play(decks, names, record=True)[1][strategy]
+
+
+def _play(
+    decks: np.ndarray, names: tuple[str, ...], *, record: bool, force_generic: bool = False
+) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    count, n = decks.shape
+    scores = {name: np.zeros(count, dtype=np.int64) for name in names}
+    picks = {name: np.zeros((count, n), dtype=np.int64) for name in names} if record else {}
+    if count == 0 or not names:
+        return scores, picks
+    play = _play_bitmask if bitmask_ok(n) and not force_generic else _play_generic
+    for start in range(0, count, _CHUNK):
+        stop = min(count, start + _CHUNK)
+        cols = np.ascontiguousarray(decks[start:stop].T).astype(np.int64)
+        out = play(cols, names, record)
+        for name in names:
+            scores[name][start:stop] = out[name][0]
+            if record:
+                picks[name][start:stop] = out[name][1].T
+    return scores, picks
+
+
+def _low_bit(x: np.ndarray) -> np.ndarray:
+    """Index of the lowest set bit of each nonzero uint64."""
+    return np.bitwise_count((x & (~x + _ONE)) - _ONE).astype(np.int64)
+
+
+def _high_bit(x: np.ndarray) -> np.ndarray:
+    """Index of the highest set bit of each uint64 (-1 for zero)."""
+    y = x | (x >> np.uint64(1))
+    for s in (2, 4, 8, 16, 32):
+        y |= y >> np.uint64(s)
+    return np.bitwise_count(y).astype(np.int64) - 1
+
+
+def _longest_run_start(unseen: np.ndarray, n: int) -> np.ndarray:
+    """Lowest start of a longest block of consecutive set bits (bitmask of unseen cards)."""
+    levels = [unseen]  # levels[j]: bit u set iff bits u .. u + 2^j - 1 are all set
+    span = 1
+    while 2 * span <= n:
+        a = levels[-1]
+        levels.append(a & (a >> np.uint64(span)))
+        span *= 2
+    cur = unseen.copy()  # bit u: a run of length >= length starts at u (length >= 1)
+    length = np.ones(unseen.shape, dtype=np.uint64)
+    for j in range(len(levels) - 1, -1, -1):
+        step = np.uint64(1 << j)
+        cand = cur & (levels[j] >> length)
+        hit = cand != 0
+        cur = np.where(hit, cand, cur)
+        length = np.where(hit, length + step, length)
+    return _low_bit(cur)
+
+
+def _play_bitmask(
+    cols: np.ndarray, names: tuple[str, ...], record: bool
+) -> dict[str, tuple[np.ndarray, np.ndarray | None]]:
+    n, count = cols.shape
+    full = np.uint64((1 << n) - 1)
+    seen = np.zeros(count, dtype=np.uint64)
+    last = np.full(count, n - 1, dtype=np.int64)  # a virtual last card: reference bottom
+    run_start = np.full(count, n, dtype=np.int64)  # the strip's virtual run before the top
+    run_len = np.ones(count, dtype=np.int64)
+    score = {name: np.zeros(count, dtype=np.int64) for name in names}
+    picked = {name: np.zeros((n, count), dtype=np.int64) for name in names} if record else {}
+    want_run = "next-card" in names or "longest-run" in names
+    for i in range(n):
+        card = cols[i]
+        unseen = ~seen & full
+        longest = _longest_run_start(unseen, n) if want_run else None
+        lowest = _low_bit(unseen)
+        for name in names:
+            if name == "longest-run":
+                guess = longest
+            elif name == "lowest-unseen":
+                guess = lowest
+            elif name == "next-card":
+                nxt = (last + 1) % n
+                free = ((unseen >> nxt.astype(np.uint64)) & _ONE) != 0
+                guess = longest if i == 0 else np.where(free, nxt, longest)
+            else:  # strip
+                guess = _strip_guess_bitmask(unseen, last, run_start, run_len, lowest, n, i)
+            score[name] += guess == card
+            if record:
+                picked[name][i] = guess
+        # observe the card
+        follows = card == last + 1
+        if i == 0:
+            follows = np.zeros(count, dtype=bool)
+        run_len = np.where(follows, run_len + 1, 1)
+        run_start = np.where(follows, run_start, card)
+        last = card
+        seen |= _ONE << card.astype(np.uint64)
+    return {name: (score[name], picked.get(name)) for name in names}
+
+
+def _strip_guess_bitmask(
+    unseen: np.ndarray,
+    last: np.ndarray,
+    run_start: np.ndarray,
+    run_len: np.ndarray,
+    lowest: np.ndarray,
+    n: int,
+    i: int,
+) -> np.ndarray:
+    nxt = last + 1
+    cont = (nxt < n) & (((unseen >> np.minimum(nxt, n - 1).astype(np.uint64)) & _ONE) != 0)
+    if i == 0:
+        cont[:] = False
+    jump = run_start - run_len
+    jump_ok = (jump >= 0) & (((unseen >> np.maximum(jump, 0).astype(np.uint64)) & _ONE) != 0)
+    below = unseen & ((_ONE << np.minimum(run_start, n).astype(np.uint64)) - _ONE)
+    above_block = _high_bit(below)
+    guess = np.where(above_block >= 0, above_block, lowest)
+    guess = np.where(jump_ok, jump, guess)
+    return np.where(cont, nxt, guess)
+
+
+def _play_generic(
+    cols: np.ndarray, names: tuple[str, ...], record: bool
+) -> dict[str, tuple[np.ndarray, np.ndarray | None]]:
+    n, count = cols.shape
+    rows = np.arange(count)
+    idx = np.arange(n)
+    seen = np.zeros((count, n), dtype=bool)
+    low = np.zeros(count, dtype=np.int64)
+    last = np.full(count, n - 1, dtype=np.int64)
+    run_start = np.full(count, n, dtype=np.int64)
+    run_len = np.ones(count, dtype=np.int64)
+    score = {name: np.zeros(count, dtype=np.int64) for name in names}
+    picked = {name: np.zeros((n, count), dtype=np.int64) for name in names} if record else {}
+    want_run = "next-card" in names or "longest-run" in names
+    for i in range(n):
+        card = cols[i]
+        longest = None
+        if want_run:
+            marks = np.maximum.accumulate(np.where(seen, idx, -1), axis=1)
+            ending = np.where(seen, 0, idx - marks)  # length of the unseen run ending here
+            end = np.argmax(ending, axis=1)
+            longest = end - ending[rows, end] + 1
+        for name in names:
+            if name == "longest-run":
+                guess = longest
+            elif name == "lowest-unseen":
+                guess = low
+            elif name == "next-card":
+                nxt = (last + 1) % n
+                free = ~seen[rows, nxt]
+                guess = longest if i == 0 else np.where(free, nxt, longest)
+            else:
+                guess = _strip_guess_generic(seen, last, run_start, run_len, low, n, i)
+            score[name] += guess == card
+            if record:
+                picked[name][i] = guess
+        follows = (card == last + 1) & (i > 0)
+        run_len = np.where(follows, run_len + 1, 1)
+        run_start = np.where(follows, run_start, card)
+        last = card
+        seen[rows, card] = True
+        if i < n - 1:  # advance the lowest unseen card past seen ones
+            todo = np.nonzero(seen[rows, low])[0]
+            while todo.size:
+                low[todo] += 1
+                todo = todo[seen[todo, low[todo]]]
+    return {name: (score[name], picked.get(name)) for name in names}
+
+
+def _strip_guess_generic(
+    seen: np.ndarray,
+    last: np.ndarray,
+    run_start: np.ndarray,
+    run_len: np.ndarray,
+    low: np.ndarray,
+    n: int,
+    i: int,
+) -> np.ndarray:
+    rows = np.arange(seen.shape[0])
+    nxt = last + 1
+    cont = (nxt < n) & ~seen[rows, np.minimum(nxt, n - 1)]
+    if i == 0:
+        cont[:] = False
+    jump = run_start - run_len
+    jump_ok = (jump >= 0) & ~seen[rows, np.maximum(jump, 0)]
+    below = ~seen & (np.arange(n) < run_start[:, None])
+    has = below.any(axis=1)
+    above_block = np.where(has, n - 1 - np.argmax(below[:, ::-1], axis=1), -1)
+    guess = np.where(above_block >= 0, above_block, low)
+    guess = np.where(jump_ok, jump, guess)
+    return np.where(cont, nxt, guess)

@@ -1,0 +1,326 @@
+"""Per-deck statistics of recorded orders against their reference, vectorized over decks.
+
+A batch of decks is an integer array of shape ``(decks, n)``; ``relative[d, i]`` is the
+position in the reference deck (0-based) of the card at position ``i`` of deck ``d``, so the
+identity row is the unshuffled deck. Every function returns one value per deck (``int64``)
+and never loops over decks in Python: loops, where needed, run over the ``n`` positions,
+with a deck's set of seen cards held as one 64-bit mask when ``n <= 63``.
+
+Definitions (``p`` one deck, positions and labels 0-based):
+
+* rising sequences: ``1 + #{c : card c+1 lies above card c}`` ([1]_);
+* descents: ``#{i : p[i] > p[i+1]}``;
+* fixed points: ``#{i : p[i] = i}``;
+* cycles of ``p`` as a permutation;
+* inversions (Kendall distance to the reference): ``#{i < j : p[i] > p[j]}``;
+* successions: ``#{i : p[i+1] = p[i] + 1}`` (a card directly above its reference successor);
+* adjacent pairs: ``#{i : |p[i+1] - p[i]| = 1}`` (reference neighbours still touching);
+* card position: where a given reference card (the top one, the bottom one) now lies;
+* runs: maximal blocks of consecutive cards of one category (suit or colour);
+* repeat positions: positions holding the same card in two consecutive decks.
+
+References
+----------
+.. [1] D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl.
+       Probab. 2 (1992) 294-313 (rising sequences).
+.. [2] R. P. Stanley, *Enumerative Combinatorics*, vol. 1, 2nd ed., Cambridge University
+       Press, 2012, sections 1.3-1.4 (descents, cycles, inversions).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from shufflecheck.errors import InputError
+
+__all__ = [
+    "adjacent_pairs",
+    "as_decks",
+    "bitmask_ok",
+    "card_position",
+    "category_codes",
+    "cycles",
+    "descents",
+    "fixed_points",
+    "inversions",
+    "repeat_positions",
+    "rising_sequences",
+    "runs",
+    "successions",
+]
+
+_ONE = np.uint64(1)
+_CHUNK = 1 << 15
+
+
+def bitmask_ok(n: int) -> bool:
+    """Whether the 64-bit-mask fast path applies (``n <= 63`` and numpy has bit counts)."""
+    return n <= 63 and hasattr(np, "bitwise_count")
+
+
+def as_decks(decks: object, *, cards: int | None = None, name: str = "decks") -> np.ndarray:
+    """Check that ``decks`` is a ``(decks, n)`` integer array whose rows are arrangements.
+
+    Returns the array itself (no copy when it is already an integer ndarray). Raises
+    :class:`InputError` naming the first bad row (1-based) otherwise.
+    """
+    arr = np.asarray(decks)
+    if arr.ndim != 2:
+        raise InputError(f"{name}: expected a 2-D array (decks, cards), got shape {arr.shape}")
+    if arr.size and not np.issubdtype(arr.dtype, np.integer):
+        raise InputError(f"{name}: expected integer card labels, got dtype {arr.dtype}")
+    count, n = arr.shape
+    if cards is not None and n != cards:
+        raise InputError(f"{name}: expected {cards} cards per deck, got {n}")
+    if count == 0:
+        return arr.astype(np.int64) if not np.issubdtype(arr.dtype, np.integer) else arr
+    if n == 0:
+        raise InputError(f"{name}: a deck needs at least one card")
+    for start in range(0, count, _CHUNK):
+        block = arr[start : start + _CHUNK]
+        bad = (block.min(axis=1) < 0) | (block.max(axis=1) >= n)
+        if not bad.any():
+            if bitmask_ok(n):
+                masks = np.bitwise_or.reduce(_ONE << block.astype(np.uint64), axis=1)
+                bad = masks != np.uint64((1 << n) - 1)
+            else:
+                bad = (np.sort(block, axis=1) != np.arange(n)).any(axis=1)
+        if bad.any():
+            row = start + int(np.argmax(bad))
+            raise InputError(f"{name}: row {row + 1} is not an arrangement of labels 0..{n - 1}")
+    return arr
+
+
+def _count_true(mask: np.ndarray) -> np.ndarray:
+    return np.count_nonzero(mask, axis=1).astype(np.int64)
+
+
+def _signed(p: np.ndarray) -> np.ndarray:
+    """Labels as a signed type wide enough for differences (no copy when already signed)."""
+    if np.issubdtype(p.dtype, np.signedinteger):
+        return p
+    return p.astype(np.int64)
+
+
+def _chunked(fn, p: np.ndarray) -> np.ndarray:
+    """Apply a per-deck function block by block (bounded temporaries, cache friendly)."""
+    out = np.zeros(p.shape[0], dtype=np.int64)
+    for start in range(0, p.shape[0], _CHUNK):
+        out[start : start + _CHUNK] = fn(p[start : start + _CHUNK])
+    return out
+
+
+def descents(relative: np.ndarray) -> np.ndarray:
+    """Descents per deck: positions where a card lies directly above a reference-earlier one."""
+    return _descents(as_decks(relative, name="relative decks"))
+
+
+def _descents(p: np.ndarray) -> np.ndarray:
+    return _chunked(lambda b: _count_true(b[:, :-1] > b[:, 1:]), p)
+
+
+def fixed_points(relative: np.ndarray) -> np.ndarray:
+    """Cards per deck still at their reference position."""
+    return _fixed_points(as_decks(relative, name="relative decks"))
+
+
+def _fixed_points(p: np.ndarray) -> np.ndarray:
+    labels = np.arange(p.shape[1])
+    return _chunked(lambda b: _count_true(b == labels), p)
+
+
+def successions(relative: np.ndarray) -> np.ndarray:
+    """Successions per deck: card ``c`` directly above card ``c + 1`` (reference order kept)."""
+    return _successions(as_decks(relative, name="relative decks"))
+
+
+def _successions(p: np.ndarray) -> np.ndarray:
+    return _chunked(lambda b: _count_true(b[:, 1:] - b[:, :-1] == 1), _signed(p))
+
+
+def adjacent_pairs(relative: np.ndarray) -> np.ndarray:
+    """Reference neighbours ``{c, c+1}`` still next to each other, in either order."""
+    return _adjacent_pairs(as_decks(relative, name="relative decks"))
+
+
+def _adjacent_pairs(p: np.ndarray) -> np.ndarray:
+    return _chunked(lambda b: _count_true(np.abs(b[:, 1:] - b[:, :-1]) == 1), _signed(p))
+
+
+def card_position(relative: np.ndarray, card: int) -> np.ndarray:
+    """Position (0 = top) of reference card ``card`` in each deck."""
+    p = as_decks(relative, name="relative decks")
+    if not 0 <= card < p.shape[1]:
+        raise InputError(f"card label must be in 0..{p.shape[1] - 1}, got {card}")
+    return _card_position(p, card)
+
+
+def _card_position(p: np.ndarray, card: int) -> np.ndarray:
+    return _chunked(lambda b: np.argmax(b == card, axis=1), p)
+
+
+def _order_scan(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Inversions and rising sequences in one pass over positions (bitmask fast path)."""
+    count, n = p.shape
+    inv = np.zeros(count, dtype=np.int64)
+    rising = np.ones(count, dtype=np.int64)
+    for start in range(0, count, _CHUNK):
+        cols = np.ascontiguousarray(p[start : start + _CHUNK].T).astype(np.uint64)
+        seen = np.zeros(cols.shape[1], dtype=np.uint64)
+        acc_inv = np.zeros(cols.shape[1], dtype=np.int64)
+        acc_rise = np.zeros(cols.shape[1], dtype=np.uint64)
+        for i in range(n):
+            c = cols[i]
+            above = (seen >> c) >> _ONE  # seen cards later in the reference than c
+            acc_inv += np.bitwise_count(above)
+            acc_rise += above & _ONE  # card c + 1 already seen: c + 1 lies above c
+            seen |= _ONE << c
+        inv[start : start + _CHUNK] = acc_inv
+        rising[start : start + _CHUNK] += acc_rise.astype(np.int64)
+    return inv, rising
+
+
+def _inverse(p: np.ndarray) -> np.ndarray:
+    out = np.empty(p.shape, dtype=np.int64)
+    np.put_along_axis(out, p.astype(np.intp), np.broadcast_to(np.arange(p.shape[1]), p.shape), 1)
+    return out
+
+
+def _order_generic(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    count, n = p.shape
+    inv = np.zeros(count, dtype=np.int64)
+    for k in range(1, n):
+        inv += _count_true(p[:, :-k] > p[:, k:])
+    where = _inverse(p)
+    rising = 1 + _count_true(where[:, 1:] < where[:, :-1])
+    return inv, rising
+
+
+def order_statistics(
+    relative: np.ndarray, *, force_generic: bool = False
+) -> tuple[np.ndarray, np.ndarray]:
+    """``(inversions, rising sequences)`` per deck, sharing one pass over the positions."""
+    return _order_statistics(as_decks(relative, name="relative decks"), force_generic)
+
+
+def _order_statistics(p: np.ndarray, force_generic: bool = False) -> tuple[np.ndarray, np.ndarray]:
+    if p.shape[0] == 0:
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
+    if bitmask_ok(p.shape[1]) and not force_generic:
+        return _order_scan(p)
+    return _order_generic(p)
+
+
+def inversions(relative: np.ndarray) -> np.ndarray:
+    """Inversions per deck: pairs of cards in the opposite of reference order (Kendall)."""
+    return order_statistics(relative)[0]
+
+
+def rising_sequences(relative: np.ndarray) -> np.ndarray:
+    """Rising sequences per deck: ``1 + #{c : card c+1 lies above card c}``."""
+    return order_statistics(relative)[1]
+
+
+def _cycles_walk(p: np.ndarray) -> np.ndarray:
+    """Cycles by walking each deck's permutation once, lowest unvisited label first."""
+    count, n = p.shape
+    out = np.zeros(count, dtype=np.int64)
+    for start in range(0, count, _CHUNK):
+        block = p[start : start + _CHUNK]
+        m = block.shape[0]
+        flat = block.astype(np.int64).ravel()
+        base = np.arange(m, dtype=np.int64) * n
+        visited = np.zeros(m, dtype=np.uint64)
+        cur = np.zeros(m, dtype=np.int64)
+        head = np.zeros(m, dtype=np.int64)
+        acc = np.zeros(m, dtype=np.int64)
+        for step in range(n):
+            visited |= _ONE << cur.astype(np.uint64)
+            nxt = flat[base + cur]
+            closed = nxt == head
+            acc += closed
+            if step < n - 1:
+                free = ~visited
+                lowest = np.bitwise_count((free & (~free + _ONE)) - _ONE).astype(np.int64)
+                head = np.where(closed, lowest, head)
+                cur = np.where(closed, lowest, nxt)
+        out[start : start + _CHUNK] = acc
+    return out
+
+
+def _cycles_doubling(p: np.ndarray) -> np.ndarray:
+    """Cycles by pointer doubling: the minimum label over each orbit, counted where it is."""
+    count, n = p.shape
+    out = np.zeros(count, dtype=np.int64)
+    labels = np.arange(n)
+    rounds = max(1, int(np.ceil(np.log2(n)))) if n > 1 else 1
+    for start in range(0, count, _CHUNK):
+        jump = p[start : start + _CHUNK].astype(np.intp)
+        low = np.broadcast_to(labels, jump.shape).copy()
+        for _ in range(rounds):
+            low = np.minimum(low, np.take_along_axis(low, jump, axis=1))
+            jump = np.take_along_axis(jump, jump, axis=1)
+        out[start : start + _CHUNK] = _count_true(low == labels)
+    return out
+
+
+def cycles(relative: np.ndarray, *, force_generic: bool = False) -> np.ndarray:
+    """Cycles per deck of the arrangement read as a permutation ``i -> p[i]``."""
+    return _cycles(as_decks(relative, name="relative decks"), force_generic)
+
+
+def _cycles(p: np.ndarray, force_generic: bool = False) -> np.ndarray:
+    if p.shape[0] == 0:
+        return np.zeros(0, dtype=np.int64)
+    if bitmask_ok(p.shape[1]) and not force_generic:
+        return _cycles_walk(p)
+    return _cycles_doubling(p)
+
+
+def category_codes(categories: object, n: int, *, name: str = "categories") -> np.ndarray:
+    """Check a per-label category array (suits or colours) of length ``n``.
+
+    Negative entries mean "no category" (jokers): each such card is a category of its own,
+    so it always ends a run. Returns ``int64`` codes with those cards renumbered apart.
+    """
+    arr = np.asarray(categories)
+    if arr.shape != (n,) or (arr.size and not np.issubdtype(arr.dtype, np.integer)):
+        raise InputError(f"{name}: expected {n} integer codes (one per card label)")
+    codes = arr.astype(np.int64).copy()
+    loose = np.nonzero(codes < 0)[0]
+    top = int(codes.max()) + 1 if (codes >= 0).any() else 0
+    codes[loose] = top + np.arange(loose.size)
+    return codes
+
+
+def runs(decks: np.ndarray, categories: np.ndarray) -> np.ndarray:
+    """Runs of equal category (suit or colour) from top to bottom, per deck.
+
+    ``decks`` holds labels indexing ``categories`` (absolute card labels for a deck
+    definition's suits); ``categories`` as accepted by :func:`category_codes`.
+    """
+    p = as_decks(decks, name="decks")
+    return _runs(p, category_codes(categories, p.shape[1]))
+
+
+def _runs(p: np.ndarray, codes: np.ndarray) -> np.ndarray:
+    small = codes.astype(np.int16) if codes.max(initial=0) < 32767 else codes
+
+    def count(b: np.ndarray) -> np.ndarray:
+        cat = small[b]
+        return 1 + _count_true(cat[:, 1:] != cat[:, :-1])
+
+    return _chunked(count, p)
+
+
+def repeat_positions(decks: np.ndarray) -> np.ndarray:
+    """Positions holding the same card in consecutive rows: ``out[t]`` compares rows
+    ``t`` and ``t + 1`` (length ``decks - 1``)."""
+    p = as_decks(decks, name="decks")
+    if p.shape[0] < 2:
+        return np.zeros(0, dtype=np.int64)
+    out = np.zeros(p.shape[0] - 1, dtype=np.int64)
+    for start in range(0, p.shape[0] - 1, _CHUNK):
+        stop = min(p.shape[0] - 1, start + _CHUNK)
+        out[start:stop] = _count_true(p[start + 1 : stop + 1] == p[start:stop])
+    return out

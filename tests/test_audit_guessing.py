@@ -1,0 +1,143 @@
+"""The guessing game: exact law for every strategy (brute force), strategies on the decks
+they are made for, both code paths, and guesses always naming unseen cards."""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections import Counter
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy import stats
+
+from shufflecheck.audit import guessing
+from shufflecheck.audit.guessing import STRATEGIES, _play
+from shufflecheck.counting import harmonic
+from shufflecheck.errors import InputError
+from shufflecheck.models import riffle
+
+
+class TestExactLaw:
+    @pytest.mark.parametrize("strategy", sorted(STRATEGIES))
+    @pytest.mark.parametrize("n", range(1, 8))
+    def test_brute_force_every_strategy(self, strategy, n):
+        # brute force over all n! arrangements: correct guesses have the law c(n, k) / n!
+        decks = np.array(list(itertools.permutations(range(n))), dtype=np.int16)
+        counts = Counter(guessing.guess_scores(decks, strategy).tolist())
+        law = guessing.guessing_null(n)
+        assert {law.offset + k: c for k, c in enumerate(law.counts)} == dict(counts)
+        assert law.total == math.factorial(n)
+
+    def test_moments(self):
+        # H_52 from OEIS A001008 / A002805 via shufflecheck.counting.harmonic (tested there)
+        assert guessing.guessing_mean(52) == harmonic(52)
+        assert float(guessing.guessing_mean(52)) == pytest.approx(4.5380, abs=1e-4)
+        law = guessing.guessing_null(52)
+        assert law.mean == harmonic(52)
+        assert law.variance == guessing.guessing_variance(52)
+        # scipy.stats.poisson_binom variance with p_j = 1/j
+        ref = stats.poisson_binom.var([1 / j for j in range(1, 53)])
+        assert float(guessing.guessing_variance(52)) == pytest.approx(ref, rel=1e-12)
+
+    def test_monte_carlo_mean_on_uniform_decks(self):
+        rng = np.random.default_rng(11)
+        decks = rng.permuted(np.tile(np.arange(52, dtype=np.int16), (20000, 1)), axis=1)
+        sd = math.sqrt(float(guessing.guessing_variance(52)))
+        for name, scores in guessing.guess_scores_many(decks, STRATEGIES).items():
+            # within 4.5 standard errors of H_52 (statistical tolerance)
+            assert abs(scores.mean() - float(harmonic(52))) < 4.5 * sd / math.sqrt(20000), name
+
+
+class TestStrategiesOnTheirProcedures:
+    def test_unshuffled(self):
+        deck = np.arange(52)[None, :]
+        for name in ("next-card", "longest-run", "lowest-unseen"):
+            assert guessing.guess_scores(deck, name)[0] == 52, name
+        assert guessing.guess_scores(deck, "strip")[0] == 51  # first guess: bottom card
+
+    @pytest.mark.parametrize("cut", [1, 17, 26, 51])
+    def test_cut(self, cut):
+        deck = np.roll(np.arange(52), -cut)[None, :]
+        # only the first card is unknown after a cut: n - 1 right
+        assert guessing.guess_scores(deck, "next-card")[0] == 51
+
+    @pytest.mark.parametrize("packet", [2, 4, 13])
+    def test_strip_equal_packets(self, packet):
+        blocks = [list(range(s, s + packet)) for s in range(0, 52, packet)]
+        deck = np.array([c for block in reversed(blocks) for c in block])[None, :]
+        assert guessing.guess_scores(deck, "strip")[0] == 51  # all but the first card
+        assert guessing.guess_scores(deck, "next-card")[0] < 51
+
+    def test_reversal(self):
+        deck = np.arange(52)[::-1][None, :]
+        assert guessing.guess_scores(deck, "strip")[0] == 52
+
+    def test_riffles_give_an_advantage(self):
+        rng = np.random.default_rng(3)
+        decks = riffle.sample(4000, 52, 4, rng=rng)
+        scores = guessing.guess_scores_many(decks, STRATEGIES)
+        h = float(harmonic(52))
+        assert scores["longest-run"].mean() > h + 3
+        assert scores["next-card"].mean() > h + 2
+        # the longest unseen block is the better guess after many packets
+        assert scores["longest-run"].mean() > scores["next-card"].mean()
+
+
+class TestPaths:
+    @pytest.mark.parametrize("n", [5, 30, 63])
+    def test_bitmask_and_generic_agree(self, n):
+        rng = np.random.default_rng(n)
+        decks = np.concatenate(
+            [
+                rng.permuted(np.tile(np.arange(n), (200, 1)), axis=1),
+                riffle.sample(200, n, 2, rng=rng).astype(np.int64),
+            ]
+        )
+        names = tuple(STRATEGIES)
+        fast_scores, fast_picks = _play(decks, names, record=True)
+        slow_scores, slow_picks = _play(decks, names, record=True, force_generic=True)
+        for name in names:
+            np.testing.assert_array_equal(fast_picks[name], slow_picks[name])
+            np.testing.assert_array_equal(fast_scores[name], slow_scores[name])
+
+    def test_large_deck_generic_path(self):
+        rng = np.random.default_rng(8)
+        decks = riffle.sample(50, 104, 3, rng=rng)
+        scores = guessing.guess_scores(decks, "longest-run")
+        assert scores.mean() > float(harmonic(104)) + 2
+
+
+@st.composite
+def _decks(draw):
+    n = draw(st.integers(1, 70))
+    rows = draw(st.lists(st.permutations(list(range(n))), min_size=1, max_size=4))
+    return np.array(rows, dtype=np.int16)
+
+
+@settings(max_examples=60, deadline=None)
+@given(_decks(), st.sampled_from(sorted(STRATEGIES)))
+def test_guesses_name_unseen_cards(decks, strategy):
+    picks = guessing.guesses(decks, strategy)
+    n = decks.shape[1]
+    for row, guess_row in zip(decks, picks, strict=True):
+        seen = set()
+        for card, guess in zip(row.tolist(), guess_row.tolist(), strict=True):
+            assert 0 <= guess < n and guess not in seen
+            seen.add(card)
+    assert (guessing.guess_scores(decks, strategy) == (picks == decks).sum(axis=1)).all()
+
+
+def test_unknown_strategy():
+    with pytest.raises(InputError, match="unknown guessing strategy 'psychic'"):
+        guessing.guess_scores(np.arange(5)[None, :], "psychic")
+
+
+def test_null_is_exact_fractions():
+    law = guessing.guessing_null(4)
+    # c(4, k): 6, 11, 6, 1 for k = 1..4 (OEIS A132393 row 4)
+    assert law.counts == (6, 11, 6, 1) and law.offset == 1
+    assert law.probability(2) == Fraction(11, 24)
