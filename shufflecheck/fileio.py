@@ -18,7 +18,18 @@ from typing import IO
 
 from shufflecheck.errors import InputError
 
-__all__ = ["atomic_open", "atomic_save", "atomic_write", "sha256_file"]
+__all__ = ["atomic_open", "atomic_save", "atomic_write", "default_mode", "sha256_file"]
+
+
+def default_mode(directory: bool = False) -> int:
+    """Permissions a new file (or folder) gets from the process umask, as ``open`` would give.
+
+    Temporary files from :mod:`tempfile` are private (0600/0700); outputs renamed from them
+    get these ordinary permissions instead.
+    """
+    mask = os.umask(0)
+    os.umask(mask)
+    return (0o777 if directory else 0o666) & ~mask
 
 
 @contextlib.contextmanager
@@ -38,6 +49,7 @@ def atomic_open(
         raise InputError(f"cannot write {target}: folder {folder} does not exist")
     fd, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     try:
+        os.chmod(tmp_name, default_mode())
         if "b" in mode:
             handle: IO = os.fdopen(fd, mode)
         else:
@@ -68,6 +80,7 @@ def atomic_save(path: str | os.PathLike[str], writer: Callable[[str], None]) -> 
     fd, tmp_name = tempfile.mkstemp(prefix=f".{target.stem}.", suffix=target.suffix, dir=folder)
     os.close(fd)
     try:
+        os.chmod(tmp_name, default_mode())
         writer(tmp_name)
         os.replace(tmp_name, target)
     except BaseException:

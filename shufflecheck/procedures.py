@@ -387,6 +387,7 @@ def simulate_play(
     rng: np.random.Generator | int | None = None,
     reference: str = "previous",
     repeats: int = 1,
+    change: tuple[int, Procedure] | None = None,
 ) -> np.ndarray:
     """Deck orders as a table would record them: ``decks + 1`` rows, the first being the
     starting (reference) order ``0..n-1``.
@@ -395,12 +396,27 @@ def simulate_play(
     pickup order is the previous recorded deck; audit with ``--reference previous``).
     ``reference="first"``: every deck is the procedure applied to the first row (audit with
     ``--reference first``). The relative permutations are iid either way.
+    ``change=(k, other)``: from the ``k``-th simulated deck on (1-based), ``other`` replaces
+    the procedure (a fault that starts part-way through a log).
     """
     if reference not in SIMULATION_REFERENCES:
         raise InputError(f"reference must be previous or first, got {reference!r}")
     if decks < 1:
         raise InputError(f"--decks must be at least 1, got {decks}")
-    relative = procedure.sample(decks, cards, repeats, rng=rng)
+    generator = np.random.default_rng(rng)
+    if change is None:
+        relative = procedure.sample(decks, cards, repeats, rng=generator)
+    else:
+        start, other = change
+        if not 1 <= start <= decks:
+            raise InputError(f"the change must start at a deck from 1 to {decks}, got {start}")
+        other.check_cards(cards)
+        relative = np.concatenate(
+            [
+                procedure.sample(start - 1, cards, repeats, rng=generator),
+                other.sample(decks - start + 1, cards, repeats, rng=generator),
+            ]
+        )
     out = np.empty((decks + 1, cards), dtype=relative.dtype)
     out[0] = np.arange(cards)
     if reference == "first":

@@ -244,6 +244,7 @@ class TestStyle:
                 [True, False],
                 0.05,
                 "p",
+                ["0.001", "0.5"],
             )
         bars = fig.axes[0].patches
         assert bars[0].get_hatch() and not bars[1].get_hatch()
@@ -312,3 +313,19 @@ class TestInputErrors:
     def test_messages(self, call, message):
         with pytest.raises(InputError, match=__import__("re").escape(message)):
             call()
+
+
+class TestPvalueTexts:
+    def test_texts_replace_the_printed_values(self):
+        # a p-value below the double range is drawn at a floor but printed as given
+        figure = F.pvalue_figure(
+            ["rising sequences", "cycles"],
+            [1e-300, 0.4],
+            ["exact", "exact"],
+            alpha=0.01,
+            texts=["6.5e-4846", "0.4"],
+        )
+        assert figure.png.startswith(b"\x89PNG")
+        with pytest.raises(InputError, match="1 texts for 2 tests"):
+            F.pvalue_figure(["a", "b"], [0.1, 0.2], ["exact", "exact"], texts=["x"])
+

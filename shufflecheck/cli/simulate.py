@@ -34,6 +34,14 @@ def simulate(
             help="previous: each deck shuffled from the one before; first: all from row 1."
         ),
     ] = SimulatedReference.previous,
+    then: Annotated[
+        str | None,
+        typer.Option(help="A second procedure that takes over from deck --from (a fault)."),
+    ] = None,
+    change_from: Annotated[
+        int | None,
+        typer.Option("--from", help="With --then: first simulated deck of the change (1-based)."),
+    ] = None,
     deck: Annotated[
         Path | None,
         typer.Option(help="Deck definition TOML for card codes (default: standard 52)."),
@@ -66,7 +74,14 @@ def simulate(
     definition = load_deck(deck) if deck is not None else (load_deck() if n == 52 else None)
     if definition is not None and definition.size != n:
         raise InputError(f"deck definition has {definition.size} cards but --cards is {n}")
-    orders = simulate_play(proc, n, decks, rng=seed, reference=reference.value, repeats=repeat)
+    change = None
+    if (then is None) != (change_from is None):
+        raise InputError("give --then and --from together")
+    if then is not None:
+        change = (change_from, procedure_from_argument(then))
+    orders = simulate_play(
+        proc, n, decks, rng=seed, reference=reference.value, repeats=repeat, change=change
+    )
     columns: dict[str, list] = {"deck": list(range(decks + 1))}
     if table is not None:
         columns["table"] = [table] * (decks + 1)
@@ -96,6 +111,9 @@ def simulate(
         "rows": decks + 1,
         "seed": seed,
         "reference": reference.value,
+        "change": None
+        if change is None
+        else {"from": change[0], "procedure": change[1].describe()},
         "labels": "codes" if definition is not None else "int (1..n)",
     }
     if json_out:
@@ -105,4 +123,6 @@ def simulate(
         f"Wrote {out}: {decks:,} simulated decks of {n} cards after '{proc.describe()}' "
         f"(seed {seed}; row 1 is the starting order; audit with --reference {reference.value})."
     )
+    if change is not None:
+        echo(f"From simulated deck {change[0]} (row {change[0] + 2}) on: '{change[1].describe()}'.")
     echo("Invented data for demonstrations and planning, not a recording.")

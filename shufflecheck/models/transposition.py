@@ -184,23 +184,24 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     index = pd.Index(keys)
     if not index.is_unique:  # pragma: no cover - a 64-bit collision among p(n) states
         raise RuntimeError("hash collision among cycle types; change the hash seed")
-    rows_with = [np.nonzero(mf[:, s])[0] if s else None for s in range(n + 1)]
+    rows_with = [np.nonzero(mf[:, s])[0].astype(np.int32) if s else None for s in range(n + 1)]
     # Every split is the reverse of exactly one merge: generate the merges mu -> nu (one hash
-    # lookup each) and read the reverse split nu -> mu off the same pair of states.
+    # lookup each) and read the reverse split nu -> mu off the same pair of states. Counts
+    # fit in int32 (at most n(n-1)/2); small dtypes keep the build's memory (and the cost of
+    # touching fresh pages) down.
     merge_from: list[np.ndarray] = []
     merge_to: list[np.ndarray] = []
     merge_count: list[np.ndarray] = []
     split_count: list[np.ndarray] = []
-    for t in range(1, n // 2 + 1 if n > 1 else 1):
+    for t in range(1, n):
+        top = min(t, n - t)  # merge an s-cycle (s <= t, s + t <= n) with a different t-cycle
         holders = rows_with[t]
         if holders.size == 0:
             continue
-        mt = mf[holders, t].astype(np.int64)
-        top = min(t, n - t)
-        # merge an s-cycle (s <= t, s + t <= n) with a different t-cycle: s t pairs each
-        s_sizes = np.arange(1, top + 1)
-        ms = mf[holders, 1 : top + 1].astype(np.int64)
-        c = (s_sizes * t) * ms * mt[:, None]
+        mt = mf[holders, t].astype(np.int32)
+        s_sizes = np.arange(1, top + 1, dtype=np.int32)
+        ms = mf[holders, 1 : top + 1].astype(np.int32)
+        c = (s_sizes * t) * ms * mt[:, None]  # s t pairs per pair of cycles
         if top == t:  # s == t: pairs of distinct t-cycles
             c[:, t - 1] = t * t * mt * (mt - 1) // 2
         which, s_index = np.nonzero(c)
@@ -211,38 +212,22 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
         merge_to.append(keys[rows] + (weights[s_values + t] - weights[s_values] - weights[t]))
         # the reverse: split one (s + t)-cycle of nu into s and t; s + t pairs per cycle
         # (s pairs when s == t), times the number of (s + t)-cycles of nu
-        m_sum = mf[rows, s_values + t].astype(np.int64) + 1
-        split_count.append(np.where(s_values == t, t, s_values + t) * m_sum)
-    for t in range(n // 2 + 1, n + 1):
-        # parts larger than n/2 can only merge with smaller ones; those pairs were covered
-        # above from the smaller part's side (s <= t) only when t <= n/2, so add them here
-        holders = rows_with[t]
-        if holders.size == 0 or n - t < 1:
-            continue
-        mt = mf[holders, t].astype(np.int64)
-        s_sizes = np.arange(1, n - t + 1)
-        ms = mf[holders, 1 : n - t + 1].astype(np.int64)
-        c = (s_sizes * t) * ms * mt[:, None]
-        which, s_index = np.nonzero(c)
-        s_values = s_index + 1
-        rows = holders[which]
-        merge_from.append(rows)
-        merge_count.append(c[which, s_index])
-        merge_to.append(keys[rows] + (weights[s_values + t] - weights[s_values] - weights[t]))
-        m_sum = mf[rows, s_values + t].astype(np.int64) + 1
-        split_count.append((s_values + t) * m_sum)
+        m_sum = mf[rows, s_values + t].astype(np.int32) + 1
+        split_count.append(np.where(s_values == t, t, s_values + t).astype(np.int32) * m_sum)
     source = np.concatenate(merge_from)
-    target = index.get_indexer(np.concatenate(merge_to))
+    target = index.get_indexer(np.concatenate(merge_to)).astype(np.int32)
     if (target < 0).any():  # pragma: no cover - would mean a wrong transition
         raise RuntimeError("lumped chain: a transition left the state space")
     pairs = n * (n - 1) // 2
     scale = (1.0 - h) / pairs
-    merges = np.concatenate(merge_count).astype(np.float64) * scale
-    splits = np.concatenate(split_count).astype(np.float64) * scale
-    diagonal = np.arange(states)
+    data = np.empty(2 * len(source) + states)
+    np.multiply(np.concatenate(merge_count), scale, out=data[: len(source)])
+    np.multiply(np.concatenate(split_count), scale, out=data[len(source) : 2 * len(source)])
+    data[2 * len(source) :] = h
+    diagonal = np.arange(states, dtype=np.int32)
     matrix = sparse.csr_matrix(
         (
-            np.concatenate([merges, splits, np.full(states, h)]),
+            data,
             (
                 np.concatenate([target, source, diagonal]),  # rows: destination
                 np.concatenate([source, target, diagonal]),  # columns: source
@@ -254,18 +239,22 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     return LumpedChain(n, h, m, _log_z(m), identity, matrix, int(matrix.nnz))
 
 
-def _threaded_product(matrix, vector: np.ndarray) -> np.ndarray:
-    """``matrix @ vector`` in two row blocks of equal work on two threads (scipy's sparse
-    product releases the GIL)."""
-    if matrix.nnz < 2_000_000:
-        return matrix @ vector
+@lru_cache(maxsize=1)
+def _pool():
+    """Two worker threads for the sparse products (scipy releases the GIL inside them)."""
     from concurrent.futures import ThreadPoolExecutor
 
+    return ThreadPoolExecutor(max_workers=2, thread_name_prefix="shufflecheck-chain")
+
+
+def _threaded_product(matrix, vector: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """``matrix @ vector`` in two row blocks of equal work, one on a worker thread."""
+    if matrix.nnz < 2_000_000:
+        return matrix @ vector
     top, bottom = _row_blocks(matrix)
-    with ThreadPoolExecutor(max_workers=2) as pool:
-        upper = pool.submit(top.dot, vector)
-        lower = bottom.dot(vector)
-        return np.concatenate([upper.result(), lower])
+    upper = _pool().submit(top.dot, vector)
+    lower = bottom.dot(vector)
+    return np.concatenate([upper.result(), lower], out=out)
 
 
 _BLOCKS: dict[int, tuple[object, object]] = {}
@@ -280,25 +269,63 @@ def _row_blocks(matrix) -> tuple[object, object]:
     return _BLOCKS[key]
 
 
+class _ClassLawDistances:
+    """(TV, separation, KL bits) of laws on cycle types, with work arrays kept between
+    calls (fresh multi-megabyte temporaries cost page faults on every step).
+
+    With ``t = P(mu) z_mu = n! P(sigma)``: TV = 1/2 sum |P - U|, separation = 1 - min t,
+    KL = sum_mu P(mu) ln t_mu, and once KL is small (below 1e-3 bits) the cancellation-free
+    form sum_mu U(mu) f(t_mu), f(t) = t ln t - t + 1, by its series near t = 1.
+    """
+
+    def __init__(self, uniform: np.ndarray, z_values: np.ndarray) -> None:
+        self.uniform = uniform
+        self.z = z_values
+        self.work = np.empty_like(uniform)
+        self.t = np.empty_like(uniform)
+
+    def __call__(self, law: np.ndarray) -> tuple[float, float, float]:
+        w, t = self.work, self.t
+        np.subtract(law, self.uniform, out=w)
+        np.abs(w, out=w)
+        tv = 0.5 * float(w.sum())
+        np.multiply(law, self.z, out=t)
+        separation = float(max(0.0, 1.0 - t.min()))
+        np.maximum(t, 1e-300, out=w)
+        np.log(w, out=w)
+        kl_bits = float(np.dot(law, w)) / math.log(2)  # zero-probability classes add 0
+        if kl_bits < 1e-3:
+            kl_bits = self._small_kl(t) / math.log(2)
+        return tv, separation, kl_bits
+
+    def _small_kl(self, t: np.ndarray) -> float:
+        u = self.work
+        np.subtract(t, 1.0, out=u)
+        if float(np.abs(u).max()) < 1e-3:
+            # every class is close to uniform: f(1 + u) by its series, in place
+            f = np.multiply(u, -1.0 / 20.0)
+            f += 1.0 / 12.0
+            f *= u
+            f -= 1.0 / 6.0
+            f *= u
+            f += 0.5
+            f *= u
+            f *= u
+            return float(np.dot(self.uniform, f))
+        from scipy.special import xlogy
+
+        direct = xlogy(t, t) - u  # t ln t - t + 1
+        near = np.abs(u) < 1e-3
+        un = u[near]
+        direct[near] = un * un * (0.5 + un * (-1.0 / 6.0 + un * (1.0 / 12.0 - un / 20.0)))
+        return float(np.dot(self.uniform, direct))
+
+
 def _distances_from_class_law(
     law: np.ndarray, uniform: np.ndarray, z_values: np.ndarray
 ) -> tuple[float, float, float]:
-    """(TV, separation, KL bits) of a law on cycle types; ``t = P(mu) z_mu = n! P(sigma)``.
-
-    KL is ``sum_mu (1/z_mu) f(t_mu)`` with ``f(t) = t ln t - t + 1 >= 0`` (a series near
-    ``t = 1``), so no digits are lost to cancellation.
-    """
-    from scipy.special import xlogy
-
-    t = law * z_values
-    tv = 0.5 * float(np.abs(law - uniform).sum())
-    separation = float(max(0.0, 1.0 - t.min()))
-    u = t - 1.0
-    direct = xlogy(t, t) - u  # t ln t - t + 1, and 1 at t = 0
-    series = u * u * (0.5 + u * (-1.0 / 6.0 + u * (1.0 / 12.0 - u / 20.0)))
-    f = np.where(np.abs(u) < 1e-3, series, direct)
-    kl_bits = float(np.dot(uniform, f)) / math.log(2)
-    return tv, separation, kl_bits
+    """(TV, separation, KL bits) of one law on cycle types (see :class:`_ClassLawDistances`)."""
+    return _ClassLawDistances(uniform, z_values)(law)
 
 
 def _chain_rows(
@@ -308,17 +335,17 @@ def _chain_rows(
     progress: Callable[[int], None] | None,
 ) -> tuple[DistanceRow, ...]:
     chain = lumped_chain(cards, hold)
-    uniform = chain.uniform
-    z_values = np.exp(chain.log_z)
+    distances = _ClassLawDistances(chain.uniform, np.exp(chain.log_z))
     law = np.zeros(len(chain.log_z))
     law[chain.identity] = 1.0
+    spare = np.empty_like(law)
     rows = []
     for k in range(1, max_steps + 1):
-        law = chain.step(law)
+        law, spare = _threaded_product(chain.matrix, law, out=spare), law
         # Probabilities below 1e-300 cannot move any distance at double precision; zeroing
         # them keeps the arithmetic out of subnormal numbers, which are very slow.
         np.putmask(law, law < 1e-300, 0.0)
-        tv, sep, kl = _distances_from_class_law(law, uniform, z_values)
+        tv, sep, kl = distances(law)
         rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
         if progress is not None:
             progress(k)

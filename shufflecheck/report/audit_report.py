@@ -62,6 +62,7 @@ def _tests_table(battery, caption: str) -> Table:
 def audit_figures(audit, prefix: str = "") -> tuple:
     """p-values, guessing scores against the exact null, and the position heat map."""
     from shufflecheck.audit.guessing import guessing_null
+    from shufflecheck.audit.results import format_p
     from shufflecheck.report.figures import (
         heatmap_figure,
         pvalue_figure,
@@ -77,6 +78,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
             [_P_LABEL.get(t.method, "estimate") for t in tests],
             alpha=battery.alpha,
             flagged=[t.flagged for t in tests],
+            texts=[format_p(t.log10_p_adjusted) for t in tests],
             name=f"{prefix}pvalues",
         )
     ]

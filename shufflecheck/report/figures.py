@@ -619,6 +619,7 @@ def _draw_pvalues(
     flagged: list[bool],
     alpha: float,
     xlabel: str,
+    texts: list[str],
 ) -> Any:
     count = len(tests)
     fig = _new_figure((7.2, 1.3 + 0.36 * count))
@@ -651,9 +652,7 @@ def _draw_pvalues(
         if f:
             tick.set_fontweight("bold")
     values = ax.secondary_yaxis("right")
-    values.set_yticks(
-        y, [f"{pvalues[k]:.3g} ({how[k]})" + (" flagged" if flagged[k] else "") for k in y]
-    )
+    values.set_yticks(y, [f"{texts[k]} ({how[k]})" + (" flagged" if flagged[k] else "") for k in y])
     values.tick_params(length=0, labelsize=8)
     values.spines["right"].set_visible(False)
     for tick, f in zip(values.get_yticklabels(), flagged, strict=True):
@@ -681,6 +680,7 @@ def pvalue_figure(
     *,
     alpha: float = 0.05,
     flagged: Sequence[bool] | None = None,
+    texts: Sequence[str] | None = None,
     xlabel: str = "adjusted p-value (log scale)",
     name: str = "pvalues",
     caption: str | None = None,
@@ -702,6 +702,9 @@ def pvalue_figure(
         Family-wise significance level, drawn as a dash-dot line.
     flagged : sequence of bool or None
         Which tests to flag; default: those with p-value <= alpha.
+    texts : sequence of str or None
+        The p-value printed beside each bar (default: the value to 3 digits); use it for
+        p-values below the double range, drawn at a floor but printed exactly.
     xlabel, name, caption : str
 
     Returns
@@ -727,8 +730,11 @@ def pvalue_figure(
     marks = [bool(v <= alpha) for v in p] if flagged is None else [bool(f) for f in flagged]
     if len(marks) != len(names):
         raise InputError(f"p-value figure: {len(marks)} flags for {len(names)} tests")
+    shown = [f"{v:.3g}" for v in p] if texts is None else [str(t) for t in texts]
+    if len(shown) != len(names):
+        raise InputError(f"p-value figure: {len(shown)} texts for {len(names)} tests")
     with _style():
-        fig = _draw_pvalues(names, p, labels, marks, float(alpha), xlabel)
+        fig = _draw_pvalues(names, p, labels, marks, float(alpha), xlabel, shown)
         if caption is None:
             caption = (
                 f"Adjusted p-value of each test (log scale); each bar runs from the p-value "

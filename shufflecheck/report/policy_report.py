@@ -172,11 +172,18 @@ def policy_sections(result, *, figures: bool = True) -> list[Section]:
                 tables=(table,),
             )
         )
-        for i, (log, audit) in enumerate(d.audits):
+        for log, audit in d.audits:
             title = f"Recorded decks: {log.table or log.path.name} ({d.procedure.name})"
-            prefix = f"{len(sections)}-{i}-"
-            sections.append(audit_section(audit, title, prefix=prefix, figures=figures))
+            sections.append(audit_section(audit, title, prefix=_slug(log) + "-", figures=figures))
     return sections
+
+
+def _slug(log) -> str:
+    """A file-name stem for a log's figures: its table name, else its file name."""
+    import re
+
+    text = (log.table or log.path.stem).lower()
+    return re.sub(r"[^a-z0-9]+", "-", text).strip("-") or "log"
 
 
 def policy_report(
@@ -195,7 +202,16 @@ def policy_report(
     answer = [d.summary(label, policy.target) + "." for d in result.decisions]
     for d in result.decisions:
         for log, audit in d.audits:
-            answer.append(f"{log.table or log.path.name}: {audit.result.overall.verdict()}.")
+            battery = audit.result.overall
+            line = f"{log.table or log.path.name}: {battery.verdict()}."
+            if battery.since_when is not None:
+                where = audit.since_when_rows.get("all", {})
+                line += f" Since when (estimate): {battery.since_when.text}"
+                if where:
+                    line += f"; first deck of that stretch: row {where['row']}"
+                    line += f", {where['time']}" if "time" in where else ""
+                line += "."
+            answer.append(line)
     methods: list[MethodNote] = list(assessment_methods(policy.confidence))
     if any(d.audits for d in result.decisions):
         methods.extend(audit_methods(policy.alpha))

@@ -26,6 +26,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from shufflecheck.errors import InputError
+from shufflecheck.fileio import default_mode
 from shufflecheck.report.document import FORMAT_NAME, Report, render_json
 from shufflecheck.report.html import render_html
 from shufflecheck.report.markdown import render_markdown
@@ -99,6 +100,7 @@ def write_report(
 
     files = render_files(report)  # render everything before touching the disk
     staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".tmp", dir=parent))
+    os.chmod(staging, default_mode(directory=True))
     try:
         for relative, content in files.items():
             path = staging / relative

@@ -1,0 +1,67 @@
+"""``shufflecheck demo``: the whole job on an invented card room, with a report."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import ForceOption, app, echo, emit_json, progress, save_report
+
+
+@app.command()
+def demo(
+    out: Annotated[Path, typer.Option(help="Report folder to write.")] = Path("reports/demo"),
+    force: ForceOption = False,
+    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+) -> None:
+    """Run the main job on the bundled demo data (the invented Lantern Quay Card Room).
+
+    Policy minimums for three procedures, their assessment, audits of three tables' logs,
+    and how many decks an audit needs; prints a summary and writes a report (Markdown,
+    self-contained HTML, JSON, figures) to --out.
+    """
+    from shufflecheck.demo import demo_folder, demo_work, run_demo
+    from shufflecheck.planning import planning_json
+    from shufflecheck.procedures import parse_procedure
+    from shufflecheck.report.demo_report import demo_report
+    from shufflecheck.report.policy_report import policy_payload
+    from shufflecheck.report.provenance import collect_provenance
+
+    if not out.parent.exists() and out.parent == Path("reports"):
+        out.parent.mkdir()
+    with progress(demo_work(), "demo: assessing procedures") as update:
+        result = run_demo(progress=update)
+    payload = {
+        "demo_data": str(demo_folder()),
+        **policy_payload(result.policy),
+        "audit_planning": planning_json(result.power, parse_procedure("riffle"), result.power_seed),
+    }
+    policy = result.policy.policy
+    seeds = {f"simulation, {p.name}": policy.seed + i for i, p in enumerate(policy.procedures)}
+    seeds["audit planning"] = result.power_seed
+    document = demo_report(
+        result, payload=payload, provenance=collect_provenance(policy.inputs, seeds=seeds)
+    )
+    written = save_report(document, out, force=force)
+    if json_out:
+        emit_json(payload)
+        return
+    from shufflecheck.cli.policy import print_policy
+
+    echo("shufflecheck demo: the Lantern Quay Card Room (invented data)")
+    echo(f"Data: {demo_folder()}")
+    echo()
+    print_policy(result.policy)
+    echo()
+    for r, plan in result.power:
+        best = plan.best()
+        if best is not None:
+            decks = f"{best.decks:,} recorded deck{'s' if best.decks != 1 else ''}"
+            echo(
+                f"Audit planning: after {r} ideal riffles, about {decks} let an audit flag "
+                f"the deck ({best.title}; estimate)."
+            )
+    echo()
+    echo(f"Report: {written}/report.html (also report.md, report.json, figures/)")
