@@ -58,9 +58,10 @@ def demo(
     for r, plan in result.power:
         best = plan.best()
         if best is not None:
+            verb = "let" if best.decks != 1 else "lets"
             decks = f"{best.decks:,} recorded deck{'s' if best.decks != 1 else ''}"
             echo(
-                f"Audit planning: after {r} ideal riffles, about {decks} let an audit flag "
+                f"Audit planning: after {r} ideal riffles, about {decks} {verb} an audit flag "
                 f"the deck ({best.title}; estimate)."
             )
     echo()

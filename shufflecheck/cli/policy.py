@@ -102,7 +102,15 @@ def print_policy(result) -> None:
     for d in result.decisions:
         echo(f"- {d.summary(label, p.target)}.")
         for log, audit in d.audits:
-            echo(f"  log {log.table or log.path.name}: {audit.result.overall.verdict()}")
+            battery = audit.result.overall
+            echo(f"  log {log.table or log.path.name}: {battery.verdict()}")
+            if battery.since_when is not None:
+                where = audit.since_when_rows.get("all", {})
+                place = ""
+                if where:
+                    stamp = f", {where['time']}" if "time" in where else ""
+                    place = f" (row {where['row']}{stamp})"
+                echo(f"    since when (estimate): {battery.since_when.text}{place}")
     echo()
     echo(
         "minimum: exact = the repeated procedure is an exactly analysed model; bound = "
