@@ -21,15 +21,24 @@ from typer.core import TyperGroup
 
 from shufflecheck.errors import EXIT_BAD_INPUT, InputError
 
+#: the command-line parser's usage error (typer ships its own copy of click)
+_UsageError = typer.BadParameter.__mro__[1]
+
 
 class _Group(TyperGroup):
-    """Turns :class:`InputError` from any command into ``error: ...`` on stderr, exit 2."""
+    """Turns :class:`InputError` from any command, and the parser's usage errors, into one
+    line ``error: ...`` on stderr and exit code 2."""
 
     def invoke(self, ctx: Any) -> Any:
         try:
             return super().invoke(ctx)
         except InputError as exc:
             typer.echo(f"error: {exc}", err=True)
+            raise typer.Exit(code=EXIT_BAD_INPUT) from None
+        except _UsageError as exc:
+            where = exc.ctx.command_path if getattr(exc, "ctx", None) else "shufflecheck"
+            message = " ".join(exc.format_message().split())
+            typer.echo(f"error: {message} (see '{where} --help')", err=True)
             raise typer.Exit(code=EXIT_BAD_INPUT) from None
 
 
