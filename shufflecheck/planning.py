@@ -14,8 +14,15 @@ __all__ = ["plan_power", "planning_json"]
 
 
 def plan_power(
-    proc, cards: int, counts: list[int], *, alpha: float, power: float, simulate: int, seed: int
-):
+    proc: Procedure,
+    cards: int,
+    counts: list[int],
+    *,
+    alpha: float = 0.01,
+    power: float = 0.9,
+    simulate: int = 4000,
+    seed: int = 1,
+) -> list[tuple[int, PowerPlan]]:
     """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
     from shufflecheck.audit import plan_decks
     from shufflecheck.decks import load_deck

@@ -291,6 +291,10 @@ def _print_power(plans, proc) -> None:
     )
     echo(format_table(headers, rows, align="l" + "r" * len(plans)))
     echo("'-': not detected within the search range.")
+    echo(
+        "Colour and suit runs are planned for decks that start in new-deck order; when each "
+        "deck starts from the previous one (reference previous), those two tests detect less."
+    )
     echo()
     for r, plan in plans:
         best = plan.best()
