@@ -65,6 +65,7 @@ __all__ = [
     "Labels",
     "canonical_code",
     "check_arrangement",
+    "integer_deck",
     "integer_value",
     "load_deck",
     "parse_order",
@@ -463,6 +464,21 @@ class Arrangement:
     @property
     def ok(self) -> bool:
         return self.labels is not None
+
+
+def integer_deck(cards: int) -> DeckDefinition:
+    """A deck of ``cards`` cards without suits, for logs written with integer labels.
+
+    Its codes (``C1`` .. ``Cn``) only name the cards in messages; logs of such a deck are
+    read with ``labels="int"`` (0..n-1 or 1..n).
+    """
+    if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
+        raise InputError(f"a deck needs at least 2 cards, got {cards!r}")
+    return DeckDefinition.from_cards(
+        f"integers-{cards}",
+        [f"C{k}" for k in range(1, cards + 1)],
+        description=f"{cards} cards known by integer labels",
+    )
 
 
 def integer_value(token: object) -> int | None:

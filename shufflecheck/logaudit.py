@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult, BatterySummary
-from shufflecheck.decks import DeckDefinition, load_deck
+from shufflecheck.decks import DeckDefinition, integer_deck, load_deck
 from shufflecheck.errors import InputError
 from shufflecheck.logs import LogSummary, Reference, read_log
 
@@ -105,7 +105,9 @@ def audit_log(
     deck : path, name or DeckDefinition, optional
         Deck definition (default: the built-in 52-card deck).
     cards : int or None
-        Expected deck size; an error when the deck definition has another size.
+        Deck size. Without a deck definition, a size other than 52 means a deck of that many
+        cards known by integer labels (``labels="int"``); with one, an error when its size
+        differs.
     by : str or None
         Column to group results by (e.g. ``table``).
     time : str or None
@@ -120,7 +122,15 @@ def audit_log(
     progress : callable, optional
         Called with the number of rows read so far.
     """
-    definition = load_deck(deck)
+    if deck is None and cards is not None and cards != 52:
+        if not labels.startswith("int"):
+            raise InputError(
+                f"{path}: a {cards}-card deck needs a deck definition (--deck FILE) for card "
+                "codes, or integer labels (--labels int)"
+            )
+        definition = integer_deck(cards)
+    else:
+        definition = load_deck(deck)
     if cards is not None and definition.size != cards:
         raise InputError(
             f"{path}: the deck definition {definition.name!r} has {definition.size} cards, "

@@ -3,10 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
-import itertools
-import math
 
-import numpy as np
 import pytest
 
 from shufflecheck.assessment import assess, exact_blocks
@@ -63,7 +60,9 @@ class TestExactBlocks:
         row = result.rows[0]
         assert row.exact is None
         law = _brute.law_after(_brute.riffle_outcomes(5), 5, 2)
-        law = _brute.compose({k: v for k, v in law.items()}, [(s, 1) for s, _ in _brute.top_to_random_outcomes(5)])
+        law = _brute.compose(
+            {k: v for k, v in law.items()}, [(s, 1) for s, _ in _brute.top_to_random_outcomes(5)]
+        )
         law = _brute.compose(law, _brute.riffle_outcomes(5))
         total = sum(law.values())
         tv, sep, kl = _brute.distances({k: v / total for k, v in law.items()}, 5)

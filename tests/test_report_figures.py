@@ -328,4 +328,3 @@ class TestPvalueTexts:
         assert figure.png.startswith(b"\x89PNG")
         with pytest.raises(InputError, match="1 texts for 2 tests"):
             F.pvalue_figure(["a", "b"], [0.1, 0.2], ["exact", "exact"], texts=["x"])
-

@@ -93,8 +93,11 @@ def assess(
         echo(f"Wrote report {written}")
 
 
-def _num(value: float) -> str:
-    return f"{value:.4g}"
+def _num(value: float, rounding: str = "nearest") -> str:
+    """Four significant digits; bounds rounded outward (never claiming more than proven)."""
+    from shufflecheck.report.document import format_number
+
+    return format_number(float(value), 4, rounding)
 
 
 def _range(row, metric: str) -> tuple[str, str]:
@@ -103,8 +106,11 @@ def _range(row, metric: str) -> tuple[str, str]:
         return f"= {_num(row.exact.value(metric))}", "exact"
     low = row.lower.get(metric)
     high = row.upper.get(metric)
-    lo = _num(low.value) if low is not None else "0"
-    hi = _num(high.value) if high is not None else "1" if metric != "kl_bits" else "?"
+    lo = _num(low.value, "down") if low is not None else "0"
+    if high is not None:
+        hi = _num(high.value, "up")
+    else:
+        hi = "1" if metric != "kl_bits" else "?"
     how = "bounds" if high is not None else "lower bound"
     return f"{lo} to {hi}", how
 

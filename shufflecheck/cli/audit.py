@@ -61,6 +61,12 @@ def audit(
     deck: Annotated[
         Path | None, typer.Option(help="Deck definition TOML for non-standard decks.")
     ] = None,
+    cards: Annotated[
+        int | None,
+        typer.Option(
+            "--cards", "-n", help="Cards per deck, for integer-labelled logs without --deck."
+        ),
+    ] = None,
     log_format: Annotated[
         str | None,
         typer.Option("--format", help="csv, wide, jsonl or parquet (default: extension)."),
@@ -82,6 +88,7 @@ def audit(
             labels=labels.value,
             fmt=log_format,
             deck=deck,
+            cards=cards,
             by=by,
             time=time,
             alpha=alpha,

@@ -99,10 +99,9 @@ def simulate(
     if definition is not None:
         write_log(out, orders, definition, columns)
     else:
-        from shufflecheck.decks import DeckDefinition
+        from shufflecheck.decks import integer_deck
 
-        integers = DeckDefinition.from_cards(f"cards-{n}", [f"C{k + 1}" for k in range(n)])
-        write_log(out, orders, integers, columns, labels="int1")
+        write_log(out, orders, integer_deck(n), columns, labels="int1")
     summary = {
         "out": str(out),
         "procedure": proc.describe(),
@@ -119,9 +118,12 @@ def simulate(
     if json_out:
         emit_json(summary)
         return
+    how = f"--reference {reference.value}" + (
+        "" if definition is not None else f" --labels int --cards {n}"
+    )
     echo(
         f"Wrote {out}: {decks:,} simulated decks of {n} cards after '{proc.describe()}' "
-        f"(seed {seed}; row 1 is the starting order; audit with --reference {reference.value})."
+        f"(seed {seed}; row 1 is the starting order; audit with {how})."
     )
     if change is not None:
         echo(f"From simulated deck {change[0]} (row {change[0] + 2}) on: '{change[1].describe()}'.")

@@ -79,14 +79,27 @@ _FIGURE_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,63}$")
 # --------------------------------------------------------------------------- numbers
 
 
-def format_number(x: int | float, digits: int = 4) -> str:
+def format_number(x: int | float, digits: int = 4, rounding: str = "nearest") -> str:
     """Format a number for display with ``digits`` significant digits.
 
     Integers are shown in full with thousands separators (scientific notation beyond 15
     digits); floats in fixed notation when ``1e-4 <= |x| < 1e6``, otherwise scientific
     (``1.234e-07``). Significant trailing zeros are kept, so every float in a column shows
     the same number of significant digits. Infinity is ``∞``; minus is ``-``.
+
+    ``rounding`` is ``"nearest"``, ``"up"`` (towards +infinity) or ``"down"``: a displayed
+    upper bound is rounded up and a lower bound down, so the shown digits never claim more
+    than was proven (a value within a few units in the last place of the shown decimal,
+    float noise, is shown as that decimal).
     """
+    if rounding != "nearest" and isinstance(x, float) and math.isfinite(x) and x != 0:
+        nearest = format_number(x, digits)
+        shown = float(nearest.replace(",", ""))
+        # rounding to nearest already lies on the safe side, or within float noise of x
+        noise = 8 * math.ulp(x)
+        if (rounding == "up" and shown >= x - noise) or (rounding == "down" and shown <= x + noise):
+            return nearest
+        return _format_directed(x, digits, rounding)
     if isinstance(x, bool):
         raise InputError(f"cannot format {x!r} as a number")
     if isinstance(x, int):
@@ -104,6 +117,23 @@ def format_number(x: int | float, digits: int = 4) -> str:
     if -4 <= exponent < 6:
         return f"{x:,.{max(digits - 1 - exponent, 0)}f}"
     return scientific
+
+
+def _format_directed(x: float, digits: int, rounding: str) -> str:
+    """``format_number`` with the last shown digit rounded up or down (exact decimals)."""
+    from decimal import ROUND_CEILING, ROUND_FLOOR
+
+    mode = {"up": ROUND_CEILING, "down": ROUND_FLOOR}[rounding]
+    d = Decimal(x)
+    exponent = d.adjusted()
+    r = d.quantize(Decimal(1).scaleb(exponent - digits + 1), rounding=mode)
+    if r.adjusted() > exponent:  # rounding carried into a new leading digit (0.99996 -> 1.000)
+        exponent = r.adjusted()
+        r = d.quantize(Decimal(1).scaleb(exponent - digits + 1), rounding=mode)
+    # r has ``digits`` significant digits; the nearest float prints back to exactly them
+    if -4 <= exponent < 6:
+        return f"{float(r):,.{max(digits - 1 - exponent, 0)}f}"
+    return f"{float(r):.{digits - 1}e}"
 
 
 def _decimals_for(uncertainty: float) -> int | None:
@@ -218,7 +248,8 @@ class Value:
         unit = f" {self.unit}" if self.unit else ""
         if self.label == "bound":
             sign = "≤" if self.side == "upper" else "≥"
-            return f"{sign} {format_number(self.value, self.digits)}{unit}"
+            outward = "up" if self.side == "upper" else "down"
+            return f"{sign} {format_number(self.value, self.digits, outward)}{unit}"
         if self.label == "exact":
             return f"{format_number(self.value, self.digits)}{unit}"
         return self._estimate_text(unit)

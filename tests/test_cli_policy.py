@@ -1,0 +1,349 @@
+"""``shufflecheck policy`` through typer's CliRunner (issue 6): minimums against the published
+riffle table, house standings, attached logs, and file/line/key errors for bad files."""
+
+from __future__ import annotations
+
+import json
+import textwrap
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from shufflecheck.cli import app
+
+runner = CliRunner()
+
+
+def run(*args: object):
+    return runner.invoke(app, [str(a) for a in args])
+
+
+def policy_json(path: Path) -> dict:
+    result = run("policy", path, "--json")
+    assert result.exit_code == 0, result.output
+    return json.loads(result.stdout)
+
+
+def one_line_error(result) -> str:
+    assert result.exit_code == 2, result.output
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1, result.stderr
+    assert lines[0].startswith("error: ")
+    return lines[0]
+
+
+def write(folder: Path, text: str, name: str = "policy.toml") -> Path:
+    path = folder / name
+    path.write_text(textwrap.dedent(text).lstrip(), encoding="utf-8")
+    return path
+
+
+def riffle_policy(folder: Path, target: float, house: int = 7) -> Path:
+    """Ideal riffles only: the repeated procedure is exact, the Monte Carlo part tiny."""
+    return write(
+        folder,
+        f"""
+        [policy]
+        title = "Riffle yardstick (invented)"
+        metric = "total-variation"
+        target = {target}
+        decks = 200
+        seed = 5
+        max_repeats = 12
+
+        [[procedure]]
+        name = "Ideal riffles"
+        cards = 52
+        steps = "riffle"
+        house = {house}
+        """,
+        f"riffle-{target}.toml",
+    )
+
+
+class TestPolicyMinimums:
+    def test_published_table_at_01(self, tmp_path):
+        data = policy_json(riffle_policy(tmp_path, 0.1))
+        (procedure,) = data["procedures"]
+        # Bayer & Diaconis (1992), table of variation distance for 52 cards: TV <= 0.1 is
+        # first reached at 9 riffles (0.167 at 8, 0.085 at 9)
+        assert procedure["minimum"] == 9
+        assert procedure["how"] == "exact"
+
+    def test_published_table_at_05(self, tmp_path):
+        data = policy_json(riffle_policy(tmp_path, 0.5))
+        (procedure,) = data["procedures"]
+        # Bayer & Diaconis (1992): TV <= 0.5 first reached at 7 riffles (0.614 at 6, 0.334
+        # at 7)
+        assert procedure["minimum"] == 7
+        assert procedure["how"] == "exact"
+
+    def test_failed_house_count_is_a_finding(self, tmp_path):
+        path = riffle_policy(tmp_path, 0.1, house=7)
+        result = run("policy", path)
+        assert result.exit_code == 0, result.output  # a failed policy is a finding
+        data = policy_json(path)
+        (procedure,) = data["procedures"]
+        # TV after 7 riffles is 0.334 > 0.1 (Bayer & Diaconis 1992)
+        assert procedure["standing"] == "fails" and procedure["standing_how"] == "exact"
+        assert data["all_house_counts_meet_target"] is False
+        assert "fails (exact)" in result.stdout
+
+    def test_house_count_that_meets(self, tmp_path):
+        data = policy_json(riffle_policy(tmp_path, 0.1, house=10))
+        (procedure,) = data["procedures"]
+        assert procedure["standing"] == "meets"  # 0.043 after 10 (Bayer & Diaconis 1992)
+        assert data["all_house_counts_meet_target"] is True
+
+    def test_bound_certifies_a_mixed_procedure(self, tmp_path):
+        path = write(
+            tmp_path,
+            """
+            [policy]
+            target = 0.1
+            decks = 500
+            max_repeats = 2
+
+            [[procedure]]
+            name = "Strip then nine riffles"
+            steps = "strip, riffle x9"
+            """,
+        )
+        (procedure,) = policy_json(path)["procedures"]
+        # the exactly analysed block riffle x9 has TV 0.085 (Bayer & Diaconis 1992) and a
+        # further step never increases TV: one repetition is certified by a rigorous bound
+        assert procedure["minimum"] == 1
+        assert procedure["how"] == "bound"
+
+    def test_estimate_only_is_not_certified(self, tmp_path):
+        path = write(
+            tmp_path,
+            """
+            [policy]
+            target = 0.1
+            decks = 500
+            max_repeats = 2
+
+            [[procedure]]
+            name = "Strips only"
+            steps = "strip x3"
+            """,
+        )
+        (procedure,) = policy_json(path)["procedures"]
+        # no step of this procedure has an exact law: nothing can certify the target
+        assert procedure["minimum"] is None
+        assert procedure["how"] == "estimate"
+
+
+@pytest.fixture(scope="module")
+def policy_with_logs(tmp_path_factory) -> Path:
+    folder = tmp_path_factory.mktemp("policy-logs")
+    (folder / "logs").mkdir()
+    for name, procedure, decks, seed in (
+        ("under.csv", "riffle x4", 30, 41),
+        ("sound.csv", "riffle x20", 150, 42),
+    ):
+        result = run(
+            "simulate", procedure, "--decks", decks, "--seed", seed, "--out", folder / "logs" / name
+        )
+        assert result.exit_code == 0, result.output
+    return write(
+        folder,
+        """
+        [policy]
+        target = 0.1
+        decks = 200
+        max_repeats = 10
+
+        [[procedure]]
+        name = "Ideal riffles"
+        steps = "riffle"
+        house = 4
+
+          [[procedure.log]]
+          table = "Table A"
+          path = "logs/under.csv"
+
+          [[procedure.log]]
+          table = "Table B"
+          path = "logs/sound.csv"
+        """,
+    )
+
+
+class TestPolicyLogs:
+    def test_audit_verdicts_in_json(self, policy_with_logs):
+        (procedure,) = policy_json(policy_with_logs)["procedures"]
+        logs = {log["table"]: log for log in procedure["logs"]}
+        assert set(logs) == {"Table A", "Table B"}
+        assert logs["Table A"]["flagged"] is True  # 4 riffles (issue 5 sensitivity case)
+        assert logs["Table A"]["decks"] == 30
+        assert logs["Table B"]["flagged"] is False  # 20 riffles, TV < 3e-6 (exact)
+        assert logs["Table B"]["decks"] == 150
+
+    def test_audit_verdicts_in_terminal(self, policy_with_logs):
+        result = run("policy", policy_with_logs)
+        assert result.exit_code == 0, result.output
+        assert "log Table A: FLAGGED" in result.stdout
+        assert "log Table B: no test flags" in result.stdout
+
+
+#: (policy text, line number, dotted key, text in the message)
+BAD_POLICIES = [
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+        colour = "red"
+
+        [[procedure]]
+        steps = "riffle"
+        """,
+        3,
+        "policy.colour",
+        "unknown key",
+        id="unknown-key",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+
+        [[procedure]]
+        name = "a"
+        steps = "riffle"
+        shuffles = 3
+        """,
+        7,
+        "procedure.shuffles",
+        "unknown key",
+        id="unknown-procedure-key",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+        decks = "many"
+
+        [[procedure]]
+        steps = "riffle"
+        """,
+        3,
+        "policy.decks",
+        "must be an integer",
+        id="wrong-type-int",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = "0.1"
+
+        [[procedure]]
+        steps = "riffle"
+        """,
+        2,
+        "policy.target",
+        "must be a number",
+        id="wrong-type-number",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+
+        [[procedure]]
+        name = "a"
+        steps = "riffle"
+
+        [[procedure]]
+        name = "b"
+        steps = "riffle"
+        house = "seven"
+        """,
+        11,
+        "procedure.house",
+        "must be an integer",
+        id="wrong-type-second-procedure",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+
+        [[procedure]]
+        name = "a"
+        steps = "riffle x3, strp"
+        """,
+        6,
+        "procedure.steps",
+        "unknown step 'strp' at column 12; did you mean 'strip'?",
+        id="unknown-step",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 1.5
+
+        [[procedure]]
+        steps = "riffle"
+        """,
+        2,
+        "policy.target",
+        "target must be in (0, 1]",
+        id="target-above-one",
+    ),
+    pytest.param(
+        """
+        [policy]
+        metric = "separation"
+        target = 0
+
+        [[procedure]]
+        steps = "riffle"
+        """,
+        3,
+        "policy.target",
+        "target must be in (0, 1]",
+        id="target-zero",
+    ),
+    pytest.param(
+        """
+        [policy]
+        target = 0.1
+
+        [[procedure]]
+        name = "a"
+        steps = "riffle"
+
+          [[procedure.log]]
+          table = "T"
+          path = "nowhere.csv"
+        """,
+        10,
+        "procedure.log.path",
+        "not found",
+        id="missing-log",
+    ),
+]
+
+
+class TestPolicyBadFiles:
+    @pytest.mark.parametrize(("text", "line", "key", "fragment"), BAD_POLICIES)
+    def test_file_line_key(self, tmp_path, text, line, key, fragment):
+        path = write(tmp_path, text)
+        message = one_line_error(run("policy", path))
+        assert message.startswith(f"error: {path} line {line}: key '{key}': "), message
+        assert fragment in message
+
+    def test_syntax_error(self, tmp_path):
+        path = write(tmp_path, "[policy\ntarget = 0.1\n")
+        message = one_line_error(run("policy", path))
+        assert str(path) in message and "invalid TOML" in message and "line 1" in message
+
+    def test_missing_file(self, tmp_path):
+        assert "no such file" in one_line_error(run("policy", tmp_path / "absent.toml"))
+
+    def test_no_procedures(self, tmp_path):
+        path = write(tmp_path, "[policy]\ntarget = 0.1\n")
+        assert "no procedures" in one_line_error(run("policy", path))
