@@ -127,6 +127,16 @@ def progress(total: int, label: str) -> Iterator[Callable[[int], None]]:
         yield update
 
 
+def check_report_folder(folder: Path | None, *, force: bool) -> None:
+    """Refuse an existing report folder before any work is done (the writer checks again)."""
+    if folder is None:
+        return
+    if folder.exists() and not force:
+        raise InputError(f"report folder {folder} exists; pass --force to replace it")
+    if not folder.parent.exists():
+        raise InputError(f"cannot write report {folder}: folder {folder.parent} does not exist")
+
+
 def save_report(document: Any, folder: Any, *, force: bool) -> str:
     """Write a report folder (atomically; refuses to replace without ``force``)."""
     from shufflecheck.report.writer import write_report

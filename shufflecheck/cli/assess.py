@@ -11,6 +11,7 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
+    check_report_folder,
     echo,
     emit_json,
     progress,
@@ -53,6 +54,7 @@ def assess(
     model), an upper bound from exactly analysed blocks, a lower bound at the stated
     confidence from simulated decks, or an estimate with its interval (the guessing game).
     """
+    check_report_folder(report, force=force)
     from shufflecheck.assessment import assess as run_assessment
     from shufflecheck.assessment import assessment_json
     from shufflecheck.models.permute import CHUNK_DECKS

@@ -12,6 +12,7 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
+    check_report_folder,
     echo,
     emit_json,
     progress,
@@ -79,6 +80,7 @@ def audit(
 
     Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
     """
+    check_report_folder(report, force=force)
     from shufflecheck.logaudit import audit_log
 
     with progress(0, "reading") as update:
@@ -222,6 +224,7 @@ def power(
     Simulates the procedure (estimate), uses each test's exact null for its critical value,
     and searches the smallest number of decks with the requested power.
     """
+    check_report_folder(report, force=force)
     from shufflecheck.planning import plan_power, planning_json
     from shufflecheck.procedures import procedure_from_argument
 

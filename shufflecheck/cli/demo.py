@@ -7,7 +7,15 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import ForceOption, app, echo, emit_json, progress, save_report
+from shufflecheck.cli._app import (
+    ForceOption,
+    app,
+    check_report_folder,
+    echo,
+    emit_json,
+    progress,
+    save_report,
+)
 
 
 @app.command()
@@ -31,6 +39,7 @@ def demo(
 
     if not out.parent.exists() and out.parent == Path("reports"):
         out.parent.mkdir()
+    check_report_folder(out, force=force)
     with progress(demo_work(), "demo: assessing procedures") as update:
         result = run_demo(progress=update)
     payload = {

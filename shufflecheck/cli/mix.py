@@ -12,6 +12,7 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
+    check_report_folder,
     echo,
     emit_json,
     progress,
@@ -82,6 +83,7 @@ def mix(
     and the smallest k that meets --target. These describe the idealised model, not a
     particular dealer or machine; the output is statistical evidence, not certification.
     """
+    check_report_folder(report, force=force)
     from shufflecheck.mixing import METRIC_NAMES, check_target, minimum_steps
     from shufflecheck.models import default_max_steps, distance_curve
 

@@ -11,6 +11,7 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
+    check_report_folder,
     echo,
     emit_json,
     progress,
@@ -33,6 +34,7 @@ def policy(
     an estimate (never reported as certified). Attached logs are audited. Exit code 0 when
     computed, whatever the findings; 2 for a bad policy file (with file, line and key).
     """
+    check_report_folder(report, force=force)
     from shufflecheck.policy import evaluate_policy, load_policy, policy_work
     from shufflecheck.report.policy_report import policy_payload
 
