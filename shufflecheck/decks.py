@@ -29,9 +29,9 @@ References
        (U+2660-U+2667, playing card suits) and "Variation Selectors" (U+FE0E, U+FE0F).
 .. [2] T. Preston-Werner et al., *TOML v1.0.0* (2021), https://toml.io/en/v1.0.0 (deck
        definition files).
-.. [3] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes-Monograph Series 11, 1988, ch. 3 (arrangements of a deck as permutations;
-       composition with a reference order).
+.. [3] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988, ch. 3 (arrangements of a deck as permutations; composition
+       with a reference order).
 """
 
 from __future__ import annotations

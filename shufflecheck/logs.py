@@ -27,8 +27,8 @@ References
        Files", RFC 4180, 2005 (quoting; a record may span lines inside quotes).
 .. [2] JSON Lines, https://jsonlines.org (one JSON value per line, UTF-8).
 .. [3] Apache Parquet format specification, https://parquet.apache.org/docs/.
-.. [4] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes-Monograph Series 11, 1988, ch. 3 (a deck relative to a reference order).
+.. [4] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988, ch. 3 (a deck relative to a reference order).
 """
 
 from __future__ import annotations

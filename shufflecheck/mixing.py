@@ -23,8 +23,8 @@ References
 ----------
 .. [1] D. Aldous and P. Diaconis, "Strong uniform times and finite random walks", Adv. in
        Appl. Math. 8 (1987) 69-97 (separation, its submultiplicativity).
-.. [2] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes - Monograph Series 11, 1988, ch. 3 (total variation, upper bound lemma).
+.. [2] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988, ch. 3 (total variation, upper bound lemma).
 .. [3] T. M. Cover and J. A. Thomas, *Elements of Information Theory*, 2nd ed., Wiley, 2006
        (relative entropy).
 """

@@ -82,10 +82,12 @@ class LogSpec:
     path: Path
     table: str | None = None
     reference: str = "previous"
-    labels: str = "cards"
+    labels: str = "codes"
     format: str | None = None
-    deck: Path | None = None
+    deck: Path | str | None = None
     time: str | None = None
+    by: str | None = None
+    where: str = ""  # "policy.toml line 12", prefixed to errors found while auditing
 
 
 @dataclass(frozen=True)
@@ -172,6 +174,9 @@ def load_policy(path: str | Path) -> Policy:
     max_repeats = settings.get("max_repeats", 12)
     if not 1 <= max_repeats <= 100:
         raise doc.error(f"must be from 1 to 100, got {max_repeats}", "max_repeats", "policy")
+    seed = settings.get("seed", 1)
+    if seed < 0:
+        raise doc.error(f"must be an integer >= 0, got {seed}", "seed", "policy")
     alpha = float(settings.get("alpha", 0.01))
     if not 0 < alpha < 0.5:
         raise doc.error(f"must be in (0, 0.5), got {alpha}", "alpha", "policy")
@@ -192,7 +197,7 @@ def load_policy(path: str | Path) -> Policy:
         target=target,
         confidence=confidence,
         decks=decks,
-        seed=settings.get("seed", 1),
+        seed=seed,
         alpha=alpha,
         procedures=procedures,
     )
@@ -253,37 +258,53 @@ def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:
             )
     if "path" not in entry:
         raise doc.error('missing: give path = "logs/table3.csv"', "path", table, occurrence)
-    for key in ("path", "table", "reference", "labels", "format", "deck", "time"):
+    for key in ("path", "table", "reference", "labels", "format", "deck", "time", "by"):
         if key in entry:
             _typed(doc, entry[key], str, key, table, occurrence)
     base = doc.path.parent
-    path = (
-        (base / entry["path"]).resolve()
-        if not Path(entry["path"]).is_absolute()
-        else Path(entry["path"])
-    )
+    path = _resolve(base, entry["path"])
     if not path.exists():
         raise doc.error(
             f"log file {entry['path']!r} not found (looked in {base})", "path", table, occurrence
         )
-    labels = entry.get("labels", "cards")
-    if labels not in ("cards", "int"):
-        raise doc.error(f"must be 'cards' or 'int', got {labels!r}", "labels", table, occurrence)
+    labels = entry.get("labels", "codes")
+    if labels == "cards":
+        labels = "codes"
+    if labels not in ("codes", "int", "int0", "int1"):
+        raise doc.error(
+            f"must be 'codes', 'int', 'int0' or 'int1', got {labels!r}", "labels", table, occurrence
+        )
     deck = entry.get("deck")
-    deck_path = None
-    if deck is not None:
-        deck_path = (base / deck).resolve()
-        if not deck_path.exists():
-            raise doc.error(f"deck definition {deck!r} not found", "deck", table, occurrence)
+    if deck is not None and deck not in _BUILT_IN_DECKS:
+        deck = _resolve(base, deck)
+        if not deck.exists():
+            raise doc.error(
+                f"deck definition {entry['deck']!r} not found", "deck", table, occurrence
+            )
+    reference = entry.get("reference", "previous")
+    if reference not in ("previous", "first", "deck") and (base / reference).exists():
+        reference = str(_resolve(base, reference))  # a reference order file, like path
+    line = doc.line_of("path", table, occurrence)
     return LogSpec(
         path=path,
         table=entry.get("table"),
-        reference=entry.get("reference", "previous"),
+        reference=reference,
         labels=labels,
         format=entry.get("format"),
-        deck=deck_path,
+        deck=deck,
         time=entry.get("time"),
+        by=entry.get("by"),
+        where=f"{doc.path}" + (f" line {line}" if line is not None else ""),
     )
+
+
+_BUILT_IN_DECKS = ("standard", "standard-52")
+
+
+def _resolve(base: Path, name: str) -> Path:
+    """A path from a policy file, relative to the policy file's folder."""
+    path = Path(name)
+    return path if path.is_absolute() else (base / path).resolve()
 
 
 # ---------------------------------------------------------------------------------------
@@ -437,13 +458,17 @@ def evaluate_policy(
 def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
     from shufflecheck.logaudit import audit_log
 
-    return audit_log(
-        log.path,
-        reference=log.reference,
-        labels=log.labels,
-        fmt=log.format,
-        deck=log.deck,
-        cards=proc.cards,
-        time=log.time,
-        alpha=policy.alpha,
-    )
+    try:
+        return audit_log(
+            log.path,
+            reference=log.reference,
+            labels=log.labels,
+            fmt=log.format,
+            deck=log.deck,
+            cards=proc.cards,
+            by=log.by,
+            time=log.time,
+            alpha=policy.alpha,
+        )
+    except InputError as exc:
+        raise InputError(f"{exc} (log attached at {log.where})") from None

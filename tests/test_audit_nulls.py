@@ -129,6 +129,10 @@ class TestPerDeckLaws:
             np.testing.assert_allclose(ours, ref, rtol=1e-9, atol=1e-300)
 
     def test_moments(self):
+        # textbook moments of a uniform permutation (Stanley, Enumerative Combinatorics I,
+        # 2nd ed., 2012): descents mean (n-1)/2, variance (n+1)/12 (so rising sequences =
+        # descents of the inverse + 1 have mean (n+1)/2); fixed points mean and variance 1;
+        # inversions mean n(n-1)/4
         law = nulls.rising_law(52)
         assert law.mean == Fraction(53, 2)  # (n+1)/2 rising sequences
         assert law.variance == Fraction(53, 12)  # (n+1)/12

@@ -30,6 +30,8 @@ class TestCharactersCommand:
         result = run("characters", "7", "--shape", "4,2,1", "--class", "3,3,1", "--json")
         assert result.exit_code == 0, result.output
         data = json.loads(result.stdout)
+        # chi^(4,2,1)(3,3,1) = -1: the S_7 table is compared entry by entry with the Frobenius
+        # formula (sympy) and with GAP's CharacterTable("Symmetric", 7) in test_characters.py
         assert data == {"n": 7, "shape": [4, 2, 1], "class": [3, 3, 1], "value": -1}
 
     def test_terminal_table(self):
@@ -79,10 +81,13 @@ class TestSpectrumCommand:
 
     def test_riffle_and_top_to_random(self):
         riffle = json.loads(run("spectrum", "riffle", "--cards", "5", "--json").stdout)
+        # Bayer & Diaconis (1992), Cor. 3: eigenvalues of the riffle are 2^-i, i = 0..n-1
         assert [r["eigenvalue"] for r in riffle["rows"]] == [1, 0.5, 0.25, 0.125, 0.0625]
         ttr = json.loads(run("spectrum", "top-to-random", "--cards", "5", "--json").stdout)
         assert sum(r["multiplicity"] for r in ttr["rows"]) == 120
-        assert 0.8 not in [r["eigenvalue"] for r in ttr["rows"]]  # j = n-1 is absent
+        # Diaconis, Fill & Pitman (1992): eigenvalue j/n has the multiplicity of permutations
+        # with j fixed points, none for j = n-1
+        assert 0.8 not in [r["eigenvalue"] for r in ttr["rows"]]
 
     def test_terminal(self):
         result = run("spectrum", "transposition", "--cards", "8")

@@ -345,3 +345,43 @@ class TestMixBadInput:
     def test_unknown_model(self):
         message = one_line_error(run("mix", "bogus", "--cards", 52))
         assert "bogus" in message and "riffle" in message
+
+
+class TestUpperBoundLemmaOnly:
+    def test_large_deck_gets_labelled_bounds(self):
+        # beyond the lumped chain (55 cards) the upper bound lemma alone serves; every row is
+        # a bound, and the minimum it certifies is no smaller than the exact one would be
+        result = runner.invoke(
+            app,
+            [
+                "mix",
+                "transposition",
+                "--cards",
+                "60",
+                "--method",
+                "bound",
+                "--target",
+                "0.1",
+                "--json",
+            ],
+        )
+        assert result.exit_code == 0, result.output
+        data = json.loads(result.stdout)
+        assert {r["method"] for r in data["rows"]} == {"bound"}
+        assert all(r["separation"] is None for r in data["rows"])
+        k = data["minimum_steps"]["total_variation"]
+        assert k is not None and data["rows"][k - 1]["total_variation"] <= 0.1
+        assert data["rows"][k - 2]["total_variation"] > 0.1
+
+    def test_bound_never_below_exact(self):
+        # the same bound curve at 30 cards lies above the exact lumped-chain values
+        bound = json.loads(
+            runner.invoke(
+                app, ["mix", "transposition", "-n", "30", "-k", "80", "--method", "bound", "--json"]
+            ).stdout
+        )
+        exact = json.loads(
+            runner.invoke(app, ["mix", "transposition", "-n", "30", "-k", "80", "--json"]).stdout
+        )
+        for b, e in zip(bound["rows"], exact["rows"], strict=True):
+            assert e["total_variation"] <= b["total_variation"] + 1e-12

@@ -37,7 +37,9 @@ def assess(
     decks: Annotated[
         int, typer.Option(help="Simulated decks for the Monte Carlo parts.")
     ] = 100_000,
-    seed: Annotated[int, typer.Option(help="Random seed (results are reproducible from it).")] = 1,
+    seed: Annotated[
+        int, typer.Option(min=0, help="Random seed >= 0 (results are reproducible from it).")
+    ] = 1,
     confidence: Annotated[
         float, typer.Option(help="Confidence of lower bounds and intervals.")
     ] = 0.99,

@@ -211,7 +211,7 @@ def power(
     simulate: Annotated[
         int, typer.Option(help="Decks simulated to learn the procedure's laws.")
     ] = 4000,
-    seed: Annotated[int, typer.Option(help="Random seed.")] = 1,
+    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
     plot: Annotated[
         Path | None, typer.Option(help="Draw decks needed against repetitions (PNG).")
     ] = None,

@@ -37,6 +37,7 @@ class Metric(str, Enum):
 class ChainMethod(str, Enum):
     chain = "chain"
     fourier = "fourier"
+    bound = "bound"
 
 
 @app.command()
@@ -67,7 +68,10 @@ def mix(
     ] = None,
     method: Annotated[
         ChainMethod,
-        typer.Option(help="transposition: lumped chain, or Fourier inversion (n <= 20)."),
+        typer.Option(
+            help="transposition: lumped chain (n <= 55), Fourier inversion (n <= 20), or "
+            "the upper bound lemma alone (bound, n <= 64)."
+        ),
     ] = ChainMethod.chain,
     plot: Annotated[
         Path | None, typer.Option(help="Draw distance against steps to this PNG file.")
@@ -202,8 +206,12 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
         return
     for m, label in _LABELS.items():
         k = minimum[m]
+        if all(r.value(m) is None for r in curve.rows):
+            echo(f"Minimum steps for {label} <= {goal:g}: this method gives no value for it")
+            continue
         if k is not None:
-            echo(f"Minimum steps for {label} <= {goal:g}: {k} (exact)")
+            how = "exact" if curve.rows[k - 1].method == "exact" else "rigorous upper bound"
+            echo(f"Minimum steps for {label} <= {goal:g}: {k} ({how})")
         else:
             kb = bound_minimum.get(m)
             hint = f"; the bound certifies {kb} steps" if kb is not None else ""
@@ -212,8 +220,9 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
                 f"{curve.rows[-1].steps} steps (raise --max-steps){hint}"
             )
     echo("* marks the first step meeting the target on the chosen metric.")
+    kind = "exact distances" if curve.rows[0].method == "exact" else "rigorous bounds"
     echo(
-        "These are exact distances for the idealised model; real hands and machines differ. "
+        f"These are {kind} for the idealised model; real hands and machines differ. "
         "Statistical evidence, not certification: device approval and dealing rules are for "
         "the local gaming regulator and accredited test laboratories."
     )
@@ -245,7 +254,8 @@ def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:
             "label": curve.model,
             "steps": [r.steps for r in curve.rows],
             "values": [r.value(metric) for r in curve.rows],
-            "how": "exact",
+            "how": curve.rows[0].method,
+            **({"side": "upper"} if curve.rows[0].method == "bound" else {}),
             "group": curve.model,
             **({"minimum": minimum} if minimum is not None else {}),
         }

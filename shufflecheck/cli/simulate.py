@@ -24,7 +24,7 @@ def simulate(
         int | None, typer.Option("--cards", "-n", help="Cards per deck (default 52).")
     ] = None,
     decks: Annotated[int, typer.Option(help="Recorded decks to simulate.")] = 1000,
-    seed: Annotated[int, typer.Option(help="Random seed.")] = 1,
+    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
     repeat: Annotated[
         int, typer.Option("--repeat", "-r", help="Run the procedure r times per deck.")
     ] = 1,

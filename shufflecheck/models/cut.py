@@ -27,9 +27,9 @@ arrangements of probability 0: a cut alone never mixes more than the ``n`` rotat
 
 References
 ----------
-.. [1] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes - Monograph Series 11, 1988, ch. 3 (random walks on a group; a cut is a walk
-       on the cyclic subgroup of rotations, and convolution of step laws).
+.. [1] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988, ch. 3 (random walks on a group; a cut is a walk on the cyclic
+       subgroup of rotations, and convolution of step laws).
 .. [2] D. Aldous and P. Diaconis, "Shuffling cards and stopping times", Amer. Math.
        Monthly 93 (1986) 333-348 (total variation and separation of a shuffle's law).
 """

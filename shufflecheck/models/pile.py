@@ -26,9 +26,9 @@ combine, so a procedure that contains a pile deal is assessed as a whole.
 
 References
 ----------
-.. [1] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes - Monograph Series 11, 1988, ch. 3 (distance to uniform is invariant under a
-       fixed relabelling; a point mass is at total variation ``1 - 1/|G|`` from uniform).
+.. [1] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988, ch. 3 (distance to uniform is invariant under a fixed
+       relabelling; a point mass is at total variation ``1 - 1/|G|`` from uniform).
 """
 
 from __future__ import annotations

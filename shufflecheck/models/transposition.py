@@ -26,8 +26,8 @@ References
 ----------
 .. [1] P. Diaconis and M. Shahshahani, "Generating a random permutation with random
        transpositions", Z. Wahrsch. Verw. Gebiete 57 (1981) 159-179.
-.. [2] P. Diaconis, *Group Representations in Probability and Statistics*, IMS Lecture
-       Notes - Monograph Series 11, 1988.
+.. [2] P. Diaconis, *Group Representations in Probability and Statistics*, Institute of Mathematical
+       Statistics, Hayward, CA, 1988.
 """
 
 from __future__ import annotations
@@ -52,7 +52,6 @@ from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.partitions import (
     content_sum,
     content_sums,
-    count_partitions,
     dimension,
     log_dimensions,
     multiplicity_matrix,
@@ -61,6 +60,7 @@ from shufflecheck.partitions import (
 )
 
 __all__ = [
+    "MAX_BOUND_CARDS",
     "MAX_CHAIN_CARDS",
     "MAX_CHAIN_STEPS",
     "MAX_FOURIER_CARDS",
@@ -84,6 +84,8 @@ MAX_CHAIN_CARDS = 55
 MAX_CHAIN_STEPS = 5000
 #: Fourier inversion needs the whole character table; p(20) = 627 classes
 MAX_FOURIER_CARDS = 20
+#: the upper bound lemma visits every shape; p(64) = 1,741,630
+MAX_BOUND_CARDS = 64
 
 
 def check_hold(cards: int, hold: float | Fraction | None) -> Fraction | float:
@@ -168,7 +170,8 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     if not 2 <= cards <= MAX_CHAIN_CARDS:
         raise InputError(
             f"the lumped chain is offered for 2..{MAX_CHAIN_CARDS} cards (p(n) states); for "
-            f"{cards} cards use the upper bound lemma (bound) or Monte Carlo assessment"
+            f"{cards} cards use --method bound (the upper bound lemma, up to "
+            f"{MAX_BOUND_CARDS} cards) or Monte Carlo assessment (shufflecheck assess)"
         )
     h = float(check_hold(cards, hold))
     n = cards
@@ -415,8 +418,11 @@ def upper_bound_curve(
     capped at 1 (TV never exceeds 1).
     """
     h = check_hold(cards, hold)
-    if count_partitions(cards) > 3_000_000:
-        raise InputError(f"the upper bound lemma sums over p({cards}) shapes; too many here")
+    if cards > MAX_BOUND_CARDS:
+        raise InputError(
+            f"the upper bound lemma sums over p({cards}) shapes; it is offered up to "
+            f"{MAX_BOUND_CARDS} cards; use Monte Carlo assessment (shufflecheck assess)"
+        )
     from scipy.special import logsumexp
 
     m = multiplicity_matrix(cards)
@@ -450,7 +456,8 @@ def distance_curve(
     progress: Callable[[int], None] | None = None,
 ) -> MixingCurve:
     """Exact distances for ``k = 1..max_steps`` (``method="chain"`` or ``"fourier"``) and,
-    with ``bound=True``, the upper-bound-lemma curve."""
+    with ``bound=True``, the upper-bound-lemma curve; ``method="bound"`` gives that curve
+    alone (total variation only), for decks too large for the exact methods."""
     h = check_hold(cards, hold)
     if max_steps < 1:
         raise InputError(f"max steps must be >= 1, got {max_steps}")
@@ -458,7 +465,7 @@ def distance_curve(
         if max_steps > MAX_CHAIN_STEPS:
             raise InputError(
                 f"the lumped chain is offered up to {MAX_CHAIN_STEPS} steps; for more, the upper "
-                "bound lemma curve (bound) serves"
+                "bound lemma serves (--method bound)"
             )
         rows = _chain_rows(cards, max_steps, hold, progress)
         source = SOURCE
@@ -467,9 +474,14 @@ def distance_curve(
             raise InputError("Fourier inversion needs a rational hold (e.g. the default 1/n)")
         rows = _fourier_rows(cards, max_steps, h)
         source = FOURIER_SOURCE
+    elif method == "bound":
+        # the upper-bound-lemma curve alone, where no exact method is offered
+        rows = upper_bound_curve(cards, max_steps, hold)
+        parameters = {"hold": float(h)}
+        return MixingCurve("transposition", cards, parameters, rows, BOUND_SOURCE)
     else:
-        raise InputError(f"unknown method {method!r}; choose chain or fourier")
-    bounds = upper_bound_curve(cards, max_steps, hold) if bound else ()
+        raise InputError(f"unknown method {method!r}; choose chain, fourier or bound")
+    bounds = upper_bound_curve(cards, max_steps, hold) if bound and cards <= MAX_BOUND_CARDS else ()
     parameters = {"hold": float(h)}
     return MixingCurve(
         "transposition",

@@ -75,7 +75,8 @@ def mixing_report(
         if k is not None:
             row = curve.rows[k - 1]
             answer.append(
-                f"{k} {steps_word} bring {label} to at most {target:g}: {exact(row.value(metric))}."
+                f"{k} {steps_word} bring {label} to at most {target:g}: "
+                f"{_cell(row.value(metric), row.method)}."
             )
         else:
             answer.append(
@@ -88,10 +89,12 @@ def mixing_report(
                     f"For {text} at most {target:g}: {minimum[other]} {steps_word} (exact)."
                 )
     last = curve.rows[-1]
-    answer.append(
-        f"After {last.steps} {steps_word}: total variation {exact(last.total_variation)}, "
-        f"separation {exact(last.separation)}."
-    )
+    shown = [
+        f"{METRIC_LABELS[m]} {_cell(last.value(m), last.method)}"
+        for m in ("total_variation", "separation")
+        if last.value(m) is not None
+    ]
+    answer.append(f"After {last.steps} {steps_word}: {', '.join(shown)}.")
     headers = ["k", "total variation", "separation", "KL divergence (bits)"]
     bound_metric = None
     if curve.bounds:
@@ -120,11 +123,12 @@ def mixing_report(
         mark_note=f"first k with {label} at most {target:g}" if marked else "",
     )
     sources = _SOURCES.get(curve.model, (BAYER_DIACONIS,))
+    main = curve.rows[0].method
     methods = [
-        MethodNote("total variation, separation", "exact", curve.source, sources),
+        MethodNote("total variation, separation", main, curve.source, sources),
         MethodNote(
             "KL divergence (bits)",
-            "exact",
+            main,
             f"{curve.source}; KL(P||U) = sum U f(P/U) with f(t) = t ln t - t + 1",
             (*sources, COVER_THOMAS),
         ),

@@ -17,8 +17,8 @@ ALDOUS_DIACONIS_1987 = (
     "Appl. Math. 8 (1987) 69-97."
 )
 DIACONIS_1988 = (
-    "P. Diaconis, Group Representations in Probability and Statistics, IMS Lecture Notes - "
-    "Monograph Series 11, 1988."
+    "P. Diaconis, Group Representations in Probability and Statistics, Institute of "
+    "Mathematical Statistics, Hayward, CA, 1988."
 )
 CLOPPER_PEARSON = (
     'C. J. Clopper and E. S. Pearson, "The use of confidence or fiducial limits illustrated '
