@@ -104,7 +104,8 @@ def logs(tmp_path_factory) -> dict[str, Path]:
 
 class TestAuditContract:
     @pytest.fixture(scope="class")
-    def data(self, logs) -> dict:
+    @classmethod
+    def data(cls, logs) -> dict:
         return audit_json(logs["biased"], "--reference", "first")
 
     def test_fields(self, data):

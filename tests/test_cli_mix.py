@@ -64,7 +64,8 @@ def riffle_separation(n: int, k: int) -> Fraction:
 
 class TestMixJsonContract:
     @pytest.fixture(scope="class")
-    def data(self) -> dict:
+    @classmethod
+    def data(cls) -> dict:
         return mix_json("riffle", "--cards", 52, "--target", 0.1)
 
     def test_fields_of_the_contract(self, data):
