@@ -264,11 +264,26 @@ _BLOCKS: dict[int, tuple[object, object]] = {}
 
 
 def _row_blocks(matrix) -> tuple[object, object]:
+    """Two CSR row blocks of about equal work that share the matrix's arrays (no copy)."""
+    from scipy import sparse
+
     key = id(matrix)
     if key not in _BLOCKS:
+        rows, cols = matrix.shape
         half = int(np.searchsorted(matrix.indptr, matrix.nnz // 2))
+        cut = int(matrix.indptr[half])
+        top = sparse.csr_matrix(
+            (matrix.data[:cut], matrix.indices[:cut], matrix.indptr[: half + 1]),
+            shape=(half, cols),
+            copy=False,
+        )
+        bottom = sparse.csr_matrix(
+            (matrix.data[cut:], matrix.indices[cut:], matrix.indptr[half:] - cut),
+            shape=(rows - half, cols),
+            copy=False,
+        )
         _BLOCKS.clear()
-        _BLOCKS[key] = (matrix[:half], matrix[half:])
+        _BLOCKS[key] = (top, bottom)
     return _BLOCKS[key]
 
 

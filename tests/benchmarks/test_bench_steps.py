@@ -93,3 +93,20 @@ def test_full_assessment(benchmark, figures):
         benchmark.stats.stats.mean,
         30.0,
     )
+
+
+def test_full_assessment_memory(benchmark, figures):
+    from ._memory import peak_rss_mb
+
+    _, after = benchmark.pedantic(
+        peak_rss_mb,
+        args=(
+            "from shufflecheck.assessment import assess\n"
+            "from shufflecheck.procedures import parse_procedure",
+            f"assess(parse_procedure('riffle x3, strip, riffle, cut'), {CARDS}, repeats=10, "
+            f"decks={DECKS}, rng=1)",
+        ),
+        rounds=1,
+        iterations=1,
+    )
+    figures(f"assess R = 1..10 on {DECKS:,} decks: peak RSS", after, 2048, "MB")
