@@ -1,21 +1,22 @@
 """Command-line interface: ``shufflecheck COMMAND ...`` (a thin typer layer over the library).
 
-Each command is one short function in its own module; importing them here registers them on
-the shared :data:`app`.
+Each command is one short function in its own module; importing the modules registers the
+commands on the shared :data:`app`, in the order ``--help`` lists them (the main jobs first).
 """
 
 from __future__ import annotations
 
-from shufflecheck.cli import assess as _assess  # noqa: F401
-from shufflecheck.cli import audit as _audit  # noqa: F401
-from shufflecheck.cli import characters as _characters  # noqa: F401  (registers commands)
-from shufflecheck.cli import demo as _demo  # noqa: F401
-from shufflecheck.cli import mix as _mix  # noqa: F401
-from shufflecheck.cli import policy as _policy  # noqa: F401
-from shufflecheck.cli import simulate as _simulate  # noqa: F401
+import importlib
+
 from shufflecheck.cli._app import app
 
 __all__ = ["app", "main"]
+
+#: command modules, in the order of the help listing
+COMMAND_MODULES = ("demo", "mix", "assess", "policy", "audit", "simulate", "characters")
+
+for _module in COMMAND_MODULES:
+    importlib.import_module(f"shufflecheck.cli.{_module}")
 
 
 def main() -> None:
