@@ -1,0 +1,593 @@
+"""Raw chunks of a log as each format delivers them: CSV (with an ``order`` column or one
+column per position), JSON Lines and Parquet. Files are opened read-only.
+
+References
+----------
+.. [1] Y. Shafranovich, "Common Format and MIME Type for Comma-Separated Values (CSV)
+       Files", RFC 4180, 2005 (quoting; a record may span lines inside quotes).
+.. [2] JSON Lines, https://jsonlines.org (one JSON value per line, UTF-8).
+.. [3] Apache Parquet format specification, https://parquet.apache.org/docs/.
+"""
+
+from __future__ import annotations
+
+import csv
+import gzip
+import io
+import itertools
+import json
+from collections import Counter
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import IO, Any
+
+import numpy as np
+import pandas as pd
+
+from shufflecheck.decks import (
+    DeckDefinition,
+)
+from shufflecheck.errors import InputError
+from shufflecheck.logs._common import _POSITION
+
+# --------------------------------------------------------------------------------------
+# raw chunks, as each format delivers them
+
+
+@dataclass
+class _Bad:
+    row: int
+    reason: str
+    problem: str
+    raw: str
+    columns: dict[str, Any] | None  # kept columns, or None if the row could not be split
+
+
+@dataclass
+class _Raw:
+    rows: np.ndarray
+    columns: pd.DataFrame
+    tokens_of: Callable[[int], list[object]]
+    raw_of: Callable[[int], str]
+    texts: Sequence[str] | None = None  # whitespace-separated order per row, or
+    flat: np.ndarray | None = None  # every token of every row, with
+    counts: np.ndarray | None = None  # tokens per row
+    failed: list[_Bad] = field(default_factory=list)
+    blank: int = 0
+
+
+def _decode(data: bytes) -> str:
+    return data.decode("utf-8", "backslashreplace").rstrip("\r\n")
+
+
+def _position_columns(names: Sequence[str], where: str) -> list[int] | None:
+    """Indices of the position columns in numeric order, or None if there are none."""
+    found: dict[int, int] = {}
+    prefixes: set[str] = set()
+    for index, name in enumerate(names):
+        match = _POSITION.match(name.strip())
+        if match:
+            number = int(match.group(2))
+            prefixes.add((match.group(1) or "").lower())
+            if number in found:
+                raise InputError(f"{where}: position {number} has two columns")
+            found[number] = index
+    if not found:
+        return None
+    if len(prefixes) > 1:
+        shown = ", ".join(sorted(f"{p or ''}N" for p in prefixes))
+        raise InputError(f"{where}: position columns are named in different ways ({shown})")
+    missing = [k for k in range(1, len(found) + 1) if k not in found]
+    if missing:
+        raise InputError(
+            f"{where}: position columns must be numbered 1..N; position {missing[0]} is missing"
+        )
+    return [found[k] for k in range(1, len(found) + 1)]
+
+
+def _layout(
+    names: Sequence[str], fmt: str, deck: DeckDefinition, where: str
+) -> tuple[str, list[int]]:
+    """('csv', [order index]) or ('wide', [position indices]) for a header."""
+    order = [i for i, name in enumerate(names) if name.strip().lower() == "order"]
+    if len(order) > 1:
+        raise InputError(f"{where}: more than one 'order' column")
+    if fmt != "wide" and order:
+        return "csv", order
+    positions = _position_columns([n for i, n in enumerate(names) if i not in order], where)
+    if positions is not None:
+        kept = [i for i in range(len(names)) if i not in order]
+        positions = [kept[k] for k in positions]
+        if len(positions) != deck.size:
+            raise InputError(
+                f"{where}: {len(positions)} position columns, deck {deck.name!r} has "
+                f"{deck.size} cards"
+            )
+        return "wide", positions
+    shown = ", ".join(names[:8]) + (", ..." if len(names) > 8 else "")
+    wanted = "position columns p1..pN" if fmt == "wide" else "an 'order' column"
+    raise InputError(f"{where}: missing {wanted} (columns are: {shown}); see docs/formats-logs.md")
+
+
+def _open_binary(path: Path) -> IO[bytes]:
+    try:
+        if path.suffix.lower() == ".gz":
+            return gzip.open(path, "rb")
+        return open(path, "rb")
+    except OSError as exc:
+        raise InputError(f"cannot read {path}: {exc.strerror or exc}") from None
+
+
+def _sniff_delimiter(header: str, path: Path) -> str:
+    if ".tsv" in [s.lower() for s in path.suffixes]:
+        return "\t"
+    counts = {d: header.count(d) for d in (",", ";", "\t")}
+    best = max(counts, key=lambda d: counts[d])
+    return best if counts[best] > counts[","] else ","
+
+
+_SPAN = 64  # most physical lines one quoted CSV record may span
+
+
+def _csv_records(lines: list[bytes], delimiter: str) -> tuple[list[bytes], bool]:
+    """Group physical lines into CSV records as the csv module reads them [1].
+
+    A quoted field may hold line breaks; a line that opens a quote not closed within
+    :data:`_SPAN` lines stays a record of its own (reported as malformed) and the lines
+    after it are read as rows. The flag is True when the last record is still open at the
+    end of ``lines`` (the caller then reads more lines).
+    """
+    text = [line.decode("utf-8", "surrogateescape") for line in lines]
+    records: list[bytes] = []
+    start = 0
+    while start < len(lines):
+        state = {"start": start}
+
+        def feed(first: int = start, state: dict[str, int] = state) -> Iterator[str]:
+            for k in range(first, len(lines)):
+                if k - state["start"] >= _SPAN:
+                    return
+                yield text[k]
+
+        reader = csv.reader(feed(), delimiter=delimiter)
+        restart = None
+        for _ in reader:
+            end = start + reader.line_num
+            begin = state["start"]
+            if end - begin >= _SPAN and end < len(lines):
+                restart = begin
+                break
+            records.append(b"".join(lines[begin:end]))
+            state["start"] = end
+        if restart is None:
+            break
+        records.append(lines[restart])  # an unclosed quote: this line alone, malformed
+        start = restart + 1
+    last = records[-1].decode("utf-8", "surrogateescape") if records else ""
+    return records, _still_open(last, delimiter)
+
+
+def _still_open(text: str, delimiter: str) -> bool:
+    """True if ``text`` ends inside a quoted field (more lines belong to the record)."""
+    try:
+        list(csv.reader([text], delimiter=delimiter, strict=True))
+    except csv.Error as exc:
+        return "unexpected end of data" in str(exc)
+    return False
+
+
+def _csv_chunks(
+    path: Path, shown: str, fmt: str, deck: DeckDefinition, chunk_rows: int
+) -> Iterator[_Raw | tuple[str, list[int]]]:
+    """Yield the layout first, then one _Raw per block of about chunk_rows records."""
+    with _open_binary(path) as handle:
+        try:
+            first = handle.readline()
+            header = first[3:] if first.startswith(b"\xef\xbb\xbf") else first
+            if not first:
+                raise InputError(f"{shown}: empty file")
+            if not header.strip():
+                raise InputError(f"{shown} row 1: empty; the first row must be the header")
+            try:
+                header_text = header.decode("utf-8")
+            except UnicodeDecodeError:
+                raise InputError(f"{shown} row 1: the header is not UTF-8 text") from None
+            delimiter = _sniff_delimiter(header_text, path)
+            for _ in range(_SPAN):
+                if not _still_open(header_text, delimiter):
+                    break
+                more = handle.readline()
+                if not more:
+                    break
+                header_text += more.decode("utf-8", "replace")
+        except (OSError, EOFError, gzip.BadGzipFile) as exc:
+            raise InputError(f"cannot read {shown}: {exc}") from None
+        where = f"{shown} row 1"
+        names = _csv_fields(header_text.rstrip("\r\n"), delimiter)
+        if names is None:
+            raise InputError(f"{where}: the header is not valid CSV (check its quotes)")
+        names = [n.strip() for n in names]
+        for k, name in enumerate(names):
+            if not name:
+                raise InputError(f"{where}: column {k + 1} of the header has no name")
+        repeated = [n for n, c in Counter(names).items() if c > 1]
+        if repeated:
+            raise InputError(f"{where}: column {repeated[0]!r} appears twice in the header")
+        layout, used = _layout(names, fmt, deck, where)
+        yield layout, used
+        kept = [i for i in range(len(names)) if i not in used]
+        shape = _Shape(len(names), delimiter, layout, used, kept, [names[i] for i in kept])
+        next_row = 2
+        while True:
+            try:
+                lines = list(itertools.islice(handle, chunk_rows))
+                quoted = any(b'"' in line for line in lines)
+                records = lines
+                if quoted:
+                    records, still_open = _csv_records(lines, delimiter)
+                    for _ in range(_SPAN):
+                        more = handle.readline() if still_open else b""
+                        if not more:
+                            break
+                        lines.append(more)
+                        records, still_open = _csv_records(lines, delimiter)
+            except (OSError, EOFError, gzip.BadGzipFile) as exc:
+                raise InputError(f"cannot read {shown}: {exc}") from None
+            if not lines:
+                return
+            rows = np.arange(next_row, next_row + len(records), dtype=np.int64)
+            next_row += len(records)
+            yield _csv_block(records, rows, shape, quoted=quoted)
+
+
+@dataclass(frozen=True)
+class _Shape:
+    width: int
+    delimiter: str
+    layout: str
+    used: list[int]
+    kept: list[int]
+    kept_names: list[str]
+
+
+def _csv_fields(text: str, delimiter: str) -> list[str] | None:
+    try:
+        return next(csv.reader([text], delimiter=delimiter, strict=True), [])
+    except csv.Error:
+        return None
+
+
+def _plain_block(
+    records: list[bytes], rows: np.ndarray, shape: _Shape
+) -> tuple[list[int], str, int, list[_Bad]] | None:
+    """Check a block without quotes with array operations.
+
+    Returns (indices of good records, their text joined, blank count, failed rows), or None
+    when some line needs the record-by-record loop (not UTF-8, a stray carriage return).
+    """
+    data = b"".join(records)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        return None
+    buf = np.frombuffer(data, dtype=np.uint8)
+    ends = np.flatnonzero(buf == 10)
+    if not data.endswith(b"\n"):
+        ends = np.append(ends, buf.size)
+    if ends.size != len(records):
+        return None
+    begins = np.concatenate([[0], ends[:-1] + 1])
+    returns = np.flatnonzero(buf == 13)
+    if returns.size and not np.isin(returns + 1, ends).all():
+        return None
+    sep = np.flatnonzero(buf == ord(shape.delimiter))
+    fields = np.searchsorted(sep, ends) - np.searchsorted(sep, begins) + 1
+    single = np.flatnonzero(fields == 1)  # a blank line has no delimiter
+    blank = np.zeros(len(records), dtype=bool)
+    blank[single] = [not records[k].strip() for k in single.tolist()]
+    wrong = ~blank & (fields != shape.width)
+    failed = [
+        _Bad(
+            int(rows[k]),
+            "malformed-row",
+            f"{int(fields[k])} fields, the header has {shape.width}",
+            _decode(records[k]),
+            None,
+        )
+        for k in np.flatnonzero(wrong).tolist()
+    ]
+    good = np.flatnonzero(~blank & ~wrong).tolist()
+    if len(good) != len(records):
+        text = "".join(records[k].decode("utf-8") for k in good)
+    return good, text, int(blank.sum()), failed
+
+
+def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted: bool) -> _Raw:
+    plain = None if quoted else _plain_block(records, rows, shape)
+    if plain is not None:
+        good, joined, blank, failed = plain
+        frame = _split_fields(joined, len(good), shape.width, shape.delimiter)
+        return _csv_raw(frame, records, rows, good, shape, failed, blank)
+    failed = []
+    blank = 0
+    good = []
+    texts: list[str] = []
+    sep = shape.delimiter.encode()
+    for k, record in enumerate(records):
+        body = record.rstrip(b"\r\n")
+        if not body.strip():
+            blank += 1
+            continue
+        row = int(rows[k])
+        try:
+            text = body.decode("utf-8")
+        except UnicodeDecodeError as exc:
+            problem = f"not UTF-8 text (byte {exc.start + 1} of the row)"
+            failed.append(_Bad(row, "malformed-row", problem, _decode(body), None))
+            continue
+        if '"' in text:
+            fields = _csv_fields(text, shape.delimiter)
+            if fields is None:
+                problem = "a quoted field is not closed, or has text after its closing quote"
+                failed.append(_Bad(row, "malformed-row", problem, text, None))
+                continue
+            count = len(fields)
+        elif b"\r" in body or b"\n" in body:
+            failed.append(_Bad(row, "malformed-row", "a line break inside a row", text, None))
+            continue
+        else:
+            count = body.count(sep) + 1
+        if count != shape.width:
+            problem = f"{count} fields, the header has {shape.width}"
+            failed.append(_Bad(row, "malformed-row", problem, text, None))
+            continue
+        good.append(k)
+        texts.append(text)
+    frame = _split_fields(texts, len(texts), shape.width, shape.delimiter)
+    return _csv_raw(frame, records, rows, good, shape, failed, blank)
+
+
+def _csv_raw(
+    frame: pd.DataFrame,
+    records: list[bytes],
+    rows: np.ndarray,
+    good: list[int],
+    shape: _Shape,
+    failed: list[_Bad],
+    blank: int,
+) -> _Raw:
+    good_rows = rows[np.asarray(good, dtype=np.int64)] if good else np.zeros(0, dtype=np.int64)
+    if shape.kept:
+        columns = frame.iloc[:, shape.kept].reset_index(drop=True)
+        columns.columns = shape.kept_names
+    else:
+        columns = pd.DataFrame(index=range(len(good)))
+
+    def raw_of(i: int) -> str:
+        return _decode(records[good[i]])
+
+    if shape.layout == "csv":
+        order = frame.iloc[:, shape.used[0]].to_numpy(dtype=object)
+        return _Raw(
+            good_rows,
+            columns,
+            tokens_of=lambda i: order[i].split(),
+            raw_of=raw_of,
+            texts=order.tolist(),
+            failed=failed,
+            blank=blank,
+        )
+    cells = frame.iloc[:, shape.used].to_numpy(dtype=object)
+    return _Raw(
+        good_rows,
+        columns,
+        tokens_of=lambda i: list(cells[i]),
+        raw_of=raw_of,
+        flat=cells.ravel(),
+        counts=np.full(len(good), len(shape.used), dtype=np.int64),
+        failed=failed,
+        blank=blank,
+    )
+
+
+def _split_fields(texts: str | list[str], count: int, width: int, delimiter: str) -> pd.DataFrame:
+    """Fields of ``count`` records already known to have ``width`` fields, kept as text.
+
+    ``texts`` is the records joined (no quotes anywhere: the C parser splits them), or a
+    list of records (parsed one by one with the csv module, which follows RFC 4180 [1]).
+    """
+    if count == 0:
+        return pd.DataFrame({k: pd.Series([], dtype=object) for k in range(width)})
+    if isinstance(texts, str):
+        frame = pd.read_csv(
+            io.StringIO(texts if texts.endswith("\n") else texts + "\n"),
+            sep=delimiter,
+            header=None,
+            names=list(range(width)),
+            dtype=object,
+            na_filter=False,
+            skip_blank_lines=False,
+            quoting=csv.QUOTE_NONE,
+            engine="c",
+        )
+        if len(frame) != count:  # pragma: no cover - guarded by _plain_block
+            raise AssertionError("CSV block split into an unexpected number of rows")
+        return frame
+    fields = [_csv_fields(t, delimiter) or [""] * width for t in texts]
+    return pd.DataFrame(fields, columns=list(range(width)), dtype=object)
+
+
+def _flatten(lists: list[list[object]]) -> tuple[np.ndarray, np.ndarray]:
+    counts = np.fromiter(map(len, lists), dtype=np.int64, count=len(lists))
+    tokens = list(itertools.chain.from_iterable(lists))
+    kinds = set(map(type, tokens))
+    if not kinds <= {str, int}:
+        # bool and float compare equal to ints; make every other value an impossible code
+        tokens = [t if type(t) in (str, int) else "\x00" + repr(t) for t in tokens]
+    flat = np.empty(len(tokens), dtype=object)
+    flat[:] = tokens
+    return flat, counts
+
+
+_JSON_KIND = {"list": "array", "str": "text", "int": "number", "float": "number"}
+
+
+def _json_record(
+    line: bytes,
+) -> tuple[list[object], dict[str, Any] | None, tuple[str, str] | None]:
+    """(order, other keys, None) of one JSON line, or (None, keys or None, (reason, problem))."""
+    try:
+        value = json.loads(line)
+    except UnicodeDecodeError:
+        return [], None, ("malformed-json", "not UTF-8 text")
+    except json.JSONDecodeError as exc:
+        return [], None, ("malformed-json", f"not valid JSON ({exc.msg} at column {exc.colno})")
+    if not isinstance(value, dict):
+        kind = _JSON_KIND.get(type(value).__name__, "true/false/null")
+        return [], None, ("malformed-json", f"a line must be a JSON object, got {kind}")
+    keys = [k for k in value if k.strip().lower() == "order"]
+    if len(keys) != 1:
+        return (
+            [],
+            value,
+            ("missing-order", "more than one 'order' key" if keys else "no 'order' key"),
+        )
+    order = value.pop(keys[0])
+    if isinstance(order, str):
+        return order.split(), value, None
+    if order is None or isinstance(order, list):
+        return order or [], value, None
+    problem = "'order' must be a list of card codes or a text of codes"
+    return [], value, ("malformed-row", problem)
+
+
+def _jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[_Raw]:
+    with _open_binary(path) as handle:
+        line_no = 0
+        seen_any = False
+        while True:
+            try:
+                lines = list(itertools.islice(handle, chunk_rows))
+            except (OSError, EOFError, gzip.BadGzipFile) as exc:
+                raise InputError(f"cannot read {shown}: {exc}") from None
+            if not lines:
+                if not seen_any:
+                    raise InputError(f"{shown}: empty file")
+                return
+            seen_any = True
+            failed: list[_Bad] = []
+            blank = 0
+            rows: list[int] = []
+            orders: list[list[object]] = []
+            records: list[dict[str, Any]] = []
+            raws: list[str] = []
+            for line in lines:
+                line_no += 1
+                if line_no == 1 and line.startswith(b"\xef\xbb\xbf"):
+                    line = line[3:]
+                if not line.strip():
+                    blank += 1
+                    continue
+                text = _decode(line)
+                order, value, problem = _json_record(line.strip())
+                if problem is not None:
+                    failed.append(_Bad(line_no, problem[0], problem[1], text, value))
+                    continue
+                rows.append(line_no)
+                orders.append(order)
+                records.append(value)
+                raws.append(text)
+            flat, counts = _flatten(orders)
+            yield _Raw(
+                np.asarray(rows, dtype=np.int64),
+                pd.DataFrame(records, index=range(len(records))),
+                tokens_of=lambda i, orders=orders: list(orders[i]),
+                raw_of=lambda i, raws=raws: raws[i],
+                flat=flat,
+                counts=counts,
+                failed=failed,
+                blank=blank,
+            )
+
+
+def _parquet_chunks(
+    path: Path, shown: str, deck: DeckDefinition, chunk_rows: int
+) -> Iterator[_Raw | tuple[str, list[int]]]:
+    try:
+        import pyarrow as pa
+        import pyarrow.compute as pc
+        import pyarrow.parquet as pq
+    except ImportError:
+        raise InputError(
+            f"{shown}: reading Parquet needs pyarrow (pip install pyarrow); "
+            "or convert the log to CSV or JSON Lines"
+        ) from None
+    try:
+        parquet = pq.ParquetFile(path)
+    except (OSError, pa.ArrowException) as exc:
+        raise InputError(f"{shown}: not a readable Parquet file ({exc})") from None
+    names = list(parquet.schema_arrow.names)
+    layout, used = _layout(names, "auto", deck, f"{shown} schema")
+    yield layout, used
+    kept_names = [n for i, n in enumerate(names) if i not in used]
+    offset = 1
+    for batch in parquet.iter_batches(batch_size=chunk_rows):
+        m = batch.num_rows
+        rows = np.arange(offset, offset + m, dtype=np.int64)
+        offset += m
+        columns = (
+            batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
+        )
+        columns = columns.reset_index(drop=True)
+
+        def raw_of(i: int, batch: Any = batch) -> str:
+            return json.dumps(batch.slice(i, 1).to_pylist()[0], default=str, ensure_ascii=False)
+
+        if layout == "csv":
+            order = batch.column(used[0])
+            kind = order.type
+            if pa.types.is_string(kind) or pa.types.is_large_string(kind):
+                texts = [t or "" for t in order.to_pylist()]
+                yield _Raw(
+                    rows,
+                    columns,
+                    tokens_of=lambda i, t=texts: t[i].split(),
+                    raw_of=raw_of,
+                    texts=texts,
+                )
+                continue
+            if not (pa.types.is_list(kind) or pa.types.is_large_list(kind)):
+                raise InputError(
+                    f"{shown}: column 'order' has type {kind}; expected a list or text of codes"
+                )
+            counts = pc.fill_null(pc.list_value_length(order), 0).to_numpy().astype(np.int64)
+            values = pc.list_flatten(order)
+            if pa.types.is_integer(values.type):
+                flat = pc.fill_null(values, -1).to_numpy().astype(np.int64)
+            else:
+                flat = np.asarray(values.to_numpy(zero_copy_only=False), dtype=object)
+            yield _Raw(
+                rows,
+                columns,
+                tokens_of=lambda i, o=order: o[i].as_py() or [],
+                raw_of=raw_of,
+                flat=flat,
+                counts=counts,
+            )
+            continue
+        cells = [batch.column(i) for i in used]
+        if all(pa.types.is_integer(c.type) for c in cells):
+            grid = np.stack(
+                [pc.fill_null(c, -1).to_numpy().astype(np.int64) for c in cells], axis=1
+            )
+        else:
+            grid = np.stack([np.asarray(c.to_pylist(), dtype=object) for c in cells], axis=1)
+        yield _Raw(
+            rows,
+            columns,
+            tokens_of=lambda i, c=cells: [x[i].as_py() for x in c],
+            raw_of=raw_of,
+            flat=grid.ravel(),
+            counts=np.full(m, len(used), dtype=np.int64),
+        )

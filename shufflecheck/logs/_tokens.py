@@ -1,0 +1,150 @@
+"""Fast token -> label mapping for whole chunks (vectorised); the authoritative check of a
+row is :func:`shufflecheck.decks.check_arrangement`."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from functools import cache
+
+import numpy as np
+import pandas as pd
+
+from shufflecheck.decks import (
+    DeckDefinition,
+    integer_value,
+)
+
+# --------------------------------------------------------------------------------------
+# fast token -> label mapping (vectorised); the authoritative check is check_arrangement
+
+
+@dataclass(frozen=True)
+class _Keys:
+    table16: np.ndarray  # two-byte spellings (any ASCII case) -> label, -1 elsewhere
+    keys: np.ndarray  # sorted uint64 keys of upper-cased spellings of 3..8 bytes
+    labels: np.ndarray
+    long: bool  # some spelling is longer than 8 bytes
+
+
+def _key(data: bytes) -> int:
+    return sum(b << (8 * j) for j, b in enumerate(data))
+
+
+@cache
+def _keys(deck: DeckDefinition) -> _Keys:
+    table16 = np.full(1 << 16, -1, dtype=np.int16)
+    keys: dict[int, int] = {}
+    long = False
+    for spelling, label in deck.spellings().items():
+        data = spelling.encode("utf-8")
+        if len(data) == 2:
+            for a in {data[0], data[0] | 32 if 65 <= data[0] <= 90 else data[0]}:
+                for b in {data[1], data[1] | 32 if 65 <= data[1] <= 90 else data[1]}:
+                    table16[a | (b << 8)] = label
+        elif len(data) <= 8:
+            keys[_key(data)] = label
+        else:
+            long = True
+    ordered = sorted(keys)
+    return _Keys(
+        table16,
+        np.array(ordered, dtype=np.uint64),
+        np.array([keys[k] for k in ordered], dtype=np.int32),
+        long,
+    )
+
+
+def _is_separator(buf: np.ndarray) -> np.ndarray:
+    # exactly the ASCII characters str.split() treats as whitespace
+    return (buf == 32) | ((buf >= 9) & (buf <= 13)) | ((buf >= 28) & (buf <= 31))
+
+
+def _scan_text(
+    texts: Sequence[str], deck: DeckDefinition, integer: bool
+) -> tuple[np.ndarray, np.ndarray]:
+    """Tokens of whitespace-separated texts -> (values, tokens per text), vectorised.
+
+    ``values`` holds labels (codes) or raw integers (integer labels); ``-1`` marks a token
+    the fast path cannot vouch for (the row is then checked by :func:`check_arrangement`).
+    """
+    joined = "\n".join(texts)
+    if joined.count("\n") != len(texts) - 1 or "\r" in joined:
+        joined = "\n".join(t.replace("\n", " ").replace("\r", " ") for t in texts)
+    buf = np.frombuffer(joined.encode("utf-8", "surrogatepass") + b"\n", dtype=np.uint8)
+    inside = ~_is_separator(buf)
+    edge = np.empty(buf.size + 1, dtype=bool)
+    edge[0] = inside[0]
+    edge[-1] = inside[-1]
+    np.not_equal(inside[1:], inside[:-1], out=edge[1:-1])
+    bounds = np.flatnonzero(edge)
+    starts, ends = bounds[0::2], bounds[1::2]
+    before = np.searchsorted(starts, np.flatnonzero(buf == 10))
+    counts = np.diff(before, prepend=0)
+    lengths = ends - starts
+    values = np.full(starts.size, -1, dtype=np.int64)
+    if starts.size == 0:
+        return values, counts
+    last = buf.size - 1
+    if integer:
+        short = lengths <= 6
+        total = np.zeros(starts.size, dtype=np.int64)
+        digits = short.copy()
+        for j in range(int(lengths[short].max(initial=0))):
+            live = short & (lengths > j)
+            byte = buf[np.minimum(starts + j, last)].astype(np.int64)
+            digits &= ~live | ((byte >= 48) & (byte <= 57))
+            total = np.where(live, total * 10 + (byte - 48), total)
+        values[digits] = total[digits]
+        return values, counts
+    keys = _keys(deck)
+    two = lengths == 2
+    if two.any():
+        s = starts[two]
+        pair = buf[s].astype(np.int64) | (buf[s + 1].astype(np.int64) << 8)
+        values[two] = keys.table16[pair]
+    middle = np.flatnonzero((lengths > 2) & (lengths <= 8))
+    if middle.size and keys.keys.size:
+        s, length = starts[middle], lengths[middle]
+        key = np.zeros(middle.size, dtype=np.uint64)
+        for j in range(int(length.max())):
+            byte = buf[np.minimum(s + j, last)]
+            byte = np.where((byte >= 97) & (byte <= 122), byte - 32, byte).astype(np.uint64)
+            key |= np.where(length > j, byte, 0).astype(np.uint64) << np.uint64(8 * j)
+        at = np.minimum(np.searchsorted(keys.keys, key), keys.keys.size - 1)
+        values[middle] = np.where(keys.keys[at] == key, keys.labels[at], -1)
+    if keys.long:
+        for k in np.flatnonzero(lengths > 8):
+            token = bytes(buf[starts[k] : ends[k]]).decode("utf-8", "replace")
+            found = deck.lookup(token)
+            values[k] = -1 if found is None else found
+    return values, counts
+
+
+def _map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.ndarray:
+    """One value per token of a flat array (text, ints, None) -> labels / raw integers, -1 bad."""
+    if flat.dtype.kind in "iu":
+        return flat.astype(np.int64) if integer else np.full(flat.size, -1, dtype=np.int64)
+    if flat.size == 0:
+        return np.zeros(0, dtype=np.int64)
+    codes, uniques = pd.factorize(flat)
+    if integer:
+        mapped = [integer_value(u) for u in uniques]
+    else:
+        mapped = [deck.lookup(u) for u in uniques]
+    table = np.array([-1 if v is None or v > 10**6 else v for v in mapped] + [-1], dtype=np.int64)
+    return table[codes]  # code -1 (missing value) picks the final -1
+
+
+def _permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
+    """Rows of ``labels`` (values already in 0..n-1) holding every label exactly once."""
+    m = labels.shape[0]
+    ok = np.zeros(m, dtype=bool)
+    step = max(1, (1 << 22) // max(n, 1))  # about 4M cells at a time
+    for lo in range(0, m, step):
+        part = labels[lo : lo + step]
+        rows = part.shape[0]
+        offsets = (np.arange(rows, dtype=np.int32) * n)[:, None]
+        flat = (part.astype(np.int32) + offsets).ravel()
+        ok[lo : lo + rows] = (np.bincount(flat, minlength=rows * n).reshape(rows, n) == 1).all(1)
+    return ok
