@@ -13,7 +13,6 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import stats
 
 from shufflecheck.errors import InputError
 from shufflecheck.mixing import minimum_steps
@@ -22,31 +21,12 @@ from shufflecheck.models.permute import apply_sources, invert, place_by_destinat
 from shufflecheck.partitions import partitions
 
 from . import _brute
+from ._fit import chisquare_p
 
 
 def _rising_sequences(decks: np.ndarray) -> np.ndarray:
     pos = np.argsort(decks, axis=1)
     return 1 + (pos[:, 1:] < pos[:, :-1]).sum(axis=1)
-
-
-def _chisquare_p(observed: Counter, expected_probs: dict, total: int) -> float:
-    """Chi-square goodness of fit (scipy.stats.chisquare), pooling cells with E < 5."""
-    obs, exp = [], []
-    pool_o = pool_e = 0.0
-    for value, prob in expected_probs.items():
-        e = float(prob) * total
-        if e < 5:
-            pool_o += observed.get(value, 0)
-            pool_e += e
-        else:
-            obs.append(observed.get(value, 0))
-            exp.append(e)
-    if pool_e > 0:
-        obs.append(pool_o)
-        exp.append(pool_e)
-    exp_arr = np.array(exp)
-    exp_arr *= sum(obs) / exp_arr.sum()
-    return float(stats.chisquare(obs, exp_arr).pvalue)
 
 
 class TestPublishedTable:
@@ -213,7 +193,7 @@ class TestSamplers:
         decks = riffle.sample(20000, n, k, rng=1000 + n)
         observed = Counter(_rising_sequences(decks).tolist())
         law = riffle.rising_sequence_law(n, k)
-        assert _chisquare_p(observed, {r + 1: p for r, p in enumerate(law)}, len(decks)) > 1e-3
+        assert chisquare_p(observed, {r + 1: p for r, p in enumerate(law)}, len(decks)) > 1e-3
 
     def test_riffle_mean_rising_sequences_forward(self):
         # design brief: after 7 riffles of 52 cards the mean is about 24.7 forwards
@@ -230,7 +210,7 @@ class TestSamplers:
         expected = {
             p: riffle.arrangement_probability(p, 2) for p in itertools.permutations(range(4))
         }
-        assert _chisquare_p(observed, expected, len(decks)) > 1e-3
+        assert chisquare_p(observed, expected, len(decks)) > 1e-3
 
     def test_three_handed_sampler(self):
         decks = riffle.sample(60000, 4, 1, rng=8, hands=3)
@@ -239,7 +219,7 @@ class TestSamplers:
             p: riffle.arrangement_probability(p, 1, hands=3)
             for p in itertools.permutations(range(4))
         }
-        assert _chisquare_p(observed, expected, len(decks)) > 1e-3
+        assert chisquare_p(observed, expected, len(decks)) > 1e-3
 
     @pytest.mark.parametrize(("n", "k"), [(8, 4), (10, 6)])
     def test_transposition_cycle_types(self, n, k):
@@ -258,7 +238,7 @@ class TestSamplers:
                 lengths.append(length)
             observed[tuple(sorted(lengths, reverse=True))] += 1
         expected = transposition.class_law_fourier(n, k)
-        assert _chisquare_p(observed, expected, len(decks)) > 1e-3
+        assert chisquare_p(observed, expected, len(decks)) > 1e-3
 
     def test_transposition_other_hold(self):
         # hold 0.4 on 5 cards: identity 0.4, each of the 10 transpositions 0.06 = 20:3
@@ -268,7 +248,7 @@ class TestSamplers:
         ]
         law = _brute.law_after(outcomes, 5, 3)
         observed = Counter(map(tuple, decks.tolist()))
-        assert _chisquare_p(observed, law, len(decks)) > 1e-3
+        assert chisquare_p(observed, law, len(decks)) > 1e-3
 
     @pytest.mark.parametrize(("n", "k"), [(10, 20), (30, 80), (52, 200)])
     def test_top_to_random_bottom_runs(self, n, k):
@@ -276,11 +256,11 @@ class TestSamplers:
         expected = {length + 1: p for length, p in enumerate(law)}
         back = top_to_random.sample_random_to_top(20000, n, k, rng=n)
         observed = Counter(_bottom_runs(back).tolist())
-        assert _chisquare_p(observed, expected, len(back)) > 1e-3
+        assert chisquare_p(observed, expected, len(back)) > 1e-3
         # top-to-random decks: the same law for the run of their inverses
         forward = top_to_random.sample(20000, n, k, rng=n + 1)
         observed = Counter(_bottom_runs(invert(forward)).tolist())
-        assert _chisquare_p(observed, expected, len(forward)) > 1e-3
+        assert chisquare_p(observed, expected, len(forward)) > 1e-3
 
     def test_step_classes_match_samplers(self):
         rng = np.random.default_rng(3)
@@ -288,11 +268,11 @@ class TestSamplers:
         stepped = top_to_random.TopToRandom().apply_repeated(decks, 3, rng)
         observed = Counter(map(tuple, stepped.tolist()))
         law = _brute.law_after(_brute.top_to_random_outcomes(5), 5, 3)
-        assert _chisquare_p(observed, law, len(stepped)) > 1e-3
+        assert chisquare_p(observed, law, len(stepped)) > 1e-3
         stepped = top_to_random.RandomToTop().apply_repeated(decks, 3, rng)
         observed = Counter(map(tuple, stepped.tolist()))
         law = _brute.law_after(_brute.random_to_top_outcomes(5), 5, 3)
-        assert _chisquare_p(observed, law, len(stepped)) > 1e-3
+        assert chisquare_p(observed, law, len(stepped)) > 1e-3
 
 
 def _swap(n, a, b):

@@ -18,7 +18,6 @@ import pytest
 import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from scipy import stats
 from sympy.combinatorics import Permutation
 
 from shufflecheck.errors import InputError
@@ -28,6 +27,7 @@ from shufflecheck.models.base import STEP_TYPES
 from shufflecheck.models.permute import identity_decks
 
 from . import _brute
+from ._fit import chisquare_p
 
 # ---------------------------------------------------------------------------------------
 # helpers: laws as {source: Fraction}, where new[i] = old[source[i]]
@@ -44,33 +44,6 @@ def _as_outcomes(law: Law) -> list[tuple[tuple[int, ...], int]]:
 def _after(law: Law, n: int, steps: int) -> Law:
     """The law after ``steps`` independent steps, by brute-force composition."""
     return _brute.law_after(_as_outcomes(law), n, steps)
-
-
-def _chisquare_p(observed: Counter, expected: Law, total: int) -> float:
-    """Chi-square goodness of fit (scipy.stats.chisquare), pooling cells with E < 5.
-
-    Also fails outright if any sampled arrangement has exact probability 0.
-    """
-    impossible = [deck for deck in observed if not expected.get(deck, 0)]
-    assert not impossible, f"sampled arrangements of probability 0: {impossible[:3]}"
-    obs, exp = [], []
-    pool_o = pool_e = 0.0
-    for deck, prob in expected.items():
-        e = float(prob) * total
-        if e < 5:
-            pool_o += observed.get(deck, 0)
-            pool_e += e
-        else:
-            obs.append(observed.get(deck, 0))
-            exp.append(e)
-    if pool_e > 0:
-        obs.append(pool_o)
-        exp.append(pool_e)
-    if len(obs) < 2:  # a single cell (a deterministic law): nothing to test beyond support
-        return 1.0
-    exp_arr = np.array(exp)
-    exp_arr *= sum(obs) / exp_arr.sum()
-    return float(stats.chisquare(obs, exp_arr).pvalue)
 
 
 def _frequencies(decks: np.ndarray) -> Counter:
@@ -250,9 +223,9 @@ class TestCut:
         law = _after(cut_mechanics(n, cut.cut_law(n, spread=spread, least=least)), n, times)
         start = (2, 0, 4, 1, 3, 5)[:n] if n == 6 else (2, 0, 4, 1, 3)
         observed = _sample_law(step, n, times, 40000, seed=11, start=np.array(start))
-        assert _chisquare_p(observed, _moved(law, start), 40000) > 1e-3
+        assert chisquare_p(observed, _moved(law, start), 40000) > 1e-3
         decks = cut.sample(40000, n, times, rng=12, spread=spread, least=least)
-        assert _chisquare_p(_frequencies(decks), law, 40000) > 1e-3
+        assert chisquare_p(_frequencies(decks), law, 40000) > 1e-3
 
     def test_bad_input(self):
         with pytest.raises(InputError, match="cut: spread must be a number of cards >= 0"):
@@ -322,7 +295,7 @@ class TestHandRiffle:
         step = hand_riffle.HandRiffle(spread=spread, clump=clump)
         start = np.array([3, 1, 4, 0, 5, 2][:n]) if n == 6 else np.roll(np.arange(n), 1)
         observed = _sample_law(step, n, times, 50000, seed=21, start=start)
-        assert _chisquare_p(observed, _moved(law, start), 50000) > 1e-3
+        assert chisquare_p(observed, _moved(law, start), 50000) > 1e-3
 
     @pytest.mark.parametrize("clump", [0.5, 3.0])
     def test_second_drop_at_52_cards(self, clump):
@@ -423,7 +396,7 @@ class TestStrip:
         law = _after(strip_mechanics(n, step.boundary_probability(n)), n, times)
         start = np.array([4, 2, 0, 3, 1, 5][:n]) if n == 6 else np.array([4, 2, 0, 3, 1])
         observed = _sample_law(step, n, times, 50000, seed=31, start=start)
-        assert _chisquare_p(observed, _moved(law, start), 50000) > 1e-3
+        assert chisquare_p(observed, _moved(law, start), 50000) > 1e-3
 
     @pytest.mark.parametrize("k", [1, 2, 3, 4])
     def test_same_distances_as_pemantles_statement(self, k):
@@ -612,13 +585,13 @@ class TestShelf:
         step = shelf.Shelf(shelves=m, stack=stack)
         start = np.array([2, 4, 0, 1, 3][:n]) if n == 5 else np.array([1, 3, 0, 2])
         observed = _sample_law(step, n, times, 60000, seed=41, start=start)
-        assert _chisquare_p(observed, _moved(law, start), 60000) > 1e-3
+        assert chisquare_p(observed, _moved(law, start), 60000) > 1e-3
         # one pass at a time through apply, as well as apply_repeated's combined passes
         rng = np.random.default_rng(42)
         decks = np.tile(start, (60000, 1))
         for _ in range(times):
             decks = step.apply(decks, rng)
-        assert _chisquare_p(_frequencies(decks), _moved(law, start), 60000) > 1e-3
+        assert chisquare_p(_frequencies(decks), _moved(law, start), 60000) > 1e-3
 
     @pytest.mark.parametrize(("passes", "stack"), [(1, "fixed"), (1, "random"), (2, "fixed")])
     def test_valleys_at_52_cards(self, passes, stack):
@@ -628,7 +601,7 @@ class TestShelf:
         law = shelf.valley_law(52, passes, shelves=10)
         expected = {(k,): p for k, p in enumerate(law)}
         observed = Counter((int(x),) for x in v)
-        assert _chisquare_p(observed, expected, len(decks)) > 1e-3
+        assert chisquare_p(observed, expected, len(decks)) > 1e-3
 
     def test_ten_shelves_one_and_two_passes(self):
         # exact values of our formula; one pass of 10 shelves is far from random for 52
