@@ -47,6 +47,14 @@ class LogAudit:
     def set_aside(self) -> int:
         return self.reader.set_aside
 
+    def since_when_place(self, group: str = "all") -> str:
+        """``"row 1599, 2026-11-04T09:55:30"`` for the first deck of the since-when stretch
+        of ``group`` (the time only with ``--time``); empty when there is none."""
+        where = self.since_when_rows.get(group)
+        if not where:
+            return ""
+        return f"row {where['row']}" + (f", {where['time']}" if "time" in where else "")
+
     def as_json(self) -> dict[str, Any]:
         """The JSON contract of ``shufflecheck audit --json``, plus reading details."""
         out = self.result.as_json(set_aside=self.set_aside)

@@ -28,7 +28,6 @@ import difflib
 import re
 import types
 import typing
-from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -426,9 +425,3 @@ def simulate_play(
     for t in range(decks):
         out[t + 1] = out[t][relative[t]]
     return out
-
-
-def iter_chunks(decks: int, size: int = CHUNK_DECKS) -> Iterator[tuple[int, int]]:
-    """``(start, stop)`` ranges covering ``decks`` in chunks of ``size``."""
-    for start in range(0, decks, size):
-        yield start, min(decks, start + size)

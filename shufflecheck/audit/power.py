@@ -239,6 +239,13 @@ def plan_decks(
     return PowerPlan(cards, alpha, power, m, level, simulate, tuple(rows))
 
 
+def _not_detected(
+    spec: TestSpec, shift: float, se: float, rel_se: float | None, base: str, note: str
+) -> PowerRow:
+    """The row of a test that does not reach the target power (``decks`` None), with why."""
+    return PowerRow(spec.name, spec.title, None, None, shift, se, rel_se, "estimate", base, note)
+
+
 def _sum_row(
     spec: TestSpec, law: Law, x: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
@@ -252,17 +259,8 @@ def _sum_row(
     unit = "pairs of consecutive decks" if pairs else "decks"
     base = f"exact null, simulated law of {sims} {unit} convolved D times; bisection on D"
     if law.low == law.high:
-        return PowerRow(
-            spec.name,
-            spec.title,
-            None,
-            None,
-            shift,
-            se,
-            None,
-            "estimate",
-            base,
-            "statistic constant on decks of this size",
+        return _not_detected(
+            spec, shift, se, None, base, "statistic constant on decks of this size"
         )
     detectable = {
         "greater": shift > _RESOLUTION * se,
@@ -270,17 +268,8 @@ def _sum_row(
         "two-sided": abs(shift) > _RESOLUTION * se,
     }[spec.alternative]
     if not detectable or shift == 0:
-        return PowerRow(
-            spec.name,
-            spec.title,
-            None,
-            None,
-            shift,
-            se,
-            None,
-            "estimate",
-            base,
-            "no shift of the mean detectable in the simulated decks",
+        return _not_detected(
+            spec, shift, se, None, base, "no shift of the mean detectable in the simulated decks"
         )
     side = level / 2 if spec.alternative == "two-sided" else level
     z_a = float(stats.norm.isf(side))
@@ -295,18 +284,7 @@ def _sum_row(
     found = _smallest(power_at, target, max(1, guess), cap)
     rel_se = 2 * se / abs(shift)
     if found is None:
-        return PowerRow(
-            spec.name,
-            spec.title,
-            None,
-            None,
-            shift,
-            se,
-            rel_se,
-            "estimate",
-            base,
-            f"needs more than {cap} {unit}",
-        )
+        return _not_detected(spec, shift, se, rel_se, base, f"needs more than {cap} {unit}")
     decks = found + 1 if pairs else found
     note = "decks = pairs + 1; pairs treated as independent" if pairs else ""
     return PowerRow(
@@ -329,15 +307,11 @@ def _position_row(
         f"position frequencies of {sims} simulated decks (debiased)"
     )
     if delta2 <= _RESOLUTION * null_sd:
-        return PowerRow(
-            spec.name,
-            spec.title,
-            None,
-            None,
+        return _not_detected(
+            spec,
             delta2,
             null_sd,
             None,
-            "estimate",
             base,
             "no departure of position frequencies detectable in the simulation",
         )
@@ -352,18 +326,7 @@ def _position_row(
     found = _smallest(power_at, target, guess, cap)
     rel_se = null_sd / delta2
     if found is None:
-        return PowerRow(
-            spec.name,
-            spec.title,
-            None,
-            None,
-            delta2,
-            null_sd,
-            rel_se,
-            "estimate",
-            base,
-            f"needs more than {cap} decks",
-        )
+        return _not_detected(spec, delta2, null_sd, rel_se, base, f"needs more than {cap} decks")
     return PowerRow(
         spec.name,
         spec.title,

@@ -153,12 +153,8 @@ def print_audit(result) -> None:
         )
     )
     if overall.since_when is not None:
-        where = result.since_when_rows.get("all", {})
-        place = (
-            f" (row {where['row']}" + (f", {where['time']}" if "time" in where else "") + ")"
-            if where
-            else ""
-        )
+        where = result.since_when_place()
+        place = f" ({where})" if where else ""
         echo()
         echo(f"Since when (estimate): {overall.since_when.text}{place}.")
     for key, battery in result.result.groups:

@@ -107,11 +107,8 @@ def print_policy(result) -> None:
             battery = audit.result.overall
             echo(f"  log {log.table or log.path.name}: {battery.verdict()}")
             if battery.since_when is not None:
-                where = audit.since_when_rows.get("all", {})
-                place = ""
-                if where:
-                    stamp = f", {where['time']}" if "time" in where else ""
-                    place = f" (row {where['row']}{stamp})"
+                where = audit.since_when_place()
+                place = f" ({where})" if where else ""
                 echo(f"    since when (estimate): {battery.since_when.text}{place}")
     echo()
     echo(

@@ -339,13 +339,6 @@ class _ClassLawDistances:
         return float(np.dot(self.uniform, direct))
 
 
-def _distances_from_class_law(
-    law: np.ndarray, uniform: np.ndarray, z_values: np.ndarray
-) -> tuple[float, float, float]:
-    """(TV, separation, KL bits) of one law on cycle types (see :class:`_ClassLawDistances`)."""
-    return _ClassLawDistances(uniform, z_values)(law)
-
-
 def _chain_rows(
     cards: int,
     max_steps: int,

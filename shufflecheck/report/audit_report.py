@@ -135,11 +135,8 @@ def audit_section(audit, title: str, *, prefix: str = "", figures: bool = True) 
         f"Verdict: {battery.verdict()}.",
     ]
     if battery.since_when is not None:
-        where = audit.since_when_rows.get("all", {})
-        place = ""
-        if where:
-            place = f" First deck of that stretch: row {where['row']}"
-            place += f", {where['time']}." if "time" in where else "."
+        where = audit.since_when_place()
+        place = f" First deck of that stretch: {where}." if where else ""
         paragraphs.append(f"Since when (estimate): {battery.since_when.text}.{place}")
     for key, group in audit.result.groups:
         paragraphs.append(f"{audit.by} = {key}: {group.verdict()}.")

@@ -205,12 +205,9 @@ def policy_report(
             battery = audit.result.overall
             line = f"{log.table or log.path.name}: {battery.verdict()}."
             if battery.since_when is not None:
-                where = audit.since_when_rows.get("all", {})
+                where = audit.since_when_place()
                 line += f" Since when (estimate): {battery.since_when.text}"
-                if where:
-                    line += f"; first deck of that stretch: row {where['row']}"
-                    line += f", {where['time']}" if "time" in where else ""
-                line += "."
+                line += f"; first deck of that stretch: {where}." if where else "."
             answer.append(line)
     methods: list[MethodNote] = list(assessment_methods(policy.confidence))
     if any(d.audits for d in result.decisions):
