@@ -8,11 +8,8 @@ import json
 from fractions import Fraction
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
-
-runner = CliRunner()
+from ._cli import command_json, one_line_error, run
 
 TOP_KEYS = {"procedure", "name", "cards", "decks", "seed", "confidence", "rows", "notes", "caution"}
 ROW_KEYS = {
@@ -29,22 +26,8 @@ METRICS = ("total_variation", "separation", "kl_bits")
 DECKS = "2000"
 
 
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
-
-
 def assess_json(*args: object) -> dict:
-    result = run("assess", *args, "--json")
-    assert result.exit_code == 0, result.output
-    return json.loads(result.stdout)
-
-
-def one_line_error(result) -> str:
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: ")
-    return lines[0]
+    return command_json("assess", *args)
 
 
 def harmonic(n: int) -> Fraction:

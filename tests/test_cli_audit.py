@@ -10,32 +10,15 @@ import json
 from pathlib import Path
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
-
-runner = CliRunner()
+from ._cli import command_json, one_line_error, run
 
 CONTRACT = {"decks", "set_aside", "alpha", "flagged", "tests", "groups"}
 TEST_KEYS = {"name", "statistic", "p_value", "p_adjusted", "method", "effect"}
 
 
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
-
-
 def audit_json(*args: object) -> dict:
-    result = run("audit", *args, "--json")
-    assert result.exit_code == 0, result.output
-    return json.loads(result.stdout)
-
-
-def one_line_error(result) -> str:
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: ")
-    return lines[0]
+    return command_json("audit", *args)
 
 
 def sha256(path: Path) -> str:

@@ -12,7 +12,6 @@ from collections import defaultdict
 from fractions import Fraction
 
 import pytest
-from typer.testing import CliRunner
 
 from shufflecheck.cli import app
 from tests._brute import (
@@ -24,7 +23,7 @@ from tests._brute import (
     transposition_outcomes,
 )
 
-runner = CliRunner()
+from ._cli import command_json, one_line_error, run, runner
 
 #: Total variation distance to uniform after k = 1..10 riffles of 52 cards, to three
 #: decimals: the published table of Bayer & Diaconis (1992), "Trailing the dovetail
@@ -36,23 +35,8 @@ ROW_KEYS = {"steps", "total_variation", "separation", "kl_bits", "method"}
 METRICS = ("total_variation", "separation", "kl_bits")
 
 
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
-
-
 def mix_json(*args: object) -> dict:
-    result = run("mix", *args, "--json")
-    assert result.exit_code == 0, result.output
-    return json.loads(result.stdout)
-
-
-def one_line_error(result) -> str:
-    """The single ``error: ...`` line of a refused command (exit code 2)."""
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: "), result.stderr
-    return lines[0]
+    return command_json("mix", *args)
 
 
 def riffle_separation(n: int, k: int) -> Fraction:

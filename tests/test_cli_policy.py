@@ -3,34 +3,16 @@ riffle table, house standings, attached logs, and file/line/key errors for bad f
 
 from __future__ import annotations
 
-import json
 import textwrap
 from pathlib import Path
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
-
-runner = CliRunner()
-
-
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
+from ._cli import command_json, one_line_error, run
 
 
 def policy_json(path: Path) -> dict:
-    result = run("policy", path, "--json")
-    assert result.exit_code == 0, result.output
-    return json.loads(result.stdout)
-
-
-def one_line_error(result) -> str:
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: ")
-    return lines[0]
+    return command_json("policy", path)
 
 
 def write(folder: Path, text: str, name: str = "policy.toml") -> Path:

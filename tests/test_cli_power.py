@@ -6,11 +6,8 @@ from __future__ import annotations
 import json
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
-
-runner = CliRunner()
+from ._cli import one_line_error, run
 
 TOP_KEYS = {
     "procedure",
@@ -24,18 +21,6 @@ TOP_KEYS = {
     "plans",
 }
 ROW_KEYS = {"test", "title", "decks", "power", "how", "method"}
-
-
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
-
-
-def one_line_error(result) -> str:
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: ")
-    return lines[0]
 
 
 def fewest(plan: dict) -> int | None:

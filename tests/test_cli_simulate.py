@@ -9,17 +9,12 @@ import hashlib
 import json
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
 from shufflecheck.decks import load_deck
 
-runner = CliRunner()
+from ._cli import command_json, one_line_error, run
+
 STANDARD = load_deck().cards  # the reference order of the built-in 52-card deck
-
-
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
 
 
 def simulate(*args: object) -> dict:
@@ -29,17 +24,7 @@ def simulate(*args: object) -> dict:
 
 
 def audit_json(*args: object) -> dict:
-    result = run("audit", *args, "--json")
-    assert result.exit_code == 0, result.output
-    return json.loads(result.stdout)
-
-
-def one_line_error(result) -> str:
-    assert result.exit_code == 2, result.output
-    lines = result.stderr.strip().splitlines()
-    assert len(lines) == 1, result.stderr
-    assert lines[0].startswith("error: ")
-    return lines[0]
+    return command_json("audit", *args)
 
 
 def read_orders(path) -> list[list[str]]:

@@ -15,19 +15,14 @@ import shutil
 from pathlib import Path
 
 import pytest
-from typer.testing import CliRunner
 
 from shufflecheck.cli import app
 from shufflecheck.demo import demo_folder
 
-runner = CliRunner()
+from ._cli import run, runner
 
 #: simulated deck at which the README's Table 7 fault (four shelves instead of ten) starts
 FAULT_DECK = 1601
-
-
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
 
 
 @pytest.fixture(scope="module")

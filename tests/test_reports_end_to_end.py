@@ -16,11 +16,8 @@ from html.parser import HTMLParser
 from pathlib import Path
 
 import pytest
-from typer.testing import CliRunner
 
-from shufflecheck.cli import app
-
-runner = CliRunner()
+from ._cli import run
 
 KINDS = ("mix", "assess", "audit", "policy")
 CAUTIONS = ("not a certification", "regulator", "accredited test laborator")
@@ -28,10 +25,6 @@ CAUTIONS = ("not a certification", "regulator", "accredited test laborator")
 VOID = {"area", "base", "br", "col", "embed", "hr", "img", "input", "link", "meta", "source"}
 VOID |= {"track", "wbr"}
 DATA_URI = re.compile(r"data:[a-z]+/[a-z0-9.+-]+;base64,[A-Za-z0-9+/=]+")
-
-
-def run(*args: object):
-    return runner.invoke(app, [str(a) for a in args])
 
 
 def sha256(path: Path) -> str:
