@@ -59,6 +59,7 @@ __all__ = [
     "StatisticBound",
     "assess",
     "assessment_json",
+    "assessment_work",
     "exact_blocks",
 ]
 
@@ -312,6 +313,11 @@ def _mean_interval(
     return mean, stderr, z * stderr
 
 
+def assessment_work(decks: int, repeats: int) -> int:
+    """Progress units :func:`assess` reports: one per (chunk of decks, repetition count)."""
+    return -(-decks // CHUNK_DECKS) * repeats
+
+
 def assess(
     procedure: Procedure,
     cards: int,
@@ -344,7 +350,7 @@ def assess(
         Guessing strategies (default: all of :data:`shufflecheck.audit.STRATEGIES`).
     progress : callable, optional
         Called with the number of (chunk, repetition) units done; there are
-        ``ceil(decks / CHUNK_DECKS) * repeats`` of them.
+        :func:`assessment_work` of them.
     """
     from shufflecheck.audit.guessing import STRATEGIES, check_strategies
 

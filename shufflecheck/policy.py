@@ -415,10 +415,9 @@ def decide(
 
 def policy_work(policy: Policy) -> int:
     """Units of work :func:`evaluate_policy` reports to its progress callback."""
-    from shufflecheck.models.permute import CHUNK_DECKS
+    from shufflecheck.assessment import assessment_work
 
-    chunks = -(-policy.decks // CHUNK_DECKS)
-    return sum(chunks * proc.max_repeats for proc in policy.procedures)
+    return sum(assessment_work(policy.decks, proc.max_repeats) for proc in policy.procedures)
 
 
 def evaluate_policy(
@@ -428,8 +427,7 @@ def evaluate_policy(
 
     ``progress`` is called with the units done so far (out of :func:`policy_work`).
     """
-    from shufflecheck.assessment import assess
-    from shufflecheck.models.permute import CHUNK_DECKS
+    from shufflecheck.assessment import assess, assessment_work
 
     decisions = []
     offset = 0
@@ -448,7 +446,7 @@ def evaluate_policy(
             confidence=policy.confidence,
             progress=update,
         )
-        offset += -(-policy.decks // CHUNK_DECKS) * proc.max_repeats
+        offset += assessment_work(policy.decks, proc.max_repeats)
         decision = decide(result, policy.metric, policy.target, proc.house, proc)
         audits = tuple((log, _audit(log, proc, policy)) for log in proc.logs)
         decisions.append(dataclasses.replace(decision, audits=audits))

@@ -58,13 +58,12 @@ def assess(
     """
     check_report_folder(report, force=force)
     from shufflecheck.assessment import assess as run_assessment
-    from shufflecheck.assessment import assessment_json
-    from shufflecheck.models.permute import CHUNK_DECKS
+    from shufflecheck.assessment import assessment_json, assessment_work
     from shufflecheck.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
     n = cards if cards is not None else (proc.cards or 52)
-    units = -(-decks // CHUNK_DECKS) * repeat
+    units = assessment_work(decks, repeat)
     with progress(units if decks * repeat >= 200_000 else 0, "simulating") as update:
         result = run_assessment(
             proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
