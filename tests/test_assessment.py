@@ -6,12 +6,12 @@ import dataclasses
 
 import pytest
 
-from shufflecheck.assessment import assess, exact_blocks
-from shufflecheck.counting import harmonic
-from shufflecheck.errors import InputError
+from shufflecheck.analyses.assess import assess, exact_blocks
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.counting import harmonic
 from shufflecheck.models import riffle, top_to_random
 from shufflecheck.models.base import Step
-from shufflecheck.procedures import Procedure, ProcedureItem, parse_procedure
+from shufflecheck.models.procedures import Procedure, ProcedureItem, parse_procedure
 
 from . import _brute
 

@@ -14,9 +14,9 @@ from hypothesis import strategies as st
 
 from shufflecheck.audit import BatterySummary, holm
 from shufflecheck.audit.battery import holm_log
-from shufflecheck.decks import STANDARD_52
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.models import riffle
+from shufflecheck.records.cards import STANDARD_52
 
 
 def _uniform(rng, decks, n=52):

@@ -26,7 +26,7 @@ from scipy import stats
 
 from shufflecheck.audit import BatterySummary
 from shufflecheck.audit.nulls import sum_tail_logs
-from shufflecheck.decks import STANDARD_52
+from shufflecheck.records.cards import STANDARD_52
 
 
 def _randomized(test, law, count, u):

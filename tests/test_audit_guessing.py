@@ -16,8 +16,8 @@ from scipy import stats
 
 from shufflecheck.audit import guessing
 from shufflecheck.audit.guessing import STRATEGIES, _play
-from shufflecheck.counting import harmonic
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.counting import harmonic
 from shufflecheck.models import riffle
 
 
@@ -33,7 +33,7 @@ class TestExactLaw:
         assert law.total == math.factorial(n)
 
     def test_moments(self):
-        # H_52 from OEIS A001008 / A002805 via shufflecheck.counting.harmonic (tested there)
+        # H_52 from OEIS A001008 / A002805 via shufflecheck.core.counting.harmonic (tested there)
         assert guessing.guessing_mean(52) == harmonic(52)
         assert float(guessing.guessing_mean(52)) == pytest.approx(4.5380, abs=1e-4)
         law = guessing.guessing_null(52)

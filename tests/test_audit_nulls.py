@@ -13,7 +13,7 @@ import pytest
 from scipy import special, stats
 
 from shufflecheck.audit import nulls
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 
 def _brute(n: int, statistic) -> tuple[int, dict[int, int]]:

@@ -12,7 +12,7 @@ import pytest
 from scipy import stats
 
 from shufflecheck.audit import positions
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 
 def _uniform(rng, decks, n):

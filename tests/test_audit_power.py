@@ -9,9 +9,9 @@ import pytest
 
 from shufflecheck.audit import nulls, plan_decks
 from shufflecheck.audit.power import sum_test_power
-from shufflecheck.decks import STANDARD_52
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.models import riffle
+from shufflecheck.records.cards import STANDARD_52
 
 
 class TestSumTestPower:

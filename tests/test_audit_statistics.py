@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 
 from shufflecheck.audit import nulls, statistics
 from shufflecheck.audit.battery import deck_values
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 
 def _definitions(p: list[int]) -> dict[str, int]:

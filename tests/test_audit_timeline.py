@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from shufflecheck.audit.timeline import change_point, describe
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 
 def test_finds_a_planted_shift():

@@ -17,7 +17,8 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.characters import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import (
     INT64_MAX_N,
     _build_table,
     character,
@@ -28,8 +29,7 @@ from shufflecheck.characters import (
     table_memory_estimate,
     transposition_ratio,
 )
-from shufflecheck.errors import InputError
-from shufflecheck.partitions import (
+from shufflecheck.core.partitions import (
     class_size,
     conjugate,
     dimension,

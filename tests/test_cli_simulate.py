@@ -10,7 +10,7 @@ import json
 
 import pytest
 
-from shufflecheck.decks import load_deck
+from shufflecheck.records.cards import load_deck
 
 from ._cli import command_json, one_line_error, run
 

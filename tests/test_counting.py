@@ -10,7 +10,7 @@ import pytest
 import sympy
 from sympy.functions.combinatorial.numbers import stirling
 
-from shufflecheck import counting
+from shufflecheck.core import counting
 
 
 def _brute(n: int, statistic) -> list[int]:

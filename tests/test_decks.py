@@ -10,17 +10,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.decks import (
-    STANDARD_52,
-    DeckDefinition,
-    canonical_code,
-    check_arrangement,
-    integer_value,
-    load_deck,
-    parse_order,
-    relative_to,
-)
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
+from shufflecheck.records.cards import STANDARD_52, DeckDefinition, canonical_code, load_deck
+from shufflecheck.records.orders import check_arrangement, integer_value, parse_order, relative_to
 
 DATA = Path(__file__).resolve().parent.parent / "data" / "decks"
 EXPECTED = "expected rank A,2-9,T/10,J,Q,K and suit S,H,D,C"

@@ -16,8 +16,8 @@ from pathlib import Path
 
 import pytest
 
+from shufflecheck.analyses.demo import demo_folder
 from shufflecheck.cli import app
-from shufflecheck.demo import demo_folder
 
 from ._cli import run, runner
 

@@ -15,10 +15,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.decks import STANDARD_52, DeckDefinition, load_deck, relative_to
-from shufflecheck.errors import InputError
-from shufflecheck.fileio import sha256_file
-from shufflecheck.logs import REASONS, Reference, read_log, write_log
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import sha256_file
+from shufflecheck.records.cards import STANDARD_52, DeckDefinition, load_deck
+from shufflecheck.records.logs import REASONS, Reference, read_log, write_log
+from shufflecheck.records.orders import relative_to
 
 DATA = Path(__file__).resolve().parent.parent / "data" / "decks"
 EXPECTED = "expected rank A,2-9,T/10,J,Q,K and suit S,H,D,C"

@@ -14,11 +14,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import minimum_steps
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import minimum_steps
+from shufflecheck.core.partitions import partitions
 from shufflecheck.models import riffle, top_to_random, transposition
 from shufflecheck.models.permute import apply_sources, invert, place_by_destination
-from shufflecheck.partitions import partitions
 
 from . import _brute
 from ._fit import chisquare_p

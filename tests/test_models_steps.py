@@ -20,8 +20,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from sympy.combinatorics import Permutation
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import minimum_steps
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import minimum_steps
 from shufflecheck.models import cut, hand_riffle, overhand, pile, riffle, shelf
 from shufflecheck.models.base import STEP_TYPES
 from shufflecheck.models.permute import identity_decks

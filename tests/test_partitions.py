@@ -9,8 +9,8 @@ from itertools import permutations
 import pytest
 from sympy.functions.combinatorial.numbers import partition as sympy_partition
 
-from shufflecheck.errors import InputError
-from shufflecheck.partitions import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.partitions import (
     check_partition,
     check_shape,
     class_size,

@@ -8,11 +8,11 @@ from collections import Counter
 import numpy as np
 import pytest
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.models.cut import Cut
 from shufflecheck.models.overhand import Strip
+from shufflecheck.models.procedures import load_procedure, parse_procedure, procedure_from_argument
 from shufflecheck.models.riffle import Riffle
-from shufflecheck.procedures import load_procedure, parse_procedure, procedure_from_argument
 
 from . import _brute
 

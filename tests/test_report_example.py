@@ -15,7 +15,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.counting import eulerian_row
+from shufflecheck.core.counting import eulerian_row
 from shufflecheck.report.document import (
     MethodNote,
     Report,

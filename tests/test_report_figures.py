@@ -9,7 +9,7 @@ import zlib
 import numpy as np
 import pytest
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.report import figures as F
 from shufflecheck.report.document import Figure, png_size
 

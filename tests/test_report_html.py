@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from shufflecheck.report.document import MethodNote, Section, Table, exact, png_size
-from shufflecheck.report.html import STYLESHEET, render_html
+from shufflecheck.report.render.html import STYLESHEET, render_html
 from tests.test_report_example import example_report
 
 # HTML Living Standard, "void elements": these have no end tag.

@@ -10,7 +10,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from shufflecheck.report.document import Section, Table, estimate, exact, render_json
-from shufflecheck.report.markdown import code, escape_block, escape_inline, render_markdown
+from shufflecheck.report.render.markdown import code, escape_block, escape_inline, render_markdown
 from tests.test_report_example import example_report
 
 _NUMBER = re.compile(r"-?(?:\d[\d,]*(?:\.\d+)?|\.\d+)(?:e[+-]?\d+)?|-?∞")

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 import shufflecheck
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.report.provenance import STANDARD_CAUTIONS, collect_provenance
 
 UTC = dt.timezone.utc

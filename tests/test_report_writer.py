@@ -7,7 +7,7 @@ import os
 
 import pytest
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.report import writer
 from shufflecheck.report.document import png_size
 from shufflecheck.report.writer import render_files, write_report

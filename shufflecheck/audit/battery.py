@@ -86,7 +86,7 @@ from shufflecheck.audit.statistics import (
     category_codes,
 )
 from shufflecheck.audit.timeline import change_point, describe
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = [
     "MAX_GROUPS",

@@ -55,8 +55,8 @@ import numpy as np
 
 from shufflecheck.audit.nulls import Law, guessing_law
 from shufflecheck.audit.statistics import as_decks, bitmask_ok
-from shufflecheck.counting import harmonic
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.counting import harmonic
 
 __all__ = [
     "DEFAULT_STRATEGIES",

@@ -44,14 +44,14 @@ import numpy as np
 from scipy import fft as sp_fft
 from scipy.optimize import brentq
 
-from shufflecheck.counting import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.counting import (
     eulerian_row,
     mahonian_row,
     rencontres_row,
     stirling1_row,
     successions_row,
 )
-from shufflecheck.errors import InputError
 
 __all__ = [
     "Law",

@@ -35,7 +35,7 @@ from fractions import Fraction
 import numpy as np
 from scipy import stats
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = ["MONTE_CARLO_BELOW", "PositionTest", "position_counts", "position_test"]
 

@@ -45,7 +45,7 @@ from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
 from shufflecheck.audit.nulls import Law, sum_distribution
 from shufflecheck.audit.positions import position_counts
 from shufflecheck.audit.statistics import as_decks, category_codes
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = ["PowerPlan", "PowerRow", "plan_decks", "sum_test_power"]
 

@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = [
     "adjacent_pairs",

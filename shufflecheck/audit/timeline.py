@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = ["ChangePoint", "change_point"]
 

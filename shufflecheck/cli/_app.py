@@ -2,7 +2,7 @@
 
 Commands live in one small module each (``shufflecheck/cli/<command>.py``) and only call
 the library: no mathematics lives in the CLI. Bad input raised anywhere as
-:class:`shufflecheck.errors.InputError` becomes one line on stderr and exit code 2.
+:class:`shufflecheck.common.errors.InputError` becomes one line on stderr and exit code 2.
 """
 
 from __future__ import annotations
@@ -19,7 +19,7 @@ from typing import Annotated, Any
 import typer
 from typer.core import TyperGroup
 
-from shufflecheck.errors import EXIT_BAD_INPUT, InputError
+from shufflecheck.common.errors import EXIT_BAD_INPUT, InputError
 
 #: the command-line parser's usage error (typer ships its own copy of click)
 _UsageError = typer.BadParameter.__mro__[1]

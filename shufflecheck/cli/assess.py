@@ -57,9 +57,9 @@ def assess(
     confidence from simulated decks, or an estimate with its interval (the guessing game).
     """
     check_report_folder(report, force=force)
-    from shufflecheck.assessment import assess as run_assessment
-    from shufflecheck.assessment import assessment_json, assessment_work
-    from shufflecheck.procedures import procedure_from_argument
+    from shufflecheck.analyses.assess import assess as run_assessment
+    from shufflecheck.analyses.assess import assessment_json, assessment_work
+    from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
     n = cards if cards is not None else (proc.cards or 52)
@@ -71,11 +71,11 @@ def assess(
     payload = assessment_json(result)
     figure = _figure(result) if plot or report else None
     if plot is not None:
-        from shufflecheck.fileio import atomic_write
+        from shufflecheck.common.files import atomic_write
 
         atomic_write(plot, figure.png)
     if report is not None:
-        from shufflecheck.report.assess_report import assessment_report
+        from shufflecheck.report.builders.assess import assessment_report
         from shufflecheck.report.provenance import collect_provenance
 
         inputs = [procedure] if procedure.lower().endswith(".toml") else []
@@ -119,7 +119,7 @@ def _range(row, metric: str) -> tuple[str, str]:
 
 
 def _print(result) -> None:
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.report.render.terminal import format_table
 
     title = f"'{result.procedure}'" + (f" ({result.name})" if result.name else "")
     echo(f"Assessment of {title} on {result.cards} cards")
@@ -160,7 +160,7 @@ def _print(result) -> None:
         f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck (H_{result.cards})"
     )
     echo()
-    from shufflecheck.assessment import CAUTION
+    from shufflecheck.analyses.assess import CAUTION
 
     echo(CAUTION)
 

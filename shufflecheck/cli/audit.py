@@ -81,7 +81,7 @@ def audit(
     Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
     """
     check_report_folder(report, force=force)
-    from shufflecheck.logaudit import audit_log
+    from shufflecheck.analyses.audit_log import audit_log
 
     with progress(0, "reading") as update:
         result = audit_log(
@@ -99,7 +99,7 @@ def audit(
         )
     payload = result.as_json()
     if report is not None:
-        from shufflecheck.report.audit_report import audit_report
+        from shufflecheck.report.builders.audit import audit_report
         from shufflecheck.report.provenance import collect_provenance
 
         inputs = [log] + ([deck] if deck is not None else [])
@@ -120,7 +120,7 @@ def audit(
 def print_audit(result) -> None:
     """Terminal view: verdict line, then the tests sorted by adjusted p-value."""
     from shufflecheck.audit.results import format_p
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.report.render.terminal import format_table
 
     overall = result.result.overall
     echo(f"{result.path}: {overall.verdict()}")
@@ -171,7 +171,7 @@ def print_audit(result) -> None:
 
 def _repeat_range(text: str) -> list[int]:
     """``"5"`` -> [5]; ``"4-8"`` or ``"4..8"`` -> [4, ..., 8]."""
-    from shufflecheck.errors import InputError
+    from shufflecheck.common.errors import InputError
 
     cleaned = text.replace("..", "-").strip()
     try:
@@ -221,8 +221,8 @@ def power(
     and searches the smallest number of decks with the requested power.
     """
     check_report_folder(report, force=force)
-    from shufflecheck.planning import plan_power, planning_json
-    from shufflecheck.procedures import procedure_from_argument
+    from shufflecheck.analyses.plan import plan_power, planning_json
+    from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
     n = cards if cards is not None else (proc.cards or 52)
@@ -233,19 +233,19 @@ def power(
     payload = planning_json(plans, proc, seed)
     figure = None
     if (plot or report) and len(plans) > 1:
+        from shufflecheck.report.builders.power import power_curves
         from shufflecheck.report.figures import power_figure
-        from shufflecheck.report.power_report import power_curves
 
         figure = power_figure(power_curves(plans), x_name="repetitions of the procedure")
     if plot is not None:
-        from shufflecheck.errors import InputError
-        from shufflecheck.fileio import atomic_write
+        from shufflecheck.common.errors import InputError
+        from shufflecheck.common.files import atomic_write
 
         if figure is None:
             raise InputError("--plot needs a range of repetitions, e.g. --repeat 4-8")
         atomic_write(plot, figure.png)
     if report is not None:
-        from shufflecheck.report.power_report import power_report
+        from shufflecheck.report.builders.power import power_report
         from shufflecheck.report.provenance import collect_provenance
 
         inputs = [procedure] if procedure.lower().endswith(".toml") else []
@@ -268,7 +268,7 @@ def power(
 
 
 def _print_power(plans, proc) -> None:
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.report.render.terminal import format_table
 
     first = plans[0][1]
     echo(

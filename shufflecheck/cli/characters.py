@@ -9,7 +9,7 @@ from typing import Annotated
 import typer
 
 from shufflecheck.cli._app import app, echo, emit_json
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 #: above this many entries the terminal gets a summary and the table goes to --csv
 _PRINT_LIMIT = 400
@@ -37,8 +37,8 @@ def characters(
     With --shape and --class: one value. Otherwise the whole table, rows = shapes and
     columns = classes, both in reverse lexicographic order; a large table goes to --csv.
     """
-    from shufflecheck.characters import character, character_table
-    from shufflecheck.partitions import (
+    from shufflecheck.core.characters import character, character_table
+    from shufflecheck.core.partitions import (
         check_partition,
         check_shape,
         format_partition,
@@ -77,7 +77,7 @@ def characters(
         return
     size = len(table.shapes)
     if size * size <= _PRINT_LIMIT:
-        from shufflecheck.report.terminal import format_table
+        from shufflecheck.report.render.terminal import format_table
 
         headers = ["shape \\ class", *(format_partition(c) for c in table.classes)]
         rows = [
@@ -98,8 +98,8 @@ def characters(
 
 
 def _write_csv(path: Path, table) -> None:
-    from shufflecheck.fileio import atomic_open
-    from shufflecheck.partitions import format_partition
+    from shufflecheck.common.files import atomic_open
+    from shufflecheck.core.partitions import format_partition
 
     with atomic_open(path) as handle:
         handle.write("shape," + ",".join(f'"{format_partition(c)}"' for c in table.classes) + "\n")
@@ -138,7 +138,7 @@ def spectrum(
     lambda has eigenvalue hold + (1 - hold) chi(tau)/d, multiplicity d^2).
     """
     from shufflecheck.models import spectrum as model_spectrum
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.report.render.terminal import format_table
 
     rows = model_spectrum(model.value, cards, hold=hold, hands=hands)
     if json_out:
@@ -158,7 +158,7 @@ def spectrum(
             }
         )
         return
-    from shufflecheck.partitions import format_partition
+    from shufflecheck.core.partitions import format_partition
 
     table_rows = []
     for r in rows:

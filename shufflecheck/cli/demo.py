@@ -30,11 +30,11 @@ def demo(
     and how many decks an audit needs; prints a summary and writes a report (Markdown,
     self-contained HTML, JSON, figures) to --out.
     """
-    from shufflecheck.demo import demo_folder, demo_work, run_demo
-    from shufflecheck.planning import planning_json
-    from shufflecheck.procedures import parse_procedure
-    from shufflecheck.report.demo_report import demo_report
-    from shufflecheck.report.policy_report import policy_payload
+    from shufflecheck.analyses.demo import demo_folder, demo_work, run_demo
+    from shufflecheck.analyses.plan import planning_json
+    from shufflecheck.models.procedures import parse_procedure
+    from shufflecheck.report.builders.demo import demo_report
+    from shufflecheck.report.builders.policy import policy_payload
     from shufflecheck.report.provenance import collect_provenance
 
     if not out.parent.exists() and out.parent == Path("reports"):

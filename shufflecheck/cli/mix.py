@@ -88,7 +88,7 @@ def mix(
     particular dealer or machine; the output is statistical evidence, not certification.
     """
     check_report_folder(report, force=force)
-    from shufflecheck.mixing import METRIC_NAMES, check_target, minimum_steps
+    from shufflecheck.core.distances import METRIC_NAMES, check_target, minimum_steps
     from shufflecheck.models import default_max_steps, distance_curve
 
     goal = check_target(target)
@@ -111,11 +111,11 @@ def mix(
     payload = _payload(curve, goal, metric.value, minimum, bound_minimum)
     figure = _figure(curve, chosen, goal, minimum[chosen]) if plot or report else None
     if plot is not None:
-        from shufflecheck.fileio import atomic_write
+        from shufflecheck.common.files import atomic_write
 
         atomic_write(plot, figure.png)
     if report is not None:
-        from shufflecheck.report.mix_report import mixing_report
+        from shufflecheck.report.builders.mix import mixing_report
         from shufflecheck.report.provenance import collect_provenance
 
         document = mixing_report(
@@ -172,7 +172,7 @@ _LABELS = {"total_variation": "total variation", "separation": "separation", "kl
 
 
 def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.report.render.terminal import format_table
 
     params = ", ".join(
         f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"

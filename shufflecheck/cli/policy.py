@@ -35,15 +35,15 @@ def policy(
     computed, whatever the findings; 2 for a bad policy file (with file, line and key).
     """
     check_report_folder(report, force=force)
-    from shufflecheck.policy import evaluate_policy, load_policy, policy_work
-    from shufflecheck.report.policy_report import policy_payload
+    from shufflecheck.analyses.policy import evaluate_policy, load_policy, policy_work
+    from shufflecheck.report.builders.policy import policy_payload
 
     loaded = load_policy(file)
     with progress(policy_work(loaded), "assessing procedures") as update:
         result = evaluate_policy(loaded, progress=update)
     payload = policy_payload(result)
     if report is not None:
-        from shufflecheck.report.policy_report import policy_report
+        from shufflecheck.report.builders.policy import policy_report
         from shufflecheck.report.provenance import collect_provenance
 
         document = policy_report(
@@ -68,9 +68,9 @@ def policy(
 
 def print_policy(result) -> None:
     """Terminal view: one line per procedure, then the audits."""
-    from shufflecheck.assessment import CAUTION
-    from shufflecheck.report.mix_report import METRIC_LABELS
-    from shufflecheck.report.terminal import format_table
+    from shufflecheck.analyses.assess import CAUTION
+    from shufflecheck.report.builders.mix import METRIC_LABELS
+    from shufflecheck.report.render.terminal import format_table
 
     p = result.policy
     label = METRIC_LABELS[p.metric]

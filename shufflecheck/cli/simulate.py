@@ -62,10 +62,10 @@ def simulate(
     """
     import datetime as dt
 
-    from shufflecheck.decks import load_deck
-    from shufflecheck.errors import InputError
-    from shufflecheck.logs import write_log
-    from shufflecheck.procedures import procedure_from_argument, simulate_play
+    from shufflecheck.common.errors import InputError
+    from shufflecheck.models.procedures import procedure_from_argument, simulate_play
+    from shufflecheck.records.cards import load_deck
+    from shufflecheck.records.logs import write_log
 
     if out.exists() and not force:
         raise InputError(f"{out} exists; pass --force to replace it")
@@ -99,7 +99,7 @@ def simulate(
     if definition is not None:
         write_log(out, orders, definition, columns)
     else:
-        from shufflecheck.decks import integer_deck
+        from shufflecheck.records.cards import integer_deck
 
         write_log(out, orders, integer_deck(n), columns, labels="int1")
     summary = {

@@ -14,9 +14,9 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
-from shufflecheck.characters import Eigenvalue
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import MixingCurve
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import Eigenvalue
+from shufflecheck.core.distances import MixingCurve
 
 __all__ = [
     "EXACT_MODELS",

@@ -2,7 +2,7 @@
 
 A :class:`Step` is one move of a dealing procedure (a riffle, a strip, a cut, ...). Its
 fields are its parameters, with documented defaults; ``__post_init__`` validates them and
-raises :class:`~shufflecheck.errors.InputError` naming the parameter. The procedure parser
+raises :class:`~shufflecheck.common.errors.InputError` naming the parameter. The procedure parser
 builds steps from text such as ``strip(packets=5)`` through :data:`STEP_TYPES`.
 
 ``apply(decks, rng)`` performs one physical step on every row of ``decks`` (see
@@ -22,10 +22,10 @@ from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 if TYPE_CHECKING:
-    from shufflecheck.mixing import DistanceRow
+    from shufflecheck.core.distances import DistanceRow
 
 __all__ = ["STEP_TYPES", "Step", "register_step", "sample_step"]
 

@@ -42,8 +42,8 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.models.permute import apply_in_blocks
 

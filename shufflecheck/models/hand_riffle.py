@@ -64,8 +64,8 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models import riffle
 from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights

@@ -49,8 +49,8 @@ from typing import ClassVar
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 

@@ -40,8 +40,8 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow
 from shufflecheck.models.base import Step, register_step, sample_step
 
 __all__ = [

@@ -35,10 +35,10 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.characters import Eigenvalue
-from shufflecheck.counting import eulerian_row, stirling1_row
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import Eigenvalue
+from shufflecheck.core.counting import eulerian_row, stirling1_row
+from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, label_bits, place_by_sort_key
 

@@ -68,8 +68,8 @@ from functools import cache
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 

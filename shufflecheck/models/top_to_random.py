@@ -33,10 +33,10 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.characters import Eigenvalue
-from shufflecheck.counting import rencontres_row, stirling2_columns
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import Eigenvalue
+from shufflecheck.core.counting import rencontres_row, stirling2_columns
+from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
 from shufflecheck.models.base import Step, register_step
 from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks, invert
 

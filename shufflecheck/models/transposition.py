@@ -40,16 +40,15 @@ from functools import lru_cache
 
 import numpy as np
 
-from shufflecheck.characters import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import (
     Eigenvalue,
     character_table,
     group_eigenvalues,
     transposition_ratio,
 )
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, MixingCurve
-from shufflecheck.models.base import Step, register_step, sample_step
-from shufflecheck.partitions import (
+from shufflecheck.core.distances import DistanceRow, MixingCurve
+from shufflecheck.core.partitions import (
     content_sum,
     content_sums,
     dimension,
@@ -58,6 +57,7 @@ from shufflecheck.partitions import (
     partitions,
     z,
 )
+from shufflecheck.models.base import Step, register_step, sample_step
 
 __all__ = [
     "MAX_BOUND_CARDS",
@@ -401,7 +401,7 @@ def class_law_fourier(
 
 
 def _fourier_rows(cards: int, max_steps: int, hold: Fraction | None) -> tuple[DistanceRow, ...]:
-    from shufflecheck.mixing import distances_from_groups
+    from shufflecheck.core.distances import distances_from_groups
 
     fact = math.factorial(cards)
     rows = []

@@ -13,7 +13,7 @@ number without its label. Build values with :func:`exact`, :func:`upper_bound`,
 :func:`lower_bound` and :func:`estimate`.
 
 Everything here is generic: the module knows nothing of shuffles or audits. The renderers
-(:mod:`~shufflecheck.report.markdown`, :mod:`~shufflecheck.report.html`) and
+(:mod:`~shufflecheck.report.render.markdown`, :mod:`~shufflecheck.report.render.html`) and
 :func:`render_json` are pure functions of a report: the same report renders to the same text.
 """
 
@@ -31,7 +31,7 @@ from fractions import Fraction
 from pathlib import PurePath
 from typing import Any, Literal
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.report.provenance import STANDARD_CAUTIONS, Provenance
 
 __all__ = [

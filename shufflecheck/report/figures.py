@@ -38,7 +38,7 @@ from typing import Any
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.report.document import HOW_OBTAINED, Figure
 
 __all__ = [

@@ -20,8 +20,8 @@ from dataclasses import dataclass
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
-from shufflecheck.errors import InputError
-from shufflecheck.fileio import sha256_file
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import sha256_file
 
 __all__ = ["STANDARD_CAUTIONS", "InputFile", "Provenance", "collect_provenance"]
 

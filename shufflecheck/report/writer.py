@@ -25,11 +25,11 @@ import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
-from shufflecheck.errors import InputError
-from shufflecheck.fileio import default_mode
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import default_mode
 from shufflecheck.report.document import FORMAT_NAME, Report, render_json
-from shufflecheck.report.html import render_html
-from shufflecheck.report.markdown import render_markdown
+from shufflecheck.report.render.html import render_html
+from shufflecheck.report.render.markdown import render_markdown
 
 __all__ = ["REPORT_FILES", "WrittenReport", "render_files", "write_report"]
 

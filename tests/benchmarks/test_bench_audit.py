@@ -11,8 +11,8 @@ import numpy as np
 
 from shufflecheck.audit import BatterySummary, plan_decks
 from shufflecheck.audit.nulls import inversions_law, sum_tail_logs
-from shufflecheck.decks import STANDARD_52
 from shufflecheck.models import riffle
+from shufflecheck.records.cards import STANDARD_52
 
 from ._memory import peak_rss_mb
 
@@ -51,7 +51,7 @@ def test_battery_memory(benchmark, figures):
     setup = """
     import numpy as np
     from shufflecheck.audit import BatterySummary
-    from shufflecheck.decks import STANDARD_52
+    from shufflecheck.records.cards import STANDARD_52
     rng = np.random.default_rng(1)
     base = np.tile(np.arange(52, dtype=np.int16), (100_000, 1))
     """

@@ -1,6 +1,6 @@
 """The whole audit of a large log (issue 5: a CSV log of 1,000,000 decks of 52 cards, about
 160 MB: full battery without Monte Carlo nulls in <= 60 s, peak memory <= 2 GB), measured
-end to end through :func:`shufflecheck.logaudit.audit_log`: reading, validating, relating
+end to end through :func:`shufflecheck.analyses.audit_log.audit_log`: reading, validating, relating
 every deck to the previous one, and the battery with Holm's method."""
 
 from __future__ import annotations
@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from shufflecheck.logs import write_log
+from shufflecheck.records.logs import write_log
 
 from ._memory import peak_rss_mb
 
@@ -37,7 +37,7 @@ def million(tmp_path_factory):
 
 
 def _audit(path):
-    from shufflecheck.logaudit import audit_log
+    from shufflecheck.analyses.audit_log import audit_log
 
     # position test asymptotic: D/n is far above 5, so no Monte Carlo null runs anyway
     return audit_log(path)
@@ -59,7 +59,7 @@ def test_full_battery_memory(benchmark, figures, million):
     _before, after = benchmark.pedantic(
         peak_rss_mb,
         args=(
-            "from shufflecheck.logaudit import audit_log",
+            "from shufflecheck.analyses.audit_log import audit_log",
             f"audit_log({str(million)!r}, by='table', time='recorded_at')",
         ),
         rounds=1,

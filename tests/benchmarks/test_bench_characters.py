@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-from shufflecheck import characters, partitions
+from shufflecheck.core import characters, partitions
 
 from ._memory import peak_rss_mb
 
@@ -26,7 +26,10 @@ def test_whole_table(benchmark, figures, n, target):
 def test_table_memory_s28(benchmark, figures):
     before, after = benchmark.pedantic(
         peak_rss_mb,
-        args=("from shufflecheck.characters import character_table", "t = character_table(28)"),
+        args=(
+            "from shufflecheck.core.characters import character_table",
+            "t = character_table(28)",
+        ),
         rounds=1,
         iterations=1,
     )

@@ -9,7 +9,7 @@ import time
 import numpy as np
 import pytest
 
-from shufflecheck.logs import Reference, read_log, write_log
+from shufflecheck.records.logs import Reference, read_log, write_log
 
 from ._memory import peak_rss_mb
 
@@ -86,7 +86,7 @@ def test_read_memory(benchmark, figures, million):
     before, after = benchmark.pedantic(
         peak_rss_mb,
         args=(
-            "from shufflecheck.logs import read_log",
+            "from shufflecheck.records.logs import read_log",
             f"total = sum(len(c) for c in read_log({str(path)!r}))\nassert total == {DECKS}",
         ),
         rounds=1,
@@ -98,7 +98,7 @@ def test_read_memory(benchmark, figures, million):
 
 def test_read_symbols_and_lower_case(benchmark, figures, tmp_path):
     """Codes as people type them (``10♠``, ``q♥``) take the slower multi-byte lookup."""
-    from shufflecheck.decks import STANDARD_52
+    from shufflecheck.records.cards import STANDARD_52
 
     decks = np.random.default_rng(7).permuted(
         np.tile(np.arange(N, dtype=np.int16), (200_000, 1)), axis=1

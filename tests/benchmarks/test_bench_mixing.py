@@ -5,7 +5,7 @@ decks of 52 cards through 7 riffles <= 1 s on one core)."""
 
 from __future__ import annotations
 
-from shufflecheck import counting
+from shufflecheck.core import counting
 from shufflecheck.models import riffle, top_to_random, transposition
 
 

@@ -55,7 +55,7 @@ def test_shelf_three_passes(benchmark, figures, shuffled):
 
 
 def _procedure_sampling(repeats: int) -> np.ndarray:
-    from shufflecheck.procedures import parse_procedure
+    from shufflecheck.models.procedures import parse_procedure
 
     procedure = parse_procedure("riffle x3, strip, riffle, cut")
     rng = np.random.default_rng(9)
@@ -76,8 +76,8 @@ def test_procedure_sampling(benchmark, figures):
 
 
 def test_full_assessment(benchmark, figures):
-    from shufflecheck.assessment import assess
-    from shufflecheck.procedures import parse_procedure
+    from shufflecheck.analyses.assess import assess
+    from shufflecheck.models.procedures import parse_procedure
 
     procedure = parse_procedure("riffle x3, strip, riffle, cut")
     result = benchmark.pedantic(
@@ -101,8 +101,8 @@ def test_full_assessment_memory(benchmark, figures):
     _, after = benchmark.pedantic(
         peak_rss_mb,
         args=(
-            "from shufflecheck.assessment import assess\n"
-            "from shufflecheck.procedures import parse_procedure",
+            "from shufflecheck.analyses.assess import assess\n"
+            "from shufflecheck.models.procedures import parse_procedure",
             f"assess(parse_procedure('riffle x3, strip, riffle, cut'), {CARDS}, repeats=10, "
             f"decks={DECKS}, rng=1)",
         ),

@@ -1,5 +1,5 @@
 """Fast token -> label mapping for whole chunks (vectorised); the authoritative check of a
-row is :func:`shufflecheck.decks.check_arrangement`."""
+row is :func:`shufflecheck.records.orders.check_arrangement`."""
 
 from __future__ import annotations
 
@@ -10,10 +10,8 @@ from functools import cache
 import numpy as np
 import pandas as pd
 
-from shufflecheck.decks import (
-    DeckDefinition,
-    integer_value,
-)
+from shufflecheck.records.cards import DeckDefinition
+from shufflecheck.records.orders import integer_value
 
 # --------------------------------------------------------------------------------------
 # fast token -> label mapping (vectorised); the authoritative check is check_arrangement

@@ -14,8 +14,8 @@ from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 
-from shufflecheck.policy import PolicyResult, evaluate_policy, load_policy, policy_work
-from shufflecheck.procedures import parse_procedure
+from shufflecheck.analyses.policy import PolicyResult, evaluate_policy, load_policy, policy_work
+from shufflecheck.models.procedures import parse_procedure
 
 __all__ = ["DEMO_POWER_RIFFLES", "DemoResult", "demo_folder", "demo_work", "run_demo"]
 
@@ -42,7 +42,7 @@ def demo_work() -> int:
 
 def run_demo(*, progress: Callable[[int], None] | None = None) -> DemoResult:
     """Evaluate the demo policy (with its log audits) and plan audits for ideal riffles."""
-    from shufflecheck.planning import plan_power
+    from shufflecheck.analyses.plan import plan_power
 
     policy = load_policy(demo_folder() / "policy.toml")
     result = evaluate_policy(policy, progress=progress)

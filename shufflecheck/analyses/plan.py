@@ -8,7 +8,7 @@ the procedure) and uses the built-in deck's suits and colours for 52-card decks.
 from __future__ import annotations
 
 from shufflecheck.audit.power import PowerPlan
-from shufflecheck.procedures import Procedure
+from shufflecheck.models.procedures import Procedure
 
 __all__ = ["plan_power", "planning_json"]
 
@@ -25,7 +25,7 @@ def plan_power(
 ) -> list[tuple[int, PowerPlan]]:
     """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
     from shufflecheck.audit import plan_decks
-    from shufflecheck.decks import load_deck
+    from shufflecheck.records.cards import load_deck
 
     proc.check_cards(cards)
     deck = load_deck() if cards == 52 else None

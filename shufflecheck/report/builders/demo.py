@@ -4,16 +4,16 @@ from __future__ import annotations
 
 from typing import Any
 
+from shufflecheck.report.builders.policy import policy_report
+from shufflecheck.report.builders.power import power_curves, power_methods, power_section
 from shufflecheck.report.document import Report
-from shufflecheck.report.policy_report import policy_report
-from shufflecheck.report.power_report import power_curves, power_methods, power_section
 from shufflecheck.report.provenance import Provenance
 
 __all__ = ["demo_report"]
 
 
 def demo_report(demo, *, payload: dict[str, Any], provenance: Provenance) -> Report:
-    """Build the demo report (``demo`` is a :class:`shufflecheck.demo.DemoResult`)."""
+    """Build the demo report (``demo`` is a :class:`shufflecheck.analyses.demo.DemoResult`)."""
     from shufflecheck.report.figures import power_figure
 
     figure = power_figure(power_curves(demo.power), x_name="ideal riffles", name="power")

@@ -25,7 +25,7 @@ import math
 from fractions import Fraction
 from functools import cache
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = [
     "binomial_row",

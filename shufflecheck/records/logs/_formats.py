@@ -25,11 +25,9 @@ from typing import IO, Any
 import numpy as np
 import pandas as pd
 
-from shufflecheck.decks import (
-    DeckDefinition,
-)
-from shufflecheck.errors import InputError
-from shufflecheck.logs._common import _POSITION
+from shufflecheck.common.errors import InputError
+from shufflecheck.records.cards import DeckDefinition
+from shufflecheck.records.logs._common import _POSITION
 
 # --------------------------------------------------------------------------------------
 # raw chunks, as each format delivers them

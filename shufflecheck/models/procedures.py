@@ -33,7 +33,7 @@ from pathlib import Path
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 from shufflecheck.models import load_step_types
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
@@ -313,7 +313,7 @@ _PROCEDURE_KEYS = {"name", "cards", "decks", "steps", "description"}
 
 def load_procedure(path: str | Path) -> Procedure:
     """Read a procedure TOML file (keys: name, cards or decks, steps, description)."""
-    from shufflecheck.tomlfiles import load_toml
+    from shufflecheck.common.tomlfiles import load_toml
 
     doc = load_toml(path)
     return procedure_from_table(doc, doc.data, table=None)

@@ -26,7 +26,7 @@ from functools import cache
 
 import numpy as np
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 Partition = tuple[int, ...]
 

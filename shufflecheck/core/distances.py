@@ -36,7 +36,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Literal
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 Method = Literal["exact", "bound", "estimate"]
 METRICS = ("total_variation", "separation", "kl_bits")

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 if sys.version_info >= (3, 11):
     import tomllib

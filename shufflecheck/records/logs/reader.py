@@ -12,17 +12,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from shufflecheck.decks import (
-    LABEL_MODES,
-    Arrangement,
-    DeckDefinition,
-    Labels,
-    check_arrangement,
-    load_deck,
-)
-from shufflecheck.errors import InputError
-from shufflecheck.fileio import atomic_open
-from shufflecheck.logs._common import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import atomic_open
+from shufflecheck.records.cards import LABEL_MODES, DeckDefinition, Labels, load_deck
+from shufflecheck.records.logs._common import (
     _QUARANTINE_HEADER,
     DEFAULT_CHUNK_ROWS,
     FORMATS,
@@ -31,14 +24,15 @@ from shufflecheck.logs._common import (
     LogSummary,
     SetAside,
 )
-from shufflecheck.logs._formats import (
+from shufflecheck.records.logs._formats import (
     _Bad,
     _csv_chunks,
     _jsonl_chunks,
     _parquet_chunks,
     _Raw,
 )
-from shufflecheck.logs._tokens import _map_tokens, _permutation_rows, _scan_text
+from shufflecheck.records.logs._tokens import _map_tokens, _permutation_rows, _scan_text
+from shufflecheck.records.orders import Arrangement, check_arrangement
 
 # --------------------------------------------------------------------------------------
 # the reader

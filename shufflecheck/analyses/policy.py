@@ -44,10 +44,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import METRIC_NAMES, check_target
-from shufflecheck.procedures import Procedure, deck_size, parse_procedure
-from shufflecheck.tomlfiles import TomlFile, load_toml
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.tomlfiles import TomlFile, load_toml
+from shufflecheck.core.distances import METRIC_NAMES, check_target
+from shufflecheck.models.procedures import Procedure, deck_size, parse_procedure
 
 __all__ = [
     "LogSpec",
@@ -415,7 +415,7 @@ def decide(
 
 def policy_work(policy: Policy) -> int:
     """Units of work :func:`evaluate_policy` reports to its progress callback."""
-    from shufflecheck.assessment import assessment_work
+    from shufflecheck.analyses.assess import assessment_work
 
     return sum(assessment_work(policy.decks, proc.max_repeats) for proc in policy.procedures)
 
@@ -427,7 +427,7 @@ def evaluate_policy(
 
     ``progress`` is called with the units done so far (out of :func:`policy_work`).
     """
-    from shufflecheck.assessment import assess, assessment_work
+    from shufflecheck.analyses.assess import assess, assessment_work
 
     decisions = []
     offset = 0
@@ -454,7 +454,7 @@ def evaluate_policy(
 
 
 def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
-    from shufflecheck.logaudit import audit_log
+    from shufflecheck.analyses.audit_log import audit_log
 
     try:
         return audit_log(

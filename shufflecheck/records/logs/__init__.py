@@ -19,7 +19,8 @@ problem, raw content) and reading goes on. Input files are opened read-only.
 Reference orders (:class:`Reference`): ``previous`` is the default (each deck against the
 deck before it in the log, of the same group when grouped; the first deck is only a
 reference), ``first``, ``deck`` or an explicit order. :class:`ReferenceStream` turns chunks
-into relative permutations (:func:`shufflecheck.decks.relative_to`) across chunk boundaries.
+into relative permutations (:func:`shufflecheck.records.orders.relative_to`) across chunk
+boundaries.
 
 References
 ----------
@@ -33,10 +34,10 @@ References
 
 from __future__ import annotations
 
-from shufflecheck.logs._common import REASONS, LogChunk, LogFormat, LogSummary, SetAside
-from shufflecheck.logs.reader import LogReader, read_log
-from shufflecheck.logs.reference import Reference, ReferenceStream, RelativeChunk
-from shufflecheck.logs.writer import write_log
+from shufflecheck.records.logs._common import REASONS, LogChunk, LogFormat, LogSummary, SetAside
+from shufflecheck.records.logs.reader import LogReader, read_log
+from shufflecheck.records.logs.reference import Reference, ReferenceStream, RelativeChunk
+from shufflecheck.records.logs.writer import write_log
 
 __all__ = [
     "REASONS",

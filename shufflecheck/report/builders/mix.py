@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from shufflecheck.mixing import MixingCurve
+from shufflecheck.core.distances import MixingCurve
 from shufflecheck.report.document import MethodNote, Report, Section, Table, exact, upper_bound
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.report.sources import (

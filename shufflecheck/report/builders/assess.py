@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from shufflecheck.mixing import Quantity
+from shufflecheck.core.distances import Quantity
 from shufflecheck.report.document import (
     MethodNote,
     Report,
@@ -30,7 +30,7 @@ __all__ = ["as_value", "assessment_methods", "assessment_report"]
 
 
 def as_value(q: Quantity | None, *, digits: int = 4) -> Value | None:
-    """A labelled report cell from a :class:`~shufflecheck.mixing.Quantity`."""
+    """A labelled report cell from a :class:`~shufflecheck.core.distances.Quantity`."""
     if q is None or q.value is None:
         return None
     if q.kind == "exact":

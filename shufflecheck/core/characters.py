@@ -41,8 +41,8 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.partitions import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.partitions import (
     Partition,
     check_partition,
     check_shape,
@@ -301,7 +301,7 @@ class CharacterTable:
     """The exact character table of ``S_n``.
 
     ``values[i, j]`` is ``chi^{shapes[i]}`` at the class ``classes[j]``. Shapes and classes
-    are both in the reverse lexicographic order of :func:`shufflecheck.partitions.partitions`
+    are both in the reverse lexicographic order of :func:`shufflecheck.core.partitions.partitions`
     (trivial character first, sign character last; identity class last). ``values`` is
     read-only, int64 while that cannot overflow (``n <= 35``) and Python ints otherwise.
     """

@@ -10,15 +10,10 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
-from shufflecheck.decks import (
-    DeckDefinition,
-    Labels,
-    load_deck,
-    parse_order,
-    relative_to,
-)
-from shufflecheck.errors import InputError
-from shufflecheck.logs._common import LogChunk
+from shufflecheck.common.errors import InputError
+from shufflecheck.records.cards import DeckDefinition, Labels, load_deck
+from shufflecheck.records.logs._common import LogChunk
+from shufflecheck.records.orders import parse_order, relative_to
 
 # --------------------------------------------------------------------------------------
 # reference orders and relative permutations

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 from typing import Any
 
-from shufflecheck.report.assess_report import assessment_methods, assessment_table
-from shufflecheck.report.audit_report import audit_methods, audit_section
+from shufflecheck.report.builders.assess import assessment_methods, assessment_table
+from shufflecheck.report.builders.audit import audit_methods, audit_section
+from shufflecheck.report.builders.mix import METRIC_LABELS
 from shufflecheck.report.document import MethodNote, Report, Section, Table
-from shufflecheck.report.mix_report import METRIC_LABELS
 from shufflecheck.report.provenance import Provenance
 
 __all__ = ["policy_figure", "policy_payload", "policy_report", "policy_sections"]
@@ -32,7 +32,7 @@ def _decision_cells(decision) -> tuple:
 
 def policy_payload(result) -> dict[str, Any]:
     """The ``--json`` form of a policy result."""
-    from shufflecheck.assessment import assessment_json
+    from shufflecheck.analyses.assess import assessment_json
 
     policy = result.policy
     out = {

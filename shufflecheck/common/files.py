@@ -16,7 +16,7 @@ from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import IO
 
-from shufflecheck.errors import InputError
+from shufflecheck.common.errors import InputError
 
 __all__ = ["atomic_open", "atomic_save", "atomic_write", "default_mode", "sha256_file"]
 

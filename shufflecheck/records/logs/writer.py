@@ -1,4 +1,4 @@
-"""Writing logs that :func:`~shufflecheck.logs.read_log` reads back exactly (atomically)."""
+"""Writing logs that :func:`~shufflecheck.records.logs.read_log` reads back exactly (atomically)."""
 
 from __future__ import annotations
 
@@ -13,13 +13,10 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
-from shufflecheck.decks import (
-    DeckDefinition,
-    load_deck,
-)
-from shufflecheck.errors import InputError
-from shufflecheck.fileio import atomic_open
-from shufflecheck.logs._tokens import _permutation_rows
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import atomic_open
+from shufflecheck.records.cards import DeckDefinition, load_deck
+from shufflecheck.records.logs._tokens import _permutation_rows
 
 # --------------------------------------------------------------------------------------
 # writing

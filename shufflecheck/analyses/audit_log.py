@@ -1,5 +1,6 @@
 """Audit one recorded log: read and validate it, relate every deck to its reference, and run
-the battery of tests (the glue between :mod:`shufflecheck.logs` and :mod:`shufflecheck.audit`).
+the battery of tests (the glue between :mod:`shufflecheck.records.logs` and
+:mod:`shufflecheck.audit`).
 
 The log is streamed in chunks; every test is built from mergeable summaries, so memory
 stays bounded for logs of millions of decks. With ``time`` the log must already be in time
@@ -18,9 +19,9 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult, BatterySummary
-from shufflecheck.decks import DeckDefinition, integer_deck, load_deck
-from shufflecheck.errors import InputError
-from shufflecheck.logs import LogSummary, Reference, read_log
+from shufflecheck.common.errors import InputError
+from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
+from shufflecheck.records.logs import LogSummary, Reference, read_log
 
 __all__ = ["LogAudit", "audit_log"]
 

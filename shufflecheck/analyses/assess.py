@@ -45,12 +45,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from shufflecheck.errors import InputError
-from shufflecheck.mixing import DistanceRow, Quantity
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.distances import DistanceRow, Quantity
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.models.procedures import Procedure
 from shufflecheck.models.riffle import Riffle
-from shufflecheck.procedures import Procedure
 
 __all__ = [
     "CAUTION",
@@ -334,7 +334,7 @@ def assess(
     Parameters
     ----------
     procedure : Procedure
-        The dealing procedure (see :mod:`shufflecheck.procedures`).
+        The dealing procedure (see :mod:`shufflecheck.models.procedures`).
     cards : int
         Deck size (52; 312 for a six-deck shoe treated as distinct cards).
     repeats : int
@@ -395,7 +395,7 @@ def assess(
 def _row(
     procedure: Procedure, cards: int, r: int, tally: _Tally, confidence: float
 ) -> AssessmentRow:
-    from shufflecheck.counting import harmonic
+    from shufflecheck.core.counting import harmonic
 
     decks = int(tally.halves.sum())
     z = _normal_quantile(0.5 + confidence / 2)

@@ -1,0 +1,2 @@
+"""One report builder per analysis: an analysis result in, a
+:class:`~shufflecheck.report.document.Report` out."""

@@ -1,0 +1,1 @@
+"""Renderers of a report document: Markdown, self-contained HTML and terminal tables."""
