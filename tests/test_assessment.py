@@ -34,7 +34,7 @@ class TestExactBlocks:
         proc = parse_procedure("riffle x3")
         for r in (1, 2, 3):
             whole, _ = exact_blocks(proc, r, 52)
-            assert whole.method == "exact"
+            assert whole.kind == "exact"
             assert whole.total_variation == riffle.exact_distances(52, 3 * r).total_variation
 
     def test_mixed_packet_counts_compose(self):
@@ -93,7 +93,7 @@ class TestLowerBounds:
         row = result.rows[0]
         assert 0.25 < row.lower["total_variation"].value <= row.exact.total_variation
         assert row.lower["kl_bits"].value <= row.exact.kl_bits
-        assert row.lower["total_variation"].label == "lower bound (99% confidence)"
+        assert row.lower["total_variation"].label_text == "lower bound (99% confidence)"
 
 
 class TestGuessing:

@@ -75,7 +75,7 @@ class TestVerdicts:
         for test in data["tests"]:
             assert {"name", "statistic", "p_value", "p_adjusted", "method", "effect"} <= set(test)
             assert 0 < test["p_value"] <= test["p_adjusted"] <= 1
-            assert test["effect"]["how"] == "estimate" and test["effect"]["text"]
+            assert test["effect"]["kind"] == "estimate" and test["effect"]["text"]
 
     def test_unshuffled_log_flagged_everywhere(self):
         decks = np.tile(np.arange(52, dtype=np.int16), (30, 1))

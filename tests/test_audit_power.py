@@ -67,10 +67,10 @@ class TestPlans:
         assert plan.per_test_level == pytest.approx(0.01 / 17)
         assert plan.best().test == "rising-sequences"
         row = next(r for r in plan.rows if r.test == "rising-sequences")
-        assert row.power >= 0.9 and row.method == "estimate"
+        assert row.power >= 0.9 and row.kind == "estimate"
         assert 0 < row.relative_standard_error < 0.1
         data = plan.as_json()
-        assert data["fewest_decks"] == plan.best().decks and data["how"] == "estimate"
+        assert data["fewest_decks"] == plan.best().decks and data["kind"] == "estimate"
 
     def test_uniform_sampler_needs_no_decks_it_can_find(self):
         def uniform(count, rng):

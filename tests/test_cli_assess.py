@@ -77,7 +77,7 @@ class TestAssessExact:
     def test_riffle_x7(self):
         data = assess_json("riffle x7", "--repeat", 1, "--decks", DECKS)
         exact = data["rows"][0]["exact"]
-        assert exact["method"] == "exact"
+        assert exact["kind"] == "exact"
         # Bayer & Diaconis (1992), variation distance after 7 riffles of 52 cards: 0.334
         assert round(exact["total_variation"], 3) == 0.334
 
@@ -86,7 +86,7 @@ class TestAssessExact:
         # Bayer & Diaconis (1992) table: 0.924 after 5 riffles, 0.043 after 10
         assert round(first["total_variation"], 3) == 0.924
         assert round(second["total_variation"], 3) == 0.043
-        assert first["method"] == second["method"] == "exact"
+        assert first["kind"] == second["kind"] == "exact"
 
     def test_lower_bound_below_exact(self, riffles):
         for row in riffles["rows"]:

@@ -127,7 +127,7 @@ class TestAuditContract:
 
     def test_effects_in_plain_units(self, data):
         for test in data["tests"]:
-            assert test["effect"]["how"] == "estimate"
+            assert test["effect"]["kind"] == "estimate"
             assert test["effect"]["text"]
 
     def test_alpha_option(self, logs):

@@ -31,7 +31,7 @@ from ._cli import command_json, one_line_error, run, runner
 BAYER_DIACONIS_52 = (1.000, 1.000, 1.000, 1.000, 0.924, 0.614, 0.334, 0.167, 0.085, 0.043)
 
 CONTRACT = {"model", "cards", "parameters", "target", "metric", "rows", "minimum_steps"}
-ROW_KEYS = {"steps", "total_variation", "separation", "kl_bits", "method"}
+ROW_KEYS = {"steps", "total_variation", "separation", "kl_bits", "kind"}
 METRICS = ("total_variation", "separation", "kl_bits")
 
 
@@ -81,7 +81,7 @@ class TestMixJsonContract:
         assert data["minimum_steps"]["total_variation"] == 7
 
     def test_every_row_exact(self, data):
-        assert {row["method"] for row in data["rows"]} == {"exact"}
+        assert {row["kind"] for row in data["rows"]} == {"exact"}
 
     def test_minimum_is_first_step_meeting_target_on_every_metric(self, data):
         for metric in METRICS:
@@ -169,7 +169,7 @@ class TestMixAgainstBruteForce:
         expected = brute_rows(outcomes(n), n, steps)  # brute force over all n! arrangements
         assert len(data["rows"]) == steps
         for row, (tv, sep, kl) in zip(data["rows"], expected, strict=True):
-            assert row["method"] == "exact"
+            assert row["kind"] == "exact"
             assert row["total_variation"] == pytest.approx(tv, abs=1e-12)
             assert row["separation"] == pytest.approx(sep, abs=1e-12)
             assert row["kl_bits"] == pytest.approx(kl, rel=1e-7, abs=1e-12)
@@ -180,7 +180,7 @@ class TestMixAgainstBruteForce:
         assert data["parameters"].get("shelves") == shelves
         expected = brute_rows(shelf_outcomes(n, shelves), n, 3)  # brute force, all n! orders
         for row, (tv, sep, kl) in zip(data["rows"], expected, strict=True):
-            assert row["method"] == "exact"
+            assert row["kind"] == "exact"
             assert row["total_variation"] == pytest.approx(tv, abs=1e-12)
             assert row["separation"] == pytest.approx(sep, abs=1e-12)
             assert row["kl_bits"] == pytest.approx(kl, rel=1e-7, abs=1e-12)
@@ -215,8 +215,8 @@ class TestMixAgainstBruteForce:
         data = mix_json("transposition", "--cards", 8, "--max-steps", 20)
         assert data["bounds"], "the upper bound lemma curve is missing"
         for row, bound in zip(data["rows"], data["bounds"], strict=True):
-            assert bound["method"] == "bound"
-            assert row["method"] == "exact"
+            assert bound["kind"] == "bound"
+            assert row["kind"] == "exact"
             # upper bound lemma (Diaconis & Shahshahani 1981): a rigorous upper bound on TV
             assert bound["total_variation"] + 1e-12 >= row["total_variation"]
 
@@ -352,7 +352,7 @@ class TestUpperBoundLemmaOnly:
         )
         assert result.exit_code == 0, result.output
         data = json.loads(result.stdout)
-        assert {r["method"] for r in data["rows"]} == {"bound"}
+        assert {r["kind"] for r in data["rows"]} == {"bound"}
         assert all(r["separation"] is None for r in data["rows"])
         k = data["minimum_steps"]["total_variation"]
         assert k is not None and data["rows"][k - 1]["total_variation"] <= 0.1

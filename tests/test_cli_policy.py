@@ -51,7 +51,7 @@ class TestPolicyMinimums:
         # Bayer & Diaconis (1992), table of variation distance for 52 cards: TV <= 0.1 is
         # first reached at 9 riffles (0.167 at 8, 0.085 at 9)
         assert procedure["minimum"] == 9
-        assert procedure["how"] == "exact"
+        assert procedure["kind"] == "exact"
 
     def test_published_table_at_05(self, tmp_path):
         data = policy_json(riffle_policy(tmp_path, 0.5))
@@ -59,7 +59,7 @@ class TestPolicyMinimums:
         # Bayer & Diaconis (1992): TV <= 0.5 first reached at 7 riffles (0.614 at 6, 0.334
         # at 7)
         assert procedure["minimum"] == 7
-        assert procedure["how"] == "exact"
+        assert procedure["kind"] == "exact"
 
     def test_failed_house_count_is_a_finding(self, tmp_path):
         path = riffle_policy(tmp_path, 0.1, house=7)
@@ -96,7 +96,7 @@ class TestPolicyMinimums:
         # the exactly analysed block riffle x9 has TV 0.085 (Bayer & Diaconis 1992) and a
         # further step never increases TV: one repetition is certified by a rigorous bound
         assert procedure["minimum"] == 1
-        assert procedure["how"] == "bound"
+        assert procedure["kind"] == "bound"
 
     def test_estimate_only_is_not_certified(self, tmp_path):
         path = write(
@@ -115,7 +115,7 @@ class TestPolicyMinimums:
         (procedure,) = policy_json(path)["procedures"]
         # no step of this procedure has an exact law: nothing can certify the target
         assert procedure["minimum"] is None
-        assert procedure["how"] == "estimate"
+        assert procedure["kind"] == "estimate"
 
 
 @pytest.fixture(scope="module")

@@ -20,7 +20,7 @@ TOP_KEYS = {
     "per_test_level",
     "plans",
 }
-ROW_KEYS = {"test", "title", "decks", "power", "how", "method"}
+ROW_KEYS = {"test", "title", "decks", "power", "kind", "method"}
 
 
 def fewest(plan: dict) -> int | None:
@@ -52,7 +52,7 @@ class TestPowerJson:
             assert len(plan["rows"]) == riffles["tests_in_battery"]
             for row in plan["rows"]:
                 assert ROW_KEYS <= set(row)
-                assert row["how"] == "estimate"
+                assert row["kind"] == "estimate"
                 if row["decks"] is not None:
                     assert row["decks"] >= 1
                     assert row["power"] >= riffles["power"] - 1e-9

@@ -153,7 +153,7 @@ class TestDemoAnswers:
         answer = next(a for a in report["answer"] if a.startswith("Table 7:"))
         assert answer.startswith("Table 7: FLAGGED") and "Since when" in answer
         start = table7["since_when"]["start"]
-        assert table7["since_when"]["how"] == "estimate"
+        assert table7["since_when"]["kind"] == "estimate"
         # The README injects the fault at simulated deck 1601. A change point of a mean
         # shift delta in noise of standard deviation sigma is located to within about
         # (sigma / delta)^2 decks; here sigma^2 = H_52 - H_52^(2) ~ 2.9 (the guessing score
@@ -169,5 +169,5 @@ class TestDemoAnswers:
         procedures = {p["name"]: p for p in report["data"]["procedures"]}
         yardstick = procedures["Ideal riffles (yardstick)"]
         # Bayer & Diaconis (1992): 9 riffles first bring TV to at most 0.1; 7 do not
-        assert yardstick["minimum"] == 9 and yardstick["how"] == "exact"
+        assert yardstick["minimum"] == 9 and yardstick["kind"] == "exact"
         assert yardstick["standing"] == "fails"

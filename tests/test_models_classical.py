@@ -35,7 +35,7 @@ class TestPublishedTable:
         published = [1.000, 1.000, 1.000, 1.000, 0.924, 0.614, 0.334, 0.167, 0.085, 0.043]
         curve = riffle.distance_curve(52, 10)
         assert [round(r.total_variation, 3) for r in curve.rows] == published
-        assert all(r.method == "exact" for r in curve.rows)
+        assert all(r.kind == "exact" for r in curve.rows)
 
     def test_policy_minimums(self):
         # Bayer & Diaconis (1992) table: TV <= 0.5 first at 7 riffles, <= 0.1 first at 9
@@ -162,7 +162,7 @@ class TestTranspositionMethods:
     def test_upper_bound_lemma_is_above_exact(self, n):
         curve = transposition.distance_curve(n, 4 * n)
         for exact, bound in zip(curve.rows, curve.bounds, strict=True):
-            assert bound.method == "bound"
+            assert bound.kind == "bound"
             assert exact.total_variation <= bound.total_variation + 1e-12
 
     def test_class_law_sums_to_one(self):

@@ -52,7 +52,7 @@ def _frequencies(decks: np.ndarray) -> Counter:
 
 def _check_row(law: Law, n: int, row, tol: float = 1e-12) -> None:
     tv, sep, kl = _brute.distances(law, n)
-    assert row.method == "exact"
+    assert row.kind == "exact"
     assert row.total_variation == pytest.approx(float(tv), abs=tol)
     assert row.separation == pytest.approx(float(sep), abs=tol)
     assert row.kl_bits == pytest.approx(kl, abs=1e-9)
@@ -460,7 +460,7 @@ class TestPile:
         assert "mixes nothing" in pile.__doc__
         for times in (1, 4):
             row = step.exact_distances(52, times)
-            assert row.method == "exact"
+            assert row.kind == "exact"
             assert row.total_variation == pytest.approx(1.0)
             assert row.separation == 1.0
             assert row.kl_bits == pytest.approx(math.log2(math.factorial(52)))

@@ -15,20 +15,16 @@ from hypothesis import assume, given
 from hypothesis import strategies as st
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import format_number
+from shufflecheck.common.quantity import Quantity, estimate, exact, lower_bound, upper_bound
 from shufflecheck.report.document import (
     FORMAT_NAME,
     Figure,
     MethodNote,
     Section,
     Table,
-    Value,
-    estimate,
-    exact,
-    format_number,
     jsonable,
-    lower_bound,
     render_json,
-    upper_bound,
 )
 from shufflecheck.report.provenance import STANDARD_CAUTIONS
 from tests.test_report_example import FIXED_TIME, example_report
@@ -95,9 +91,12 @@ class TestValue:
         assert str(exact(Fraction(1, 4))) == "0.2500 (exact)"
         assert str(upper_bound(0.0123)) == "≤ 0.01230 (upper bound)"
         assert str(lower_bound(2, unit="bits")) == "≥ 2 bits (lower bound)"
-        text = str(estimate(0.1234, stderr=0.004, ci=(0.1156, 0.1312)))
+        text = str(estimate(0.1234, stderr=0.004, interval=(0.1156, 0.1312)))
         assert text == "0.1234 ± 0.0040 (s.e.), 95% CI [0.1156, 0.1312] (estimate)"
-        assert estimate(0.5, ci=(0.4, 0.6), level=0.99).number_text() == "0.50, 99% CI [0.40, 0.60]"
+        assert (
+            estimate(0.5, interval=(0.4, 0.6), confidence=0.99).number_text()
+            == "0.50, 99% CI [0.40, 0.60]"
+        )
 
     def test_estimate_rounded_to_its_uncertainty(self):
         assert estimate(1234.5678, stderr=12.3).number_text() == "1,235 ± 12 (s.e.)"
@@ -111,15 +110,15 @@ class TestValue:
     @pytest.mark.parametrize(
         "make, message",
         [
-            (lambda: Value(0.1, "guess"), "label must be one of"),
-            (lambda: Value(0.1, "bound"), "side='upper'"),
-            (lambda: Value(0.1, "exact", side="upper"), "only for bounds"),
-            (lambda: Value(0.1, "estimate"), "needs its uncertainty"),
-            (lambda: Value(0.1, "exact", stderr=0.1), "has no standard error"),
-            (lambda: Value(0.1, "estimate", ci=(0.0, 0.2)), "needs its level"),
+            (lambda: Quantity(0.1, "guess"), "kind must be one of"),
+            (lambda: Quantity(0.1, "bound"), "side='upper'"),
+            (lambda: Quantity(0.1, "exact", side="upper"), "only for bounds"),
+            (lambda: Quantity(0.1, "estimate"), "needs its uncertainty"),
+            (lambda: Quantity(0.1, "exact", stderr=0.1), "has no standard error"),
+            (lambda: Quantity(0.1, "estimate", interval=(0.0, 0.2)), "needs its level"),
             (lambda: estimate(0.1, stderr=-1.0), "stderr must be finite"),
-            (lambda: estimate(0.1, ci=(0.3, 0.2)), "low must not exceed high"),
-            (lambda: estimate(0.1, ci=(0.0, 0.2), level=95), "level must be in"),
+            (lambda: estimate(0.1, interval=(0.3, 0.2)), "low must not exceed high"),
+            (lambda: estimate(0.1, interval=(0.0, 0.2), confidence=95), "confidence must be in"),
             (lambda: exact(float("nan")), "NaN"),
             (lambda: exact(True), "must be a number"),
             (lambda: exact("0.1"), "must be a number"),
@@ -131,18 +130,18 @@ class TestValue:
             make()
 
     def test_json_form(self):
-        value = estimate(0.25, stderr=0.01, ci=(0.23, 0.27), unit="bits")
+        value = estimate(0.25, stderr=0.01, interval=(0.23, 0.27), unit="bits")
         assert value.as_json() == {
             "value": 0.25,
-            "label": "estimate",
+            "kind": "estimate",
             "stderr": 0.01,
-            "ci": [0.23, 0.27],
-            "level": 0.95,
+            "interval": [0.23, 0.27],
+            "confidence": 0.95,
             "unit": "bits",
         }
         assert upper_bound(float("inf")).as_json() == {
             "value": "inf",
-            "label": "bound",
+            "kind": "bound",
             "side": "upper",
         }
 
@@ -186,7 +185,7 @@ class TestTable:
         for _, _, table in report.numbered_tables():
             for j in range(len(table.headers)):
                 for i, row in enumerate(table.rows):
-                    if isinstance(row[j], Value):
+                    if isinstance(row[j], Quantity):
                         text = table.header_text(j) + " " + table.cell_text(i, j)
                         assert re.search(r"\((exact|upper bound|lower bound|estimate)\)", text)
 
@@ -266,7 +265,7 @@ class TestJson:
             "set": [1, 2, 3],
             "path": "a/b.csv",
             "result": {"statistic": 1.5, "counts": [1, 2]},
-            "value": {"value": 0.5, "label": "exact"},
+            "value": {"value": 0.5, "kind": "exact"},
             "1": "int key",
         }
 
@@ -291,9 +290,9 @@ class TestJson:
         assert data["reproducibility"]["seeds"] == [{"name": "simulation", "seed": 2031}]
         table = data["sections"][0]["tables"][0]
         assert table["number"] == 1
-        assert table["rows"][0]["total variation"]["label"] == "exact"
+        assert table["rows"][0]["total variation"]["kind"] == "exact"
         assert table["rows"][0]["total variation bound (separation)"]["side"] == "upper"
-        assert table["rows"][0]["chance unchanged, simulated"]["ci"][0] >= 0
+        assert table["rows"][0]["chance unchanged, simulated"]["interval"][0] >= 0
         figure = data["sections"][0]["figures"][0]
         assert figure["file"] == "figures/distance.png"
         assert figure["data"]["curves"][0]["minimum"] == 5

@@ -15,16 +15,9 @@ from fractions import Fraction
 
 import numpy as np
 
+from shufflecheck.common.quantity import estimate, exact, upper_bound
 from shufflecheck.core.counting import eulerian_row
-from shufflecheck.report.document import (
-    MethodNote,
-    Report,
-    Section,
-    Table,
-    estimate,
-    exact,
-    upper_bound,
-)
+from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.figures import distance_figure
 from shufflecheck.report.provenance import collect_provenance
 
@@ -118,7 +111,7 @@ def example_report(
                 exact(tv),
                 upper_bound(sep),
                 exact(same),
-                estimate(p_hat, stderr=stderr, ci=ci),
+                estimate(p_hat, stderr=stderr, interval=ci),
             )
         )
         tv_values.append(float(tv))
@@ -170,14 +163,14 @@ def example_report(
                         "label": "riffle",
                         "steps": steps,
                         "values": tv_values,
-                        "how": "exact",
+                        "kind": "exact",
                         "minimum": minimum,
                     },
                     {
                         "label": "riffle: separation",
                         "steps": steps,
                         "values": sep_values,
-                        "how": "bound",
+                        "kind": "bound",
                         "group": "riffle",
                     },
                 ],

@@ -36,12 +36,12 @@ def _chunks(png: bytes) -> list[bytes]:
 def _distance():
     return F.distance_figure(
         [
-            {"label": "procedure A", "steps": STEPS, "values": TV, "how": "exact", "minimum": 8},
+            {"label": "procedure A", "steps": STEPS, "values": TV, "kind": "exact", "minimum": 8},
             {
                 "label": "procedure A: bound",
                 "steps": STEPS,
                 "values": [min(1.0, 1.4 * v) for v in TV],
-                "how": "bound",
+                "kind": "bound",
                 "group": "procedure A",
             },
             {
@@ -50,7 +50,7 @@ def _distance():
                 "values": [min(1.0, 1.2 * v) for v in TV],
                 "low": [min(1.0, 1.1 * v) for v in TV],
                 "high": [min(1.0, 1.3 * v) for v in TV],
-                "how": "estimate",
+                "kind": "estimate",
             },
         ],
         target=0.1,
@@ -100,9 +100,9 @@ def _power():
                 "decks": [6, 15, 60, 300, None],
                 "low": [5, 12, 50, 250, None],
                 "high": [8, 18, 70, 360, None],
-                "how": "estimate",
+                "kind": "estimate",
             },
-            {"label": "guessing game", "x": x, "decks": [4, 9, 35, 180, 2000], "how": "exact"},
+            {"label": "guessing game", "x": x, "decks": [4, 9, 35, 180, 2000], "kind": "exact"},
         ]
     )
 
@@ -200,7 +200,7 @@ class TestStyle:
             ("bound", {}),
             ("estimate", {"low": [0.1] * 3, "high": [0.9] * 3}),
         ):
-            spec = {"label": how, "steps": [1, 2, 3], "values": [0.5] * 3, "how": how, **extra}
+            spec = {"label": how, "steps": [1, 2, 3], "values": [0.5] * 3, "kind": how, **extra}
             s = F._series(spec, x_key="steps", y_key="values", what="t")
             s["group"], s["minimum"] = how, None
             series.append(s)
@@ -257,43 +257,43 @@ class TestInputErrors:
             (lambda: F.distance_figure([]), "one or more curves"),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [1, 2], "how": "exact"}]
+                    [{"label": "a", "steps": [1], "values": [1, 2], "kind": "exact"}]
                 ),
                 "1 steps but 2 values",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [1], "how": "guess"}]
+                    [{"label": "a", "steps": [1], "values": [1], "kind": "guess"}]
                 ),
-                "how must be one of",
+                "kind must be one of",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [1], "how": "estimate"}]
+                    [{"label": "a", "steps": [1], "values": [1], "kind": "estimate"}]
                 ),
                 "confidence band",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [0.0], "how": "exact"}], log_scale=True
+                    [{"label": "a", "steps": [1], "values": [0.0], "kind": "exact"}], log_scale=True
                 ),
                 "log scale",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [1], "how": "exact", "minimum": 4}]
+                    [{"label": "a", "steps": [1], "values": [1], "kind": "exact", "minimum": 4}]
                 ),
                 "minimum 4 is not one of its steps",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [1], "how": "exact", "colour": "red"}]
+                    [{"label": "a", "steps": [1], "values": [1], "kind": "exact", "colour": "red"}]
                 ),
                 "unknown key 'colour'",
             ),
             (
                 lambda: F.distance_figure(
-                    [{"label": "a", "steps": [1], "values": [float("nan")], "how": "exact"}]
+                    [{"label": "a", "steps": [1], "values": [float("nan")], "kind": "exact"}]
                 ),
                 "must be finite",
             ),
@@ -305,7 +305,7 @@ class TestInputErrors:
             (lambda: F.score_histogram_figure([0, 1], [0.5, 0.4]), "summing to 1"),
             (lambda: F.score_histogram_figure([0, 3], [0.5, 0.5]), "score 3 is not"),
             (
-                lambda: F.power_figure([{"label": "a", "x": [1], "decks": [0], "how": "exact"}]),
+                lambda: F.power_figure([{"label": "a", "x": [1], "decks": [0], "kind": "exact"}]),
                 "must be > 0",
             ),
         ],

@@ -10,7 +10,8 @@ from html.parser import HTMLParser
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.report.document import MethodNote, Section, Table, exact, png_size
+from shufflecheck.common.quantity import exact
+from shufflecheck.report.document import MethodNote, Section, Table, png_size
 from shufflecheck.report.render.html import STYLESHEET, render_html
 from tests.test_report_example import example_report
 

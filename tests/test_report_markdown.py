@@ -9,7 +9,8 @@ import re
 from hypothesis import given
 from hypothesis import strategies as st
 
-from shufflecheck.report.document import Section, Table, estimate, exact, render_json
+from shufflecheck.common.quantity import estimate, exact
+from shufflecheck.report.document import Section, Table, render_json
 from shufflecheck.report.render.markdown import code, escape_block, escape_inline, render_markdown
 from tests.test_report_example import example_report
 
@@ -69,12 +70,12 @@ def _check_cell(text: str, header_label: str | None, cell: dict) -> None:
         assert header_label is None, text
         label = match.group(1)
         text = text[: match.start()].strip()
-    expected = cell["label"] if cell["label"] != "bound" else f"{cell['side']} bound"
+    expected = cell["kind"] if cell["kind"] != "bound" else f"{cell['side']} bound"
     assert label == expected, (text, cell)
-    if cell["label"] == "bound":
+    if cell["kind"] == "bound":
         assert text.startswith("≤ " if cell["side"] == "upper" else "≥ "), text
     numbers = _NUMBER.findall(text.replace("95%", "").replace("99%", ""))
-    if cell["label"] == "bound":
+    if cell["kind"] == "bound":
         # bounds are rounded outward: within one unit in the last place, on the safe side
         shown, value = float(numbers[0].replace(",", "")), float(cell["value"])
         unit = 2 * _tolerance(numbers[0])
@@ -85,8 +86,11 @@ def _check_cell(text: str, header_label: str | None, cell: dict) -> None:
     rest = numbers[1:]
     if "stderr" in cell:
         assert _close(rest.pop(0), cell["stderr"]), (text, cell)
-    if "ci" in cell:
-        assert _close(rest[0], cell["ci"][0]) and _close(rest[1], cell["ci"][1]), (text, cell)
+    if "interval" in cell:
+        assert _close(rest[0], cell["interval"][0]) and _close(rest[1], cell["interval"][1]), (
+            text,
+            cell,
+        )
         rest = rest[2:]
     assert rest == [], (text, cell)
 
@@ -116,7 +120,7 @@ class TestTablesAgreeWithJson:
 
     def test_mismatch_would_be_caught(self):
         # the checker itself must fail on a wrong number
-        cell = {"value": 0.5, "label": "exact"}
+        cell = {"value": 0.5, "kind": "exact"}
         _check_cell("0.5000", "exact", cell)
         try:
             _check_cell("0.5010", "exact", cell)

@@ -46,7 +46,8 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.core.distances import DistanceRow, Quantity
+from shufflecheck.common.quantity import Quantity
+from shufflecheck.core.distances import DistanceRow
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
 from shufflecheck.models.procedures import Procedure
@@ -505,7 +506,7 @@ def assessment_json(result: Assessment) -> dict:
             "total_variation": row.total_variation,
             "separation": row.separation,
             "kl_bits": row.kl_bits,
-            "method": row.method,
+            "kind": row.kind,
         }
 
     rows = []
@@ -514,9 +515,9 @@ def assessment_json(result: Assessment) -> dict:
             {
                 "repeats": row.repeats,
                 "exact": distances(row.exact),
-                "upper_bound": {k: q.as_dict() for k, q in row.upper.items()},
+                "upper_bound": {k: q.as_json() for k, q in row.upper.items()},
                 "upper_bound_blocks": list(row.upper_blocks),
-                "lower_bound": {k: q.as_dict() for k, q in row.lower.items()},
+                "lower_bound": {k: q.as_json() for k, q in row.lower.items()},
                 "lower_bound_by_statistic": [
                     {
                         "statistic": b.statistic,
@@ -530,9 +531,9 @@ def assessment_json(result: Assessment) -> dict:
                 "guessing": {
                     "uniform_mean": row.uniform_guesses,
                     "uniform_method": "exact: H_n, sum of Bernoulli(1/j)",
-                    "strategies": {k: q.as_dict() for k, q in row.guessing.items()},
+                    "strategies": {k: q.as_json() for k, q in row.guessing.items()},
                     "best_strategy": row.best_strategy,
-                    "extra_correct_guesses_per_deck": row.extra_guesses.as_dict(),
+                    "extra_correct_guesses_per_deck": row.extra_guesses.as_json(),
                 },
             }
         )

@@ -64,21 +64,7 @@ def planning_json(plans: list[tuple[int, PowerPlan]], proc: Procedure, seed: int
         "plans": [
             {
                 "repeats": r,
-                "rows": [
-                    {
-                        "test": row.test,
-                        "title": row.title,
-                        "decks": row.decks,
-                        "power": row.power,
-                        "how": "estimate",
-                        "shift": row.shift,
-                        "shift_standard_error": row.shift_standard_error,
-                        "relative_standard_error": row.relative_standard_error,
-                        "method": row.method,
-                        "note": row.note,
-                    }
-                    for row in plan.rows
-                ],
+                "rows": [row.as_json() for row in plan.rows],
             }
             for r, plan in plans
         ],

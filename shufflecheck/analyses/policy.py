@@ -315,14 +315,14 @@ def _resolve(base: Path, name: str) -> Path:
 class PolicyDecision:
     """The answer for one procedure.
 
-    ``minimum`` is certified (``how`` exact or bound) or None; ``estimate_low`` is the
+    ``minimum`` is certified (``kind`` exact or bound) or None; ``estimate_low`` is the
     smallest repetition count the lower confidence bounds do not exclude; ``standing`` is
     the house count's standing (meets / fails / undetermined) with ``standing_how``.
     """
 
     procedure: PolicyProcedure
     minimum: int | None
-    how: str  # exact | bound | estimate
+    kind: str  # exact | bound | estimate
     estimate_low: int | None
     standing: str | None
     standing_how: str | None
@@ -336,7 +336,7 @@ class PolicyDecision:
             return f"{k} repetition{'s' if k != 1 else ''}"
 
         name = self.procedure.name
-        if self.minimum is not None and self.how == "exact":
+        if self.minimum is not None and self.kind == "exact":
             text = f"{name}: {times(self.minimum)} bring {metric_label} to <= {target:g} (exact)"
         elif self.minimum is not None:
             text = (
@@ -388,7 +388,7 @@ def decide(
 ) -> PolicyDecision:
     """Turn an assessment into the policy decision for one procedure."""
     minimum = None
-    how = "estimate"
+    kind = "estimate"
     estimate_low = None
     for row in assessment.rows:
         exact, upper, lower = _value(row, metric)
@@ -396,7 +396,7 @@ def decide(
             estimate_low = row.repeats
         if upper is not None and upper <= target:
             minimum = row.repeats
-            how = "exact" if exact is not None else "bound"
+            kind = "exact" if exact is not None else "bound"
             break
     standing = standing_how = None
     if house is not None:
@@ -410,7 +410,7 @@ def decide(
             standing, standing_how = "fails", f"lower bound, {assessment.confidence:.0%} confidence"
         else:
             standing, standing_how = "undetermined", "bounds straddle the target"
-    return PolicyDecision(proc, minimum, how, estimate_low, standing, standing_how, assessment)
+    return PolicyDecision(proc, minimum, kind, estimate_low, standing, standing_how, assessment)
 
 
 def policy_work(policy: Policy) -> int:

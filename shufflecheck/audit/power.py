@@ -46,6 +46,7 @@ from shufflecheck.audit.nulls import Law, sum_distribution
 from shufflecheck.audit.positions import position_counts
 from shufflecheck.audit.statistics import as_decks, category_codes
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.quantity import Kind
 
 __all__ = ["PowerPlan", "PowerRow", "plan_decks", "sum_test_power"]
 
@@ -67,7 +68,7 @@ class PowerRow:
     shift: float
     shift_standard_error: float
     relative_standard_error: float | None
-    method: str
+    kind: Kind
     detail: str
     note: str
 
@@ -80,8 +81,8 @@ class PowerRow:
             "shift_per_deck": self.shift,
             "shift_standard_error": self.shift_standard_error,
             "relative_standard_error": self.relative_standard_error,
-            "how": self.method,
-            "detail": self.detail,
+            "kind": self.kind,
+            "method": self.detail,
             "note": self.note,
         }
 
@@ -114,7 +115,7 @@ class PowerPlan:
             "simulated_decks": self.simulated_decks,
             "fewest_decks": None if best is None else best.decks,
             "fewest_decks_test": None if best is None else best.test,
-            "how": "estimate",
+            "kind": "estimate",
             "rows": [r.as_json() for r in self.rows],
         }
 

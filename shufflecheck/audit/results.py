@@ -19,6 +19,8 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+from shufflecheck.common.quantity import Quantity
+
 __all__ = ["P_FLOOR", "AuditResult", "BatteryResult", "Effect", "SinceWhen", "TestResult"]
 
 #: Smallest p-value written as a number; smaller ones are reported as this floor.
@@ -52,6 +54,17 @@ class Effect:
     standard_error: float
     text: str
 
+    @property
+    def quantity(self) -> Quantity:
+        """The effect as a labelled number (an estimate with its standard error)."""
+        return Quantity(
+            self.value,
+            "estimate",
+            stderr=self.standard_error,
+            unit=self.unit,
+            method="observed mean per deck minus the exact mean under a uniform deck",
+        )
+
     def as_json(self) -> dict[str, Any]:
         return {
             "value": self.value,
@@ -59,7 +72,7 @@ class Effect:
             "observed": self.observed,
             "expected": self.expected,
             "standard_error": self.standard_error,
-            "how": "estimate",
+            "kind": self.quantity.kind,
             "text": self.text,
         }
 
@@ -142,7 +155,7 @@ class SinceWhen:
             "mean_after": self.mean_after,
             "expected": self.expected,
             "statistic": self.statistic,
-            "how": "estimate",
+            "kind": "estimate",
             "method": self.method,
             "text": self.text,
         }

@@ -98,7 +98,7 @@ def assess(
 
 def _num(value: float, rounding: str = "nearest") -> str:
     """Four significant digits; bounds rounded outward (never claiming more than proven)."""
-    from shufflecheck.report.document import format_number
+    from shufflecheck.common.numbers import format_number
 
     return format_number(float(value), 4, rounding)
 
@@ -181,7 +181,7 @@ def assessment_series(result) -> list[dict]:
         series.append(
             {
                 "label": result.procedure,
-                "how": "exact",
+                "kind": "exact",
                 "steps": [r.repeats for r in exact],
                 "values": [r.exact.total_variation for r in exact],
             }
@@ -191,7 +191,7 @@ def assessment_series(result) -> list[dict]:
         series.append(
             {
                 "label": "from exactly analysed blocks",
-                "how": "bound",
+                "kind": "bound",
                 "side": "upper",
                 "steps": [r.repeats for r in upper],
                 "values": [r.upper["total_variation"].value for r in upper],
@@ -200,7 +200,7 @@ def assessment_series(result) -> list[dict]:
     series.append(
         {
             "label": f"from {result.decks:,} simulated decks, {result.confidence:.0%} confidence",
-            "how": "bound",
+            "kind": "bound",
             "side": "lower",
             "steps": [r.repeats for r in result.rows],
             "values": [r.lower["total_variation"].value for r in result.rows],

@@ -145,7 +145,7 @@ def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
             "total_variation": r.total_variation,
             "separation": r.separation,
             "kl_bits": r.kl_bits,
-            "method": r.method,
+            "kind": r.kind,
         }
 
     return {
@@ -194,7 +194,7 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
     rows, marks = [], []
     first = minimum[chosen]
     for i, r in enumerate(curve.rows):
-        cells = [r.steps, _fmt(r.total_variation), _fmt(r.separation), _fmt(r.kl_bits), r.method]
+        cells = [r.steps, _fmt(r.total_variation), _fmt(r.separation), _fmt(r.kl_bits), r.kind]
         if bound_metric is not None:
             cells.append(_fmt(curve.bounds[i].value(bound_metric)))
         rows.append(cells)
@@ -210,7 +210,7 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
             echo(f"Minimum steps for {label} <= {goal:g}: this method gives no value for it")
             continue
         if k is not None:
-            how = "exact" if curve.rows[k - 1].method == "exact" else "rigorous upper bound"
+            how = "exact" if curve.rows[k - 1].kind == "exact" else "rigorous upper bound"
             echo(f"Minimum steps for {label} <= {goal:g}: {k} ({how})")
         else:
             kb = bound_minimum.get(m)
@@ -220,7 +220,7 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
                 f"{curve.rows[-1].steps} steps (raise --max-steps){hint}"
             )
     echo("* marks the first step meeting the target on the chosen metric.")
-    kind = "exact distances" if curve.rows[0].method == "exact" else "rigorous bounds"
+    kind = "exact distances" if curve.rows[0].kind == "exact" else "rigorous bounds"
     echo(
         f"These are {kind} for the idealised model; real hands and machines differ. "
         "Statistical evidence, not certification: device approval and dealing rules are for "
@@ -254,8 +254,8 @@ def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:
             "label": curve.model,
             "steps": [r.steps for r in curve.rows],
             "values": [r.value(metric) for r in curve.rows],
-            "how": curve.rows[0].method,
-            **({"side": "upper"} if curve.rows[0].method == "bound" else {}),
+            "kind": curve.rows[0].kind,
+            **({"side": "upper"} if curve.rows[0].kind == "bound" else {}),
             "group": curve.model,
             **({"minimum": minimum} if minimum is not None else {}),
         }
@@ -266,7 +266,7 @@ def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:
                 "label": curve.bound_name or "bound",
                 "steps": [r.steps for r in curve.bounds],
                 "values": [r.value(metric) for r in curve.bounds],
-                "how": "bound",
+                "kind": "bound",
                 "side": "upper",
                 "group": curve.model,
             }

@@ -84,7 +84,7 @@ def print_policy(result) -> None:
     for d in result.decisions:
         proc = d.procedure
         if d.minimum is not None:
-            minimum = f"{d.minimum} ({d.how})"
+            minimum = f"{d.minimum} ({d.kind})"
         elif d.estimate_low is not None:
             minimum = f">= {d.estimate_low} (estimate)"
         else:

@@ -34,11 +34,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Literal
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.quantity import Kind
 
-Method = Literal["exact", "bound", "estimate"]
 METRICS = ("total_variation", "separation", "kl_bits")
 #: command-line spellings of the metrics
 METRIC_NAMES = {"total-variation": "total_variation", "separation": "separation", "kl": "kl_bits"}
@@ -48,7 +47,6 @@ __all__ = [
     "METRIC_NAMES",
     "DistanceRow",
     "MixingCurve",
-    "Quantity",
     "check_metric",
     "check_target",
     "distances_from_groups",
@@ -61,15 +59,17 @@ __all__ = [
 class DistanceRow:
     """Distances to uniform after ``steps`` steps, labelled with how they were obtained.
 
-    A field is None when the method gives no value for that metric (e.g. the upper bound
-    lemma bounds total variation only).
+    ``kind`` says how all three were obtained (``exact``, ``bound`` for rigorous upper
+    bounds, ``estimate``); ``note`` says in words which method gave them. A field is None
+    when the method gives no value for that metric (e.g. the upper bound lemma bounds total
+    variation only).
     """
 
     steps: int
     total_variation: float | None
     separation: float | None
     kl_bits: float | None
-    method: Method
+    kind: Kind
     note: str = ""
 
     def value(self, metric: str) -> float | None:
@@ -93,49 +93,6 @@ class MixingCurve:
     bounds: tuple[DistanceRow, ...] = field(default_factory=tuple)
     bound_source: str = ""
     bound_name: str = ""
-
-
-@dataclass(frozen=True)
-class Quantity:
-    """One number with how it was obtained.
-
-    ``kind`` is ``exact``, ``bound`` (with ``side`` upper or lower, and ``confidence`` when
-    the bound holds at a confidence level rather than surely) or ``estimate`` (with its
-    ``stderr`` and confidence ``interval``). ``method`` says which method gave it.
-    """
-
-    value: float | None
-    kind: Method
-    side: Literal["upper", "lower"] | None = None
-    confidence: float | None = None
-    interval: tuple[float, float] | None = None
-    stderr: float | None = None
-    method: str = ""
-
-    @property
-    def label(self) -> str:
-        """Short label: ``exact``, ``upper bound``, ``lower bound (99% confidence)``,
-        ``estimate``."""
-        if self.kind == "bound":
-            text = f"{self.side} bound" if self.side else "bound"
-            return f"{text} ({self.confidence:.0%} confidence)" if self.confidence else text
-        if self.kind == "estimate" and self.confidence and self.interval:
-            return f"estimate ({self.confidence:.0%} interval)"
-        return self.kind
-
-    def as_dict(self) -> dict[str, object]:
-        out: dict[str, object] = {"value": self.value, "kind": self.kind, "label": self.label}
-        if self.side is not None:
-            out["side"] = self.side
-        if self.confidence is not None:
-            out["confidence"] = self.confidence
-        if self.interval is not None:
-            out["interval"] = list(self.interval)
-        if self.stderr is not None:
-            out["stderr"] = self.stderr
-        if self.method:
-            out["method"] = self.method
-        return out
 
 
 def check_metric(metric: str) -> str:
@@ -167,7 +124,7 @@ def minimum_steps(rows: Sequence[DistanceRow], metric: str, target: float | None
         return None
     for row in sorted(rows, key=lambda r: r.steps):
         value = row.value(metric)
-        if row.method in ("exact", "bound") and value is not None and value <= target:
+        if row.kind in ("exact", "bound") and value is not None and value <= target:
             return row.steps
     return None
 

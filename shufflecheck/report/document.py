@@ -6,11 +6,12 @@ with their published sources (:class:`MethodNote`), the reproducibility block
 (:class:`~shufflecheck.report.provenance.Provenance`) and the cautions. ``data`` holds every
 number of the report in JSON-ready form for ``report.json``.
 
-Every number in a table is a :class:`Value`: a number that carries how it was obtained,
-``exact``, ``bound`` (with its side) or ``estimate`` (with its standard error and/or its
-confidence interval). A :class:`Table` refuses bare numbers, so no renderer can show a
-number without its label. Build values with :func:`exact`, :func:`upper_bound`,
-:func:`lower_bound` and :func:`estimate`.
+Every number in a table is a :class:`~shufflecheck.common.quantity.Quantity`: a number that
+carries how it was obtained (``exact``, ``bound`` with its side, ``estimate`` with its
+standard error and/or confidence interval, or ``conjectured``). A :class:`Table` refuses bare
+numbers, so no renderer can show a number without its label. Build values with the
+constructors of :mod:`shufflecheck.common.quantity` (``exact``, ``upper_bound``,
+``lower_bound``, ``estimate``, ``conjectured``).
 
 Everything here is generic: the module knows nothing of shuffles or audits. The renderers
 (:mod:`~shufflecheck.report.render.markdown`, :mod:`~shufflecheck.report.render.html`) and
@@ -21,356 +22,45 @@ from __future__ import annotations
 
 import dataclasses
 import json
-import math
 import re
 import struct
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from decimal import Decimal
 from fractions import Fraction
 from pathlib import PurePath
-from typing import Any, Literal
+from typing import Any
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import json_number
+from shufflecheck.common.quantity import KINDS, LABEL_MEANINGS, Kind, Quantity
 from shufflecheck.report.provenance import STANDARD_CAUTIONS, Provenance
 
 __all__ = [
     "FORMAT_NAME",
     "FORMAT_VERSION",
-    "HOW_OBTAINED",
-    "LABEL_MEANINGS",
     "Cell",
     "Figure",
-    "HowObtained",
     "MethodNote",
     "Report",
     "Section",
     "Table",
-    "Value",
-    "estimate",
-    "exact",
-    "format_number",
     "jsonable",
-    "lower_bound",
     "png_size",
     "render_json",
-    "upper_bound",
 ]
 
 #: ``report.json`` names its format so a folder can be recognised as a report folder.
 FORMAT_NAME = "shufflecheck-report"
 FORMAT_VERSION = 1
 
-HowObtained = Literal["exact", "bound", "estimate"]
-HOW_OBTAINED: tuple[str, ...] = ("exact", "bound", "estimate")
-
-#: One sentence per label, shown in every report beside the methods.
-LABEL_MEANINGS: dict[str, str] = {
-    "exact": "computed by an exact method; rounded only for display.",
-    "bound": "a rigorous upper (≤) or lower (≥) bound: the true value is on the stated side.",
-    "estimate": "obtained by random simulation or from a finite sample; shown with its "
-    "standard error (s.e.) and/or confidence interval (CI).",
-}
-
 _PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 _FIGURE_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,63}$")
-
-
-# --------------------------------------------------------------------------- numbers
-
-
-def format_number(x: int | float, digits: int = 4, rounding: str = "nearest") -> str:
-    """Format a number for display with ``digits`` significant digits.
-
-    Integers are shown in full with thousands separators (scientific notation beyond 15
-    digits); floats in fixed notation when ``1e-4 <= |x| < 1e6``, otherwise scientific
-    (``1.234e-07``). Significant trailing zeros are kept, so every float in a column shows
-    the same number of significant digits. Infinity is ``∞``; minus is ``-``.
-
-    ``rounding`` is ``"nearest"``, ``"up"`` (towards +infinity) or ``"down"``: a displayed
-    upper bound is rounded up and a lower bound down, so the shown digits never claim more
-    than was proven (a value within a few units in the last place of the shown decimal,
-    float noise, is shown as that decimal).
-    """
-    if rounding != "nearest" and isinstance(x, float) and math.isfinite(x) and x != 0:
-        nearest = format_number(x, digits)
-        shown = float(nearest.replace(",", ""))
-        # rounding to nearest already lies on the safe side, or within float noise of x
-        noise = 8 * math.ulp(x)
-        if (rounding == "up" and shown >= x - noise) or (rounding == "down" and shown <= x + noise):
-            return nearest
-        return _format_directed(x, digits, rounding)
-    if isinstance(x, bool):
-        raise InputError(f"cannot format {x!r} as a number")
-    if isinstance(x, int):
-        if abs(x) < 10**15:
-            return f"{x:,}"
-        return format(Decimal(x), f".{digits - 1}e")  # exact int, rounded for display only
-    if math.isnan(x):
-        return "nan"
-    if math.isinf(x):
-        return "∞" if x > 0 else "-∞"
-    if x == 0:
-        return "0" if digits == 1 else "0." + "0" * (digits - 1)
-    scientific = f"{x:.{digits - 1}e}"
-    exponent = int(scientific.split("e")[1])
-    if -4 <= exponent < 6:
-        return f"{x:,.{max(digits - 1 - exponent, 0)}f}"
-    return scientific
-
-
-def _format_directed(x: float, digits: int, rounding: str) -> str:
-    """``format_number`` with the last shown digit rounded up or down (exact decimals)."""
-    from decimal import ROUND_CEILING, ROUND_FLOOR
-
-    mode = {"up": ROUND_CEILING, "down": ROUND_FLOOR}[rounding]
-    d = Decimal(x)
-    exponent = d.adjusted()
-    r = d.quantize(Decimal(1).scaleb(exponent - digits + 1), rounding=mode)
-    if r.adjusted() > exponent:  # rounding carried into a new leading digit (0.99996 -> 1.000)
-        exponent = r.adjusted()
-        r = d.quantize(Decimal(1).scaleb(exponent - digits + 1), rounding=mode)
-    # r has ``digits`` significant digits; the nearest float prints back to exactly them
-    if -4 <= exponent < 6:
-        return f"{float(r):,.{max(digits - 1 - exponent, 0)}f}"
-    return f"{float(r):.{digits - 1}e}"
-
-
-def _decimals_for(uncertainty: float) -> int | None:
-    """Decimal places that show ``uncertainty`` to two significant digits (None if unusable)."""
-    if not (uncertainty > 0) or not math.isfinite(uncertainty):
-        return None
-    exponent = int(f"{uncertainty:.1e}".split("e")[1])
-    return min(max(1 - exponent, 0), 12)
-
-
-@dataclass(frozen=True)
-class Value:
-    """A number together with how it was obtained.
-
-    Attributes
-    ----------
-    value : int or float
-        The number (Fractions and numpy scalars are converted; ints stay exact ints).
-    label : {"exact", "bound", "estimate"}
-    side : {"upper", "lower"} or None
-        Required for a bound: ``"upper"`` means the true value is at most ``value``.
-    stderr : float or None
-        Standard error of an estimate.
-    ci : (float, float) or None
-        Confidence interval of an estimate, ``low <= high``.
-    level : float or None
-        Confidence level of ``ci`` (e.g. 0.95); required with ``ci``.
-    unit : str
-        Shown after the number (``"bits"``, ``"decks"``); empty for pure numbers.
-    digits : int
-        Significant digits for display (estimates with an uncertainty are instead rounded to
-        the uncertainty's second significant digit).
-
-    An estimate must carry ``stderr`` or ``ci`` (or both); exact values and bounds carry
-    neither. NaN is refused: a report never shows an undefined number.
-    """
-
-    value: int | float
-    label: HowObtained
-    side: Literal["upper", "lower"] | None = None
-    stderr: float | None = None
-    ci: tuple[float, float] | None = None
-    level: float | None = None
-    unit: str = ""
-    digits: int = 4
-
-    def __post_init__(self) -> None:
-        value = _plain_number(self.value, "value")
-        object.__setattr__(self, "value", value)
-        if self.label not in HOW_OBTAINED:
-            raise InputError(f"label must be one of {', '.join(HOW_OBTAINED)}, got {self.label!r}")
-        if isinstance(self.digits, bool) or not isinstance(self.digits, int):
-            raise InputError(f"digits must be an integer from 1 to 15, got {self.digits!r}")
-        if not 1 <= self.digits <= 15:
-            raise InputError(f"digits must be an integer from 1 to 15, got {self.digits!r}")
-        if not isinstance(self.unit, str) or "\n" in self.unit:
-            raise InputError(f"unit must be one line of text, got {self.unit!r}")
-        if self.label == "bound":
-            if self.side not in ("upper", "lower"):
-                raise InputError(f"a bound needs side='upper' or side='lower', got {self.side!r}")
-        elif self.side is not None:
-            raise InputError(f"side is only for bounds, not for a value labelled {self.label}")
-        if self.label != "estimate":
-            if self.stderr is not None or self.ci is not None or self.level is not None:
-                raise InputError(
-                    f"a value labelled {self.label} has no standard error or confidence interval"
-                )
-            return
-        if self.stderr is None and self.ci is None:
-            raise InputError("an estimate needs its uncertainty: give stderr, ci or both")
-        try:
-            object.__setattr__(self, "value", float(value))  # an estimate is never exact
-        except OverflowError:
-            raise InputError(f"estimate {value!r} is too large to show") from None
-        if self.stderr is not None:
-            stderr = _plain_number(self.stderr, "stderr")
-            if not math.isfinite(stderr) or stderr < 0:
-                raise InputError(f"stderr must be finite and >= 0, got {self.stderr!r}")
-            object.__setattr__(self, "stderr", float(stderr))
-        if self.ci is not None:
-            if len(self.ci) != 2:
-                raise InputError(f"ci must be a pair (low, high), got {self.ci!r}")
-            low, high = (float(_plain_number(c, "ci")) for c in self.ci)
-            if low > high:
-                raise InputError(f"ci low must not exceed high, got ({low}, {high})")
-            object.__setattr__(self, "ci", (low, high))
-            if self.level is None:
-                raise InputError("a confidence interval needs its level (e.g. level=0.95)")
-        if self.level is not None:
-            level = float(_plain_number(self.level, "level"))
-            if not 0 < level < 1:
-                raise InputError(f"confidence level must be in (0, 1), got {self.level!r}")
-            if self.ci is None:
-                raise InputError("level is the confidence level of ci; give ci with it")
-            object.__setattr__(self, "level", level)
-
-    # ---- display
-
-    @property
-    def label_text(self) -> str:
-        """``exact``, ``upper bound``, ``lower bound`` or ``estimate``."""
-        if self.label == "bound":
-            return f"{self.side} bound"
-        return self.label
-
-    def number_text(self) -> str:
-        """The number as shown in a table whose column states the label.
-
-        Bounds get ``≤`` / ``≥``; estimates their uncertainty, e.g.
-        ``0.1230 ± 0.0040 (s.e.), 95% CI [0.1152, 0.1308]``.
-        """
-        unit = f" {self.unit}" if self.unit else ""
-        if self.label == "bound":
-            sign = "≤" if self.side == "upper" else "≥"
-            outward = "up" if self.side == "upper" else "down"
-            return f"{sign} {format_number(self.value, self.digits, outward)}{unit}"
-        if self.label == "exact":
-            return f"{format_number(self.value, self.digits)}{unit}"
-        return self._estimate_text(unit)
-
-    def _estimate_text(self, unit: str) -> str:
-        decimals = None
-        if self.stderr is not None:
-            decimals = _decimals_for(self.stderr)
-        if decimals is None and self.ci is not None:
-            decimals = _decimals_for((self.ci[1] - self.ci[0]) / 2)
-        magnitudes = [abs(float(self.value))]
-        if self.ci is not None:
-            magnitudes += [abs(c) for c in self.ci]
-        largest = max(magnitudes)
-        fixed = decimals is not None and math.isfinite(largest) and largest < 1e6
-        fixed = fixed and (largest >= 1e-4 or largest == 0)
-        if fixed and largest > 0:  # never show more digits than a float holds (15)
-            decimals = min(decimals, max(14 - math.floor(math.log10(largest)), 0))
-
-        def show(x: float, *, uncertainty: bool = False) -> str:
-            if uncertainty and x == 0 and not fixed:
-                return "0"
-            if fixed:
-                return f"{x:,.{decimals}f}"
-            return format_number(x, 2 if uncertainty else self.digits)
-
-        parts = [show(float(self.value)) if fixed else format_number(self.value, self.digits)]
-        if self.stderr is not None:
-            parts.append(f" ± {show(self.stderr, uncertainty=True)}{unit} (s.e.)")
-        else:
-            parts.append(unit)
-        if self.ci is not None and self.level is not None:
-            low, high = self.ci
-            parts.append(f", {_percent(self.level)} CI [{show(low)}, {show(high)}]")
-        return "".join(parts)
-
-    def text(self) -> str:
-        """The number with its label, for running text: ``≤ 0.0123 (upper bound)``."""
-        return f"{self.number_text()} ({self.label_text})"
-
-    def __str__(self) -> str:
-        return self.text()
-
-    def as_json(self) -> dict[str, Any]:
-        """JSON-ready form: value, label and (where present) side, stderr, ci, level, unit."""
-        out: dict[str, Any] = {"value": _json_number(self.value), "label": self.label}
-        if self.side is not None:
-            out["side"] = self.side
-        if self.stderr is not None:
-            out["stderr"] = _json_number(self.stderr)
-        if self.ci is not None:
-            out["ci"] = [_json_number(self.ci[0]), _json_number(self.ci[1])]
-            out["level"] = self.level
-        if self.unit:
-            out["unit"] = self.unit
-        return out
-
-
-def exact(value: int | float | Fraction, *, unit: str = "", digits: int = 4) -> Value:
-    """A value computed by an exact method."""
-    return Value(value, "exact", unit=unit, digits=digits)
-
-
-def upper_bound(value: int | float | Fraction, *, unit: str = "", digits: int = 4) -> Value:
-    """A rigorous upper bound: the true value is at most ``value``."""
-    return Value(value, "bound", side="upper", unit=unit, digits=digits)
-
-
-def lower_bound(value: int | float | Fraction, *, unit: str = "", digits: int = 4) -> Value:
-    """A rigorous lower bound: the true value is at least ``value``."""
-    return Value(value, "bound", side="lower", unit=unit, digits=digits)
-
-
-def estimate(
-    value: float,
-    *,
-    stderr: float | None = None,
-    ci: tuple[float, float] | None = None,
-    level: float = 0.95,
-    unit: str = "",
-    digits: int = 4,
-) -> Value:
-    """A Monte Carlo or sample estimate with its standard error and/or confidence interval."""
-    return Value(
-        value,
-        "estimate",
-        stderr=stderr,
-        ci=ci,
-        level=level if ci is not None else None,
-        unit=unit,
-        digits=digits,
-    )
-
-
-def _percent(level: float) -> str:
-    text = f"{100 * level:.2f}".rstrip("0").rstrip(".")
-    return f"{text}%"
-
-
-def _plain_number(x: Any, what: str) -> int | float:
-    if hasattr(x, "item") and not isinstance(x, (int, float)):
-        x = x.item()  # numpy scalar
-    if isinstance(x, bool) or not isinstance(x, (int, float, Fraction)):
-        raise InputError(f"{what} must be a number, got {x!r}")
-    if isinstance(x, Fraction):
-        x = x.numerator if x.denominator == 1 else float(x)
-    if isinstance(x, float) and math.isnan(x):
-        raise InputError(f"{what} is NaN: a report never shows an undefined number")
-    return x
-
-
-def _json_number(x: int | float) -> int | float | str:
-    if isinstance(x, float) and not math.isfinite(x):
-        return "inf" if x > 0 else ("-inf" if x < 0 else "nan")
-    return x
 
 
 # --------------------------------------------------------------------------- blocks
 
 #: A table cell: text, a labelled number, or None for an empty cell.
-Cell = str | Value | None
+Cell = str | Quantity | None
 
 
 def _text(x: Any, what: str, *, allow_empty: bool = False) -> str:
@@ -397,7 +87,7 @@ class Table:
     headers : tuple of str
         Column titles, unique.
     rows : tuple of tuples of Cell
-        Each cell is text, a :class:`Value` or None (empty). A bare number is refused: wrap it
+        Each cell is text, a :class:`Quantity` or None (empty). A bare number is refused: wrap it
         with :func:`exact`, :func:`upper_bound`, :func:`lower_bound` or :func:`estimate`.
     notes : tuple of str
         Footnotes shown under the table.
@@ -432,7 +122,7 @@ class Table:
                     f"table {caption!r}, row {i + 1}: {len(row)} cells for {len(headers)} columns"
                 )
             for j, cell in enumerate(row):
-                if cell is None or isinstance(cell, (str, Value)):
+                if cell is None or isinstance(cell, (str, Quantity)):
                     continue
                 where = f"table {caption!r}, row {i + 1}, column {headers[j]!r}"
                 if isinstance(cell, (int, float, Fraction)) or hasattr(cell, "item"):
@@ -440,7 +130,7 @@ class Table:
                         f"{where}: the number {cell!r} has no label; wrap it with exact(), "
                         "upper_bound(), lower_bound() or estimate()"
                     )
-                raise InputError(f"{where}: a cell must be text, a Value or None")
+                raise InputError(f"{where}: a cell must be text, a Quantity or None")
             rows.append(row)
         marked = tuple(sorted(set(self.marked_rows)))
         for i in marked:
@@ -455,13 +145,13 @@ class Table:
 
     def column_label(self, column: int) -> str | None:
         """The label text shared by every number in a column, or None (mixed or no numbers)."""
-        labels = {row[column].label_text for row in self.rows if isinstance(row[column], Value)}
+        labels = {row[column].label_text for row in self.rows if isinstance(row[column], Quantity)}
         return labels.pop() if len(labels) == 1 else None
 
     def is_numeric_column(self, column: int) -> bool:
         """True when the column holds at least one number and no text."""
         cells = [row[column] for row in self.rows if row[column] is not None]
-        return bool(cells) and all(isinstance(c, Value) for c in cells)
+        return bool(cells) and all(isinstance(c, Quantity) for c in cells)
 
     def header_text(self, column: int) -> str:
         """The header, followed by the shared label in parentheses when there is one."""
@@ -480,10 +170,10 @@ class Table:
         return cell.text()
 
     def as_json(self) -> dict[str, Any]:
-        """Rows as objects keyed by header; numbers as :meth:`Value.as_json` objects."""
+        """Rows as objects keyed by header; numbers as :meth:`Quantity.as_json` objects."""
 
         def cell(c: Cell) -> Any:
-            return c.as_json() if isinstance(c, Value) else c
+            return c.as_json() if isinstance(c, Quantity) else c
 
         out: dict[str, Any] = {
             "caption": self.caption,
@@ -605,7 +295,7 @@ class MethodNote:
     ----------
     quantity : str
         What the method produced, in the reader's words.
-    label : {"exact", "bound", "estimate"}
+    kind : {"exact", "bound", "estimate", "conjectured"}
     method : str
         The method, by its usual name, with any setting that matters.
     sources : tuple of str
@@ -614,16 +304,16 @@ class MethodNote:
     """
 
     quantity: str
-    label: HowObtained
+    kind: Kind
     method: str
     sources: tuple[str, ...]
 
     def __post_init__(self) -> None:
         quantity = _text(self.quantity, "method quantity")
-        if self.label not in HOW_OBTAINED:
+        if self.kind not in KINDS:
             raise InputError(
-                f"method for {quantity!r}: label must be one of {', '.join(HOW_OBTAINED)}, "
-                f"got {self.label!r}"
+                f"method for {quantity!r}: kind must be one of {', '.join(KINDS)}, "
+                f"got {self.kind!r}"
             )
         _text(self.method, f"method for {quantity!r}")
         sources = _texts(self.sources, f"method for {quantity!r}: source")
@@ -643,7 +333,7 @@ class Report:
         The question the report answers, in the reader's words.
     answer : tuple of str
         The findings, short; the first is the headline. Put numbers in as ``str(value)`` of
-        a :class:`Value` so they carry their label.
+        a :class:`Quantity` so they carry their label.
     reproducibility : Provenance
         From :func:`~shufflecheck.report.provenance.collect_provenance`.
     sections : tuple of Section
@@ -688,7 +378,7 @@ class Report:
         if repeated:
             raise InputError(f"figure names must be unique in a report: {', '.join(repeated)}")
         shows_numbers = any(
-            isinstance(c, Value) for s in sections for t in s.tables for r in t.rows for c in r
+            isinstance(c, Quantity) for s in sections for t in s.tables for r in t.rows for c in r
         )
         if shows_numbers and not methods:
             raise InputError("the report shows numbers but lists no methods (MethodNote)")
@@ -775,7 +465,7 @@ class Report:
             "methods": [
                 {
                     "quantity": m.quantity,
-                    "label": m.label,
+                    "kind": m.kind,
                     "method": m.method,
                     "references": list(self.reference_numbers(m)),
                 }
@@ -802,7 +492,7 @@ def jsonable(value: Any, where: str = "value") -> Any:
 
     dicts (keys must be str or int), lists, tuples, str, int, bool and None pass through;
     Fractions become floats; numpy scalars and arrays become Python numbers and lists;
-    non-finite floats become ``"inf"``, ``"-inf"`` or ``"nan"``; :class:`Value` and
+    non-finite floats become ``"inf"``, ``"-inf"`` or ``"nan"``; :class:`Quantity` and
     :class:`Table` become their JSON form; other dataclasses become dicts of their fields;
     paths become strings; sets become sorted lists. Anything else is an :class:`InputError`
     naming where it was found.
@@ -812,10 +502,10 @@ def jsonable(value: Any, where: str = "value") -> Any:
     if isinstance(value, int):
         return value
     if isinstance(value, float):
-        return _json_number(value)
+        return json_number(value)
     if isinstance(value, Fraction):
-        return _json_number(float(value))
-    if isinstance(value, (Value, Table)):
+        return json_number(float(value))
+    if isinstance(value, (Quantity, Table)):
         return value.as_json()
     if isinstance(value, PurePath):
         return str(value)

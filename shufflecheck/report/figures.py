@@ -39,11 +39,12 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.report.document import HOW_OBTAINED, Figure
+from shufflecheck.common.quantity import KINDS
+from shufflecheck.report.document import Figure
 
 __all__ = [
     "DPI",
-    "HOW_LINESTYLES",
+    "KIND_LINESTYLES",
     "OKABE_ITO",
     "SERIES_COLOURS",
     "SERIES_MARKERS",
@@ -75,8 +76,13 @@ SERIES_COLOURS: tuple[str, ...] = tuple(
     for c in ("blue", "vermillion", "bluish green", "reddish purple", "orange", "sky blue", "black")
 )
 SERIES_MARKERS: tuple[str, ...] = ("o", "s", "D", "^", "v", "P", "X", "h")
-#: Line style by how the numbers were obtained.
-HOW_LINESTYLES: dict[str, str] = {"exact": "-", "bound": "--", "estimate": ":"}
+#: Line style by how the numbers were obtained (conjectured: dash-dot-dot, never solid).
+KIND_LINESTYLES: dict[str, Any] = {
+    "exact": "-",
+    "bound": "--",
+    "estimate": ":",
+    "conjectured": (0, (4, 1.5, 1, 1.5, 1, 1.5)),
+}
 _THRESHOLD = {"color": "#333333", "linestyle": "-.", "linewidth": 1.1}
 _INK = "#222222"
 _STYLE = {
@@ -176,8 +182,8 @@ def _numbers(values: Any, what: str, *, allow_missing: bool = False) -> np.ndarr
 
 
 def _how(value: Any, what: str) -> str:
-    if value not in HOW_OBTAINED:
-        raise InputError(f"{what} must be one of {', '.join(HOW_OBTAINED)}, got {value!r}")
+    if value not in KINDS:
+        raise InputError(f"{what} must be one of {', '.join(KINDS)}, got {value!r}")
     return str(value)
 
 
@@ -226,7 +232,7 @@ def _series(
         raise InputError(f"{what}: no points")
     if len(x) != len(y):
         raise InputError(f"{what}: {len(x)} {x_key} but {len(y)} {y_key}")
-    how = _how(spec["how"], f"{what}: how")
+    how = _how(spec["kind"], f"{what}: kind")
     side = spec.get("side")
     if how == "bound":
         side = "upper" if side is None else side
@@ -247,7 +253,7 @@ def _series(
             raise InputError(f"{what}: the band must contain the estimate (low <= value <= high)")
     elif "low" in spec or "high" in spec:
         raise InputError(f"{what}: a confidence band (low, high) is only for estimates")
-    return {"label": label, "x": x, "y": y, "how": how, "side": side, "low": low, "high": high}
+    return {"label": label, "x": x, "y": y, "kind": how, "side": side, "low": low, "high": high}
 
 
 def _as_list(a: np.ndarray | None) -> list[float | None] | None:
@@ -262,7 +268,7 @@ def _as_list(a: np.ndarray | None) -> list[float | None] | None:
 # --------------------------------------------------------------------------- distance
 
 
-_DISTANCE_KEYS = {"label", "steps", "values", "how", "side", "low", "high", "minimum", "group"}
+_DISTANCE_KEYS = {"label", "steps", "values", "kind", "side", "low", "high", "minimum", "group"}
 
 
 def _draw_distance(
@@ -281,17 +287,17 @@ def _draw_distance(
         g = groups.setdefault(s["group"], len(groups))
         colour = SERIES_COLOURS[g % len(SERIES_COLOURS)]
         marker = SERIES_MARKERS[g % len(SERIES_MARKERS)]
-        how_text = _how_phrase(s["how"], s["side"])
+        how_text = _how_phrase(s["kind"], s["side"])
         ax.plot(
             s["x"],
             s["y"],
             color=colour,
             marker=marker,
-            linestyle=HOW_LINESTYLES[s["how"]],
+            linestyle=KIND_LINESTYLES[s["kind"]],
             label=f"{s['label']} ({how_text})",
             zorder=3,
         )
-        if s["how"] == "estimate":
+        if s["kind"] == "estimate":
             low = s["low"]
             if log_scale:  # a band reaching 0 is drawn down to the bottom of the axis
                 low = np.where(low > 0, low, np.nan)
@@ -372,7 +378,7 @@ def distance_figure(
     ----------
     curves : sequence of dict
         One dict per curve with keys ``label`` (text), ``steps`` (step counts), ``values``
-        (distances), ``how`` (``"exact"``, ``"bound"`` or ``"estimate"``); for a bound
+        (distances), ``kind`` (``"exact"``, ``"bound"`` or ``"estimate"``); for a bound
         optionally ``side`` (``"upper"``, the default, or ``"lower"``); for an estimate
         ``low`` and ``high`` (its confidence band, required); optionally ``minimum`` (a step
         count in ``steps`` to mark as the chosen minimum) and ``group`` (curves with the same
@@ -403,7 +409,7 @@ def distance_figure(
     series = []
     for k, spec in enumerate(curves):
         what = f"distance figure, curve {k + 1}"
-        _check_keys(spec, _DISTANCE_KEYS, {"label", "steps", "values", "how"}, what)
+        _check_keys(spec, _DISTANCE_KEYS, {"label", "steps", "values", "kind"}, what)
         s = _series(spec, x_key="steps", y_key="values", what=what)
         s["group"] = str(spec.get("group", s["label"]))
         minimum = spec.get("minimum")
@@ -449,7 +455,7 @@ def distance_figure(
                 {
                     "label": s["label"],
                     "group": s["group"],
-                    "how": s["how"],
+                    "kind": s["kind"],
                     "side": s["side"],
                     "steps": _as_list(s["x"]),
                     "values": s["y"].tolist(),
@@ -746,7 +752,7 @@ def pvalue_figure(
             "kind": "pvalues",
             "alpha": float(alpha),
             "tests": [
-                {"test": t, "pvalue": float(v), "how": h, "flagged": f}
+                {"test": t, "pvalue": float(v), "kind": h, "flagged": f}
                 for t, v, h, f in zip(names, p, labels, marks, strict=True)
             ],
         }
@@ -785,7 +791,7 @@ def _draw_scores(
         where="mid",
         color=_INK,
         linewidth=1.0,
-        linestyle=HOW_LINESTYLES["exact"],
+        linestyle=KIND_LINESTYLES["exact"],
         zorder=3,
     )
     ax.plot(
@@ -802,7 +808,7 @@ def _draw_scores(
         null_mean,
         color=_INK,
         linewidth=1.0,
-        linestyle=HOW_LINESTYLES["exact"],
+        linestyle=KIND_LINESTYLES["exact"],
         label="mean under a random deck (exact)",
         zorder=1,
     )
@@ -810,7 +816,7 @@ def _draw_scores(
         observed_mean,
         color=OKABE_ITO["vermillion"],
         linewidth=1.8,
-        linestyle=HOW_LINESTYLES["estimate"],
+        linestyle=KIND_LINESTYLES["estimate"],
         label="mean of the recorded decks",
         zorder=1,
     )
@@ -909,7 +915,7 @@ def score_histogram_figure(
 # --------------------------------------------------------------------------- power
 
 
-_POWER_KEYS = {"label", "x", "decks", "how", "side", "low", "high"}
+_POWER_KEYS = {"label", "x", "decks", "kind", "side", "low", "high"}
 
 
 def _draw_power(
@@ -935,11 +941,11 @@ def _draw_power(
             y,
             color=colour,
             marker=marker,
-            linestyle=HOW_LINESTYLES[s["how"]],
-            label=f"{s['label']} ({_how_phrase(s['how'], s['side'])})",
+            linestyle=KIND_LINESTYLES[s["kind"]],
+            label=f"{s['label']} ({_how_phrase(s['kind'], s['side'])})",
             zorder=3,
         )
-        if s["how"] == "estimate":
+        if s["kind"] == "estimate":
             ok = reached & np.isfinite(s["low"]) & np.isfinite(s["high"])
             ax.fill_between(
                 s["x"],
@@ -1030,7 +1036,7 @@ def power_figure(
     series = []
     for k, spec in enumerate(curves):
         what = f"power figure, curve {k + 1}"
-        _check_keys(spec, _POWER_KEYS, {"label", "x", "decks", "how"}, what)
+        _check_keys(spec, _POWER_KEYS, {"label", "x", "decks", "kind"}, what)
         s = _series(spec, x_key="x", y_key="decks", what=what, allow_missing=True)
         if np.any(s["y"] < 0) or (log_scale and np.any(s["y"] <= 0)):
             raise InputError(f"{what}: decks needed must be > 0")
@@ -1053,7 +1059,7 @@ def power_figure(
             "curves": [
                 {
                     "label": s["label"],
-                    "how": s["how"],
+                    "kind": s["kind"],
                     "side": s["side"],
                     "x": _as_list(s["x"]),
                     "decks": _as_list(s["y"]),

@@ -2,20 +2,11 @@
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Any
 
-from shufflecheck.core.distances import Quantity
-from shufflecheck.report.document import (
-    MethodNote,
-    Report,
-    Section,
-    Table,
-    Value,
-    estimate,
-    exact,
-    lower_bound,
-    upper_bound,
-)
+from shufflecheck.common.quantity import Quantity, exact
+from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.report.sources import (
     ALDOUS_DIACONIS_1987,
@@ -29,19 +20,13 @@ from shufflecheck.report.sources import (
 __all__ = ["as_value", "assessment_methods", "assessment_report"]
 
 
-def as_value(q: Quantity | None, *, digits: int = 4) -> Value | None:
-    """A labelled report cell from a :class:`~shufflecheck.core.distances.Quantity`."""
-    if q is None or q.value is None:
-        return None
-    if q.kind == "exact":
-        return exact(q.value, digits=digits)
-    if q.kind == "bound":
-        return (upper_bound if q.side == "upper" else lower_bound)(q.value, digits=digits)
-    level = q.confidence or 0.95
-    return estimate(q.value, stderr=q.stderr, ci=q.interval, level=level if q.interval else None)
+def as_value(q: Quantity | None, *, digits: int = 4) -> Quantity | None:
+    """A report cell from a library :class:`~shufflecheck.common.quantity.Quantity`, shown
+    with ``digits`` significant digits (None stays an empty cell)."""
+    return None if q is None else dataclasses.replace(q, digits=digits)
 
 
-def _distance_cells(row, metric: str) -> tuple[Value | None, Value | None]:
+def _distance_cells(row, metric: str) -> tuple[Quantity | None, Quantity | None]:
     """(lower, upper) cells, or (exact, exact) when the row is exact."""
     if row.exact is not None:
         value = exact(row.exact.value(metric))

@@ -7,7 +7,8 @@ from typing import Any
 
 import numpy as np
 
-from shufflecheck.report.document import MethodNote, Report, Section, Table, estimate, exact
+from shufflecheck.common.quantity import estimate, exact
+from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from typing import Any
 
+from shufflecheck.common.quantity import exact, upper_bound
 from shufflecheck.core.distances import MixingCurve
-from shufflecheck.report.document import MethodNote, Report, Section, Table, exact, upper_bound
+from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.report.sources import (
     ALDOUS_DIACONIS_1986,
@@ -76,7 +77,7 @@ def mixing_report(
             row = curve.rows[k - 1]
             answer.append(
                 f"{k} {steps_word} bring {label} to at most {target:g}: "
-                f"{_cell(row.value(metric), row.method)}."
+                f"{_cell(row.value(metric), row.kind)}."
             )
         else:
             answer.append(
@@ -90,7 +91,7 @@ def mixing_report(
                 )
     last = curve.rows[-1]
     shown = [
-        f"{METRIC_LABELS[m]} {_cell(last.value(m), last.method)}"
+        f"{METRIC_LABELS[m]} {_cell(last.value(m), last.kind)}"
         for m in ("total_variation", "separation")
         if last.value(m) is not None
     ]
@@ -104,9 +105,9 @@ def mixing_report(
     for i, r in enumerate(curve.rows):
         cells = [
             str(r.steps),
-            _cell(r.total_variation, r.method),
-            _cell(r.separation, r.method),
-            _cell(r.kl_bits, r.method),
+            _cell(r.total_variation, r.kind),
+            _cell(r.separation, r.kind),
+            _cell(r.kl_bits, r.kind),
         ]
         if bound_metric is not None:
             cells.append(_cell(curve.bounds[i].value(bound_metric), "bound"))
@@ -123,7 +124,7 @@ def mixing_report(
         mark_note=f"first k with {label} at most {target:g}" if marked else "",
     )
     sources = _SOURCES.get(curve.model, (BAYER_DIACONIS,))
-    main = curve.rows[0].method
+    main = curve.rows[0].kind
     methods = [
         MethodNote("total variation, separation", main, curve.source, sources),
         MethodNote(

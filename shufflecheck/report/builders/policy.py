@@ -16,7 +16,7 @@ __all__ = ["policy_figure", "policy_payload", "policy_report", "policy_sections"
 def _decision_cells(decision) -> tuple:
     proc = decision.procedure
     if decision.minimum is not None:
-        minimum = f"{decision.minimum} ({decision.how})"
+        minimum = f"{decision.minimum} ({decision.kind})"
     elif decision.estimate_low is not None:
         minimum = f"not certified; {decision.estimate_low} not excluded (estimate)"
     else:
@@ -57,7 +57,7 @@ def policy_payload(result) -> dict[str, Any]:
                 "procedure": proc.procedure.describe(),
                 "cards": proc.cards,
                 "minimum": d.minimum,
-                "how": d.how if d.minimum is not None else "estimate",
+                "kind": d.kind if d.minimum is not None else "estimate",
                 "smallest_not_excluded": d.estimate_low,
                 "house": proc.house,
                 "standing": d.standing,
@@ -87,11 +87,11 @@ def policy_figure(result):
             curves.append(
                 {
                     "label": f"{name}",
-                    "how": "exact",
+                    "kind": "exact",
                     "group": name,
                     "steps": [r.repeats for r in exact_rows],
                     "values": [r.exact.value(metric) for r in exact_rows],
-                    **({"minimum": d.minimum} if d.minimum and d.how == "exact" else {}),
+                    **({"minimum": d.minimum} if d.minimum and d.kind == "exact" else {}),
                 }
             )
         upper = [r for r in rows if metric in r.upper]
@@ -99,12 +99,12 @@ def policy_figure(result):
             curves.append(
                 {
                     "label": f"{name}, upper bound",
-                    "how": "bound",
+                    "kind": "bound",
                     "side": "upper",
                     "group": name,
                     "steps": [r.repeats for r in upper],
                     "values": [r.upper[metric].value for r in upper],
-                    **({"minimum": d.minimum} if d.minimum and d.how == "bound" else {}),
+                    **({"minimum": d.minimum} if d.minimum and d.kind == "bound" else {}),
                 }
             )
         lower = [r for r in rows if r.exact is None]
@@ -112,7 +112,7 @@ def policy_figure(result):
             curves.append(
                 {
                     "label": f"{name}, lower bound",
-                    "how": "bound",
+                    "kind": "bound",
                     "side": "lower",
                     "group": name,
                     "steps": [r.repeats for r in lower],

@@ -5,7 +5,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from shufflecheck.report.document import MethodNote, Report, Section, Table, estimate
+from shufflecheck.common.quantity import estimate
+from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 
@@ -23,7 +24,9 @@ def decks_value(row, level: float = 0.95):
     z = 1.959963984540054 if level == 0.95 else 2.5758293035489
     low = max(1.0, row.decks * (1 - z * rse))
     high = row.decks * (1 + z * rse)
-    return estimate(float(row.decks), ci=(low, high), level=level, unit="decks", digits=3)
+    return estimate(
+        float(row.decks), interval=(low, high), confidence=level, unit="decks", digits=3
+    )
 
 
 def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
@@ -50,7 +53,7 @@ def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
         if all(d is None for d in decks):
             continue
         curves.append(
-            {"label": title, "x": xs, "decks": decks, "how": "estimate", "low": low, "high": high}
+            {"label": title, "x": xs, "decks": decks, "kind": "estimate", "low": low, "high": high}
         )
     return curves
 

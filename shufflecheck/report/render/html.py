@@ -18,13 +18,8 @@ import base64
 import re
 from html import escape as _escape
 
-from shufflecheck.report.document import (
-    LABEL_MEANINGS,
-    Figure,
-    Report,
-    Table,
-    Value,
-)
+from shufflecheck.common.quantity import LABEL_MEANINGS, Quantity
+from shufflecheck.report.document import Figure, Report, Table
 
 __all__ = ["STYLESHEET", "render_html"]
 
@@ -72,6 +67,7 @@ a { color: var(--accent); }
 .how-exact { border-style: solid; }
 .how-bound { border-style: dashed; }
 .how-estimate { border-style: dotted; border-width: 2px; }
+.how-conjectured { border-style: double; border-width: 3px; }
 .table-block { margin: 1.1rem 0 1.6rem; overflow-x: auto; }
 table { border-collapse: collapse; width: 100%; font-size: 0.92rem; }
 caption { caption-side: top; text-align: left; font-weight: 600; padding: 0 0 0.45rem;
@@ -134,7 +130,8 @@ def _e(text: str) -> str:
 
 
 def _badge(label_text: str) -> str:
-    kind = label_text.split()[-1]  # "exact", "estimate", or "bound" of "upper bound"
+    """The label in a box whose border style says the kind (as the figures' line styles)."""
+    kind = next(k for k in ("conjectured", "bound", "estimate", "exact") if k in label_text)
     return f'<span class="how how-{kind}">{_e(label_text)}</span>'
 
 
@@ -144,8 +141,8 @@ def _cell(table: Table, i: int, j: int) -> str:
         return "<td></td>"
     if isinstance(cell, str):
         return f"<td>{_e(cell)}</td>"
-    assert isinstance(cell, Value)
-    classes = "num est" if cell.label == "estimate" else "num"
+    assert isinstance(cell, Quantity)
+    classes = "num est" if cell.kind == "estimate" else "num"
     text = _e(cell.number_text())
     if table.column_label(j) is None:
         text += " " + _badge(cell.label_text)
@@ -267,7 +264,7 @@ def render_html(report: Report) -> str:
                 f'<a href="#ref-{n}">[{n}]</a>' for n in report.reference_numbers(note)
             )
             out.append(
-                f"<tr><td>{_e(note.quantity)}</td><td>{_badge(note.label)}</td>"
+                f"<tr><td>{_e(note.quantity)}</td><td>{_badge(note.kind)}</td>"
                 f"<td>{_e(note.method)}</td><td>{refs}</td></tr>"
             )
         out += ["</tbody>", "</table>", "</div>", '<h3 id="references">References</h3>']

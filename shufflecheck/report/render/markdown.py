@@ -12,7 +12,8 @@ from __future__ import annotations
 
 import re
 
-from shufflecheck.report.document import LABEL_MEANINGS, Report, Table
+from shufflecheck.common.quantity import LABEL_MEANINGS
+from shufflecheck.report.document import Report, Table
 
 __all__ = ["code", "escape_block", "escape_inline", "render_markdown"]
 
@@ -124,9 +125,7 @@ def render_markdown(report: Report) -> str:
         rows = []
         for note in report.methods:
             refs = ", ".join(f"\\[{n}\\]" for n in report.reference_numbers(note))
-            rows.append(
-                [escape_inline(note.quantity), note.label, escape_inline(note.method), refs]
-            )
+            rows.append([escape_inline(note.quantity), note.kind, escape_inline(note.method), refs])
         out += [""]
         out += _table(["Quantity", "How obtained", "Method", "Sources"], rows, [False] * 4)
         out += ["", "### References", ""]
