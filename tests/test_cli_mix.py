@@ -262,7 +262,7 @@ class TestMixTerminal:
         result = run("mix", "riffle", "--cards", 52, "--target", 0.1)
         assert "Method: exact" in result.stdout
         assert "Bayer & Diaconis 1992" in result.stdout
-        assert "not certification" in result.stdout
+        assert "not a certification" in result.stdout
 
     def test_no_mark_without_target(self):
         result = run("mix", "riffle", "--cards", 52, "--max-steps", 10)

@@ -14,6 +14,7 @@ import pytest
 from hypothesis import assume, given
 from hypothesis import strategies as st
 
+from shufflecheck.common.cautions import REPORT_CAUTIONS
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import format_number
 from shufflecheck.common.quantity import Quantity, estimate, exact, lower_bound, upper_bound
@@ -26,7 +27,6 @@ from shufflecheck.report.document import (
     jsonable,
     render_json,
 )
-from shufflecheck.report.provenance import STANDARD_CAUTIONS
 from tests.test_report_example import FIXED_TIME, example_report
 
 # The smallest valid PNG header: signature + IHDR chunk of a 1 x 1 image (PNG spec, ISO/IEC
@@ -220,9 +220,9 @@ class TestFigureAndReport:
 
     def test_standard_cautions_always_first(self):
         report = example_report(with_figure=False)
-        assert report.all_cautions[: len(STANDARD_CAUTIONS)] == STANDARD_CAUTIONS
+        assert report.all_cautions[: len(REPORT_CAUTIONS)] == REPORT_CAUTIONS
         none_extra = dataclasses.replace(report, cautions=())
-        assert none_extra.all_cautions == STANDARD_CAUTIONS
+        assert none_extra.all_cautions == REPORT_CAUTIONS
 
     def test_references_numbered_once_in_order_of_use(self):
         report = example_report(with_figure=False)
@@ -286,7 +286,7 @@ class TestJson:
         assert data["format"] == FORMAT_NAME
         assert data["question"] == report.question
         assert data["answer"] == list(report.answer)
-        assert data["cautions"][:4] == list(STANDARD_CAUTIONS)
+        assert data["cautions"][:4] == list(REPORT_CAUTIONS)
         assert data["reproducibility"]["seeds"] == [{"name": "simulation", "seed": 2031}]
         table = data["sections"][0]["tables"][0]
         assert table["number"] == 1

@@ -10,8 +10,9 @@ import numpy as np
 import pytest
 
 import shufflecheck
+from shufflecheck.common.cautions import REPORT_CAUTIONS
 from shufflecheck.common.errors import InputError
-from shufflecheck.report.provenance import STANDARD_CAUTIONS, collect_provenance
+from shufflecheck.report.provenance import collect_provenance
 
 UTC = dt.timezone.utc
 
@@ -84,7 +85,7 @@ class TestFields:
 
 class TestCautions:
     def test_standard_cautions_say_what_the_project_requires(self):
-        text = " ".join(STANDARD_CAUTIONS).lower()
+        text = " ".join(REPORT_CAUTIONS).lower()
         assert "statistical evidence" in text and "not a certification" in text
         assert "regulator" in text and "accredited test laboratories" in text
         assert "never alters" in text and "deletes" in text

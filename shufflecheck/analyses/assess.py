@@ -45,6 +45,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from shufflecheck.common.cautions import caution
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.distances import DistanceRow
@@ -73,11 +74,7 @@ LOWER_BOUND_STATISTICS = {
     "guessing score": "correct guesses of the best strategy (Stirling law)",
 }
 
-CAUTION = (
-    "Statistical evidence about the modelled procedure, not a certification: shuffling "
-    "devices and dealing rules are for the local gaming regulator and accredited test "
-    "laboratories to approve."
-)
+CAUTION = caution("the modelled procedure")
 
 MAX_REPEATS = 100
 MAX_DECKS = 50_000_000

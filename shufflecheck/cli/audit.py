@@ -18,12 +18,7 @@ from shufflecheck.cli._app import (
     progress,
     save_report,
 )
-
-CAUTION = (
-    "Statistical evidence about these recorded decks, not a certification: shuffling devices "
-    "and dealing rules are for the local gaming regulator and accredited test laboratories "
-    "to approve. The log was only read, never changed."
-)
+from shufflecheck.common.cautions import LOGS_UNTOUCHED, caution
 
 
 class Labels(str, Enum):
@@ -166,7 +161,7 @@ def print_audit(result) -> None:
         "p-values: exact null laws unless the method says asymptotic or monte-carlo; effects are "
         "estimates from the recorded decks against exact expectations for a random deck."
     )
-    echo(CAUTION)
+    echo(f"{caution('these recorded decks')} {LOGS_UNTOUCHED}")
 
 
 def _repeat_range(text: str) -> list[int]:

@@ -18,6 +18,7 @@ from shufflecheck.cli._app import (
     progress,
     save_report,
 )
+from shufflecheck.common.cautions import caution
 
 
 class MixModel(str, Enum):
@@ -221,11 +222,8 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
             )
     echo("* marks the first step meeting the target on the chosen metric.")
     kind = "exact distances" if curve.rows[0].kind == "exact" else "rigorous bounds"
-    echo(
-        f"These are {kind} for the idealised model; real hands and machines differ. "
-        "Statistical evidence, not certification: device approval and dealing rules are for "
-        "the local gaming regulator and accredited test laboratories."
-    )
+    echo(f"These are {kind} for the idealised model; real hands and machines differ.")
+    echo(caution("the idealised model"))
 
 
 def _figure(curve, metric, goal, first):

@@ -30,10 +30,11 @@ from fractions import Fraction
 from pathlib import PurePath
 from typing import Any
 
+from shufflecheck.common.cautions import REPORT_CAUTIONS
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import json_number
 from shufflecheck.common.quantity import KINDS, LABEL_MEANINGS, Kind, Quantity
-from shufflecheck.report.provenance import STANDARD_CAUTIONS, Provenance
+from shufflecheck.report.provenance import Provenance
 
 __all__ = [
     "FORMAT_NAME",
@@ -394,7 +395,7 @@ class Report:
     @property
     def all_cautions(self) -> tuple[str, ...]:
         """The standard cautions followed by this report's own."""
-        return STANDARD_CAUTIONS + self.cautions
+        return REPORT_CAUTIONS + self.cautions
 
     @property
     def references(self) -> tuple[str, ...]:

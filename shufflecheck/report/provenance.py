@@ -23,18 +23,7 @@ from pathlib import Path
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import sha256_file
 
-__all__ = ["STANDARD_CAUTIONS", "InputFile", "Provenance", "collect_provenance"]
-
-#: Shown in every report, in this order; a report can add its own cautions after these.
-STANDARD_CAUTIONS: tuple[str, ...] = (
-    "These results are statistical evidence about a shuffling procedure or about a sample of "
-    "recorded decks. They are not a certification of any procedure, device or game.",
-    "Approval of shuffling devices and of dealing rules belongs to the local gaming regulator "
-    "and to accredited test laboratories; this report defers to them.",
-    "Numbers labelled 'estimate' come from random simulation or from a finite sample and carry "
-    "their uncertainty; only numbers labelled 'exact' or 'bound' are guarantees.",
-    "The tool only reads its input files: it never alters, moves or deletes recorded logs.",
-)
+__all__ = ["InputFile", "Provenance", "collect_provenance"]
 
 # Libraries whose versions can change a number or a figure in a report.
 _LIBRARIES = ("numpy", "scipy", "matplotlib")

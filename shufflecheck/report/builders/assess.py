@@ -6,9 +6,7 @@ import dataclasses
 from typing import Any
 
 from shufflecheck.common.quantity import Quantity, exact
-from shufflecheck.report.document import MethodNote, Report, Section, Table
-from shufflecheck.report.provenance import Provenance
-from shufflecheck.report.sources import (
+from shufflecheck.common.sources import (
     ALDOUS_DIACONIS_1987,
     BAYER_DIACONIS,
     CLOPPER_PEARSON,
@@ -16,6 +14,8 @@ from shufflecheck.report.sources import (
     DIACONIS_1988,
     DIACONIS_GRAHAM,
 )
+from shufflecheck.report.document import MethodNote, Report, Section, Table
+from shufflecheck.report.provenance import Provenance
 
 __all__ = ["as_value", "assessment_methods", "assessment_report"]
 

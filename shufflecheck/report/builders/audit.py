@@ -8,9 +8,9 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.common.quantity import estimate, exact
+from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
-from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 
 __all__ = ["audit_figures", "audit_methods", "audit_report", "audit_section"]
 

@@ -5,16 +5,16 @@ from __future__ import annotations
 from typing import Any
 
 from shufflecheck.common.quantity import exact, upper_bound
-from shufflecheck.core.distances import MixingCurve
-from shufflecheck.report.document import MethodNote, Report, Section, Table
-from shufflecheck.report.provenance import Provenance
-from shufflecheck.report.sources import (
+from shufflecheck.common.sources import (
     ALDOUS_DIACONIS_1986,
     BAYER_DIACONIS,
     COVER_THOMAS,
     DIACONIS_FULMAN_HOLMES,
     DIACONIS_SHAHSHAHANI,
 )
+from shufflecheck.core.distances import MixingCurve
+from shufflecheck.report.document import MethodNote, Report, Section, Table
+from shufflecheck.report.provenance import Provenance
 
 __all__ = ["METRIC_LABELS", "mixing_report"]
 

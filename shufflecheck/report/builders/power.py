@@ -6,9 +6,9 @@ import math
 from typing import Any
 
 from shufflecheck.common.quantity import estimate
+from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
-from shufflecheck.report.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 
 __all__ = ["decks_value", "power_curves", "power_report", "power_section"]
 

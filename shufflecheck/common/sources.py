@@ -1,4 +1,5 @@
-"""Full citations of the published methods, shared by the report builders."""
+"""Full citations of the published methods: one place, used by the model registry, the
+analyses and the report builders."""
 
 BAYER_DIACONIS = (
     'D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl. '
