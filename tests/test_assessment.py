@@ -130,8 +130,8 @@ class TestBadInput:
     @pytest.mark.parametrize(
         ("kwargs", "message"),
         [
-            ({"repeats": 0}, "--repeat must be"),
-            ({"decks": 1}, "--decks must be"),
+            ({"repeats": 0}, "repeats must be"),
+            ({"decks": 1}, "decks must be"),
             ({"confidence": 1.5}, "confidence must be"),
         ],
     )

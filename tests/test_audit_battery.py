@@ -237,7 +237,7 @@ def test_finish_errors():
     summary.update(np.tile(np.arange(5), (3, 1)))
     with pytest.raises(InputError, match="alpha"):
         summary.finish(alpha=1.5)
-    with pytest.raises(InputError, match="at least 2 cards"):
+    with pytest.raises(InputError, match="cards must be at least 2"):
         BatterySummary.empty(1)
     with pytest.raises(InputError, match="expected 5 cards"):
         summary.update(np.tile(np.arange(6), (3, 1)))

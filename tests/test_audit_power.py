@@ -88,11 +88,11 @@ class TestPlans:
         assert plan.best().decks == 1
 
     def test_errors(self):
-        with pytest.raises(InputError, match="--cards"):
+        with pytest.raises(InputError, match="cards must"):
             plan_decks(self._sampler(1), 1)
-        with pytest.raises(InputError, match="--alpha"):
+        with pytest.raises(InputError, match="alpha must"):
             plan_decks(self._sampler(1), 52, alpha=0)
-        with pytest.raises(InputError, match="--power"):
+        with pytest.raises(InputError, match="power must"):
             plan_decks(self._sampler(1), 52, power=1.0)
         with pytest.raises(InputError, match="returned 10 decks"):
             plan_decks(lambda count, rng: riffle.sample(10, 52, 1, rng=rng), 52, simulate=200)

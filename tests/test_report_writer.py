@@ -89,7 +89,7 @@ class TestOverwrite:
         target = tmp_path / "audit"
         write_report(report, target)
         before = _snapshot(target)
-        with pytest.raises(InputError, match="exists; pass --force"):
+        with pytest.raises(InputError, match="exists; pass force"):
             write_report(other_report, target)
         assert _snapshot(target) == before
         assert _siblings(target) == ["audit"]

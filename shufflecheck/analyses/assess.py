@@ -46,6 +46,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from shufflecheck.common.cautions import caution
+from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.distances import DistanceRow
@@ -352,14 +353,11 @@ def assess(
     """
     from shufflecheck.audit.guessing import STRATEGIES, check_strategies
 
-    if not isinstance(repeats, int) or not 1 <= repeats <= MAX_REPEATS:
-        raise InputError(f"--repeat must be an integer from 1 to {MAX_REPEATS}, got {repeats}")
-    if not isinstance(decks, int) or not 2 <= decks <= MAX_DECKS:
-        raise InputError(f"--decks must be an integer from 2 to {MAX_DECKS:,}, got {decks}")
+    check_integer(repeats, "repeats", low=1, high=MAX_REPEATS)
+    check_integer(decks, "decks", low=2, high=MAX_DECKS)
     if not 0.5 <= confidence < 1:
-        raise InputError(f"confidence must be in [0.5, 1), got {confidence}")
-    if cards < 2:
-        raise InputError(f"--cards must be at least 2, got {cards}")
+        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
+    check_cards(cards)
     procedure.check_cards(cards)
     names = check_strategies(strategies if strategies is not None else tuple(STRATEGIES))
     generator = np.random.default_rng(rng)

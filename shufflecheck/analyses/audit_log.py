@@ -134,8 +134,9 @@ def audit_log(
     if deck is None and cards is not None and cards != 52:
         if not labels.startswith("int"):
             raise InputError(
-                f"{path}: a {cards}-card deck needs a deck definition (--deck FILE) for card "
-                "codes, or integer labels (--labels int)"
+                f"{path}: a {cards}-card deck needs a deck definition ({{deck}} FILE) for card "
+                "codes, or integer labels ({labels} int)",
+                argument=("deck", "labels"),
             )
         definition = integer_deck(cards)
     else:
@@ -216,7 +217,7 @@ def audit_log(
 
 def _check_time_order(path, chunk, column: str, last: dict[str, object]) -> None:
     if column not in chunk.columns:
-        raise InputError(f"{path}: --time column {column!r} is not in the log")
+        raise InputError(f"{path}: time column {column!r} is not in the log", argument="time")
     values = chunk.columns[column]
     import pandas as pd
 

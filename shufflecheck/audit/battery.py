@@ -86,6 +86,7 @@ from shufflecheck.audit.statistics import (
     category_codes,
 )
 from shufflecheck.audit.timeline import change_point, describe
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 
 __all__ = [
@@ -444,8 +445,7 @@ class BatterySummary:
         keep_series : bool
             Keep per-deck values in time order for "since when" (2 bytes/deck/statistic).
         """
-        if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 2:
-            raise InputError(f"an audit needs decks of at least 2 cards, got {n!r}")
+        check_cards(n, prefix="an audit: ")
         suit_arr = None if suits is None else np.asarray(suits).copy()
         colour_arr = None if colours is None else np.asarray(colours).copy()
         return cls(

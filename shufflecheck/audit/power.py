@@ -45,6 +45,7 @@ from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
 from shufflecheck.audit.nulls import Law, sum_distribution
 from shufflecheck.audit.positions import position_counts
 from shufflecheck.audit.statistics import as_decks, category_codes
+from shufflecheck.common.checks import check_cards, check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Kind
 
@@ -161,16 +162,11 @@ def _smallest(power_at: Callable[[int], float], target: float, start: int, cap: 
 
 
 def _check_plan(cards: int, alpha: float, power: float, simulate: int, max_decks: int) -> None:
-    if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
-        raise InputError(f"--cards must be an integer >= 2, got {cards!r}")
-    if not 0 < alpha < 1:
-        raise InputError(f"--alpha must lie strictly between 0 and 1, got {alpha!r}")
-    if not 0 < power < 1:
-        raise InputError(f"--power must lie strictly between 0 and 1, got {power!r}")
-    if simulate < 100:
-        raise InputError(f"simulate at least 100 decks, got {simulate!r}")
-    if max_decks < 1:
-        raise InputError(f"max_decks must be >= 1, got {max_decks!r}")
+    check_cards(cards)
+    check_fraction(alpha, "alpha")
+    check_fraction(power, "power")
+    check_integer(simulate, "simulate", low=100, why="simulated decks behind the estimate")
+    check_integer(max_decks, "max_decks", low=1)
 
 
 def plan_decks(

@@ -33,13 +33,37 @@ class _Group(TyperGroup):
         try:
             return super().invoke(ctx)
         except InputError as exc:
-            typer.echo(f"error: {exc}", err=True)
+            typer.echo(f"error: {option_message(exc, self._subcommand(ctx))}", err=True)
             raise typer.Exit(code=EXIT_BAD_INPUT) from None
         except _UsageError as exc:
             where = exc.ctx.command_path if getattr(exc, "ctx", None) else "shufflecheck"
             message = " ".join(exc.format_message().split())
             typer.echo(f"error: {message} (see '{where} --help')", err=True)
             raise typer.Exit(code=EXIT_BAD_INPUT) from None
+
+    def _subcommand(self, ctx: Any) -> Any:
+        name = ctx.invoked_subcommand or (ctx.protected_args or [None])[0]
+        return self.get_command(ctx, name) if name else None
+
+
+def _words(name: str) -> set[str]:
+    base = name.replace("-", "_").strip("_")
+    return {base, base.rstrip("s"), base + "s"}
+
+
+def option_message(exc: InputError, command: Any) -> str:
+    """The message of ``exc`` with each library argument it names (``cards``) written as
+    the command's option (``--cards``), when the command has an option for it."""
+    options: dict[str, str] = {}
+    for argument in exc.arguments if command is not None else ():
+        wanted = _words(argument)
+        for param in getattr(command, "params", ()):
+            opts = [o for o in getattr(param, "opts", ()) if o.startswith("--")]
+            names = {param.name or ""} | {o.lstrip("-") for o in opts}
+            if opts and any(_words(n) & wanted for n in names):
+                options[argument] = opts[0]
+                break
+    return exc.naming(options)
 
 
 app = typer.Typer(

@@ -43,7 +43,7 @@ def atomic_open(
     """
     target = Path(path)
     if not force and target.exists():
-        raise InputError(f"{target} exists; pass --force to replace it")
+        raise InputError(f"{target} exists; pass force to replace it", argument="force")
     folder = target.parent if str(target.parent) else Path(".")
     if not folder.exists():
         raise InputError(f"cannot write {target}: folder {folder} does not exist")

@@ -14,6 +14,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 
+from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.distances import MixingCurve
@@ -82,13 +83,11 @@ def distance_curve(
     progress: Callable[[int], None] | None = None,
 ) -> MixingCurve:
     """Exact distances to uniform for ``k = 1..max_steps`` steps of a classical model."""
-    if cards < 2:
-        raise InputError(f"--cards must be at least 2, got {cards}")
+    check_cards(cards)
     if model not in EXACT_MODELS:
         raise InputError(f"unknown model {model!r}; choose {', '.join(EXACT_MODELS)}")
     steps = default_max_steps(model, cards) if max_steps is None else max_steps
-    if steps < 1:
-        raise InputError(f"--max-steps must be at least 1, got {steps}")
+    check_integer(steps, "max_steps", low=1)
     if model == "riffle":
         from shufflecheck.models import riffle
 
@@ -112,8 +111,7 @@ def spectrum(
     model: str, cards: int, *, hold: float | None = None, hands: int = 2
 ) -> list[Eigenvalue]:
     """Distinct eigenvalues (largest first) of one step of ``model`` on ``cards`` cards."""
-    if cards < 2:
-        raise InputError(f"--cards must be at least 2, got {cards}")
+    check_cards(cards)
     if model == "transposition":
         from shufflecheck.models.transposition import spectrum as transposition_spectrum
 

@@ -22,6 +22,7 @@ from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 
 if TYPE_CHECKING:
@@ -64,8 +65,7 @@ class Step(ABC):
 
     def check_cards(self, cards: int) -> None:
         """Raise :class:`InputError` when the step cannot act on a deck of ``cards`` cards."""
-        if cards < 2:
-            raise InputError(f"{self.keyword}: a deck needs at least 2 cards, got {cards}")
+        check_cards(cards, prefix=f"{self.keyword}: ")
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         """Exact distances to uniform after ``times`` consecutive steps, or None when this

@@ -42,6 +42,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
@@ -145,8 +146,7 @@ def rotate(decks: np.ndarray, depths: np.ndarray) -> np.ndarray:
 def _check_cut(cards: int, spread: float | None, least: int) -> None:
     check_spread(spread, "cut")
     _check_least(least)
-    if cards < 2:
-        raise InputError(f"cut: a deck needs at least 2 cards, got {cards}")
+    check_cards(cards, prefix="cut: ")
     if 2 * least > cards:
         raise InputError(
             f"cut: least={least} leaves no possible cut in a deck of {cards} cards "

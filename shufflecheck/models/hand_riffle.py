@@ -64,6 +64,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models import riffle
@@ -199,8 +200,7 @@ def exact_distances(
     """
     check_spread(spread, "hand-riffle")
     check_clump(clump)
-    if cards < 2:
-        raise InputError(f"hand-riffle: a deck needs at least 2 cards, got {cards}")
+    check_cards(cards, prefix="hand-riffle: ")
     if clump != 1:
         return None
     if spread is None:

@@ -49,6 +49,7 @@ from typing import ClassVar
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
@@ -91,8 +92,7 @@ def boundary_probability(
     _check_positive(keyword, "size", size)
     if (packets is None) == (size is None):
         raise InputError(f"{keyword}: give exactly one of packets and size")
-    if cards < 2:
-        raise InputError(f"{keyword}: a deck needs at least 2 cards, got {cards}")
+    check_cards(cards, prefix=f"{keyword}: ")
     if packets is not None:
         if packets > cards:
             raise InputError(

@@ -33,6 +33,7 @@ from pathlib import Path
 
 import numpy as np
 
+from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import load_step_types
 from shufflecheck.models.base import Step
@@ -400,8 +401,7 @@ def simulate_play(
     """
     if reference not in SIMULATION_REFERENCES:
         raise InputError(f"reference must be previous or first, got {reference!r}")
-    if decks < 1:
-        raise InputError(f"--decks must be at least 1, got {decks}")
+    check_integer(decks, "decks", low=1)
     generator = np.random.default_rng(rng)
     if change is None:
         relative = procedure.sample(decks, cards, repeats, rng=generator)

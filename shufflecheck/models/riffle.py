@@ -35,6 +35,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
@@ -69,10 +70,8 @@ def check_hands(hands: int) -> int:
 
 
 def _check_cards_steps(cards: int, steps: int) -> None:
-    if cards < 2:
-        raise InputError(f"cards must be at least 2, got {cards}")
-    if steps < 0:
-        raise InputError(f"steps must be >= 0, got {steps}")
+    check_cards(cards)
+    check_integer(steps, "steps", low=0)
 
 
 def spectrum(cards: int, *, hands: int = 2) -> list[Eigenvalue]:

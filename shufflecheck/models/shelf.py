@@ -68,6 +68,7 @@ from functools import cache
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
 from shufflecheck.models.base import Step, register_step, sample_step
@@ -112,10 +113,8 @@ def _check_stack(stack: str) -> str:
 
 
 def _check_sizes(cards: int, passes: int) -> None:
-    if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
-        raise InputError(f"shelf: a deck needs at least 2 cards, got {cards!r}")
-    if isinstance(passes, bool) or not isinstance(passes, int) or passes < 0:
-        raise InputError(f"shelf: passes must be an integer >= 0, got {passes!r}")
+    check_cards(cards, prefix="shelf: ")
+    check_integer(passes, "passes", low=0, prefix="shelf: ")
 
 
 def equivalent_shelves(shelves: int, passes: int) -> int:

@@ -33,6 +33,7 @@ from fractions import Fraction
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import rencontres_row, stirling2_columns
@@ -77,10 +78,8 @@ def spectrum(cards: int) -> list[Eigenvalue]:
 
 
 def _check(cards: int, steps: int) -> None:
-    if cards < 2:
-        raise InputError(f"cards must be at least 2, got {cards}")
-    if steps < 0:
-        raise InputError(f"steps must be >= 0, got {steps}")
+    check_cards(cards)
+    check_integer(steps, "steps", low=0)
     if cards > MAX_EXACT_CARDS or steps > MAX_EXACT_STEPS:
         raise InputError(
             f"the exact top-to-random law is limited to {MAX_EXACT_CARDS} cards and "
@@ -172,8 +171,9 @@ def sample_random_to_top(
     decks: int, cards: int, steps: int = 1, *, rng: np.random.Generator | int | None = None
 ) -> np.ndarray:
     """``decks`` decks after ``steps`` random-to-top moves of the reference order."""
-    if decks < 0 or cards < 2 or steps < 0:
-        raise InputError("decks >= 0, cards >= 2 and steps >= 0 are required")
+    check_integer(decks, "decks", low=0)
+    check_cards(cards)
+    check_integer(steps, "steps", low=0)
     generator = np.random.default_rng(rng)
     out = identity_decks(decks, cards)
     for start in range(0, decks, CHUNK_DECKS):

@@ -43,6 +43,7 @@ from typing import Literal
 
 import numpy as np
 
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 
 if sys.version_info >= (3, 11):
@@ -439,8 +440,7 @@ def integer_deck(cards: int) -> DeckDefinition:
     Its codes (``C1`` .. ``Cn``) only name the cards in messages; logs of such a deck are
     read with ``labels="int"`` (0..n-1 or 1..n).
     """
-    if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
-        raise InputError(f"a deck needs at least 2 cards, got {cards!r}")
+    check_cards(cards)
     return DeckDefinition.from_cards(
         f"integers-{cards}",
         [f"C{k}" for k in range(1, cards + 1)],

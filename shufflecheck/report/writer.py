@@ -95,7 +95,9 @@ def write_report(
         if not target.is_dir() or target.is_symlink():
             raise InputError(f"cannot write report to {target}: it exists and is not a folder")
         if not force:
-            raise InputError(f"report folder {target} exists; pass --force to replace it")
+            raise InputError(
+                f"report folder {target} exists; pass force to replace it", argument="force"
+            )
         _check_replaceable(target)
 
     files = render_files(report)  # render everything before touching the disk
