@@ -23,8 +23,8 @@ from sympy.combinatorics import Permutation
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import minimum_steps
 from shufflecheck.models import cut, hand_riffle, overhand, pile, riffle, shelf
-from shufflecheck.models.base import STEP_TYPES
 from shufflecheck.models.permute import identity_decks
+from shufflecheck.models.registry import step_types
 
 from . import _brute
 from ._fit import chisquare_p
@@ -662,7 +662,7 @@ PLAIN_TYPES = {int, float, str, bool, int | None, float | None, str | None}
 class TestRegistry:
     @pytest.mark.parametrize("keyword", sorted(KEYWORDS))
     def test_registered_with_plain_parameter_types(self, keyword):
-        cls = STEP_TYPES[keyword]
+        cls = step_types()[keyword]
         assert cls is KEYWORDS[keyword]
         hints = typing.get_type_hints(cls)
         for field in dataclasses.fields(cls):

@@ -10,6 +10,7 @@ import typer
 
 from shufflecheck.cli._app import app, echo, emit_json
 from shufflecheck.common.errors import InputError
+from shufflecheck.models.registry import spectrum_models
 
 #: above this many entries the terminal gets a summary and the table goes to --csv
 _PRINT_LIMIT = 400
@@ -109,10 +110,8 @@ def _write_csv(path: Path, table) -> None:
             )
 
 
-class SpectrumModel(str, Enum):
-    transposition = "transposition"
-    riffle = "riffle"
-    top_to_random = "top-to-random"
+#: the models with a spectrum, from the model registry
+SpectrumModel = Enum("SpectrumModel", {name: name for name in spectrum_models()}, type=str)
 
 
 @app.command()

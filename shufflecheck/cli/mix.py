@@ -19,14 +19,10 @@ from shufflecheck.cli._app import (
     save_report,
 )
 from shufflecheck.common.cautions import caution
+from shufflecheck.models.registry import curve_models, entry
 
-
-class MixModel(str, Enum):
-    riffle = "riffle"
-    transposition = "transposition"
-    top_to_random = "top-to-random"
-    random_to_top = "random-to-top"
-    shelf = "shelf"
+#: the models with an exact distance curve, from the model registry
+MixModel = Enum("MixModel", {name: name for name in curve_models()}, type=str)
 
 
 class Metric(str, Enum):
@@ -94,7 +90,7 @@ def mix(
 
     goal = check_target(target)
     steps = max_steps if max_steps is not None else default_max_steps(model.value, max(cards, 2))
-    long_work = model is MixModel.transposition and cards >= 30
+    long_work = "progress" in entry(model.value).curve_options and cards >= 30
     with progress(steps if long_work else 0, "lumped chain") as update:
         curve = distance_curve(
             model.value,
@@ -233,7 +229,7 @@ def _figure(curve, metric, goal, first):
         curve_series(curve, metric, first),
         target=goal,
         metric=_METRIC_AXIS[metric],
-        steps_name=_STEP_NAMES.get(curve.model, "steps"),
+        steps_name=entry(curve.model).steps_word,
     )
 
 
@@ -242,7 +238,6 @@ _METRIC_AXIS = {
     "separation": "separation distance",
     "kl_bits": "KL divergence (bits)",
 }
-_STEP_NAMES = {"riffle": "riffles", "transposition": "transpositions", "shelf": "machine passes"}
 
 
 def curve_series(curve, metric: str, minimum: int | None = None) -> list[dict]:

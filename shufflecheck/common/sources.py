@@ -45,3 +45,15 @@ PEMANTLE = (
 STANLEY = (
     "R. P. Stanley, Enumerative Combinatorics, vol. 1, 2nd ed., Cambridge University Press, 2012."
 )
+GILBERT_REEDS = (
+    'E. N. Gilbert, "Theory of shuffling", Bell Laboratories technical memorandum, 1955; '
+    "J. Reeds, unpublished manuscript, 1981 (the Gilbert-Shannon-Reeds riffle)."
+)
+DIACONIS_GRAHAM_KANTOR = (
+    'P. Diaconis, R. L. Graham and W. M. Kantor, "The mathematics of perfect shuffles", '
+    "Adv. in Appl. Math. 4 (1983) 175-196."
+)
+DIACONIS_FILL_PITMAN = (
+    'P. Diaconis, J. A. Fill and J. Pitman, "Analysis of top to random shuffles", Combin. '
+    "Probab. Comput. 1 (1992) 135-155."
+)

@@ -3,7 +3,8 @@
 A :class:`Step` is one move of a dealing procedure (a riffle, a strip, a cut, ...). Its
 fields are its parameters, with documented defaults; ``__post_init__`` validates them and
 raises :class:`~shufflecheck.common.errors.InputError` naming the parameter. The procedure parser
-builds steps from text such as ``strip(packets=5)`` through :data:`STEP_TYPES`.
+builds steps from text such as ``strip(packets=5)`` through the model registry
+(:mod:`shufflecheck.models.registry`), one entry per step class.
 
 ``apply(decks, rng)`` performs one physical step on every row of ``decks`` (see
 DEVELOPERS.md for the deck-array convention) and returns a new array; ``apply_repeated``
@@ -28,18 +29,7 @@ from shufflecheck.common.errors import InputError
 if TYPE_CHECKING:
     from shufflecheck.core.distances import DistanceRow
 
-__all__ = ["STEP_TYPES", "Step", "register_step", "sample_step"]
-
-#: procedure keyword -> step class; filled by :func:`register_step`.
-STEP_TYPES: dict[str, type[Step]] = {}
-
-
-def register_step(cls: type[Step]) -> type[Step]:
-    """Class decorator: make a step available to procedure text under ``cls.keyword``."""
-    if cls.keyword in STEP_TYPES and STEP_TYPES[cls.keyword] is not cls:
-        raise RuntimeError(f"two step classes claim the keyword {cls.keyword!r}")
-    STEP_TYPES[cls.keyword] = cls
-    return cls
+__all__ = ["Step", "sample_step"]
 
 
 @dataclasses.dataclass(frozen=True)

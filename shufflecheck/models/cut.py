@@ -44,9 +44,11 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_1988
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -244,7 +246,6 @@ def sample(
     return sample_step(Cut(spread=spread, least=least), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Cut(Step):
     """Cut the deck: the top ``c`` cards go underneath.
@@ -296,3 +297,13 @@ class Cut(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times, spread=self.spread, least=self.least)
+
+
+register_model(
+    ModelEntry(
+        Cut,
+        steps_word="cuts",
+        sources=(DIACONIS_1988, ALDOUS_DIACONIS_1986),
+        exact=f"any number of cuts: k <= {MAX_EXACT_STEPS:,}, n <= {MAX_EXACT_CARDS:,}",
+    )
+)

@@ -66,12 +66,14 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM_KANTOR, GILBERT_REEDS
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
 from shufflecheck.models import riffle
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
 from shufflecheck.models.permute import apply_in_blocks, place_by_sort_key
 from shufflecheck.models.pile import fixed_arrangement_distances, power_sources
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "FAROS",
@@ -239,7 +241,6 @@ def sample(
     return sample_step(HandRiffle(spread=spread, clump=clump), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class HandRiffle(Step):
     """A riffle as hands do it: the cut spread around the middle, cards falling in clumps.
@@ -316,7 +317,6 @@ def sample_weave(
     return sample_step(Weave(faro=faro), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Weave(Step):
     """The perfect weave (faro): exact halves, interleaved one card from each.
@@ -345,3 +345,21 @@ class Weave(Step):
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         return fixed_arrangement_distances(cards, times)
+
+
+register_model(
+    ModelEntry(
+        HandRiffle,
+        steps_word="hand riffles",
+        sources=(GILBERT_REEDS, BAYER_DIACONIS),
+        exact="defaults: as riffle; clump=1 with a spread: one step; otherwise none",
+    )
+)
+register_model(
+    ModelEntry(
+        Weave,
+        steps_word="weaves",
+        sources=(DIACONIS_GRAHAM_KANTOR,),
+        exact="fixed rearrangement: mixes nothing by itself",
+    )
+)

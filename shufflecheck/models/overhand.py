@@ -51,9 +51,11 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import PEMANTLE
 from shufflecheck.core.distances import DistanceRow, distances_from_groups
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -220,7 +222,6 @@ class _PacketShuffle(Step):
         return exact_distances(cards, times, **self._rule())
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Strip(_PacketShuffle):
     """Strip: packets pulled off the top onto the table, their order reversed (Pemantle).
@@ -238,7 +239,6 @@ class Strip(_PacketShuffle):
     default = ("packets", 5.0)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Overhand(_PacketShuffle):
     """Overhand: the strip's mechanics in the hands, with many small packets by default.
@@ -270,3 +270,18 @@ def sample(
     ``packets`` / ``size`` as for :class:`Strip` (default: 5 packets on average).
     """
     return sample_step(Strip(packets=packets, size=size), decks, cards, steps, rng)
+
+
+register_model(
+    ModelEntry(
+        Strip, steps_word="strips", sources=(PEMANTLE,), exact=f"one step, n <= {MAX_EXACT_CARDS:,}"
+    )
+)
+register_model(
+    ModelEntry(
+        Overhand,
+        steps_word="overhand shuffles",
+        sources=(PEMANTLE,),
+        exact=f"one step, n <= {MAX_EXACT_CARDS:,}",
+    )
+)

@@ -41,8 +41,10 @@ from fractions import Fraction
 import numpy as np
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import DIACONIS_1988
 from shufflecheck.core.distances import DistanceRow
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "Pile",
@@ -127,7 +129,6 @@ def sample(
     return sample_step(Pile(piles=piles, pickup=pickup), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Pile(Step):
     """Deal into ``piles`` piles round-robin, then pick them up in ``pickup`` order.
@@ -178,3 +179,13 @@ class Pile(Step):
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         return fixed_arrangement_distances(cards, times)
+
+
+register_model(
+    ModelEntry(
+        Pile,
+        steps_word="pile deals",
+        sources=(DIACONIS_1988,),
+        exact="fixed rearrangement: mixes nothing by itself",
+    )
+)

@@ -7,7 +7,7 @@ Grammar (whitespace is free between tokens)::
     param     := name "=" value          value := number | word | "quoted text"
 
 ``x3`` (also ``×3`` or ``*3``) repeats a step. Step names are the keywords of the
-registered step models (see :data:`shufflecheck.models.base.STEP_TYPES`); parameters are
+registered step models (see :mod:`shufflecheck.models.registry`); parameters are
 the step's dataclass fields and are converted to the field's type. Errors point at the
 offending column: ``unknown step 'rifle' at column 1; did you mean 'riffle'?``.
 
@@ -23,7 +23,6 @@ procedure ``r`` times is ``apply(decks, rng, repeats=r)``.
 
 from __future__ import annotations
 
-import dataclasses
 import difflib
 import re
 import types
@@ -35,9 +34,9 @@ import numpy as np
 
 from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
-from shufflecheck.models import load_step_types
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.models.registry import entry, step_types
 
 __all__ = [
     "SIMULATION_REFERENCES",
@@ -169,7 +168,7 @@ def parse_procedure(text: str, *, name: str | None = None, cards: int | None = N
     """Parse procedure text (see the module docstring) into a :class:`Procedure`."""
     if not isinstance(text, str) or not text.strip():
         raise InputError("the procedure is empty; give steps like 'riffle x3, strip, riffle, cut'")
-    types_by_name = load_step_types()
+    types_by_name = step_types()
     cursor = _Cursor(text)
     items: list[ProcedureItem] = []
     while True:
@@ -221,14 +220,9 @@ def parse_procedure(text: str, *, name: str | None = None, cards: int | None = N
     return Procedure(tuple(items), text.strip(), name, cards)
 
 
-def _field_types(cls: type[Step]) -> dict[str, object]:
-    hints = typing.get_type_hints(cls)
-    return {f.name: hints[f.name] for f in dataclasses.fields(cls)}
-
-
 def _parse_params(cursor: _Cursor, cls: type[Step], keyword: str) -> dict[str, object]:
     text = cursor.text
-    fields = _field_types(cls)
+    fields = entry(keyword).field_types()
     cursor.pos += 1  # "("
     params: dict[str, object] = {}
     while True:

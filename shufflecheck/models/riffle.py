@@ -37,11 +37,13 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import BAYER_DIACONIS, GILBERT_REEDS
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
 from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, label_bits, place_by_sort_key
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -213,7 +215,6 @@ def sample(
     return sample_step(Riffle(hands=hands), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Riffle(Step):
     """The ideal riffle (GSR), or an a-shuffle with ``hands`` packets."""
@@ -236,3 +237,19 @@ class Riffle(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times, hands=self.hands)
+
+
+register_model(
+    ModelEntry(
+        Riffle,
+        steps_word="riffles",
+        sources=(BAYER_DIACONIS, GILBERT_REEDS),
+        curve=distance_curve,
+        curve_options=("hands",),
+        spectrum=spectrum,
+        spectrum_options=("hands",),
+        default_steps=lambda cards: math.ceil(1.5 * math.log2(cards)) + 5,
+        exact=f"any number of riffles (rising sequences): k <= {MAX_EXACT_STEPS}, "
+        f"n <= {MAX_EXACT_CARDS:,}",
+    )
+)

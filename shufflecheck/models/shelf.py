@@ -70,9 +70,11 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_FULMAN_HOLMES
 from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -335,7 +337,6 @@ def sample(
     return sample_step(Shelf(shelves=shelves, stack=stack), decks, cards, steps, rng)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Shelf(Step):
     """A shelf shuffling machine: each card to a random shelf, on top or underneath.
@@ -388,3 +389,17 @@ class Shelf(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_PASSES:
             return None
         return exact_distances(cards, times, shelves=self.shelves)
+
+
+register_model(
+    ModelEntry(
+        Shelf,
+        steps_word="machine passes",
+        sources=(DIACONIS_FULMAN_HOLMES, BAYER_DIACONIS),
+        curve=distance_curve,
+        curve_options=("shelves",),
+        default_steps=lambda cards: 6,
+        exact=f"any number of passes, either stacking (valleys): k <= {MAX_EXACT_PASSES}, "
+        f"n <= {MAX_EXACT_CARDS:,}",
+    )
+)

@@ -28,6 +28,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from fractions import Fraction
 
@@ -35,11 +36,13 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import rencontres_row, stirling2_columns
 from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
-from shufflecheck.models.base import Step, register_step
+from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks, invert
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_EXACT_CARDS",
@@ -200,7 +203,6 @@ def _insert_sources(decks: int, cards: int, rng: np.random.Generator) -> np.ndar
     return np.where(i < j, i + 1, np.where(i == j, 0, i))
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class TopToRandom(Step):
     """Take the top card and insert it at a uniformly random position (n choices)."""
@@ -218,7 +220,6 @@ class TopToRandom(Step):
         return exact_distances(cards, times)
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class RandomToTop(Step):
     """Take a uniformly random card and put it on top (the inverse of top-to-random)."""
@@ -236,3 +237,32 @@ class RandomToTop(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times)
+
+
+def _default_steps(cards: int) -> int:
+    return math.ceil(1.5 * cards * math.log(cards))
+
+
+register_model(
+    ModelEntry(
+        TopToRandom,
+        steps_word="top-to-random moves",
+        sources=(ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN),
+        curve=distance_curve,
+        spectrum=spectrum,
+        default_steps=_default_steps,
+        exact=f"any number of steps (Stirling numbers): k <= {MAX_EXACT_STEPS:,}, "
+        f"n <= {MAX_EXACT_CARDS:,}",
+    )
+)
+register_model(
+    ModelEntry(
+        RandomToTop,
+        steps_word="random-to-top moves",
+        sources=(ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN),
+        curve=functools.partial(distance_curve, inverse=True),
+        spectrum=spectrum,
+        default_steps=_default_steps,
+        exact="as top-to-random (its inverse: the same distances)",
+    )
+)

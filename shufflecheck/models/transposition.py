@@ -41,6 +41,7 @@ from functools import lru_cache
 import numpy as np
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.sources import DIACONIS_1988, DIACONIS_SHAHSHAHANI
 from shufflecheck.core.characters import (
     Eigenvalue,
     character_table,
@@ -57,7 +58,8 @@ from shufflecheck.core.partitions import (
     partitions,
     z,
 )
-from shufflecheck.models.base import Step, register_step, sample_step
+from shufflecheck.models.base import Step, sample_step
+from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
     "MAX_BOUND_CARDS",
@@ -540,7 +542,6 @@ def sample(
     )
 
 
-@register_step
 @dataclasses.dataclass(frozen=True)
 class Transposition(Step):
     """Two hands each pick a uniformly random card and swap them (hold = chance of no swap)."""
@@ -567,3 +568,19 @@ class Transposition(Step):
 @lru_cache(maxsize=8)
 def _cached_chain_rows(cards: int, hold: float | None, steps: int) -> tuple[DistanceRow, ...]:
     return _chain_rows(cards, steps, hold, None)
+
+
+register_model(
+    ModelEntry(
+        Transposition,
+        steps_word="random transpositions",
+        sources=(DIACONIS_SHAHSHAHANI, DIACONIS_1988),
+        curve=distance_curve,
+        curve_options=("hold", "method", "progress"),
+        spectrum=spectrum,
+        spectrum_options=("hold",),
+        default_steps=lambda cards: math.ceil(cards * math.log(cards)),
+        exact=f"lumped chain on cycle types: n <= {MAX_CHAIN_CARDS}, k <= {MAX_CHAIN_STEPS:,}; "
+        f"upper bound lemma: n <= {MAX_BOUND_CARDS}",
+    )
+)

@@ -6,13 +6,10 @@ from typing import Any
 
 from shufflecheck.common.quantity import exact, upper_bound
 from shufflecheck.common.sources import (
-    ALDOUS_DIACONIS_1986,
-    BAYER_DIACONIS,
     COVER_THOMAS,
-    DIACONIS_FULMAN_HOLMES,
-    DIACONIS_SHAHSHAHANI,
 )
 from shufflecheck.core.distances import MixingCurve
+from shufflecheck.models.registry import entry
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
@@ -22,20 +19,6 @@ METRIC_LABELS = {
     "total_variation": "total variation",
     "separation": "separation",
     "kl_bits": "KL divergence (bits)",
-}
-
-_SOURCES = {
-    "riffle": (BAYER_DIACONIS,),
-    "transposition": (DIACONIS_SHAHSHAHANI,),
-    "top-to-random": (ALDOUS_DIACONIS_1986,),
-    "random-to-top": (ALDOUS_DIACONIS_1986,),
-    "shelf": (DIACONIS_FULMAN_HOLMES,),
-}
-
-_STEP_WORDS = {
-    "riffle": "riffles",
-    "transposition": "random transpositions",
-    "shelf": "machine passes",
 }
 
 
@@ -56,7 +39,8 @@ def mixing_report(
     provenance: Provenance,
 ) -> Report:
     """Build the report of one exact mixing curve (``payload`` is the ``--json`` result)."""
-    steps_word = _STEP_WORDS.get(curve.model, f"{curve.model} steps")
+    model = entry(curve.model)
+    steps_word = model.steps_word
     label = METRIC_LABELS[metric]
     params = ", ".join(
         f"{k} = {v:g}" if isinstance(v, float) else f"{k} = {v}"
@@ -123,7 +107,7 @@ def mixing_report(
         marked_rows=marked,
         mark_note=f"first k with {label} at most {target:g}" if marked else "",
     )
-    sources = _SOURCES.get(curve.model, (BAYER_DIACONIS,))
+    sources = model.sources
     main = curve.rows[0].kind
     methods = [
         MethodNote("total variation, separation", main, curve.source, sources),
