@@ -13,7 +13,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from shufflecheck.audit import BatterySummary, holm
-from shufflecheck.audit.battery import holm_log
+from shufflecheck.audit.holm import holm_log
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import riffle
 from shufflecheck.records.cards import STANDARD_52

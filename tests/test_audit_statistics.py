@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from shufflecheck.audit import nulls, statistics
-from shufflecheck.audit.battery import deck_values
+from shufflecheck.audit.catalogue import deck_values
 from shufflecheck.common.errors import InputError
 
 

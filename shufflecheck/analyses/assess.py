@@ -45,6 +45,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from shufflecheck.audit.catalogue import DeckContext, DeckView, Statistic, battery_statistics
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
@@ -63,17 +64,9 @@ __all__ = [
     "assess",
     "assessment_json",
     "assessment_work",
+    "bound_statistics",
     "exact_blocks",
 ]
-
-#: statistics whose laws give the Monte Carlo lower bounds (name -> description)
-LOWER_BOUND_STATISTICS = {
-    "rising sequences": "number of rising sequences (Eulerian law)",
-    "successions": "cards directly above their reference successor",
-    "top card position": "where the original top card lies (uniform law)",
-    "bottom card position": "where the original bottom card lies (uniform law)",
-    "guessing score": "correct guesses of the best strategy (Stirling law)",
-}
 
 CAUTION = caution("the modelled procedure")
 
@@ -83,9 +76,11 @@ MAX_DECKS = 50_000_000
 
 @dataclass(frozen=True)
 class StatisticBound:
-    """One statistic's lower confidence bound on total variation at one repetition count."""
+    """One statistic's lower confidence bound on total variation at one repetition count
+    (``statistic`` is its catalogue name, ``title`` its title)."""
 
     statistic: str
+    title: str
     lower_bound: float
     event_probability_uniform: float
     event_count: int
@@ -236,33 +231,23 @@ def _clopper_pearson_lower(successes: int, trials: int, alpha: float) -> float:
     return float(beta.ppf(alpha, successes, trials - successes + 1))
 
 
-def _statistic_values(relative: np.ndarray, strategies: tuple[str, ...]) -> dict[str, np.ndarray]:
-    from shufflecheck.audit import statistics
-    from shufflecheck.audit.guessing import guess_scores_many
-
-    n = relative.shape[1]
-    values = {
-        "rising sequences": statistics.rising_sequences(relative),
-        "successions": statistics.successions(relative),
-        "top card position": statistics.card_position(relative, 0),
-        "bottom card position": statistics.card_position(relative, n - 1),
-    }
-    for name, scores in guess_scores_many(relative, strategies).items():
-        values[f"guess:{name}"] = scores
-    return values
+def bound_statistics(cards: int, strategies: tuple[str, ...]) -> tuple[Statistic, ...]:
+    """The catalogue statistics behind the lower bounds (one per guessing strategy; the
+    best strategy is chosen on the first half of the decks)."""
+    context = DeckContext.checked(cards, strategies=strategies)
+    return tuple(s for s in battery_statistics(context) if s.lower_bound)
 
 
-def _uniform_pmf(statistic: str, n: int) -> np.ndarray:
+def _bonferroni_count(statistics: tuple[Statistic, ...]) -> int:
+    """Statistics that give a bound: the non-guessing ones and the one best strategy."""
+    return sum(s.strategy is None for s in statistics) + 1
+
+
+def _uniform_pmf(stat: Statistic, cards: int) -> np.ndarray:
     """Exact uniform-deck law of a statistic as floats indexed by value 0..n."""
-    from shufflecheck.audit import nulls
-
-    law = {
-        "rising sequences": nulls.rising_law,
-        "successions": nulls.successions_law,
-        "top card position": nulls.card_position_law,
-        "bottom card position": nulls.card_position_law,
-    }.get(statistic, nulls.guessing_law)(n)
-    pmf = np.zeros(n + 1)
+    assert stat.law is not None
+    law = stat.law(DeckContext(cards))
+    pmf = np.zeros(cards + 1)
     pmf[law.offset : law.offset + len(law.counts)] = law.pmf
     return pmf
 
@@ -272,31 +257,40 @@ class _Tally:
     """Mergeable Monte Carlo summaries: per repetition count, per statistic and per half,
     histograms of values; per strategy and half, sums and sums of squares of scores."""
 
-    statistics: list[str]
-    strategies: tuple[str, ...]
+    context: DeckContext
+    statistics: tuple[Statistic, ...]
     hist: np.ndarray  # (repeats, statistics, 2, n + 1)
     sums: np.ndarray  # (repeats, strategies, 2, 2)
     halves: np.ndarray  # decks in each half
 
+    @property
+    def strategies(self) -> tuple[str, ...]:
+        return self.context.strategies
+
     @classmethod
     def empty(cls, repeats: int, cards: int, strategies: tuple[str, ...]) -> _Tally:
-        names = [*LOWER_BOUND_STATISTICS][:-1] + [f"guess:{s}" for s in strategies]
+        context = DeckContext.checked(cards, strategies=strategies)
+        stats = bound_statistics(cards, strategies)
         return cls(
-            names,
-            strategies,
-            np.zeros((repeats, len(names), 2, cards + 1), dtype=np.int64),
+            context,
+            stats,
+            np.zeros((repeats, len(stats), 2, cards + 1), dtype=np.int64),
             np.zeros((repeats, len(strategies), 2, 2)),
             np.zeros(2, dtype=np.int64),
         )
 
     def add(self, r: int, relative: np.ndarray, half: np.ndarray) -> None:
         cards = relative.shape[1]
-        values = _statistic_values(relative, self.strategies)
-        for s, name in enumerate(self.statistics):
-            cells = half * (cards + 1) + values[name]
+        view = DeckView(relative, relative, self.context)
+        values = {}
+        for s, stat in enumerate(self.statistics):
+            assert stat.values is not None
+            values[stat.name] = stat.values(view)
+            cells = half * (cards + 1) + values[stat.name]
             self.hist[r, s] += np.bincount(cells, minlength=2 * (cards + 1)).reshape(2, -1)
+        guesses = {stat.strategy: values[stat.name] for stat in self.statistics if stat.strategy}
         for g, name in enumerate(self.strategies):
-            scores = values[f"guess:{name}"].astype(np.float64)
+            scores = guesses[name].astype(np.float64)
             for h in (0, 1):
                 chosen = scores[half == h]
                 self.sums[r, g, h] += (chosen.sum(), (chosen * chosen).sum())
@@ -429,7 +423,7 @@ def _row(
     bounds = _statistic_bounds(tally, r, cards, best, confidence)
     top = max(bounds, key=lambda b: b.lower_bound)
     note = (
-        f"lower {confidence:.0%} confidence bound from {top.statistic} "
+        f"lower {confidence:.0%} confidence bound from {top.title} "
         f"(split sample of {decks:,} decks)"
     )
     tv_low = top.lower_bound
@@ -466,21 +460,22 @@ def _statistic_bounds(
     tally: _Tally, r: int, cards: int, best: str, confidence: float
 ) -> list[StatisticBound]:
     """Split-sample lower confidence bounds on TV, one per statistic (Bonferroni over the
-    :data:`LOWER_BOUND_STATISTICS`): the event is where half 0 over-represents a value."""
-    alpha_each = (1 - confidence) / len(LOWER_BOUND_STATISTICS)
+    statistics that give a bound): the event is where half 0 over-represents a value."""
+    alpha_each = (1 - confidence) / _bonferroni_count(tally.statistics)
     measured = int(tally.halves[1])
     bounds = []
-    for s, name in enumerate(tally.statistics):
-        if name.startswith("guess:") and name != f"guess:{best}":
+    for s, stat in enumerate(tally.statistics):
+        if stat.strategy is not None and stat.strategy != best:
             continue
-        label = "guessing score" if name.startswith("guess:") else name
-        pmf = _uniform_pmf(name, cards)
+        pmf = _uniform_pmf(stat, cards)
         event = tally.hist[r, s, 0] / tally.halves[0] > pmf
         successes = int(tally.hist[r, s, 1][event].sum())
         uniform = float(pmf[event].sum())
         lower_p = _clopper_pearson_lower(successes, measured, alpha_each)
         bounds.append(
-            StatisticBound(label, max(0.0, lower_p - uniform), uniform, successes, measured)
+            StatisticBound(
+                stat.name, stat.title, max(0.0, lower_p - uniform), uniform, successes, measured
+            )
         )
     return bounds
 
@@ -516,6 +511,7 @@ def assessment_json(result: Assessment) -> dict:
                 "lower_bound_by_statistic": [
                     {
                         "statistic": b.statistic,
+                        "title": b.title,
                         "total_variation_lower_bound": b.lower_bound,
                         "event_probability_uniform": b.event_probability_uniform,
                         "event_count": b.event_count,

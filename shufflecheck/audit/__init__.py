@@ -6,7 +6,12 @@
 * :mod:`~shufflecheck.audit.guessing` — the guessing game with feedback (strategies and
   the exact law);
 * :mod:`~shufflecheck.audit.positions` — the position-by-card chi-square / G test;
-* :mod:`~shufflecheck.audit.battery` — mergeable summaries, the battery, Holm, effects;
+* :mod:`~shufflecheck.audit.catalogue` — one record per statistic (what, how computed,
+  exact law, alternative, effect wording), read by the battery, power and assessment;
+* :mod:`~shufflecheck.audit.summary` — mergeable summaries of recorded decks;
+* :mod:`~shufflecheck.audit.battery` — the tests on a summary, Holm
+  (:mod:`~shufflecheck.audit.holm`) and effects in plain units
+  (:mod:`~shufflecheck.audit.effects`);
 * :mod:`~shufflecheck.audit.timeline` — "since when" (change-point estimate);
 * :mod:`~shufflecheck.audit.power` — how many recorded decks each test needs.
 
@@ -16,7 +21,13 @@ shuffling devices belongs to the local gaming regulator and accredited test labo
 
 from __future__ import annotations
 
-from shufflecheck.audit.battery import BatterySummary, battery_specs, deck_values, holm
+from shufflecheck.audit.catalogue import (
+    DeckContext,
+    Statistic,
+    battery_statistics,
+    catalogue,
+    deck_values,
+)
 from shufflecheck.audit.guessing import (
     DEFAULT_STRATEGIES,
     STRATEGIES,
@@ -24,9 +35,11 @@ from shufflecheck.audit.guessing import (
     guess_scores_many,
     guessing_null,
 )
+from shufflecheck.audit.holm import holm
 from shufflecheck.audit.nulls import Law, sum_p_value, sum_tail_logs
 from shufflecheck.audit.power import PowerPlan, PowerRow, plan_decks
 from shufflecheck.audit.results import AuditResult, BatteryResult, Effect, SinceWhen, TestResult
+from shufflecheck.audit.summary import BatterySummary
 
 __all__ = [
     "DEFAULT_STRATEGIES",
@@ -34,13 +47,16 @@ __all__ = [
     "AuditResult",
     "BatteryResult",
     "BatterySummary",
+    "DeckContext",
     "Effect",
     "Law",
     "PowerPlan",
     "PowerRow",
     "SinceWhen",
+    "Statistic",
     "TestResult",
-    "battery_specs",
+    "battery_statistics",
+    "catalogue",
     "deck_values",
     "guess_scores",
     "guess_scores_many",

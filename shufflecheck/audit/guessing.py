@@ -128,11 +128,12 @@ def guess_scores(relative: np.ndarray, strategy: str = "next-card") -> np.ndarra
 
 
 def guess_scores_many(
-    relative: np.ndarray, strategies: Iterable[str] = DEFAULT_STRATEGIES
+    relative: np.ndarray, strategies: Iterable[str] = DEFAULT_STRATEGIES, *, check: bool = True
 ) -> dict[str, np.ndarray]:
-    """Correct guesses per deck for several strategies in one pass over the positions."""
+    """Correct guesses per deck for several strategies in one pass over the positions
+    (``check=False`` skips the check of decks already checked once)."""
     names = check_strategies(strategies)
-    decks = as_decks(relative, name="relative decks")
+    decks = as_decks(relative, name="relative decks") if check else np.asarray(relative)
     return _play(decks, names, record=False)[0]
 
 

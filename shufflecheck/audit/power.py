@@ -39,12 +39,11 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from shufflecheck.audit.battery import TestSpec, _deck_values, battery_specs
-from shufflecheck.audit.battery import _laws as battery_laws
-from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
+from shufflecheck.audit.catalogue import DeckContext, DeckView, Statistic, battery_statistics
+from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
 from shufflecheck.audit.nulls import Law, sum_distribution
 from shufflecheck.audit.positions import position_counts
-from shufflecheck.audit.statistics import as_decks, category_codes
+from shufflecheck.audit.statistics import as_decks
 from shufflecheck.common.checks import check_cards, check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Kind
@@ -213,41 +212,37 @@ def plan_decks(
     """
     _check_plan(cards, alpha, power, simulate, max_decks)
     generator = np.random.default_rng(rng)
-    names = check_strategies(strategies)
+    context = DeckContext.checked(cards, suits=suits, colours=colours, strategies=strategies)
     rel = as_decks(sample(simulate, generator), cards=cards, name="simulated decks")
     if rel.shape[0] != simulate:
         raise InputError(f"the sampler returned {rel.shape[0]} decks, expected {simulate}")
-    suit_codes = None if suits is None else category_codes(suits, cards, name="suits")
-    colour_codes = None if colours is None else category_codes(colours, cards, name="colours")
-    values = _deck_values(rel, rel, suit_codes, colour_codes, names)
-    values["repeat-positions"] = np.count_nonzero(rel[1:] == rel[:-1], axis=1)
-    specs = battery_specs(colours=colours is not None, suits=suits is not None, strategies=names)
-    laws = battery_laws(cards, colour_codes, suit_codes, names)
-    m = len(specs)
+    view = DeckView(rel, rel, context)
+    statistics = battery_statistics(context)
+    m = len(statistics)
     level = alpha / m
     rows = []
-    for spec in specs:
-        if spec.name == "position-by-card":
-            rows.append(_position_row(spec, rel, level, power, max_decks))
+    for stat in statistics:
+        if stat.shape == "positions":
+            rows.append(_position_row(stat, rel, level, power, max_decks))
             continue
-        law = laws[spec.name]
-        x = values[spec.name]
-        rows.append(_sum_row(spec, law, x, level, power, max_decks))
+        assert stat.values is not None and stat.law is not None
+        x = stat.values(view)
+        rows.append(_sum_row(stat, stat.law(context), x, level, power, max_decks))
     return PowerPlan(cards, alpha, power, m, level, simulate, tuple(rows))
 
 
 def _not_detected(
-    spec: TestSpec, shift: float, se: float, rel_se: float | None, base: str, note: str
+    spec: Statistic, shift: float, se: float, rel_se: float | None, base: str, note: str
 ) -> PowerRow:
     """The row of a test that does not reach the target power (``decks`` None), with why."""
     return PowerRow(spec.name, spec.title, None, None, shift, se, rel_se, "estimate", base, note)
 
 
 def _sum_row(
-    spec: TestSpec, law: Law, x: np.ndarray, level: float, target: float, cap: int
+    spec: Statistic, law: Law, x: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
     sims = x.size
-    pairs = spec.name == "repeat-positions"
+    pairs = spec.shape == "consecutive"
     mean1 = float(x.mean())
     sd1 = float(x.std(ddof=1)) if sims > 1 else 0.0
     mean0, sd0 = float(law.mean), math.sqrt(float(law.variance))
@@ -290,7 +285,7 @@ def _sum_row(
 
 
 def _position_row(
-    spec: TestSpec, rel: np.ndarray, level: float, target: float, cap: int
+    spec: Statistic, rel: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
     sims, n = rel.shape
     freq = position_counts(rel, n) / sims

@@ -110,18 +110,26 @@ def _chunked(fn, p: np.ndarray) -> np.ndarray:
     return out
 
 
-def descents(relative: np.ndarray) -> np.ndarray:
-    """Descents per deck: positions where a card lies directly above a reference-earlier one."""
-    return _descents(as_decks(relative, name="relative decks"))
+def _relative(relative: object, check: bool) -> np.ndarray:
+    return as_decks(relative, name="relative decks") if check else np.asarray(relative)
+
+
+def descents(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
+    """Descents per deck: positions where a card lies directly above a reference-earlier one.
+
+    Every statistic here checks its decks first (:func:`as_decks`); ``check=False`` skips
+    that for arrays already checked once (the battery checks each chunk once).
+    """
+    return _descents(_relative(relative, check))
 
 
 def _descents(p: np.ndarray) -> np.ndarray:
     return _chunked(lambda b: _count_true(b[:, :-1] > b[:, 1:]), p)
 
 
-def fixed_points(relative: np.ndarray) -> np.ndarray:
+def fixed_points(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Cards per deck still at their reference position."""
-    return _fixed_points(as_decks(relative, name="relative decks"))
+    return _fixed_points(_relative(relative, check))
 
 
 def _fixed_points(p: np.ndarray) -> np.ndarray:
@@ -129,27 +137,29 @@ def _fixed_points(p: np.ndarray) -> np.ndarray:
     return _chunked(lambda b: _count_true(b == labels), p)
 
 
-def successions(relative: np.ndarray) -> np.ndarray:
+def successions(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Successions per deck: card ``c`` directly above card ``c + 1`` (reference order kept)."""
-    return _successions(as_decks(relative, name="relative decks"))
+    return _successions(_relative(relative, check))
 
 
 def _successions(p: np.ndarray) -> np.ndarray:
     return _chunked(lambda b: _count_true(b[:, 1:] - b[:, :-1] == 1), _signed(p))
 
 
-def adjacent_pairs(relative: np.ndarray) -> np.ndarray:
+def adjacent_pairs(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Reference neighbours ``{c, c+1}`` still next to each other, in either order."""
-    return _adjacent_pairs(as_decks(relative, name="relative decks"))
+    return _adjacent_pairs(_relative(relative, check))
 
 
 def _adjacent_pairs(p: np.ndarray) -> np.ndarray:
     return _chunked(lambda b: _count_true(np.abs(b[:, 1:] - b[:, :-1]) == 1), _signed(p))
 
 
-def card_position(relative: np.ndarray, card: int) -> np.ndarray:
-    """Position (0 = top) of reference card ``card`` in each deck."""
-    p = as_decks(relative, name="relative decks")
+def card_position(relative: np.ndarray, card: int, *, check: bool = True) -> np.ndarray:
+    """Position (0 = top) of reference card ``card`` in each deck (``-1``: the last card)."""
+    p = _relative(relative, check)
+    if card < 0:
+        card += p.shape[1]
     if not 0 <= card < p.shape[1]:
         raise InputError(f"card label must be in 0..{p.shape[1] - 1}, got {card}")
     return _card_position(p, card)
@@ -197,10 +207,10 @@ def _order_generic(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def order_statistics(
-    relative: np.ndarray, *, force_generic: bool = False
+    relative: np.ndarray, *, force_generic: bool = False, check: bool = True
 ) -> tuple[np.ndarray, np.ndarray]:
     """``(inversions, rising sequences)`` per deck, sharing one pass over the positions."""
-    return _order_statistics(as_decks(relative, name="relative decks"), force_generic)
+    return _order_statistics(_relative(relative, check), force_generic)
 
 
 def _order_statistics(p: np.ndarray, force_generic: bool = False) -> tuple[np.ndarray, np.ndarray]:
@@ -211,14 +221,14 @@ def _order_statistics(p: np.ndarray, force_generic: bool = False) -> tuple[np.nd
     return _order_generic(p)
 
 
-def inversions(relative: np.ndarray) -> np.ndarray:
+def inversions(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Inversions per deck: pairs of cards in the opposite of reference order (Kendall)."""
-    return order_statistics(relative)[0]
+    return order_statistics(relative, check=check)[0]
 
 
-def rising_sequences(relative: np.ndarray) -> np.ndarray:
+def rising_sequences(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Rising sequences per deck: ``1 + #{c : card c+1 lies above card c}``."""
-    return order_statistics(relative)[1]
+    return order_statistics(relative, check=check)[1]
 
 
 def _cycles_walk(p: np.ndarray) -> np.ndarray:
@@ -264,9 +274,9 @@ def _cycles_doubling(p: np.ndarray) -> np.ndarray:
     return out
 
 
-def cycles(relative: np.ndarray, *, force_generic: bool = False) -> np.ndarray:
+def cycles(relative: np.ndarray, *, force_generic: bool = False, check: bool = True) -> np.ndarray:
     """Cycles per deck of the arrangement read as a permutation ``i -> p[i]``."""
-    return _cycles(as_decks(relative, name="relative decks"), force_generic)
+    return _cycles(_relative(relative, check), force_generic)
 
 
 def _cycles(p: np.ndarray, force_generic: bool = False) -> np.ndarray:
@@ -293,12 +303,15 @@ def category_codes(categories: object, n: int, *, name: str = "categories") -> n
     return codes
 
 
-def runs(decks: np.ndarray, categories: np.ndarray) -> np.ndarray:
+def runs(decks: np.ndarray, categories: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Runs of equal category (suit or colour) from top to bottom, per deck.
 
     ``decks`` holds labels indexing ``categories`` (absolute card labels for a deck
-    definition's suits); ``categories`` as accepted by :func:`category_codes`.
+    definition's suits); ``categories`` as accepted by :func:`category_codes` (with
+    ``check=False``: codes already returned by it).
     """
+    if not check:
+        return _runs(np.asarray(decks), np.asarray(categories))
     p = as_decks(decks, name="decks")
     return _runs(p, category_codes(categories, p.shape[1]))
 
@@ -313,10 +326,10 @@ def _runs(p: np.ndarray, codes: np.ndarray) -> np.ndarray:
     return _chunked(count, p)
 
 
-def repeat_positions(decks: np.ndarray) -> np.ndarray:
+def repeat_positions(decks: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Positions holding the same card in consecutive rows: ``out[t]`` compares rows
     ``t`` and ``t + 1`` (length ``decks - 1``)."""
-    p = as_decks(decks, name="decks")
+    p = as_decks(decks, name="decks") if check else np.asarray(decks)
     if p.shape[0] < 2:
         return np.zeros(0, dtype=np.int64)
     out = np.zeros(p.shape[0] - 1, dtype=np.int64)

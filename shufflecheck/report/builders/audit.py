@@ -7,6 +7,7 @@ from typing import Any
 
 import numpy as np
 
+from shufflecheck.audit.catalogue import catalogue, law_sources
 from shufflecheck.common.quantity import estimate, exact
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 from shufflecheck.report.document import MethodNote, Report, Section, Table
@@ -83,7 +84,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
             name=f"{prefix}pvalues",
         )
     ]
-    guesses = [t for t in tests if t.name.startswith("guess-")]
+    guesses = [t for t in tests if t.name.startswith("guess-")]  # one per strategy
     if guesses:
         best = min(guesses, key=lambda t: t.log10_p_value)
         hist = audit.histograms.get(best.name)
@@ -156,9 +157,7 @@ def audit_methods(alpha: float) -> tuple[MethodNote, ...]:
             "p-values of the per-deck statistics",
             "exact",
             "sum over the decks compared with the exact D-fold convolution of the statistic's "
-            "law under a random deck (Eulerian, rencontres, Stirling, Mahonian, succession and "
-            "adjacency counts; runs of a multiset; guessing scores: Stirling numbers of the "
-            "first kind / n!)",
+            f"law under a random deck ({law_sources(catalogue())})",
             (STANLEY, BAYER_DIACONIS, DIACONIS_GRAHAM),
         ),
         MethodNote(

@@ -1,0 +1,371 @@
+"""Mergeable summaries of recorded decks for the audit battery.
+
+Usage::
+
+    summary = BatterySummary.empty(52, suits=deck.suit_codes(), colours=deck.colour_codes())
+    for chunk in chunks:                       # in time order
+        summary.update(chunk.relative, chunk.absolute, groups=chunk.table)
+    result = summary.finish(alpha=0.01)        # AuditResult (frozen)
+    payload = result.as_json(set_aside=reader.set_aside)
+
+A summary keeps, per group and for all decks together, only what the tests need: a
+histogram of every per-deck statistic of the catalogue, the position-by-card count matrix,
+the first and last deck (for the sequential test across chunks), and, for "since when",
+each per-deck statistic in time order (two bytes per deck and statistic). Chunks and
+groups therefore combine exactly: ``a.merge(b)`` (``b`` recorded after ``a``) equals the
+summary of the concatenated decks. :meth:`BatterySummary.finish` runs the battery
+(:func:`shufflecheck.audit.battery.run_battery`) on each.
+"""
+
+from __future__ import annotations
+
+import copy
+from collections.abc import Sequence
+
+import numpy as np
+
+from shufflecheck.audit.battery import Tallies, run_battery
+from shufflecheck.audit.catalogue import DeckContext, DeckView, battery_statistics
+from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
+from shufflecheck.audit.positions import position_counts
+from shufflecheck.audit.results import AuditResult
+from shufflecheck.audit.statistics import as_decks
+from shufflecheck.common.checks import check_cards
+from shufflecheck.common.errors import InputError
+
+__all__ = ["MAX_GROUPS", "BatterySummary"]
+
+#: Largest number of distinct group values one summary accepts.
+MAX_GROUPS = 1000
+
+_SEQUENTIAL = "repeat-positions"
+
+
+class _State:
+    """What one group (or all decks) contributes to the tests."""
+
+    def __init__(self, lengths: dict[str, int], n: int, series: bool) -> None:
+        self.decks = 0
+        self.hist = {name: np.zeros(size, dtype=np.int64) for name, size in lengths.items()}
+        self.positions = np.zeros((n, n), dtype=np.int64)
+        self.first: np.ndarray | None = None
+        self.last: np.ndarray | None = None
+        self.series: dict[str, list[np.ndarray]] | None = (
+            {name: [] for name in lengths if name != _SEQUENTIAL} if series else None
+        )
+
+    def copy(self) -> _State:
+        out = copy.copy(self)
+        out.hist = {k: v.copy() for k, v in self.hist.items()}
+        out.positions = self.positions.copy()
+        out.series = None if self.series is None else {k: list(v) for k, v in self.series.items()}
+        return out
+
+    def add(self, values: dict[str, np.ndarray], rel: np.ndarray, dtypes: dict) -> None:
+        self.decks += rel.shape[0]
+        for name, v in values.items():
+            self.hist[name] += np.bincount(v, minlength=self.hist[name].size)
+            if self.series is not None:
+                self.series[name].append(v.astype(dtypes[name]))
+        self.positions += position_counts(rel, self.positions.shape[0])
+
+    def add_sequence(self, ab: np.ndarray) -> np.ndarray:
+        """Repeat-position counts of consecutive decks (with the last deck seen before)."""
+        if self.last is not None:
+            ab_all = np.concatenate([self.last[None, :], ab])
+        else:
+            ab_all = ab
+        matches = np.count_nonzero(ab_all[1:] == ab_all[:-1], axis=1)
+        self.add_matches(matches)
+        if self.first is None:
+            self.first = ab[0].copy()
+        self.last = ab[-1].copy()
+        return matches
+
+    def add_matches(self, matches: np.ndarray) -> None:
+        hist = self.hist[_SEQUENTIAL]
+        hist += np.bincount(matches, minlength=hist.size)
+
+    def absorb(self, other: _State, sequential: bool) -> int | None:
+        """Add ``other`` (recorded after ``self``); returns the boundary pair's count."""
+        self.decks += other.decks
+        for name in self.hist:
+            self.hist[name] += other.hist[name]
+        self.positions += other.positions
+        if self.series is not None and other.series is not None:
+            for name in self.series:
+                self.series[name].extend(other.series[name])
+        cross = None
+        if sequential:
+            if self.last is not None and other.first is not None:
+                cross = int(np.count_nonzero(self.last == other.first))
+                self.hist[_SEQUENTIAL][cross] += 1
+            if self.first is None:
+                self.first = None if other.first is None else other.first.copy()
+            if other.last is not None:
+                self.last = other.last.copy()
+        return cross
+
+
+def _same(a: np.ndarray | None, b: np.ndarray | None) -> bool:
+    if a is None or b is None:
+        return a is None and b is None
+    return a.shape == b.shape and bool(np.array_equal(a, b))
+
+
+def _python_key(value: object) -> object:
+    return value.item() if isinstance(value, np.generic) else value
+
+
+class BatterySummary:
+    """Mergeable summary of recorded decks for the audit battery (mutable accumulator).
+
+    Build with :meth:`empty`, feed chunks in time order with :meth:`update`, combine with
+    :meth:`merge`, and compute the tests with :meth:`finish`.
+    """
+
+    def __init__(
+        self,
+        n: int,
+        *,
+        suits: np.ndarray | None,
+        colours: np.ndarray | None,
+        strategies: tuple[str, ...],
+        keep_series: bool,
+    ) -> None:
+        self.n = n
+        self.suits = suits
+        self.colours = colours
+        self.strategies = strategies
+        self.keep_series = keep_series
+        self.context = DeckContext.checked(n, suits=suits, colours=colours, strategies=strategies)
+        #: the statistics of the battery, in report order (from the catalogue)
+        self.statistics = battery_statistics(self.context)
+        #: exact null law of each statistic with one (all but position-by-card)
+        self.laws = {s.name: s.law(self.context) for s in self.statistics if s.law is not None}
+        self._lengths = {name: law.high + 1 for name, law in self.laws.items()}
+        self._dtypes = {
+            name: np.int16 if size <= 32767 else np.int32 for name, size in self._lengths.items()
+        }
+        self._overall = _State(self._lengths, n, keep_series)
+        self._groups: dict[object, _State] = {}
+        self._grouped: bool | None = None
+
+    @classmethod
+    def empty(
+        cls,
+        n: int,
+        *,
+        suits: np.ndarray | None = None,
+        colours: np.ndarray | None = None,
+        strategies: Sequence[str] = DEFAULT_STRATEGIES,
+        keep_series: bool = True,
+    ) -> BatterySummary:
+        """An empty summary for decks of ``n`` cards.
+
+        Parameters
+        ----------
+        n : int
+            Cards per deck (>= 2).
+        suits, colours : (n,) int arrays or None
+            Category code of each *absolute* card label (negative: no suit, e.g. a joker),
+            as from a deck definition; None when the deck has none (those tests are left
+            out).
+        strategies : sequence of str
+            Guessing strategies to play (:data:`shufflecheck.audit.guessing.STRATEGIES`).
+        keep_series : bool
+            Keep per-deck values in time order for "since when" (2 bytes/deck/statistic).
+        """
+        n = check_cards(int(n) if isinstance(n, np.integer) else n, prefix="an audit: ")
+        suit_arr = None if suits is None else np.asarray(suits).copy()
+        colour_arr = None if colours is None else np.asarray(colours).copy()
+        return cls(
+            int(n),
+            suits=suit_arr,
+            colours=colour_arr,
+            strategies=check_strategies(strategies),
+            keep_series=bool(keep_series),
+        )
+
+    @property
+    def decks(self) -> int:
+        """Decks summarised so far."""
+        return self._overall.decks
+
+    def group_keys(self) -> tuple[object, ...]:
+        """Group values seen so far, in a stable order."""
+        return tuple(sorted(self._groups, key=lambda k: (type(k).__name__, k)))
+
+    def update(
+        self,
+        relative: np.ndarray,
+        absolute: np.ndarray | None = None,
+        *,
+        groups: Sequence[object] | np.ndarray | None = None,
+    ) -> None:
+        """Add a chunk of decks, given in time order.
+
+        Parameters
+        ----------
+        relative : (k, n) int array
+            Each row: reference positions of the cards, top to bottom.
+        absolute : (k, n) int array or None
+            Each row: absolute card labels (of the deck definition), for colour and suit
+            runs and the sequential test; None means the labels of ``relative``.
+        groups : length-k sequence or None
+            Group value of each deck (e.g. the table); all chunks must either give groups
+            or not.
+        """
+        rel = as_decks(relative, cards=self.n, name="relative decks")
+        ab = rel if absolute is None else as_decks(absolute, cards=self.n, name="absolute decks")
+        if ab.shape != rel.shape:
+            raise InputError(
+                f"absolute decks: expected shape {rel.shape} like the relative decks, "
+                f"got {ab.shape}"
+            )
+        count = rel.shape[0]
+        if count == 0:
+            return
+        grouped = groups is not None
+        if self._grouped is not None and self._grouped != grouped:
+            raise InputError("give groups for every chunk of an audit or for none")
+        view = DeckView(rel, ab, self.context)
+        values = {
+            s.name: s.values(view)
+            for s in self.statistics
+            if s.shape == "per-deck" and s.values is not None
+        }
+        if not grouped:
+            self._grouped = False
+            self._overall.add(values, rel, self._dtypes)
+            self._overall.add_sequence(ab)
+            return
+        labels = np.asarray(groups)
+        if labels.shape != (count,):
+            raise InputError(f"groups: expected {count} values (one per deck), got {labels.shape}")
+        try:
+            keys, index = np.unique(labels, return_inverse=True)
+        except TypeError as exc:
+            raise InputError("groups: values must be all numbers or all text") from exc
+        new = [_python_key(k) for k in keys]
+        if len(set(self._groups) | set(new)) > MAX_GROUPS:
+            raise InputError(f"groups: more than {MAX_GROUPS} distinct values")
+        self._grouped = True
+        self._overall.add(values, rel, self._dtypes)
+        all_matches = []
+        for g, key in enumerate(new):
+            pick = np.nonzero(index == g)[0]
+            state = self._groups.get(key)
+            if state is None:
+                state = self._groups[key] = _State(self._lengths, self.n, self.keep_series)
+            state.add({k: v[pick] for k, v in values.items()}, rel[pick], self._dtypes)
+            all_matches.append(state.add_sequence(ab[pick]))
+        self._overall.add_matches(np.concatenate(all_matches))
+
+    def _compatible(self, other: BatterySummary) -> None:
+        same = (
+            self.n == other.n
+            and self.strategies == other.strategies
+            and self.keep_series == other.keep_series
+            and _same(self.suits, other.suits)
+            and _same(self.colours, other.colours)
+        )
+        if not same:
+            raise InputError("cannot merge summaries of different decks or batteries")
+        if None not in (self._grouped, other._grouped) and self._grouped != other._grouped:
+            raise InputError("cannot merge a grouped summary with an ungrouped one")
+
+    def copy(self) -> BatterySummary:
+        """An independent copy."""
+        out = copy.copy(self)
+        out._overall = self._overall.copy()
+        out._groups = {k: v.copy() for k, v in self._groups.items()}
+        return out
+
+    def merge(self, other: BatterySummary) -> BatterySummary:
+        """A new summary of ``self``'s decks followed in time by ``other``'s."""
+        self._compatible(other)
+        out = self.copy()
+        if other._grouped is None:
+            return out
+        if out._grouped is None:
+            out._grouped = other._grouped
+        if not other._grouped:
+            out._overall.absorb(other._overall, sequential=True)
+            return out
+        out._overall.absorb(other._overall, sequential=False)
+        for key, state in other._groups.items():
+            mine = out._groups.get(key)
+            if mine is None:
+                out._groups[key] = state.copy()
+                continue
+            cross = mine.absorb(state, sequential=True)
+            if cross is not None:
+                out._overall.hist[_SEQUENTIAL][cross] += 1
+        if len(out._groups) > MAX_GROUPS:
+            raise InputError(f"groups: more than {MAX_GROUPS} distinct values")
+        return out
+
+    def as_arrays(self) -> dict[str, np.ndarray]:
+        """The summary's content as plain arrays (for checks and debugging)."""
+        out: dict[str, np.ndarray] = {}
+        states = [("all", self._overall)] + [(repr(k), self._groups[k]) for k in self.group_keys()]
+        for label, state in states:
+            out[f"{label}/decks"] = np.array([state.decks])
+            out[f"{label}/positions"] = state.positions
+            for name, hist in state.hist.items():
+                out[f"{label}/hist/{name}"] = hist
+            if state.series is not None:
+                for name, parts in state.series.items():
+                    out[f"{label}/series/{name}"] = (
+                        np.concatenate(parts) if parts else np.zeros(0, dtype=np.int16)
+                    )
+        return out
+
+    def finish(
+        self,
+        alpha: float = 0.01,
+        *,
+        position_method: str = "auto",
+        resamples: int = 999,
+        rng: np.random.Generator | int | None = None,
+        since_when: bool = True,
+    ) -> AuditResult:
+        """Run the battery on all decks and on each group.
+
+        Parameters
+        ----------
+        alpha : float
+            Family-wise error level for Holm's method (default 0.01).
+        position_method : {"auto", "asymptotic", "monte-carlo"}
+            Null of the position-by-card test; ``auto`` simulates when ``D/n < 5``.
+        resamples : int
+            Simulated audits for a Monte Carlo null.
+        rng : Generator, int or None
+            Randomness for Monte Carlo nulls (nothing else here draws).
+        since_when : bool
+            Estimate where a bias began when the battery flags (needs ``keep_series``).
+        """
+        if not isinstance(alpha, (int, float)) or not 0 < alpha < 1:
+            raise InputError(
+                f"alpha must lie strictly between 0 and 1, got {alpha!r}", argument="alpha"
+            )
+        if self._overall.decks == 0:
+            raise InputError("no decks to audit")
+        generator = np.random.default_rng(rng)
+
+        def battery(state: _State):
+            return run_battery(
+                Tallies(state.decks, state.hist, state.positions, state.series),
+                self.statistics,
+                self.laws,
+                alpha=float(alpha),
+                position_method=position_method,
+                resamples=resamples,
+                rng=generator,
+                since_when=since_when,
+            )
+
+        overall = battery(self._overall)
+        groups = tuple((key, battery(self._groups[key])) for key in self.group_keys())
+        return AuditResult(overall, groups)
