@@ -105,3 +105,23 @@ def distances(law: dict[tuple, Fraction], n: int) -> tuple[Fraction, Fraction, f
     sep = max(1 - fact * p for p in probs)
     kl = sum(float(p) * math.log2(float(p * fact)) for p in probs if p)
     return tv, sep, kl
+
+
+def cycle_lengths(p) -> tuple[int, ...]:
+    """Cycle lengths of the permutation ``i -> p[i]``, longest first (its cycle type)."""
+    seen, lengths = set(), []
+    for start in range(len(p)):
+        if start in seen:
+            continue
+        length, j = 0, start
+        while j not in seen:
+            seen.add(j)
+            j = p[j]
+            length += 1
+        lengths.append(length)
+    return tuple(sorted(lengths, reverse=True))
+
+
+def cycle_count(p) -> int:
+    """Number of cycles of the permutation ``i -> p[i]``."""
+    return len(cycle_lengths(p))

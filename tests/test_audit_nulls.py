@@ -14,6 +14,7 @@ from scipy import special, stats
 
 from shufflecheck.audit import nulls
 from shufflecheck.common.errors import InputError
+from tests._brute import cycle_count
 
 
 def _brute(n: int, statistic) -> tuple[int, dict[int, int]]:
@@ -34,23 +35,11 @@ def _adjacent(p):
     return sum(abs(p[i + 1] - p[i]) == 1 for i in range(len(p) - 1))
 
 
-def _cycles(p):
-    seen, count = set(), 0
-    for start in range(len(p)):
-        if start not in seen:
-            count += 1
-            j = start
-            while j not in seen:
-                seen.add(j)
-                j = p[j]
-    return count
-
-
 BRUTE = {
     "rising": (nulls.rising_law, _rising),
     "descents": (nulls.descents_law, lambda p: sum(p[i] > p[i + 1] for i in range(len(p) - 1))),
     "fixed": (nulls.fixed_points_law, lambda p: sum(p[i] == i for i in range(len(p)))),
-    "cycles": (nulls.cycles_law, _cycles),
+    "cycles": (nulls.cycles_law, cycle_count),
     "inversions": (
         nulls.inversions_law,
         lambda p: sum(p[i] > p[j] for i in range(len(p)) for j in range(i + 1, len(p))),

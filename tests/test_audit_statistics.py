@@ -13,24 +13,17 @@ from hypothesis import strategies as st
 from shufflecheck.audit import nulls, statistics
 from shufflecheck.audit.catalogue import deck_values
 from shufflecheck.common.errors import InputError
+from tests import _brute
 
 
 def _definitions(p: list[int]) -> dict[str, int]:
     n = len(p)
     where = {card: i for i, card in enumerate(p)}
-    seen, cycles = set(), 0
-    for start in range(n):
-        if start not in seen:
-            cycles += 1
-            j = start
-            while j not in seen:
-                seen.add(j)
-                j = p[j]
     return {
         "rising": 1 + sum(where[c + 1] < where[c] for c in range(n - 1)),
         "descents": sum(p[i] > p[i + 1] for i in range(n - 1)),
         "fixed": sum(p[i] == i for i in range(n)),
-        "cycles": cycles,
+        "cycles": _brute.cycle_count(p),
         "inversions": sum(p[i] > p[j] for i in range(n) for j in range(i + 1, n)),
         "successions": sum(p[i + 1] == p[i] + 1 for i in range(n - 1)),
         "adjacent": sum(abs(p[i + 1] - p[i]) == 1 for i in range(n - 1)),

@@ -11,6 +11,7 @@ import sympy
 from sympy.functions.combinatorial.numbers import stirling
 
 from shufflecheck.core import counting
+from tests._brute import cycle_count
 
 
 def _brute(n: int, statistic) -> list[int]:
@@ -31,18 +32,6 @@ def _inversions(p):
 
 def _fixed(p):
     return sum(p[i] == i for i in range(len(p)))
-
-
-def _cycles(p):
-    seen, count = set(), 0
-    for start in range(len(p)):
-        if start not in seen:
-            count += 1
-            j = start
-            while j not in seen:
-                seen.add(j)
-                j = p[j]
-    return count
 
 
 def _successions(p):
@@ -118,7 +107,7 @@ class TestStirling:
 
     @pytest.mark.parametrize("n", range(1, 8))
     def test_cycles_brute_force(self, n):
-        assert list(counting.stirling1_row(n))[1:] == _brute(n, _cycles)[1:]
+        assert list(counting.stirling1_row(n))[1:] == _brute(n, cycle_count)[1:]
 
 
 class TestMahonian:

@@ -226,17 +226,7 @@ class TestSamplers:
         decks = transposition.sample(30000, n, k, rng=n)
         observed = Counter()
         for row in decks.tolist():
-            seen, lengths = set(), []
-            for start in range(n):
-                if start in seen:
-                    continue
-                length, j = 0, start
-                while j not in seen:
-                    seen.add(j)
-                    j = row[j]
-                    length += 1
-                lengths.append(length)
-            observed[tuple(sorted(lengths, reverse=True))] += 1
+            observed[_brute.cycle_lengths(row)] += 1
         expected = transposition.class_law_fourier(n, k)
         assert chisquare_p(observed, expected, len(decks)) > 1e-3
 

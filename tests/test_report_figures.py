@@ -146,7 +146,7 @@ class TestPng:
         png = F.render_png(fig, dpi=100)
         assert png_size(png) == (200, 100)
         assert png == F.render_png(fig, dpi=100)
-        wrapped = Figure.from_matplotlib("line", "A line.", fig, data={"x": [0, 1]})
+        wrapped = Figure("line", "A line.", F.render_png(fig), data={"x": [0, 1]})
         assert wrapped.data == {"x": [0, 1]} and png_size(wrapped.png) == (300, 150)
         with pytest.raises(InputError, match="dpi"):
             F.render_png(fig, dpi=0)

@@ -235,22 +235,6 @@ class Figure:
         _text(self.alt, f"figure {self.name!r}: alt text", allow_empty=True)
         object.__setattr__(self, "data", jsonable(self.data, f"figure {self.name!r} data"))
 
-    @classmethod
-    def from_matplotlib(
-        cls,
-        name: str,
-        caption: str,
-        figure: Any,
-        *,
-        alt: str = "",
-        data: Mapping[str, Any] | None = None,
-        dpi: int = 150,
-    ) -> Figure:
-        """Render a matplotlib figure to PNG (byte-stable; the caller still owns ``figure``)."""
-        from shufflecheck.report.figures import render_png
-
-        return cls(name, caption, render_png(figure, dpi=dpi), alt=alt, data=dict(data or {}))
-
     @property
     def size(self) -> tuple[int, int]:
         """(width, height) of the image in pixels."""

@@ -122,7 +122,7 @@ def collect_provenance(
         An input file that cannot be read, a seed that is not a non-negative integer, or a
         naive ``now``.
     """
-    from shufflecheck import __version__
+    from shufflecheck.common.version import __version__
 
     files = tuple(_fingerprint(path) for path in inputs)
     if command is None:

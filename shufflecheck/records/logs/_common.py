@@ -28,8 +28,8 @@ REASONS = {
     "missing-order": "a JSON line without an 'order' key",
 }
 
-_POSITION = re.compile(r"^(p|pos|position|card)?[ _-]?(\d+)$", re.IGNORECASE)
-_QUARANTINE_HEADER = ("row", "reason", "problem", "content")
+POSITION_COLUMN = re.compile(r"^(p|pos|position|card)?[ _-]?(\d+)$", re.IGNORECASE)
+QUARANTINE_HEADER = ("row", "reason", "problem", "content")
 
 
 # --------------------------------------------------------------------------------------

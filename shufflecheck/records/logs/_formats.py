@@ -27,14 +27,14 @@ import pandas as pd
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition
-from shufflecheck.records.logs._common import _POSITION
+from shufflecheck.records.logs._common import POSITION_COLUMN
 
 # --------------------------------------------------------------------------------------
 # raw chunks, as each format delivers them
 
 
 @dataclass
-class _Bad:
+class BadRow:
     row: int
     reason: str
     problem: str
@@ -43,7 +43,7 @@ class _Bad:
 
 
 @dataclass
-class _Raw:
+class RawChunk:
     rows: np.ndarray
     columns: pd.DataFrame
     tokens_of: Callable[[int], list[object]]
@@ -51,7 +51,7 @@ class _Raw:
     texts: Sequence[str] | None = None  # whitespace-separated order per row, or
     flat: np.ndarray | None = None  # every token of every row, with
     counts: np.ndarray | None = None  # tokens per row
-    failed: list[_Bad] = field(default_factory=list)
+    failed: list[BadRow] = field(default_factory=list)
     blank: int = 0
 
 
@@ -64,7 +64,7 @@ def _position_columns(names: Sequence[str], where: str) -> list[int] | None:
     found: dict[int, int] = {}
     prefixes: set[str] = set()
     for index, name in enumerate(names):
-        match = _POSITION.match(name.strip())
+        match = POSITION_COLUMN.match(name.strip())
         if match:
             number = int(match.group(2))
             prefixes.add((match.group(1) or "").lower())
@@ -175,10 +175,10 @@ def _still_open(text: str, delimiter: str) -> bool:
     return False
 
 
-def _csv_chunks(
+def csv_chunks(
     path: Path, shown: str, fmt: str, deck: DeckDefinition, chunk_rows: int
-) -> Iterator[_Raw | tuple[str, list[int]]]:
-    """Yield the layout first, then one _Raw per block of about chunk_rows records."""
+) -> Iterator[RawChunk | tuple[str, list[int]]]:
+    """Yield the layout first, then one RawChunk per block of about chunk_rows records."""
     with _open_binary(path) as handle:
         try:
             first = handle.readline()
@@ -258,7 +258,7 @@ def _csv_fields(text: str, delimiter: str) -> list[str] | None:
 
 def _plain_block(
     records: list[bytes], rows: np.ndarray, shape: _Shape
-) -> tuple[list[int], str, int, list[_Bad]] | None:
+) -> tuple[list[int], str, int, list[BadRow]] | None:
     """Check a block without quotes with array operations.
 
     Returns (indices of good records, their text joined, blank count, failed rows), or None
@@ -286,7 +286,7 @@ def _plain_block(
     blank[single] = [not records[k].strip() for k in single.tolist()]
     wrong = ~blank & (fields != shape.width)
     failed = [
-        _Bad(
+        BadRow(
             int(rows[k]),
             "malformed-row",
             f"{int(fields[k])} fields, the header has {shape.width}",
@@ -301,7 +301,7 @@ def _plain_block(
     return good, text, int(blank.sum()), failed
 
 
-def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted: bool) -> _Raw:
+def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted: bool) -> RawChunk:
     plain = None if quoted else _plain_block(records, rows, shape)
     if plain is not None:
         good, joined, blank, failed = plain
@@ -322,23 +322,23 @@ def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted:
             text = body.decode("utf-8")
         except UnicodeDecodeError as exc:
             problem = f"not UTF-8 text (byte {exc.start + 1} of the row)"
-            failed.append(_Bad(row, "malformed-row", problem, _decode(body), None))
+            failed.append(BadRow(row, "malformed-row", problem, _decode(body), None))
             continue
         if '"' in text:
             fields = _csv_fields(text, shape.delimiter)
             if fields is None:
                 problem = "a quoted field is not closed, or has text after its closing quote"
-                failed.append(_Bad(row, "malformed-row", problem, text, None))
+                failed.append(BadRow(row, "malformed-row", problem, text, None))
                 continue
             count = len(fields)
         elif b"\r" in body or b"\n" in body:
-            failed.append(_Bad(row, "malformed-row", "a line break inside a row", text, None))
+            failed.append(BadRow(row, "malformed-row", "a line break inside a row", text, None))
             continue
         else:
             count = body.count(sep) + 1
         if count != shape.width:
             problem = f"{count} fields, the header has {shape.width}"
-            failed.append(_Bad(row, "malformed-row", problem, text, None))
+            failed.append(BadRow(row, "malformed-row", problem, text, None))
             continue
         good.append(k)
         texts.append(text)
@@ -352,9 +352,9 @@ def _csv_raw(
     rows: np.ndarray,
     good: list[int],
     shape: _Shape,
-    failed: list[_Bad],
+    failed: list[BadRow],
     blank: int,
-) -> _Raw:
+) -> RawChunk:
     good_rows = rows[np.asarray(good, dtype=np.int64)] if good else np.zeros(0, dtype=np.int64)
     if shape.kept:
         columns = frame.iloc[:, shape.kept].reset_index(drop=True)
@@ -367,7 +367,7 @@ def _csv_raw(
 
     if shape.layout == "csv":
         order = frame.iloc[:, shape.used[0]].to_numpy(dtype=object)
-        return _Raw(
+        return RawChunk(
             good_rows,
             columns,
             tokens_of=lambda i: order[i].split(),
@@ -377,7 +377,7 @@ def _csv_raw(
             blank=blank,
         )
     cells = frame.iloc[:, shape.used].to_numpy(dtype=object)
-    return _Raw(
+    return RawChunk(
         good_rows,
         columns,
         tokens_of=lambda i: list(cells[i]),
@@ -460,7 +460,7 @@ def _json_record(
     return [], value, ("malformed-row", problem)
 
 
-def _jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[_Raw]:
+def jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[RawChunk]:
     with _open_binary(path) as handle:
         line_no = 0
         seen_any = False
@@ -474,7 +474,7 @@ def _jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[_Raw]:
                     raise InputError(f"{shown}: empty file")
                 return
             seen_any = True
-            failed: list[_Bad] = []
+            failed: list[BadRow] = []
             blank = 0
             rows: list[int] = []
             orders: list[list[object]] = []
@@ -490,14 +490,14 @@ def _jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[_Raw]:
                 text = _decode(line)
                 order, value, problem = _json_record(line.strip())
                 if problem is not None:
-                    failed.append(_Bad(line_no, problem[0], problem[1], text, value))
+                    failed.append(BadRow(line_no, problem[0], problem[1], text, value))
                     continue
                 rows.append(line_no)
                 orders.append(order)
                 records.append(value)
                 raws.append(text)
             flat, counts = _flatten(orders)
-            yield _Raw(
+            yield RawChunk(
                 np.asarray(rows, dtype=np.int64),
                 pd.DataFrame(records, index=range(len(records))),
                 tokens_of=lambda i, orders=orders: list(orders[i]),
@@ -509,9 +509,9 @@ def _jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[_Raw]:
             )
 
 
-def _parquet_chunks(
+def parquet_chunks(
     path: Path, shown: str, deck: DeckDefinition, chunk_rows: int
-) -> Iterator[_Raw | tuple[str, list[int]]]:
+) -> Iterator[RawChunk | tuple[str, list[int]]]:
     try:
         import pyarrow as pa
         import pyarrow.compute as pc
@@ -547,7 +547,7 @@ def _parquet_chunks(
             kind = order.type
             if pa.types.is_string(kind) or pa.types.is_large_string(kind):
                 texts = [t or "" for t in order.to_pylist()]
-                yield _Raw(
+                yield RawChunk(
                     rows,
                     columns,
                     tokens_of=lambda i, t=texts: t[i].split(),
@@ -565,7 +565,7 @@ def _parquet_chunks(
                 flat = pc.fill_null(values, -1).to_numpy().astype(np.int64)
             else:
                 flat = np.asarray(values.to_numpy(zero_copy_only=False), dtype=object)
-            yield _Raw(
+            yield RawChunk(
                 rows,
                 columns,
                 tokens_of=lambda i, o=order: o[i].as_py() or [],
@@ -581,7 +581,7 @@ def _parquet_chunks(
             )
         else:
             grid = np.stack([np.asarray(c.to_pylist(), dtype=object) for c in cells], axis=1)
-        yield _Raw(
+        yield RawChunk(
             rows,
             columns,
             tokens_of=lambda i, c=cells: [x[i].as_py() for x in c],

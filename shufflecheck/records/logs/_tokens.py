@@ -58,7 +58,7 @@ def _is_separator(buf: np.ndarray) -> np.ndarray:
     return (buf == 32) | ((buf >= 9) & (buf <= 13)) | ((buf >= 28) & (buf <= 31))
 
 
-def _scan_text(
+def scan_text(
     texts: Sequence[str], deck: DeckDefinition, integer: bool
 ) -> tuple[np.ndarray, np.ndarray]:
     """Tokens of whitespace-separated texts -> (values, tokens per text), vectorised.
@@ -119,7 +119,7 @@ def _scan_text(
     return values, counts
 
 
-def _map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.ndarray:
+def map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.ndarray:
     """One value per token of a flat array (text, ints, None) -> labels / raw integers, -1 bad."""
     if flat.dtype.kind in "iu":
         return flat.astype(np.int64) if integer else np.full(flat.size, -1, dtype=np.int64)
@@ -134,7 +134,7 @@ def _map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.nda
     return table[codes]  # code -1 (missing value) picks the final -1
 
 
-def _permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
+def permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
     """Rows of ``labels`` (values already in 0..n-1) holding every label exactly once."""
     m = labels.shape[0]
     ok = np.zeros(m, dtype=bool)

@@ -16,22 +16,22 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open
 from shufflecheck.records.cards import LABEL_MODES, DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import (
-    _QUARANTINE_HEADER,
     DEFAULT_CHUNK_ROWS,
     FORMATS,
+    QUARANTINE_HEADER,
     LogChunk,
     LogFormat,
     LogSummary,
     SetAside,
 )
 from shufflecheck.records.logs._formats import (
-    _Bad,
-    _csv_chunks,
-    _jsonl_chunks,
-    _parquet_chunks,
-    _Raw,
+    BadRow,
+    RawChunk,
+    csv_chunks,
+    jsonl_chunks,
+    parquet_chunks,
 )
-from shufflecheck.records.logs._tokens import _map_tokens, _permutation_rows, _scan_text
+from shufflecheck.records.logs._tokens import map_tokens, permutation_rows, scan_text
 from shufflecheck.records.orders import Arrangement, check_arrangement
 
 # --------------------------------------------------------------------------------------
@@ -146,19 +146,19 @@ class LogReader:
         unit = "line" if self._fmt == "jsonl" else "row"
         return f"{self._shown} {unit} {row}"
 
-    def _raw_chunks(self) -> Iterator[_Raw]:
+    def _raw_chunks(self) -> Iterator[RawChunk]:
         if self._fmt == "jsonl":
             self._layout = "jsonl"
-            yield from _jsonl_chunks(self.path, self._shown, self._chunk_rows)
+            yield from jsonl_chunks(self.path, self._shown, self._chunk_rows)
             return
         if self._fmt == "parquet":
-            source = _parquet_chunks(self.path, self._shown, self.deck, self._chunk_rows)
+            source = parquet_chunks(self.path, self._shown, self.deck, self._chunk_rows)
         else:
-            source = _csv_chunks(self.path, self._shown, self._fmt, self.deck, self._chunk_rows)
+            source = csv_chunks(self.path, self._shown, self._fmt, self.deck, self._chunk_rows)
         layout, _ = next(source)  # type: ignore[misc]
         self._layout = layout if self._fmt != "parquet" else "parquet"
         for raw in source:
-            assert isinstance(raw, _Raw)
+            assert isinstance(raw, RawChunk)
             yield raw
 
     def _run(self) -> Iterator[LogChunk]:
@@ -167,7 +167,7 @@ class LogReader:
             if self._quarantine is not None:
                 handle = stack.enter_context(atomic_open(self._quarantine, "w"))
                 writer = csv.writer(handle, lineterminator="\n")
-                writer.writerow(_QUARANTINE_HEADER)
+                writer.writerow(QUARANTINE_HEADER)
             seen = 0
             for raw in self._raw_chunks():
                 chunk, bad = self._check(raw)
@@ -188,16 +188,16 @@ class LogReader:
                 raise InputError(f"{self._shown}: no deck rows{below}")
             self._complete = True
 
-    def _check(self, raw: _Raw) -> tuple[LogChunk, list[_Bad]]:
+    def _check(self, raw: RawChunk) -> tuple[LogChunk, list[BadRow]]:
         """Vectorised check of a raw chunk; rows it cannot vouch for get check_arrangement."""
         n = self.deck.size
         m = len(raw.rows)
         integer = self._labels != "codes"
         if raw.texts is not None:
-            values, counts = _scan_text(raw.texts, self.deck, integer)
+            values, counts = scan_text(raw.texts, self.deck, integer)
         else:
             assert raw.flat is not None and raw.counts is not None
-            values, counts = _map_tokens(raw.flat, self.deck, integer), raw.counts
+            values, counts = map_tokens(raw.flat, self.deck, integer), raw.counts
         starts = np.cumsum(counts) - counts
         full = np.flatnonzero(counts == n)
         grid = values[starts[full, None] + np.arange(n)] if full.size else np.zeros((0, n), int)
@@ -207,7 +207,7 @@ class LogReader:
         for base in bases:
             shifted = grid - (base or 0)
             ok = ((shifted >= 0) & (shifted < n)).all(axis=1)
-            ok[ok] = _permutation_rows(shifted[ok], n)
+            ok[ok] = permutation_rows(shifted[ok], n)
             fast[base or 0] = np.zeros(m, dtype=bool)
             fast[base or 0][full[ok]] = True
         checked: dict[int, Arrangement] = {}
@@ -236,7 +236,7 @@ class LogReader:
             else:
                 kept = raw.columns.iloc[i].to_dict() if raw.columns.shape[1] else {}
                 bad.append(
-                    _Bad(
+                    BadRow(
                         int(raw.rows[i]),
                         str(result.reason),
                         str(result.problem),

@@ -16,7 +16,7 @@ import pandas as pd
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open
 from shufflecheck.records.cards import DeckDefinition, load_deck
-from shufflecheck.records.logs._tokens import _permutation_rows
+from shufflecheck.records.logs._tokens import permutation_rows
 
 # --------------------------------------------------------------------------------------
 # writing
@@ -31,7 +31,7 @@ def _checked_decks(decks: np.ndarray, deck: DeckDefinition) -> np.ndarray:
         )
     inside = ((array >= 0) & (array < n)).all(axis=1)
     ok = inside.copy()
-    ok[inside] = _permutation_rows(array[inside] if not inside.all() else array, n)
+    ok[inside] = permutation_rows(array[inside] if not inside.all() else array, n)
     if not ok.all():
         k = int(np.argmin(ok))
         raise InputError(f"deck {k} (0-based) is not an arrangement of deck {deck.name!r}")
