@@ -24,6 +24,7 @@ from shufflecheck.core.partitions import (
     partitions,
     z,
 )
+from tests._brute import cycle_lengths
 
 # OEIS A000041, p(0..20)
 A000041 = [1, 1, 2, 3, 5, 7, 11, 15, 22, 30, 42, 56, 77, 101, 135, 176, 231, 297, 385, 490, 627]
@@ -117,17 +118,7 @@ class TestClasses:
     def test_class_sizes_brute_force(self, n):
         counts = Counter()
         for perm in permutations(range(n)):
-            seen, lengths = set(), []
-            for start in range(n):
-                if start in seen:
-                    continue
-                length, j = 0, start
-                while j not in seen:
-                    seen.add(j)
-                    j = perm[j]
-                    length += 1
-                lengths.append(length)
-            counts[tuple(sorted(lengths, reverse=True))] += 1
+            counts[cycle_lengths(perm)] += 1
         for mu in partitions(n):
             assert class_size(mu) == counts[mu]
             assert z(mu) * counts[mu] == math.factorial(n)

@@ -40,6 +40,7 @@ __all__ = [
     "Kind",
     "Quantity",
     "Side",
+    "bound",
     "conjectured",
     "estimate",
     "exact",
@@ -263,34 +264,30 @@ def exact(
     return Quantity(value, "exact", unit=unit, digits=digits, method=method)
 
 
-def upper_bound(
+def bound(
     value: int | float | Fraction,
+    side: Side,
     *,
     unit: str = "",
     digits: int = 4,
     method: str = "",
     confidence: float | None = None,
 ) -> Quantity:
-    """A rigorous upper bound: the true value is at most ``value`` (surely, or with
-    probability ``confidence``)."""
+    """A rigorous bound on ``side`` (``"upper"``: the true value is at most ``value``),
+    holding surely or with probability ``confidence``."""
     return Quantity(
-        value, "bound", side="upper", unit=unit, digits=digits, method=method, confidence=confidence
+        value, "bound", side=side, unit=unit, digits=digits, method=method, confidence=confidence
     )
 
 
-def lower_bound(
-    value: int | float | Fraction,
-    *,
-    unit: str = "",
-    digits: int = 4,
-    method: str = "",
-    confidence: float | None = None,
-) -> Quantity:
-    """A rigorous lower bound: the true value is at least ``value`` (surely, or with
-    probability ``confidence``)."""
-    return Quantity(
-        value, "bound", side="lower", unit=unit, digits=digits, method=method, confidence=confidence
-    )
+def upper_bound(value: int | float | Fraction, **details: Any) -> Quantity:
+    """A rigorous upper bound: the true value is at most ``value`` (see :func:`bound`)."""
+    return bound(value, "upper", **details)
+
+
+def lower_bound(value: int | float | Fraction, **details: Any) -> Quantity:
+    """A rigorous lower bound: the true value is at least ``value`` (see :func:`bound`)."""
+    return bound(value, "lower", **details)
 
 
 def estimate(
