@@ -57,18 +57,27 @@ def eulerian_row(n: int) -> tuple[int, ...]:
     so ``row[r - 1]`` also counts arrangements with ``r`` rising sequences. Length ``n``
     for ``n >= 1``; ``(1,)`` for ``n = 0`` (the empty permutation has no descent).
 
-    Recurrence ``A(n, d) = (d + 1) A(n-1, d) + (n - d) A(n-1, d-1)`` ([1], p. 243).
+    Recurrence ``A(n, d) = (d + 1) A(n-1, d) + (n - d) A(n-1, d-1)`` ([1], p. 243), run
+    iteratively on the first half of each row only, by the symmetry
+    ``A(n, d) = A(n, n - 1 - d)``; each row is one vectorized step over exact Python ints.
     """
     _check_n(n)
     if n <= 1:
         return (1,)
-    prev = eulerian_row(n - 1)
-    row = [0] * n
-    for d in range(n):
-        stay = (d + 1) * prev[d] if d < n - 1 else 0
-        new = (n - d) * prev[d - 1] if d >= 1 else 0
-        row[d] = stay + new
-    return tuple(row)
+    import numpy as np
+
+    half = np.array([1], dtype=object)  # row m = 1: d = 0 .. (m - 1) // 2
+    for m in range(2, n + 1):
+        width = (m - 1) // 2 + 1  # entries d = 0 .. (m - 1) // 2 of row m
+        # entries 0 .. width - 1 of the whole row m - 1 (length m - 1), by symmetry
+        prev = np.concatenate([half, half[: m - 1 - len(half)][::-1]])[:width]
+        if len(prev) < width:  # only when row m - 1 has fewer than width entries
+            prev = np.concatenate([prev, np.zeros(width - len(prev), dtype=object)])
+        d = np.arange(width, dtype=object)
+        shifted = np.concatenate([np.zeros(1, dtype=object), prev[:-1]])
+        half = (d + 1) * prev + (m - d) * shifted
+    whole = np.concatenate([half, half[: n - len(half)][::-1]])
+    return tuple(int(v) for v in whole)
 
 
 @cache

@@ -40,7 +40,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import BAYER_DIACONIS, GILBERT_REEDS
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
-from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, MixingCurve, kl_term
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, label_bits, place_by_sort_key
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -110,25 +110,80 @@ def exact_distances(cards: int, steps: int, *, hands: int = 2) -> DistanceRow:
     """
     a = check_hands(hands)
     _check_cards_steps(cards, steps)
+    _check_exact_range(cards, steps)
+    return _exact_row(cards, steps, a)
+
+
+def _check_exact_range(cards: int, steps: int) -> None:
     if cards > MAX_EXACT_CARDS or steps > MAX_EXACT_STEPS:
         raise InputError(
             f"the exact riffle law is limited to {MAX_EXACT_CARDS} cards and "
             f"{MAX_EXACT_STEPS} steps; use Monte Carlo assessment (shufflecheck assess)"
         )
+
+
+def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
+    """One exact row, by the single crossing point of the rising-sequence law.
+
+    ``P(r) = C(a + n - r, n) / a^n`` decreases in ``r``, so ``P - U`` changes sign once:
+    with ``X = sum A(n, r) C(a + n - r, n)`` and ``Y = sum A(n, r)`` over the ``r`` where
+    ``P(r) > 1/n!``, ``TV = X / a^n - Y / n!`` (because ``sum_r A(n, r) C(a + n - r, n) =
+    a^n``). ``n! C(a + n - r, n)`` follows ``r`` by one small multiplication and one exact
+    small division, so no step multiplies two large integers more than once per group. The
+    integers, their order of summation and the final divisions are those of
+    :func:`shufflecheck.core.distances.distances_from_groups`, so the three floats are the
+    same to the last bit.
+    """
+    fact = math.factorial(cards)
     if steps == 0:
-        fact = math.factorial(cards)
         tv = 1 - Fraction(1, fact)
         return DistanceRow(0, float(tv), 1.0, math.log2(fact), "exact")
-    counts, numerators, denominator = _group_law(cards, a**steps)
-    tv, sep, kl = distances_from_groups(counts, numerators, denominator, math.factorial(cards))
-    return DistanceRow(steps, tv, sep, kl, "exact")
+    a = hands**steps
+    counts = eulerian_row(cards)  # counts[r - 1]: arrangements with r rising sequences
+    denominator = a**cards
+    log_scale = math.log(fact) - math.log(denominator)
+    numerator = math.comb(a + cards - 1, cards)  # C(a + n - r, n) at r = 1
+    scaled = numerator * fact  # n! C(a + n - r, n)
+    above_mass = 0  # X: sum of A(n, r) C(a + n - r, n) where P(r) > 1/n!
+    above_count = 0  # Y
+    kl_nats = 0.0
+    for r in range(1, cards + 1):
+        count = counts[r - 1]
+        weight = count / fact
+        if numerator == 0:
+            kl_nats += kl_term(weight, -1.0, -math.inf)
+        else:
+            mass = None
+            if scaled > denominator:
+                mass = count * numerator
+                above_mass += mass
+                above_count += count
+            log_t = math.log(numerator) + log_scale
+            if log_t < 30:
+                u = (scaled - denominator) / denominator  # exact, then rounded
+                kl_nats += kl_term(weight, u, log_t)
+            else:
+                # weight * t = count * numerator / denominator is a probability: finite
+                kl_nats += (mass / denominator) * (log_t - 1.0) + weight
+        # C(a + n - r - 1, n) = C(a + n - r, n) * (a - r) / (a + n - r)
+        if a - r > 0:
+            numerator = numerator * (a - r) // (a + cards - r)
+            scaled = scaled * (a - r) // (a + cards - r)
+        else:
+            numerator = scaled = 0
+    minimum = math.comb(a, cards)  # P(r = n) is the smallest probability
+    tv_numerator = 2 * (above_mass * fact - above_count * denominator)
+    tv = tv_numerator / (2 * denominator * fact)
+    separation = (denominator - minimum * fact) / denominator
+    return DistanceRow(steps, float(tv), float(separation), kl_nats / math.log(2), "exact")
 
 
 def distance_curve(cards: int, max_steps: int, *, hands: int = 2) -> MixingCurve:
     """Exact distances after ``k = 1..max_steps`` a-shuffles (see :func:`exact_distances`)."""
-    check_hands(hands)
+    a = check_hands(hands)
     _check_cards_steps(cards, max_steps)
-    rows = tuple(exact_distances(cards, k, hands=hands) for k in range(1, max_steps + 1))
+    _check_exact_range(cards, max_steps)
+    rows = tuple(_exact_row(cards, k, a) for k in range(1, max_steps + 1))
     return MixingCurve("riffle", cards, {"hands": hands}, rows, SOURCE)
 
 
