@@ -8,13 +8,33 @@ stated tolerance.
 
 from __future__ import annotations
 
+import json
 import math
+from fractions import Fraction
+from functools import cache
 
+import numpy as np
 import pytest
 
+from shufflecheck.common.errors import InputError
+from shufflecheck.core.characters import (
+    character,
+    character_table,
+    group_eigenvalues,
+    transposition_ratio,
+)
 from shufflecheck.core.counting import eulerian_row
 from shufflecheck.core.distances import distances_from_groups
-from shufflecheck.models import riffle
+from shufflecheck.core.partitions import (
+    content_sum,
+    content_sums,
+    dimension,
+    log_dimensions,
+    multiplicity_matrix,
+    partitions,
+    squared_dimension_sums,
+)
+from shufflecheck.models import riffle, transposition
 
 
 def _eulerian_plain(n: int) -> tuple[int, ...]:
@@ -66,3 +86,111 @@ class TestRiffleCrossingPoint:
         assert [r.total_variation for r in curve.rows] == [1.0, 1.0, 1.0]
         row = riffle.exact_distances(600, 14)
         assert (row.total_variation, row.separation, row.kl_bits) == _riffle_reference(600, 14)
+
+
+class TestTranspositionSpectrum:
+    @pytest.mark.parametrize("n", [2, 3, 6, 11, 14])
+    @pytest.mark.parametrize("hold", [None, 0.25, Fraction(1, 3)])
+    def test_identical_to_shape_by_shape(self, n, hold):
+        # the previous implementation: d_lambda^2 shape by shape (hook length formula)
+        h = transposition.check_hold(n, hold)
+        rows = []
+        for lam in partitions(n):
+            r = transposition_ratio(lam)
+            value = h + (1 - h) * r if isinstance(h, Fraction) else h + (1 - h) * float(r)
+            rows.append((lam, value, dimension(lam) ** 2))
+        assert transposition.spectrum(n, hold=hold) == group_eigenvalues(rows)
+
+    def test_squared_dimensions_by_content_sum(self):
+        for n in (0, 1, 5, 17, 26):
+            expected: dict[int, int] = {}
+            for lam in partitions(n):
+                c = content_sum(lam)
+                expected[c] = expected.get(c, 0) + dimension(lam) ** 2
+            assert squared_dimension_sums(n) == expected
+
+    def test_exact_integers_in_json(self):
+        rows = transposition.spectrum(40)
+        assert all(type(r.multiplicity) is int for r in rows)
+        assert sum(r.multiplicity for r in rows) == math.factorial(40)  # sum d^2 = n!
+
+    def test_refused_up_front_beyond_the_limit(self):
+        with pytest.raises(InputError, match=r"offered for 2\.\.64 cards"):
+            transposition.spectrum(100)
+
+    def test_bound_matches_float_dimensions(self):
+        # the previous bound summed exp(2 ln d) per eigenvalue in floats (about 1e-13)
+        n, h = 30, 1 / 30
+        from scipy.special import logsumexp
+
+        m = multiplicity_matrix(n)
+        pairs = n * (n - 1) // 2
+        eigen = h + (1 - h) * content_sums(m) / pairs
+        keep = (m[:, n] != 1) & (eigen != 0)
+        values, inverse = np.unique(np.abs(eigen[keep]), return_inverse=True)
+        log_mult = 2 * log_dimensions(m)[keep]
+        weights = np.array([logsumexp(log_mult[inverse == g]) for g in range(len(values))])
+        for row in transposition.upper_bound_curve(n, 120):
+            old = min(
+                1.0, 0.5 * math.exp(0.5 * logsumexp(weights + 2 * row.steps * np.log(values)))
+            )
+            assert row.total_variation == pytest.approx(old, rel=1e-12)
+
+    def test_one_chain_per_hold(self):
+        chain = transposition.lumped_chain(9)
+        assert transposition.lumped_chain(9, None) is chain
+        assert transposition.lumped_chain(9, Fraction(1, 9)) is chain
+        assert transposition.lumped_chain(9, 1 / 9) is chain
+
+
+class TestCharacters:
+    def test_table_equals_single_values(self):
+        # two independent algorithms: the table's sparse rim-hook matrices and the
+        # memoised recursion of character()
+        table = character_table(13)
+        for i, lam in enumerate(table.shapes):
+            for j, mu in enumerate(table.classes):
+                assert table.values[i, j] == character(lam, mu)
+
+    @pytest.mark.parametrize(
+        ("shape", "cycle_type"),
+        [
+            ((9, 7, 5, 3, 1), (3,) * 6 + (2,) * 2 + (1,) * 3),
+            ((8, 8, 4, 4, 1), (7, 7, 5, 5, 1)),
+            ((10, 6, 6, 2, 1), (5, 5, 3, 3, 3, 2, 2, 2)),
+            ((12, 5, 4, 3, 1), (4,) * 5 + (3,) * 1 + (1,) * 2),
+            ((6, 5, 4, 3, 2, 2, 2, 1), (2,) * 12 + (1,)),
+        ],
+    )
+    def test_single_values_against_plain_recursion(self, shape, cycle_type):
+        assert character(shape, cycle_type) == _plain_character(shape, cycle_type)
+
+
+def _plain_character(shape, cycle_type) -> int:
+    # Murnaghan-Nakayama on beta-sets (James & Kerber 1981, 2.4.7), parts largest first,
+    # memoised on (beads, parts used): no closed forms, no reordering
+    parts = tuple(sorted(cycle_type, reverse=True))
+    start = frozenset(p + len(shape) - 1 - i for i, p in enumerate(shape))
+
+    @cache
+    def chi(beads: frozenset[int], k: int) -> int:
+        if k == len(parts):
+            return 1
+        r, total = parts[k], 0
+        for b in beads:
+            if b >= r and b - r not in beads:
+                sign = -1 if sum(1 for c in beads if b - r < c < b) % 2 else 1
+                total += sign * chi((beads - {b}) | {b - r}, k + 1)
+        return total
+
+    return chi(start, 0)
+
+
+class TestJson:
+    def test_one_pass_equals_cleaning_round_trip(self):
+        from shufflecheck.cli._app import _clean, _json_default, to_json
+
+        payload = {"a": [1, 2.5, Fraction(1, 3)], "b": {"c": np.int64(4), 5: (1, 2)}}
+        slow = json.dumps(_clean(json.loads(json.dumps(payload, default=_json_default))), indent=2)
+        assert to_json(payload) == slow
+        assert json.loads(to_json({"x": float("inf")})) == {"x": "inf"}

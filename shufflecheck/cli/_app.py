@@ -113,7 +113,15 @@ def _clean(value: Any) -> Any:
 
 
 def to_json(payload: Any) -> str:
-    """Serialise a result for ``--json`` (strict JSON: no NaN or Infinity literals)."""
+    """Serialise a result for ``--json`` (strict JSON: no NaN or Infinity literals).
+
+    One pass when the payload is already strict JSON; only payloads holding non-finite
+    floats or non-string keys take the slower cleaning round trip (same output either way).
+    """
+    try:
+        return json.dumps(payload, default=_json_default, allow_nan=False, indent=2)
+    except (ValueError, TypeError):
+        pass
     return json.dumps(_clean(json.loads(json.dumps(payload, default=_json_default))), indent=2)
 
 

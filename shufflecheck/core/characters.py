@@ -164,9 +164,12 @@ def _removal_order(parts: Partition) -> Partition:
     """Order in which to strip the parts: the Murnaghan–Nakayama rule allows any order.
 
     Largest first by default: few long rim hooks fit, so the recursion branches little
-    near the top, and the smallest parts form the closing block of equal parts. When some
-    other part size is repeated much more often than the smallest one, that size goes last
-    instead, so the closed form for equal parts finishes a much longer block.
+    near the top, and the smallest parts form the closing block of equal parts. When one
+    part size is repeated much more often than the smallest one and the other parts are
+    few (at most a quarter of the cells of that block, and at most 8 parts), that size goes
+    last instead, so the closed form for equal parts finishes a much longer block; with
+    many other parts, stripping them first from the whole shape costs more than the closed
+    form saves.
     """
     if not parts:
         return parts
@@ -178,6 +181,8 @@ def _removal_order(parts: Partition) -> Partition:
     if counts[last] <= 2 * counts[smallest] + 2:
         return parts
     head = tuple(p for p in parts if p != last)
+    if len(head) > 8 or 4 * sum(head) > last * counts[last]:
+        return parts
     return head + (last,) * counts[last]
 
 
@@ -192,14 +197,17 @@ def _character_value(mask: int, parts: Partition) -> int:
     memo: dict[tuple[int, int], int] = {}
 
     def value(current: int, i: int) -> int:
-        if i >= equal_from:
-            if i == length:
-                return 1 if current == 0 else 0
-            return _equal_parts_value(current, parts[i], length - i)
+        if i == length:
+            return 1 if current == 0 else 0
+        # look the memo up first: the closed form for the equal tail is the costly leaf
         key = (current, i)
         cached = memo.get(key)
         if cached is not None:
             return cached
+        if i >= equal_from:
+            total = _equal_parts_value(current, parts[i], length - i)
+            memo[key] = total
+            return total
         r = parts[i]
         total = 0
         probe = current >> r
@@ -352,6 +360,52 @@ def character_table(n: int, *, max_bytes: int = DEFAULT_TABLE_MEMORY) -> Charact
     return _build_table(n, object_values=(dtype == "object"))
 
 
+def _masks_array(shapes: Sequence[Partition]) -> np.ndarray:
+    """Normalised beta-set masks of ``shapes`` as int64 (a partition of ``m`` needs ``m + 1``
+    bits, so this holds for ``m <= 62``)."""
+    return np.fromiter((_beta_mask(shape) for shape in shapes), dtype=np.int64, count=len(shapes))
+
+
+def _rim_hooks(
+    masks: np.ndarray, m: int, lengths: Sequence[int], targets: np.ndarray, order: np.ndarray
+) -> dict[int, tuple[np.ndarray, np.ndarray, np.ndarray]]:
+    """All rim hooks of the given lengths in every partition of ``m``, vectorized.
+
+    For each length ``r``: (source rows, target rows, signs). A rim hook of length ``r`` is a
+    bead at ``b`` with position ``b - r`` empty; its sign is ``(-1)^(beads strictly
+    between)`` ([1], 2.7.25). Targets are looked up among the sorted normalised masks
+    ``targets[order]`` of the partitions of ``m - r`` (passed per length as a dict).
+    """
+    width = m + 1  # bead positions 0..m
+    bits = ((masks[:, None] >> np.arange(width, dtype=np.int64)) & 1).astype(np.int8)
+    below = np.cumsum(bits, axis=1, dtype=np.int16)  # beads at positions <= j
+    out = {}
+    for r in lengths:
+        # bead at b (b >= r), empty at b - r
+        valid = (bits[:, r:] == 1) & (bits[:, : width - r] == 0)
+        rows, hole = np.nonzero(valid)
+        bead = hole + r
+        between = below[rows, bead - 1] - below[rows, hole]
+        moved = masks[rows] ^ (np.int64(1) << bead) ^ (np.int64(1) << hole)
+        # normalise: shift out the trailing one bits (zero parts)
+        trailing = np.log2((moved ^ (moved + 1)) + 1).astype(np.int64) - 1
+        moved >>= trailing
+        target_masks, target_order = targets[r], order[r]
+        found = np.searchsorted(target_masks, moved, sorter=target_order)
+        cols = target_order[found]
+        if not (target_masks[cols] == moved).all():  # pragma: no cover - a wrong hook
+            raise AssertionError("rim-hook removal left the partitions of m - r")
+        out[r] = (rows, cols, np.where(between % 2 == 1, -1, 1).astype(np.int64))
+    return out
+
+
+def _as_slice(indices: list[int]) -> slice | list[int]:
+    """A run of consecutive indices as a slice (a view, not a copy), else the list."""
+    if indices and indices[-1] - indices[0] == len(indices) - 1:
+        return slice(indices[0], indices[-1] + 1)
+    return indices
+
+
 def _build_table(n: int, *, object_values: bool) -> CharacterTable:
     from scipy import sparse
 
@@ -363,15 +417,16 @@ def _build_table(n: int, *, object_values: bool) -> CharacterTable:
         for mu in needed[m]:
             needed[m - mu[0]].add(mu[1:])
 
-    index: list[dict[int, int]] = []  # normalised beta mask -> row index, per m
+    masks: list[np.ndarray] = []  # normalised beta masks, per m, in reverse lex order
+    sorters: list[np.ndarray] = []
     columns: list[dict[Partition, int]] = []  # class -> column position, per m
     blocks: list[np.ndarray | None] = []
     dtype = object if object_values else np.int64
 
     for m in range(n + 1):
         parts_m = partitions(m)
-        masks = [_beta_mask(shape) for shape in parts_m]
-        index.append({mask: i for i, mask in enumerate(masks)})
+        masks.append(_masks_array(parts_m))
+        sorters.append(np.argsort(masks[m], kind="stable"))
         wanted = [mu for mu in parts_m if mu in needed[m]]  # keeps reverse lex order
         columns.append({mu: j for j, mu in enumerate(wanted)})
         if m == 0:
@@ -381,43 +436,31 @@ def _build_table(n: int, *, object_values: bool) -> CharacterTable:
             blocks.append(None)
             continue
         # rim-hook removals, grouped by hook length r (only lengths that are needed)
-        lengths = {mu[0] for mu in wanted}
-        entries: dict[int, tuple[list[int], list[int], list[int]]] = {
-            r: ([], [], []) for r in lengths
-        }
-        for row, mask in enumerate(masks):
-            beads = _beads(mask)
-            top = beads[-1]
-            holes = [h for h in range(top) if not (mask >> h) & 1]
-            for bead_idx, b in enumerate(beads):
-                for hole_idx, h in enumerate(holes):
-                    if h > b:
-                        break
-                    r = b - h
-                    if r not in entries:
-                        continue
-                    beads_below_h = h - hole_idx
-                    between = bead_idx - beads_below_h
-                    target = _normalise(mask ^ (1 << b) ^ (1 << h))
-                    rows, cols, vals = entries[r]
-                    rows.append(row)
-                    cols.append(index[m - r][target])
-                    vals.append(-1 if between % 2 else 1)
-        block = np.zeros((len(parts_m), len(wanted)), dtype=dtype)
-        for r, (rows, cols, vals) in entries.items():
-            positions = [j for j, mu in enumerate(wanted) if mu[0] == r]
+        lengths = sorted({mu[0] for mu in wanted})
+        hooks = _rim_hooks(
+            masks[m],
+            m,
+            lengths,
+            {r: masks[m - r] for r in lengths},
+            {r: sorters[m - r] for r in lengths},
+        )
+        block = np.empty((len(parts_m), len(wanted)), dtype=dtype)
+        for r, (rows, cols, vals) in hooks.items():
+            # classes with largest part r are contiguous in reverse lexicographic order, and
+            # so are their tails (the needed classes of m - r with parts <= r, a suffix)
+            here = [j for j, mu in enumerate(wanted) if mu[0] == r]
+            positions = _as_slice(here)
             tails = blocks[m - r]
             assert tails is not None
-            tail_cols = [columns[m - r][wanted[j][1:]] for j in positions]
+            tail_cols = _as_slice([columns[m - r][wanted[j][1:]] for j in here])
             source = tails[:, tail_cols]
             if object_values:
-                out = np.zeros((len(parts_m), len(positions)), dtype=object)
-                for i, j, s in zip(rows, cols, vals, strict=True):
-                    out[i] += source[j] if s > 0 else -source[j]
+                out = np.zeros((len(parts_m), len(here)), dtype=object)
+                for i, j, sign in zip(rows.tolist(), cols.tolist(), vals.tolist(), strict=True):
+                    out[i] += source[j] if sign > 0 else -source[j]
             else:
                 matrix = sparse.csr_matrix(
-                    (np.asarray(vals, dtype=np.int64), (rows, cols)),
-                    shape=(len(parts_m), len(index[m - r])),
+                    (vals, (rows, cols)), shape=(len(parts_m), len(masks[m - r]))
                 )
                 out = np.asarray(matrix @ source)
             block[:, positions] = out

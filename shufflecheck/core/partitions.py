@@ -14,6 +14,8 @@ References
        formula (Thm. 3.10.2), centralizer orders (Prop. 1.1.1), contents.
 .. [2] G. E. Andrews, *The Theory of Partitions*, Cambridge University Press, 1984:
        Euler's pentagonal number recurrence for p(n) (Cor. 1.8).
+.. [3] A. Zoghbi and I. Stojmenovic, "Fast algorithms for generating integer partitions",
+       Int. J. Comput. Math. 70 (1998) 319-332 (algorithm ZS1, reverse lexicographic order).
 """
 
 from __future__ import annotations
@@ -21,7 +23,7 @@ from __future__ import annotations
 import math
 import re
 from collections import Counter
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Iterable, Sequence
 from functools import cache
 
 import numpy as np
@@ -43,11 +45,13 @@ __all__ = [
     "dimension",
     "format_partition",
     "hook_lengths",
+    "hook_product_exponents",
     "log_dimensions",
     "multiplicity_matrix",
     "parse_partition",
     "partition_sign",
     "partitions",
+    "squared_dimension_sums",
     "z",
 ]
 
@@ -135,20 +139,40 @@ def format_partition(parts: Sequence[int]) -> str:
 def partitions(n: int) -> tuple[Partition, ...]:
     """All partitions of ``n`` in reverse lexicographic order (see the module docstring).
 
-    ``partitions(0) == ((),)``: the empty partition is the only partition of 0.
+    ``partitions(0) == ((),)``: the empty partition is the only partition of 0. Generated
+    without recursion by algorithm ZS1 of [3] (each partition from the previous one in
+    constant amortised time).
     """
     if isinstance(n, bool) or not isinstance(n, int) or n < 0:
         raise InputError(f"n must be a non-negative integer, got {n!r}")
-    return tuple(_partitions_bounded(n, n))
-
-
-def _partitions_bounded(n: int, largest: int) -> Iterator[Partition]:
     if n == 0:
-        yield ()
-        return
-    for first in range(min(n, largest), 0, -1):
-        for rest in _partitions_bounded(n - first, first):
-            yield (first, *rest)
+        return ((),)
+    x = [1] * (n + 1)  # x[1..m] holds the current partition
+    x[1] = n
+    m = h = 1  # m: number of parts; h: index of the last part larger than 1
+    out = [(n,)]
+    while x[1] != 1:
+        if x[h] == 2:
+            m += 1
+            x[h] = 1
+            h -= 1
+        else:
+            r = x[h] - 1
+            t = m - h + 1
+            x[h] = r
+            while t >= r:
+                h += 1
+                x[h] = r
+                t -= r
+            if t == 0:
+                m = h
+            else:
+                m = h + 1
+                if t > 1:
+                    h += 1
+                    x[h] = t
+        out.append(tuple(x[1 : m + 1]))
+    return tuple(out)
 
 
 @cache
@@ -250,10 +274,16 @@ def partition_sign(cycle_type: Sequence[int]) -> int:
 def multiplicity_matrix(n: int) -> np.ndarray:
     """All partitions of ``n`` as rows of part multiplicities: ``M[i, s]`` = parts equal to ``s``.
 
-    Shape ``(p(n), n + 1)`` (column 0 unused), uint8. Built vectorized, part sizes from ``n``
-    down to 2, the parts equal to 1 filling the remainder. Row order: lexicographic in
-    ``(m_n, m_{n-1}, ..., m_2)`` (not the reverse lexicographic order of :func:`partitions`).
+    Shape ``(p(n), n + 1)`` (column 0 unused), uint8, read-only (one cached array per ``n``).
+    Built vectorized, part sizes from ``n`` down to 2, the parts equal to 1 filling the
+    remainder. Row order: lexicographic in ``(m_n, m_{n-1}, ..., m_2)``, which is exactly
+    the reverse of the order of :func:`partitions` (row ``i`` is ``partitions(n)[-1 - i]``).
     """
+    return _multiplicity_matrix(n)
+
+
+@cache
+def _multiplicity_matrix(n: int) -> np.ndarray:
     rows = np.zeros((1, n + 1), dtype=np.uint8)
     sums = np.zeros(1, dtype=np.int64)
     for s in range(n, 1, -1):
@@ -263,7 +293,9 @@ def multiplicity_matrix(n: int) -> np.ndarray:
         rows = rows[parent]
         rows[:, s] = offsets
         sums = sums[parent] + offsets * s
-    rows[:, 1] = n - sums
+    if n >= 1:
+        rows[:, 1] = n - sums
+    rows.flags.writeable = False
     return rows
 
 
@@ -274,15 +306,21 @@ def _column_lengths(m: np.ndarray) -> np.ndarray:
 
 
 def content_sums(m: np.ndarray) -> np.ndarray:
-    """Content sum of every partition of a multiplicity matrix (vectorized).
+    """Content sum of every partition of a multiplicity matrix (vectorized, int64).
 
-    ``sum_i C(lambda_i, 2) - sum_j C(lambda'_j, 2)``: row contents minus column contents.
+    ``sum_i C(lambda_i, 2) - sum_j C(lambda'_j, 2)``: row contents minus column contents,
+    the column lengths ``lambda'_j`` being running sums of the multiplicities from the top.
     """
     n = m.shape[1] - 1
-    sizes = np.arange(n + 1, dtype=np.int64)
-    rows = m.astype(np.int64) @ (sizes * (sizes - 1) // 2)
-    cols = _column_lengths(m).astype(np.int64)
-    return rows - (cols * (cols - 1) // 2).sum(axis=1)
+    by_size = np.ascontiguousarray(m.T)  # one row per part size: contiguous reads
+    total = np.zeros(len(m), dtype=np.int64)
+    column = np.zeros(len(m), dtype=np.int64)
+    for size in range(n, 0, -1):  # column size - 1 has length = parts >= size
+        part = by_size[size].astype(np.int64)
+        total += part * (size * (size - 1) // 2)
+        column += part
+        total -= (column * (column - 1)) >> 1  # C(column, 2); the product is even
+    return total
 
 
 def log_dimensions(m: np.ndarray, chunk: int = 20_000) -> np.ndarray:
@@ -317,4 +355,177 @@ def log_dimensions(m: np.ndarray, chunk: int = 20_000) -> np.ndarray:
         hooks = cell_len - cell_col + cols[cell_owner, cell_col] - cell_row - 1
         sums = np.bincount(cell_owner, weights=np.log(hooks), minlength=len(block))
         out[start : start + len(block)] = log_fact - sums
+    return out
+
+
+# ---------------------------------------------------------------------------------------
+# exact sums of squared dimensions, all partitions at once
+
+#: primes just below 2^31 for the residues of squared dimensions (products fit in int64)
+_RESIDUE_PRIMES = (
+    2147483647,
+    2147483629,
+    2147483587,
+    2147483579,
+    2147483563,
+    2147483549,
+    2147483543,
+    2147483497,
+    2147483489,
+    2147483477,
+    2147483423,
+    2147483399,
+    2147483353,
+    2147483323,
+)
+
+
+def _primes_upto(n: int) -> list[int]:
+    return [p for p in range(2, n + 1) if all(p % q for q in range(2, math.isqrt(p) + 1))]
+
+
+def _legendre(p: int, x: int) -> int:
+    """Exponent of the prime ``p`` in ``x!``."""
+    total, power = 0, p
+    while power <= x:
+        total += x // power
+        power *= p
+    return total
+
+
+def _hook_powers(m: np.ndarray, width: int) -> np.ndarray:
+    """``K[i, x + 1]``: the power of ``G(x)`` in the hook product of partition ``i``."""
+    n = m.shape[1] - 1
+    count = len(m)
+    rev = m[:, :0:-1]  # columns: sizes n, n-1, ..., 1
+    owner, col = np.nonzero(rev)  # distinct parts of each partition, largest first
+    owner = owner.astype(np.int32)
+    size = (n - col).astype(np.int32)
+    mult = rev[owner, col].astype(np.int32)
+    first = np.r_[0, np.nonzero(np.diff(owner))[0] + 1]
+    blocks = np.diff(np.r_[first, len(owner)])  # distinct part sizes per partition
+    per_entry = np.repeat(blocks, blocks)
+    rank = np.arange(len(owner), dtype=np.int32) - np.repeat(first, blocks).astype(np.int32)
+    before = np.cumsum(mult) - mult  # parts in earlier blocks, counting across partitions
+    cum_before = (before - np.repeat(before[first], blocks)).astype(np.int32)  # M_{a-1}
+    cum = cum_before + mult  # M_a
+    nxt = np.where(rank + 1 < per_entry, np.r_[size[1:], 0], 0).astype(np.int32)  # s_{b+1}
+    # pairs (a, b), a <= b, of blocks of the same partition
+    later = per_entry - rank
+    a_index = np.repeat(np.arange(len(owner), dtype=np.int32), later)
+    b_index = a_index + (
+        np.arange(len(a_index), dtype=np.int32) - np.repeat(np.cumsum(later) - later, later)
+    ).astype(np.int32)
+    c1 = size[a_index] + cum[b_index] - cum_before[a_index] - 1
+    c2 = c1 - mult[a_index]
+    s_b, s_b1 = size[b_index], nxt[b_index]
+    who = owner[a_index] * width + 1
+    cells = count * width
+    powers = np.bincount(who + c1 - s_b1, minlength=cells)
+    powers += np.bincount(who + c2 - s_b, minlength=cells)
+    powers -= np.bincount(who + c1 - s_b, minlength=cells)
+    powers -= np.bincount(who + c2 - s_b1, minlength=cells)
+    return powers.reshape(count, width)
+
+
+def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
+    """(primes up to n, E) with ``E[i, k]`` the exponent of ``primes[k]`` in the product of
+    the hook lengths of partition ``i`` of a multiplicity matrix (exact, vectorized).
+
+    The rows of equal parts ``s_a`` (``m_a`` of them) and the columns ``j`` between two
+    consecutive distinct part sizes ``s_{b+1} <= j < s_b`` (all of length ``M_b``, the
+    number of parts ``>= s_b``) form a rectangle whose hooks are, column by column, runs of
+    consecutive integers, so its hook product is ``prod_j (c_1 - j)! / (c_2 - j)!`` with
+    ``c_1 = s_a + M_b - M_{a-1} - 1`` and ``c_2 = c_1 - m_a``, i.e. a ratio of four values
+    of ``G(x) = prod_{y <= x} y!``. Every hook product is thus a product of powers of
+    ``G``, whose prime exponents are tabulated once.
+    """
+    n = m.shape[1] - 1
+    count = len(m)
+    primes = _primes_upto(n)
+    if n == 0 or not primes:
+        return primes, np.zeros((count, len(primes)), dtype=np.int64)
+    width = 2 * n + 2  # G index x + 1 for x = -1 .. 2n
+    # exponent of p in G(x) = sum_{y <= x} v_p(y!), for x = -1 .. 2n
+    table = np.zeros((width, len(primes)), dtype=np.float32)
+    for k, p in enumerate(primes):
+        table[1:, k] = np.cumsum([_legendre(p, y) for y in range(width - 1)])
+    exponents = np.empty((count, len(primes)), dtype=np.int64)
+    chunk = 8192  # partitions at a time: the work arrays stay small and warm in cache
+    for lo in range(0, count, chunk):
+        hi = min(count, lo + chunk)
+        powers = _hook_powers(m[lo:hi], width)
+        # float32 products are exact: every partial sum is an integer far below 2^24
+        exponents[lo:hi] = np.rint(powers.astype(np.float32) @ table)
+    return primes, exponents
+
+
+def _combined_index(free: np.ndarray, top: np.ndarray, members: list[int]) -> np.ndarray:
+    """Mixed-radix index of the exponents of the primes ``members`` (first = most
+    significant digit)."""
+    index = np.zeros(len(free), dtype=np.int64)
+    for k in members:
+        index = index * (int(top[k]) + 1) + free[:, k]
+    return index
+
+
+def squared_dimension_sums(n: int) -> dict[int, int]:
+    """``sum d_lambda^2`` over the shapes of each content sum: content sum -> exact int.
+
+    Vectorized over all ``p(n)`` shapes: the prime exponents of ``d_lambda = n! / prod
+    hooks`` (hook length formula, [1] Thm. 3.10.2) come from
+    :func:`hook_product_exponents`; ``d_lambda^2`` is summed per content sum modulo enough
+    primes below ``2^31`` to exceed ``n!``, and each sum is rebuilt by the Chinese
+    remainder theorem. The sums are checked to add up to ``n!`` (``sum d^2 = n!``).
+    """
+    m = multiplicity_matrix(n)
+    primes, exponents = hook_product_exponents(m)
+    top = np.array([_legendre(p, n) for p in primes], dtype=np.int64)
+    free = top - exponents  # exponents of d_lambda
+    if (free < 0).any():  # pragma: no cover - would mean a wrong hook product
+        raise AssertionError("hook product does not divide n!")
+    sums = content_sums(m)
+    order = np.argsort(sums, kind="stable")
+    keys, starts = np.unique(sums[order], return_index=True)
+    fact = math.factorial(n)
+    # prime powers in groups whose exponent combinations index one small table each
+    groups: list[tuple[list[int], np.ndarray]] = []
+    members: list[int] = []
+    span = 1
+    for k in reversed(range(len(primes))):
+        if members and span * (int(top[k]) + 1) > 4096:
+            groups.append((members, _combined_index(free, top, members)))
+            members, span = [], 1
+        members.append(k)
+        span *= int(top[k]) + 1
+    if members:
+        groups.append((members, _combined_index(free, top, members)))
+    moduli: list[int] = []
+    residues: list[np.ndarray] = []
+    for q in _RESIDUE_PRIMES:
+        if math.prod(moduli) > fact:
+            break
+        d = np.ones(len(m), dtype=np.int64)
+        for members, index in groups:
+            table = np.ones(1, dtype=np.int64)
+            for k in members:  # same mixed radix as _combined_index
+                powers = np.array([pow(primes[k], e, q) for e in range(int(top[k]) + 1)])
+                table = (table[:, None] * powers[None, :] % q).ravel()
+            d = d * table[index] % q
+        square = d * d % q
+        residues.append(np.add.reduceat(square[order], starts) % q)  # < 2^31 * p(n) < 2^63
+        moduli.append(q)
+    modulus = math.prod(moduli)
+    if modulus <= fact:  # pragma: no cover - n far beyond any table
+        raise InputError(f"squared dimensions of S_{n} exceed the residue arithmetic")
+    basis = []
+    for q in moduli:
+        rest = modulus // q
+        basis.append(rest * pow(rest, -1, q))
+    out: dict[int, int] = {}
+    columns = [r.tolist() for r in residues]
+    for g, key in enumerate(keys.tolist()):
+        out[key] = sum(c[g] * b for c, b in zip(columns, basis, strict=True)) % modulus
+    if sum(out.values()) != fact:  # pragma: no cover - a wrong residue
+        raise AssertionError("squared dimensions do not add up to n!")
     return out

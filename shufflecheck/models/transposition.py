@@ -45,17 +45,15 @@ from shufflecheck.common.sources import DIACONIS_1988, DIACONIS_SHAHSHAHANI
 from shufflecheck.core.characters import (
     Eigenvalue,
     character_table,
-    group_eigenvalues,
-    transposition_ratio,
 )
 from shufflecheck.core.distances import DistanceRow, MixingCurve
 from shufflecheck.core.partitions import (
     content_sum,
     content_sums,
-    dimension,
-    log_dimensions,
+    count_partitions,
     multiplicity_matrix,
     partitions,
+    squared_dimension_sums,
     z,
 )
 from shufflecheck.models.base import Step, sample_step
@@ -66,9 +64,11 @@ __all__ = [
     "MAX_CHAIN_CARDS",
     "MAX_CHAIN_STEPS",
     "MAX_FOURIER_CARDS",
+    "MAX_SPECTRUM_CARDS",
     "LumpedChain",
     "Transposition",
     "check_hold",
+    "check_spectrum_cards",
     "class_law_fourier",
     "distance_curve",
     "lumped_chain",
@@ -88,6 +88,8 @@ MAX_CHAIN_STEPS = 5000
 MAX_FOURIER_CARDS = 20
 #: the upper bound lemma visits every shape; p(64) = 1,741,630
 MAX_BOUND_CARDS = 64
+#: the spectrum lists every shape with its eigenvalue (p(64) = 1,741,630 shapes)
+MAX_SPECTRUM_CARDS = 64
 
 
 def check_hold(cards: int, hold: float | Fraction | None) -> Fraction | float:
@@ -99,25 +101,45 @@ def check_hold(cards: int, hold: float | Fraction | None) -> Fraction | float:
     return hold
 
 
-def _eigenvalue(lam: tuple[int, ...], hold: Fraction | float) -> Fraction | float:
-    r = transposition_ratio(lam)
-    if isinstance(hold, Fraction):
-        return hold + (1 - hold) * r
-    return hold + (1 - hold) * float(r)
-
-
 def spectrum(cards: int, *, hold: float | Fraction | None = None) -> list[Eigenvalue]:
     """Distinct eigenvalues of one step: ``hold + (1 - hold) chi^lambda(tau)/d_lambda``.
 
     Multiplicity ``d_lambda^2`` summed over the shapes giving the same value ([1], Lemma 5;
-    the content formula gives the ratio).
+    the content formula gives the ratio), as exact integers. The shapes of each eigenvalue
+    are listed in reverse lexicographic order. All ``p(n)`` shapes are handled at once
+    (:func:`shufflecheck.core.partitions.squared_dimension_sums`); offered up to
+    ``MAX_SPECTRUM_CARDS`` cards.
     """
     h = check_hold(cards, hold)
-    rows = []
-    for lam in partitions(cards):
-        d = dimension(lam)
-        rows.append((lam, _eigenvalue(lam, h), d * d))
-    return group_eigenvalues(rows)
+    check_spectrum_cards(cards)
+    shapes = partitions(cards)
+    sums = content_sums(multiplicity_matrix(cards))[::-1]  # aligned with ``shapes``
+    weights = squared_dimension_sums(cards)
+    order = np.argsort(-sums, kind="stable")  # largest content sum (eigenvalue) first
+    keys, starts = np.unique(-sums[order], return_index=True)
+    bounds = [*starts.tolist(), len(order)]
+    pairs = cards * (cards - 1) // 2
+    out = []
+    for g, key in enumerate(keys.tolist()):
+        c = -key
+        ratio = Fraction(c, pairs) if cards >= 2 else Fraction(1)
+        value: Fraction | float = (
+            h + (1 - h) * ratio if isinstance(h, Fraction) else h + (1 - h) * float(ratio)
+        )
+        members = tuple(shapes[i] for i in order[bounds[g] : bounds[g + 1]].tolist())
+        out.append(Eigenvalue(value=value, multiplicity=weights[c], shapes=members))
+    return out
+
+
+def check_spectrum_cards(cards: int) -> None:
+    """The spectrum lists every shape: refuse (before any work) above ``MAX_SPECTRUM_CARDS``."""
+    if not 2 <= cards <= MAX_SPECTRUM_CARDS:
+        raise InputError(
+            f"the transposition spectrum lists all p(n) shapes of n cards; it is offered for "
+            f"2..{MAX_SPECTRUM_CARDS} cards (p({MAX_SPECTRUM_CARDS}) = "
+            f"{count_partitions(MAX_SPECTRUM_CARDS):,} shapes), and {cards} cards have "
+            f"p({cards}) = {count_partitions(cards):,}"
+        )
 
 
 # ---------------------------------------------------------------------------------------
@@ -147,8 +169,8 @@ class LumpedChain:
         return np.exp(-self.log_z)
 
     def step(self, law: np.ndarray) -> np.ndarray:
-        """The law one step later (sparse product, split in two row blocks run in threads)."""
-        return _threaded_product(self.matrix, law)
+        """The law one step later (one sparse product, single-threaded)."""
+        return self.matrix @ law
 
 
 def _log_z(m: np.ndarray) -> np.ndarray:
@@ -162,20 +184,27 @@ def _log_z(m: np.ndarray) -> np.ndarray:
     return counts.astype(np.float64) @ sizes + log_factorial[counts].sum(axis=1)
 
 
-@lru_cache(maxsize=2)
 def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChain:
-    """Build the lumped chain (vectorized; states are looked up by a 64-bit linear hash of
-    the multiplicity vector, checked to be collision-free on all states)."""
-    import pandas as pd
-    from scipy import sparse
+    """The lumped chain for ``cards`` cards, built once per (cards, hold) and cached.
 
+    ``hold`` is normalised first (``None``, ``Fraction(1, n)`` and ``1/n`` are one chain).
+    Built vectorized; states are looked up by a 64-bit linear hash of the multiplicity
+    vector, checked to be collision-free on all states.
+    """
     if not 2 <= cards <= MAX_CHAIN_CARDS:
         raise InputError(
             f"the lumped chain is offered for 2..{MAX_CHAIN_CARDS} cards (p(n) states); for "
             f"{cards} cards use --method bound (the upper bound lemma, up to "
             f"{MAX_BOUND_CARDS} cards) or Monte Carlo assessment (shufflecheck assess)"
         )
-    h = float(check_hold(cards, hold))
+    return _build_chain(cards, float(check_hold(cards, hold)))
+
+
+@lru_cache(maxsize=2)
+def _build_chain(cards: int, h: float) -> LumpedChain:
+    import pandas as pd
+    from scipy import sparse
+
     n = cards
     m = multiplicity_matrix(n)
     states = len(m)
@@ -244,51 +273,6 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     return LumpedChain(n, h, m, _log_z(m), identity, matrix, int(matrix.nnz))
 
 
-@lru_cache(maxsize=1)
-def _pool():
-    """Two worker threads for the sparse products (scipy releases the GIL inside them)."""
-    from concurrent.futures import ThreadPoolExecutor
-
-    return ThreadPoolExecutor(max_workers=2, thread_name_prefix="shufflecheck-chain")
-
-
-def _threaded_product(matrix, vector: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
-    """``matrix @ vector`` in two row blocks of equal work, one on a worker thread."""
-    if matrix.nnz < 2_000_000:
-        return matrix @ vector
-    top, bottom = _row_blocks(matrix)
-    upper = _pool().submit(top.dot, vector)
-    lower = bottom.dot(vector)
-    return np.concatenate([upper.result(), lower], out=out)
-
-
-_BLOCKS: dict[int, tuple[object, object]] = {}
-
-
-def _row_blocks(matrix) -> tuple[object, object]:
-    """Two CSR row blocks of about equal work that share the matrix's arrays (no copy)."""
-    from scipy import sparse
-
-    key = id(matrix)
-    if key not in _BLOCKS:
-        rows, cols = matrix.shape
-        half = int(np.searchsorted(matrix.indptr, matrix.nnz // 2))
-        cut = int(matrix.indptr[half])
-        top = sparse.csr_matrix(
-            (matrix.data[:cut], matrix.indices[:cut], matrix.indptr[: half + 1]),
-            shape=(half, cols),
-            copy=False,
-        )
-        bottom = sparse.csr_matrix(
-            (matrix.data[cut:], matrix.indices[cut:], matrix.indptr[half:] - cut),
-            shape=(rows - half, cols),
-            copy=False,
-        )
-        _BLOCKS.clear()
-        _BLOCKS[key] = (top, bottom)
-    return _BLOCKS[key]
-
-
 class _ClassLawDistances:
     """(TV, separation, KL bits) of laws on cycle types, with work arrays kept between
     calls (fresh multi-megabyte temporaries cost page faults on every step).
@@ -347,21 +331,27 @@ def _chain_rows(
     hold: float | Fraction | None,
     progress: Callable[[int], None] | None,
 ) -> tuple[DistanceRow, ...]:
+    from threadpoolctl import threadpool_limits
+
     chain = lumped_chain(cards, hold)
     distances = _ClassLawDistances(chain.uniform, np.exp(chain.log_z))
     law = np.zeros(len(chain.log_z))
     law[chain.identity] = 1.0
-    spare = np.empty_like(law)
     rows = []
-    for k in range(1, max_steps + 1):
-        law, spare = _threaded_product(chain.matrix, law, out=spare), law
-        # Probabilities below 1e-300 cannot move any distance at double precision; zeroing
-        # them keeps the arithmetic out of subnormal numbers, which are very slow.
-        np.putmask(law, law < 1e-300, 0.0)
-        tv, sep, kl = distances(law)
-        rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
-        if progress is not None:
-            progress(k)
+    # The loop is single-threaded by design: a BLAS thread pool woken by the dot products
+    # only spins against the sparse products on a small shared machine.
+    with threadpool_limits(limits=1, user_api="blas"):
+        for k in range(1, max_steps + 1):
+            law = chain.matrix @ law
+            # Probabilities below 1e-300 cannot move any distance at double precision;
+            # zeroing them keeps the arithmetic out of subnormal numbers, which are very
+            # slow. Once every class holds more than that, the check is all it costs.
+            if law.min() < 1e-300:
+                np.putmask(law, law < 1e-300, 0.0)
+            tv, sep, kl = distances(law)
+            rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
+            if progress is not None:
+                progress(k)
     return tuple(rows)
 
 
@@ -419,6 +409,29 @@ def _fourier_rows(cards: int, max_steps: int, hold: Fraction | None) -> tuple[Di
     return tuple(rows)
 
 
+@lru_cache(maxsize=4)
+def _bound_terms(cards: int, hold: float) -> tuple[np.ndarray, np.ndarray]:
+    """(distinct |eigenvalue| of the non-trivial shapes, ln of their summed ``d^2``).
+
+    Content sums are integers, so shapes are grouped exactly; the summed multiplicities are
+    exact integers (:func:`squared_dimension_sums`) and only their logarithms are floats.
+    """
+    pairs = cards * (cards - 1) // 2
+    weights = squared_dimension_sums(cards)
+    top = pairs  # the trivial shape (n) alone has content sum C(n, 2)
+    groups: dict[float, int] = {}
+    for c, w in weights.items():
+        eigen = abs(hold + (1.0 - hold) * (c / pairs))
+        if c == top or eigen == 0.0:
+            continue
+        groups[eigen] = groups.get(eigen, 0) + w
+    values = np.array(sorted(groups))
+    log_weights = np.array([math.log(groups[v]) for v in values.tolist()])
+    values.flags.writeable = False
+    log_weights.flags.writeable = False
+    return values, log_weights
+
+
 def upper_bound_curve(
     cards: int, max_steps: int, hold: float | Fraction | None = None
 ) -> tuple[DistanceRow, ...]:
@@ -435,22 +448,11 @@ def upper_bound_curve(
         )
     from scipy.special import logsumexp
 
-    m = multiplicity_matrix(cards)
-    pairs = cards * (cards - 1) // 2
-    ratios = content_sums(m) / pairs  # chi(tau)/d by the content formula
-    eigen = float(h) + (1.0 - float(h)) * ratios
-    log_mult = 2.0 * log_dimensions(m)
-    trivial = m[:, cards] == 1
-    keep = ~trivial & (eigen != 0.0)
-    # group shapes by |eigenvalue| (content sums are integers: exact grouping)
-    values, inverse = np.unique(np.abs(eigen[keep]), return_inverse=True)
-    order = np.argsort(inverse, kind="stable")
-    starts = np.searchsorted(inverse[order], np.arange(len(values)))
-    grouped = np.split(log_mult[keep][order], starts[1:])
-    log_weights = np.array([logsumexp(g) for g in grouped])
+    values, log_weights = _bound_terms(cards, float(h))
+    log_values = np.log(values)
     rows = []
     for k in range(1, max_steps + 1):
-        log_sum = logsumexp(log_weights + 2 * k * np.log(values)) if values.size else -np.inf
+        log_sum = logsumexp(log_weights + 2 * k * log_values) if values.size else -np.inf
         bound = min(1.0, 0.5 * math.exp(0.5 * log_sum))
         rows.append(DistanceRow(k, bound, None, None, "bound", "upper bound lemma"))
     return tuple(rows)
@@ -581,6 +583,10 @@ register_model(
         spectrum_options=("hold",),
         default_steps=lambda cards: math.ceil(cards * math.log(cards)),
         exact=f"lumped chain on cycle types: n <= {MAX_CHAIN_CARDS}, k <= {MAX_CHAIN_STEPS:,}; "
-        f"upper bound lemma: n <= {MAX_BOUND_CARDS}",
+        f"upper bound lemma and spectrum: n <= {MAX_BOUND_CARDS}",
     )
 )
+
+
+#: clears the cached chains (benchmarks measure a cold build)
+lumped_chain.cache_clear = _build_chain.cache_clear  # type: ignore[attr-defined]
