@@ -194,3 +194,39 @@ class TestJson:
         slow = json.dumps(_clean(json.loads(json.dumps(payload, default=_json_default))), indent=2)
         assert to_json(payload) == slow
         assert json.loads(to_json({"x": float("inf")})) == {"x": "inf"}
+
+
+class TestSimulatedLogs:
+    @pytest.mark.parametrize("count", [0, 1, 2, 3, 10, 99, 1000])
+    def test_blocked_composition_equals_deck_by_deck(self, count):
+        from shufflecheck.models.procedures import running_composition
+
+        rng = np.random.default_rng(count)
+        relative = np.argsort(rng.random((count, 9)), axis=1).astype(np.int16)
+        expected, current = np.empty_like(relative), np.arange(9)
+        for t in range(count):  # the previous loop: deck_t = deck_{t-1}[relative_t]
+            current = current[relative[t]]
+            expected[t] = current
+        assert (running_composition(relative) == expected).all()
+
+    def test_arrangement_check_finds_every_bad_row(self):
+        from shufflecheck.records.logs.writer import _arrangement_rows
+
+        rng = np.random.default_rng(5)
+        decks = np.argsort(rng.random((500, 52)), axis=1).astype(np.int16)
+        decks[7, 3] = decks[7, 4]  # a repeated card
+        decks[11, 0] = 52  # out of range
+        decks[13, 5] = -1
+        assert np.nonzero(~_arrangement_rows(decks, 52))[0].tolist() == [7, 11, 13]
+
+    def test_log_text_round_trips(self, tmp_path):
+        from shufflecheck.records.logs import read_log, write_log
+
+        rng = np.random.default_rng(6)
+        decks = np.argsort(rng.random((300, 52)), axis=1).astype(np.int16)
+        columns = {"deck": list(range(300)), "table": ['T "7", east'] * 300}
+        path = write_log(tmp_path / "log.csv", decks, None, columns)
+        text = path.read_text(encoding="utf-8").splitlines()
+        assert text[0] == "deck,table,order"
+        assert text[1].startswith('0,"T ""7"", east",')
+        assert (read_log(path).read_all().decks == decks).all()

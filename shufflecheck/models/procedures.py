@@ -24,6 +24,7 @@ procedure ``r`` times is ``apply(decks, rng, repeats=r)``.
 from __future__ import annotations
 
 import difflib
+import math
 import re
 import types
 import typing
@@ -45,6 +46,7 @@ __all__ = [
     "load_procedure",
     "parse_procedure",
     "procedure_from_argument",
+    "running_composition",
     "simulate_play",
 ]
 
@@ -415,7 +417,41 @@ def simulate_play(
     if reference == "first":
         out[1:] = relative
         return out
-    # deck_t[i] = deck_{t-1}[relative_t[i]]: a running composition, one deck at a time
-    for t in range(decks):
-        out[t + 1] = out[t][relative[t]]
+    # deck_t[i] = deck_{t-1}[relative_t[i]]: a running composition
+    out[1:] = running_composition(relative)
     return out
+
+
+def running_composition(relative: np.ndarray) -> np.ndarray:
+    """``C_t = relative_1 o ... o relative_t`` as arrays: ``C_t[i] = C_{t-1}[relative_t[i]]``.
+
+    Composition is associative, so the rows are cut into about ``sqrt(D)`` blocks: the
+    prefixes inside every block are built for all blocks at once (one vectorized gather per
+    position in a block), then each block's prefixes are moved onto the composition of
+    the blocks before it (one short sequential pass and one vectorized gather). Exact: the
+    same permutations as composing one deck at a time.
+    """
+    count, cards = relative.shape
+    if count == 0:
+        return relative.copy()
+    width = max(1, math.isqrt(count))
+    blocks = -(-count // width)
+    padded = np.empty((blocks * width, cards), dtype=relative.dtype)
+    padded[:count] = relative
+    padded[count:] = np.arange(cards, dtype=relative.dtype)  # identity rows at the end
+    grid = padded.reshape(blocks, width, cards)
+    offsets = (np.arange(blocks, dtype=np.intp) * cards)[:, None]  # row starts, flattened
+    prefix = np.empty_like(grid)
+    prefix[:, 0] = grid[:, 0]
+    for j in range(1, width):
+        # prefix[b, j, i] = prefix[b, j - 1, grid[b, j, i]], as one flat gather
+        np.take(prefix[:, j - 1].ravel(), grid[:, j] + offsets, out=prefix[:, j])
+    start = np.empty((blocks, cards), dtype=relative.dtype)  # composition before each block
+    start[0] = np.arange(cards, dtype=relative.dtype)
+    for b in range(1, blocks):
+        start[b] = start[b - 1][prefix[b - 1, -1]]
+    composed = np.empty_like(prefix)
+    flat = start.ravel()
+    for j in range(width):  # composed[b, j, i] = start[b, prefix[b, j, i]]
+        np.take(flat, prefix[:, j] + offsets, out=composed[:, j])
+    return composed.reshape(blocks * width, cards)[:count]

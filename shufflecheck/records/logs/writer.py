@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import io
 import json
 import os
 import re
@@ -16,7 +17,6 @@ import pandas as pd
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open
 from shufflecheck.records.cards import DeckDefinition, load_deck
-from shufflecheck.records.logs._tokens import permutation_rows
 
 # --------------------------------------------------------------------------------------
 # writing
@@ -29,13 +29,22 @@ def _checked_decks(decks: np.ndarray, deck: DeckDefinition) -> np.ndarray:
         raise InputError(
             f"decks must be an integer array of shape (decks, {n}), got {array.dtype} {array.shape}"
         )
-    inside = ((array >= 0) & (array < n)).all(axis=1)
-    ok = inside.copy()
-    ok[inside] = permutation_rows(array[inside] if not inside.all() else array, n)
+    ok = _arrangement_rows(array, n)
     if not ok.all():
         k = int(np.argmin(ok))
         raise InputError(f"deck {k} (0-based) is not an arrangement of deck {deck.name!r}")
     return array
+
+
+def _arrangement_rows(array: np.ndarray, n: int) -> np.ndarray:
+    """Rows holding every label 0..n-1 exactly once: a row's sorted labels are 0..n-1
+    (sorted in blocks of rows, so the copy stays small)."""
+    ok = np.empty(array.shape[0], dtype=bool)
+    labels = np.arange(n, dtype=array.dtype)
+    step = max(1, (1 << 22) // max(n, 1))  # about 4M cells at a time
+    for lo in range(0, array.shape[0], step):
+        ok[lo : lo + step] = (np.sort(array[lo : lo + step], axis=1) == labels).all(axis=1)
+    return ok
 
 
 def _columns_frame(columns: Any, rows: int) -> pd.DataFrame:
@@ -125,16 +134,47 @@ def write_log(
     if suffix not in (".csv", ".tsv"):
         raise InputError(f"cannot write a log as {target.name}: use .csv, .tsv or .jsonl")
     delimiter = "\t" if suffix == ".tsv" else ","
-    with atomic_open(target, "w") as handle:
-        writer = csv.writer(handle, delimiter=delimiter, lineterminator="\n")
-        writer.writerow([*map(str, frame.columns), "order"])
+    header = io.StringIO()
+    csv.writer(header, delimiter=delimiter, lineterminator="\n").writerow(
+        [*map(str, frame.columns), "order"]
+    )
+    separator = delimiter.encode()
+    with atomic_open(target, "wb") as handle:
+        handle.write(header.getvalue().encode("utf-8"))
         for start in range(0, array.shape[0], block):
-            lines = np.array(_order_texts(array[start : start + block], words), dtype=object)
-            for name in reversed(frame.columns):
-                cells = _csv_cells(frame[name].iloc[start : start + block], delimiter)
-                lines = cells + delimiter + lines
-            handle.write("\n".join(lines.tolist()) + "\n")
+            orders = _order_lines(array[start : start + block], words)
+            columns_here = [
+                _csv_cell_bytes(frame[name].iloc[start : start + block], delimiter)
+                for name in frame.columns
+            ]
+            # one flat list of pieces, joined once: cell, separator, ..., order line
+            pieces: list[bytes] = [separator] * (len(orders) * (2 * len(columns_here) + 1))
+            stride = 2 * len(columns_here) + 1
+            for k, cells in enumerate(columns_here):
+                pieces[2 * k :: stride] = cells
+            pieces[stride - 1 :: stride] = orders
+            handle.write(b"".join(pieces))
     return target
+
+
+def _order_lines(decks: np.ndarray, words: list[str]) -> list[bytes]:
+    """Each deck as UTF-8 words separated by single spaces, ending in a newline."""
+    encoded = [w.encode("utf-8") for w in words]
+    width = len(encoded[0])
+    n = decks.shape[1]
+    if all(len(e) == width for e in encoded):
+        cells = np.array([e + b" " for e in encoded], dtype=f"S{width + 1}")
+        block = np.ascontiguousarray(cells[decks]).view(np.uint8).reshape(decks.shape[0], -1)
+        block[:, -1] = ord("\n")
+        return block.view(f"S{n * (width + 1)}").ravel().tolist()
+    return [(text + "\n").encode("utf-8") for text in _order_texts(decks, words)]
+
+
+def _csv_cell_bytes(values: pd.Series, delimiter: str) -> list[bytes]:
+    """One column as UTF-8 CSV cells (integers without gaps formatted in one numpy pass)."""
+    if isinstance(values.dtype, np.dtype) and values.dtype.kind in "iu":
+        return values.to_numpy().astype("S21").tolist()
+    return [cell.encode("utf-8") for cell in _csv_cells(values, delimiter).tolist()]
 
 
 def _csv_cells(values: pd.Series, delimiter: str) -> np.ndarray:
