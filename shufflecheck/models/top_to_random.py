@@ -105,21 +105,52 @@ def _numerators(row: tuple[int, ...], cards: int) -> list[int]:
     return [suffix[cards - length] for length in range(1, cards + 1)]
 
 
+#: exact big-integer work allowed for one curve (``exact_work`` units; 2e9 is about 80 s
+#: on one core: 52 cards x 20,000 steps fits, 2,000 cards up to about 2,300 steps)
+MAX_EXACT_WORK = 2 * 10**9
+
+
+def exact_work(cards: int, steps: int) -> int:
+    """Work of the exact curve: each step updates ``cards`` Stirling numbers of about
+    ``k log2(cards)`` bits and sums them per group, so ``~cards * steps^2 * log2(cards) /
+    60`` 30-bit digit operations over ``k = 1..steps``."""
+    return int(cards * steps * steps * math.log2(cards) / 60) + cards * steps
+
+
+def check_work(cards: int, steps: int) -> None:
+    """Refuse, before any work, a curve whose exact integers would take too long."""
+    if exact_work(cards, steps) > MAX_EXACT_WORK:
+        # the largest step count within the budget at this deck size
+        most = int(math.sqrt(MAX_EXACT_WORK * 60 / (cards * math.log2(cards))))
+        raise InputError(
+            f"the exact top-to-random law after k steps needs integers of about "
+            f"k log2(n) bits for each of the n cards; {cards} cards x {steps} steps is beyond "
+            f"the exact range (at {cards} cards up to about {most} steps); use fewer "
+            "steps (--max-steps) or Monte Carlo assessment (shufflecheck assess)"
+        )
+
+
 def distance_curve(cards: int, max_steps: int, *, inverse: bool = False) -> MixingCurve:
     """Exact distances for ``k = 1..max_steps`` and the strong-uniform-time bound.
 
-    ``inverse=True`` names the curve random-to-top; the values are identical.
+    ``inverse=True`` names the curve random-to-top; the values are identical. The Stirling
+    numbers ``S(k, d)`` are kept for one ``k`` at a time, so memory stays ``O(cards)``
+    integers however many steps are asked for.
     """
     _check(cards, max_steps)
-    columns = stirling2_columns(max_steps, cards)
+    check_work(cards, max_steps)
     counts = _run_counts(cards)
     fact = math.factorial(cards)
     rows, bounds = [], []
+    stirling = [1] + [0] * cards  # S(0, d)
+    den = 1
     for k in range(1, max_steps + 1):
-        den = cards**k
-        tv, sep, kl = distances_from_groups(counts, _numerators(columns[k], cards), den, fact)
+        # S(k, d) = d S(k-1, d) + S(k-1, d-1)
+        stirling = [0] + [d * stirling[d] + stirling[d - 1] for d in range(1, cards + 1)]
+        den *= cards
+        tv, sep, kl = distances_from_groups(counts, _numerators(stirling, cards), den, fact)
         rows.append(DistanceRow(k, tv, sep, kl, "exact"))
-        tail = float(Fraction(den - fact * columns[k][cards], den))
+        tail = float(Fraction(den - fact * stirling[cards], den))
         bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
     name = "random-to-top" if inverse else "top-to-random"
     return MixingCurve(

@@ -1,0 +1,353 @@
+"""Issue 15, "performance to the floor": every goal measured against its floor or anchor in
+the same run, as CPU time (the machine is shared), three repeats each. Nothing here is
+asserted against a time; the figures are printed at the end of the run."""
+
+from __future__ import annotations
+
+import math
+import statistics
+import time
+from functools import cache
+
+import numpy as np
+import pytest
+
+REPEATS = 3
+
+
+def _cpu(function, *args, **kwargs) -> float:
+    start = time.process_time()
+    function(*args, **kwargs)
+    return time.process_time() - start
+
+
+def _record_ratio(figures, what, measured, anchor, target):
+    figures(
+        f"{what}: {measured:.3f} s vs anchor {anchor:.3f} s, ratio", measured / anchor, target, "x"
+    )
+
+
+# ---------------------------------------------------------------------------------------
+# mix transposition --cards 52 --max-steps 250
+
+
+def _anchor_chain(steps: int) -> None:
+    # floor: one cold chain build and `steps` plain single-thread CSR products
+    from threadpoolctl import threadpool_limits
+
+    from shufflecheck.models import transposition
+
+    transposition.lumped_chain.cache_clear()
+    chain = transposition.lumped_chain(52)
+    law = np.zeros(chain.matrix.shape[0])
+    law[chain.identity] = 1.0
+    with threadpool_limits(1, user_api="blas"):
+        for _ in range(steps):
+            law = chain.matrix @ law
+
+
+def _library_chain(steps: int) -> None:
+    from shufflecheck.core import partitions
+    from shufflecheck.models import transposition
+
+    transposition.lumped_chain.cache_clear()
+    transposition._bound_terms.cache_clear()
+    partitions._multiplicity_matrix.cache_clear()
+    transposition.distance_curve(52, steps)  # what `mix transposition` computes
+
+
+def test_transposition_chain_vs_floor(benchmark, figures):
+    def run():
+        return [(_cpu(_library_chain, 250), _cpu(_anchor_chain, 250)) for _ in range(REPEATS)]
+
+    pairs = benchmark.pedantic(run, rounds=1, iterations=1)
+    for measured, anchor in pairs:
+        _record_ratio(
+            figures, "transposition 52 cards k=1..250 (exact + bound)", measured, anchor, 1.3
+        )
+
+
+# ---------------------------------------------------------------------------------------
+# spectrum transposition --cards 52
+
+
+def test_transposition_spectrum(benchmark, figures):
+    from shufflecheck.core import partitions
+    from shufflecheck.models import transposition
+
+    def cold():
+        partitions.partitions.cache_clear()
+        partitions._multiplicity_matrix.cache_clear()
+        return transposition.spectrum(52)
+
+    def run():
+        return [_cpu(cold) for _ in range(REPEATS)]
+
+    for seconds in benchmark.pedantic(run, rounds=1, iterations=1):
+        figures("spectrum transposition, 52 cards, all 281,589 shapes, cold", seconds, 2.0)
+
+
+# ---------------------------------------------------------------------------------------
+# mix riffle --cards 1000 / 2000
+
+
+def _crossing_point_anchor(n: int, steps: int) -> None:
+    # TV and separation only, plain Eulerian recurrence, one crossing point per step
+    row = [1]
+    for m in range(2, n + 1):
+        prev, row = row, [0] * m
+        for d in range(m):
+            row[d] = ((d + 1) * prev[d] if d < m - 1 else 0) + ((m - d) * prev[d - 1] if d else 0)
+    fact = math.factorial(n)
+    for k in range(1, steps + 1):
+        a = 2**k
+        den = a**n
+        x = y = 0
+        value = math.comb(a + n - 1, n)
+        for r in range(1, n + 1):
+            if value * fact <= den:
+                break
+            x += row[r - 1] * value
+            y += row[r - 1]
+            value = value * (a - r) // (a + n - r) if a - r > 0 else 0
+        _ = (x * fact - y * den) / (den * fact), (den - math.comb(a, n) * fact) / den
+
+
+def _library_riffle(n: int) -> None:
+    from shufflecheck.core import counting
+    from shufflecheck.models import default_max_steps, riffle
+
+    counting.eulerian_row.cache_clear()
+    riffle.distance_curve(n, default_max_steps("riffle", n))
+
+
+@pytest.mark.parametrize(("n", "target"), [(1000, 1.5), (2000, 10.0)])
+def test_riffle_large_decks(benchmark, figures, n, target):
+    from shufflecheck.models import default_max_steps
+
+    steps = default_max_steps("riffle", n)
+
+    def run():
+        return [
+            (_cpu(_library_riffle, n), _cpu(_crossing_point_anchor, n, steps))
+            for _ in range(REPEATS)
+        ]
+
+    for measured, anchor in benchmark.pedantic(run, rounds=1, iterations=1):
+        figures(
+            f"mix riffle --cards {n} (k = 1..{steps}, TV + separation + KL), cold", measured, target
+        )
+        figures(
+            f"  ... against the crossing-point TV/separation anchor ({anchor:.2f} s), ratio",
+            measured / anchor,
+            1.2,
+            "x",
+        )
+
+
+# ---------------------------------------------------------------------------------------
+# one character value, n = 200
+
+
+def naive_character(shape, cycle_type) -> int:
+    """The anchor: a plain memoised Murnaghan-Nakayama rule on beta-sets, largest part first."""
+    parts = tuple(sorted(cycle_type, reverse=True))
+    start = frozenset(p + len(shape) - 1 - i for i, p in enumerate(shape))
+
+    @cache
+    def chi(beads, k):
+        if k == len(parts):
+            return 1
+        r, total = parts[k], 0
+        for b in beads:
+            if b >= r and b - r not in beads:
+                sign = -1 if sum(1 for c in beads if b - r < c < b) % 2 else 1
+                total += sign * chi((beads - {b}) | {b - r}, k + 1)
+        return total
+
+    return chi(start, 0)
+
+
+STAIRCASE = (29, *range(18, 0, -1))  # 200 cells
+CASES_200 = [
+    (STAIRCASE, (10,) * 20),
+    (STAIRCASE, (50, 40, 30, 20, 20, 10, 10, 10, 5, 5)),
+    (STAIRCASE, (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((20,) * 10, (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((100, 50, 30, 20), (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((50, 40, 30, 25, 20, 15, 10, 5, 3, 2), (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((47, 45, 33, 33, 28, 10, 4), (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((40,) + (1,) * 160, (7,) * 20 + (5,) * 10 + (4, 4, 2)),
+    ((101,) + (1,) * 99, (199, 1)),
+    ((20,) * 10, (*range(19, 0, -1), 10)),
+    ((100, 50, 30, 20), (4,) * 30 + (3,) * 20 + (10, 10)),
+    ((50, 40, 30, 25, 20, 15, 10, 5, 3, 2), (50, 40, 30, 20, 20, 10, 10, 10, 5, 5)),
+    ((39, 33, 29, 25, 22, 12, 9, 9, 7, 5, 3, 3, 2, 1, 1), (*range(19, 0, -1), 10)),
+]
+
+
+def _best_cpu(function, *args, budget: float = 0.2) -> float:
+    """Mean CPU time per call, repeating short calls until about ``budget`` seconds."""
+    calls, start = 0, time.process_time()
+    while True:
+        function(*args)
+        calls += 1
+        spent = time.process_time() - start
+        if spent >= budget or calls >= 1000:
+            return spent / calls
+
+
+def test_single_values_n200(benchmark, figures):
+    from shufflecheck.core import characters
+
+    def run():
+        out = []
+        for _ in range(REPEATS):
+            ratios = []
+            for lam, mu in CASES_200:
+                assert sum(lam) == sum(mu) == 200
+                assert characters.character(lam, mu) == naive_character(lam, mu)
+                ratios.append(
+                    _best_cpu(characters.character, lam, mu) / _best_cpu(naive_character, lam, mu)
+                )
+            out.append(ratios)
+        return out
+
+    for ratios in benchmark.pedantic(run, rounds=1, iterations=1):
+        figures(
+            "one value at n = 200: worst library/naive ratio over 13 cases", max(ratios), 1.0, "x"
+        )
+        figures(
+            "one value at n = 200: median library/naive ratio",
+            statistics.median(ratios),
+            1 / 3,
+            "x",
+        )
+
+
+# ---------------------------------------------------------------------------------------
+# whole table S_30, against the previous implementation kept here
+
+
+def _table_before(n: int) -> np.ndarray:
+    """The previous table builder: rim hooks found by a Python double loop per shape."""
+    from scipy import sparse
+
+    from shufflecheck.core.partitions import partitions
+
+    def beta_mask(shape):
+        mask = 0
+        for i, part in enumerate(shape):
+            mask |= 1 << (part + len(shape) - 1 - i)
+        return mask
+
+    def normalise(mask):
+        return mask >> ((mask ^ (mask + 1)).bit_length() - 1)
+
+    def beads(mask):
+        out = []
+        while mask:
+            low = mask & -mask
+            out.append(low.bit_length() - 1)
+            mask ^= low
+        return out
+
+    shapes = partitions(n)
+    needed = [set() for _ in range(n + 1)]
+    needed[n] = set(shapes)
+    for m in range(n, 0, -1):
+        for mu in needed[m]:
+            needed[m - mu[0]].add(mu[1:])
+    index, columns, blocks = [], [], []
+    for m in range(n + 1):
+        parts_m = partitions(m)
+        masks = [beta_mask(shape) for shape in parts_m]
+        index.append({mask: i for i, mask in enumerate(masks)})
+        wanted = [mu for mu in parts_m if mu in needed[m]]
+        columns.append({mu: j for j, mu in enumerate(wanted)})
+        if m == 0:
+            blocks.append(np.ones((1, 1), dtype=np.int64))
+            continue
+        if not wanted:
+            blocks.append(None)
+            continue
+        entries = {r: ([], [], []) for r in {mu[0] for mu in wanted}}
+        for row, mask in enumerate(masks):
+            bs = beads(mask)
+            holes = [h for h in range(bs[-1]) if not (mask >> h) & 1]
+            for bead_idx, b in enumerate(bs):
+                for hole_idx, h in enumerate(holes):
+                    if h > b:
+                        break
+                    r = b - h
+                    if r not in entries:
+                        continue
+                    between = bead_idx - (h - hole_idx)
+                    rows, cols, vals = entries[r]
+                    rows.append(row)
+                    cols.append(index[m - r][normalise(mask ^ (1 << b) ^ (1 << h))])
+                    vals.append(-1 if between % 2 else 1)
+        block = np.zeros((len(parts_m), len(wanted)), dtype=np.int64)
+        for r, (rows, cols, vals) in entries.items():
+            positions = [j for j, mu in enumerate(wanted) if mu[0] == r]
+            tail_cols = [columns[m - r][wanted[j][1:]] for j in positions]
+            source = blocks[m - r][:, tail_cols]
+            matrix = sparse.csr_matrix(
+                (np.asarray(vals, dtype=np.int64), (rows, cols)),
+                shape=(len(parts_m), len(index[m - r])),
+            )
+            block[:, positions] = np.asarray(matrix @ source)
+        blocks.append(block)
+    return blocks[n]
+
+
+def test_table_s30_vs_previous(benchmark, figures):
+    from shufflecheck.core import characters, partitions
+
+    def cold():
+        partitions.partitions.cache_clear()
+        return characters.character_table(30)
+
+    def before():
+        partitions.partitions.cache_clear()
+        return _table_before(30)
+
+    assert (cold().values == before()).all()
+
+    def run():
+        return [(_cpu(cold), _cpu(before)) for _ in range(REPEATS)]
+
+    for measured, anchor in benchmark.pedantic(run, rounds=1, iterations=1):
+        _record_ratio(
+            figures, "character table of S_30 vs the previous builder", measured, anchor, 0.5
+        )
+
+
+# ---------------------------------------------------------------------------------------
+# simulate "riffle x7" --decks 1000000
+
+
+def test_simulate_million_vs_sampler(benchmark, figures, tmp_path):
+    from shufflecheck.models import riffle
+    from shufflecheck.models.procedures import parse_procedure, simulate_play
+    from shufflecheck.records.cards import load_deck
+    from shufflecheck.records.logs import write_log
+
+    procedure = parse_procedure("riffle x7")
+    decks = 1_000_000
+
+    def whole():
+        orders = simulate_play(procedure, 52, decks, rng=1)
+        write_log(tmp_path / "sim.csv", orders, load_deck(), {"deck": list(range(decks + 1))})
+
+    def run():
+        return [(_cpu(whole), _cpu(riffle.sample, decks, 52, 7, rng=1)) for _ in range(REPEATS)]
+
+    for measured, anchor in benchmark.pedantic(run, rounds=1, iterations=1):
+        _record_ratio(
+            figures,
+            "simulate riffle x7, 1,000,000 decks to CSV vs the sampler",
+            measured,
+            anchor,
+            3.0,
+        )
