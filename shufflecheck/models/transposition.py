@@ -583,7 +583,7 @@ register_model(
         spectrum_options=("hold",),
         default_steps=lambda cards: math.ceil(cards * math.log(cards)),
         exact=f"lumped chain on cycle types: n <= {MAX_CHAIN_CARDS}, k <= {MAX_CHAIN_STEPS:,}; "
-        f"upper bound lemma and spectrum: n <= {MAX_BOUND_CARDS}",
+        f"upper bound lemma: n <= {MAX_BOUND_CARDS}",
     )
 )
 
