@@ -355,7 +355,8 @@ def character_table(n: int, *, max_bytes: int = DEFAULT_TABLE_MEMORY) -> Charact
         raise InputError(
             f"the character table of S_{n} has {p} x {p} entries, about "
             f"{estimate / 1e9:.1f} GB as {dtype}, over the limit of {max_bytes / 1e9:.1f} GB; "
-            "ask for single values with --shape and --class instead"
+            "ask for single values with {shape} and {class} instead",
+            argument=("shape", "class"),
         )
     return _build_table(n, object_values=(dtype == "object"))
 

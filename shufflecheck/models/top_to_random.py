@@ -126,7 +126,8 @@ def check_work(cards: int, steps: int) -> None:
             f"the exact top-to-random law after k steps needs integers of about "
             f"k log2(n) bits for each of the n cards; {cards} cards x {steps} steps is beyond "
             f"the exact range (at {cards} cards up to about {most} steps); use fewer "
-            "steps (--max-steps) or Monte Carlo assessment (shufflecheck assess)"
+            "steps ({max_steps}) or Monte Carlo assessment (shufflecheck assess)",
+            argument="max_steps",
         )
 
 

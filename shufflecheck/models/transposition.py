@@ -194,8 +194,9 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     if not 2 <= cards <= MAX_CHAIN_CARDS:
         raise InputError(
             f"the lumped chain is offered for 2..{MAX_CHAIN_CARDS} cards (p(n) states); for "
-            f"{cards} cards use --method bound (the upper bound lemma, up to "
-            f"{MAX_BOUND_CARDS} cards) or Monte Carlo assessment (shufflecheck assess)"
+            f"{cards} cards use {{method}} bound (the upper bound lemma, up to "
+            f"{MAX_BOUND_CARDS} cards) or Monte Carlo assessment (shufflecheck assess)",
+            argument="method",
         )
     return _build_chain(cards, float(check_hold(cards, hold)))
 
@@ -472,12 +473,13 @@ def distance_curve(
     alone (total variation only), for decks too large for the exact methods."""
     h = check_hold(cards, hold)
     if max_steps < 1:
-        raise InputError(f"max steps must be >= 1, got {max_steps}")
+        raise InputError(f"max_steps must be at least 1, got {max_steps}", argument="max_steps")
     if method == "chain":
         if max_steps > MAX_CHAIN_STEPS:
             raise InputError(
                 f"the lumped chain is offered up to {MAX_CHAIN_STEPS} steps; for more, the upper "
-                "bound lemma serves (--method bound)"
+                "bound lemma serves ({method} bound)",
+                argument="method",
             )
         rows = _chain_rows(cards, max_steps, hold, progress)
         source = SOURCE
