@@ -23,7 +23,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
 from shufflecheck.records.logs import LogSummary, Reference, read_log
 
-__all__ = ["LogAudit", "audit_log"]
+__all__ = ["LogAudit", "audit_log", "log_deck"]
 
 
 @dataclass(frozen=True)
@@ -80,6 +80,37 @@ class LogAudit:
         return out
 
 
+def log_deck(
+    path: str | os.PathLike[str],
+    *,
+    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    cards: int | None = None,
+    labels: str = "codes",
+) -> tuple[DeckDefinition, str]:
+    """The deck a log's rows are arrangements of, and the label mode to read them with.
+
+    Without a deck definition, a size other than 52 means a deck of that many cards known
+    by integer labels; with one, its size must equal ``cards`` when both are given. The
+    label mode ``cards`` is the same as ``codes``.
+    """
+    if deck is None and cards is not None and cards != 52:
+        if not labels.startswith("int"):
+            raise InputError(
+                f"{path}: a {cards}-card deck needs a deck definition ({{deck}} FILE) for card "
+                "codes, or integer labels ({labels} int)",
+                argument=("deck", "labels"),
+            )
+        definition = integer_deck(cards)
+    else:
+        definition = load_deck(deck)
+    if cards is not None and definition.size != cards:
+        raise InputError(
+            f"{path}: the deck definition {definition.name!r} has {definition.size} cards, "
+            f"but {cards} were expected"
+        )
+    return definition, ("codes" if labels == "cards" else labels)
+
+
 def audit_log(
     path: str | os.PathLike[str],
     *,
@@ -131,23 +162,7 @@ def audit_log(
     progress : callable, optional
         Called with the number of rows read so far.
     """
-    if deck is None and cards is not None and cards != 52:
-        if not labels.startswith("int"):
-            raise InputError(
-                f"{path}: a {cards}-card deck needs a deck definition ({{deck}} FILE) for card "
-                "codes, or integer labels ({labels} int)",
-                argument=("deck", "labels"),
-            )
-        definition = integer_deck(cards)
-    else:
-        definition = load_deck(deck)
-    if cards is not None and definition.size != cards:
-        raise InputError(
-            f"{path}: the deck definition {definition.name!r} has {definition.size} cards, "
-            f"but {cards} were expected"
-        )
-    if labels == "cards":
-        labels = "codes"
+    definition, labels = log_deck(path, deck=deck, cards=cards, labels=labels)
     reader = read_log(
         path,
         deck=definition,

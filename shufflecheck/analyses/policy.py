@@ -18,6 +18,11 @@ numbers, and the procedures in use, optionally with recorded logs per table::
     steps = "riffle x3, strip(packets=5), riffle, cut"
     house = 2                       # repetitions the house performs now (optional)
 
+    [[procedure]]
+    name = "Dealer 14's riffles"
+    file = "procedures/dealer14.toml"   # instead of steps: a procedure file (relative to
+                                        # the policy file), e.g. one fit-riffle wrote
+
     [[procedure.log]]               # optional, any number
     table = "Table 3"
     path = "logs/table3.csv"        # relative to the policy file
@@ -47,7 +52,7 @@ from typing import Any
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.tomlfiles import TomlFile, load_toml
 from shufflecheck.core.distances import METRIC_NAMES, check_target
-from shufflecheck.models.procedures import Procedure, deck_size, parse_procedure
+from shufflecheck.models.procedures import Procedure, deck_size, load_procedure, parse_procedure
 
 __all__ = [
     "LogSpec",
@@ -71,7 +76,17 @@ _POLICY_KEYS = {
     "max_repeats": int,
     "alpha": float,
 }
-_PROCEDURE_KEYS = {"name", "cards", "decks", "steps", "house", "log", "description", "max_repeats"}
+_PROCEDURE_KEYS = {
+    "name",
+    "cards",
+    "decks",
+    "steps",
+    "file",
+    "house",
+    "log",
+    "description",
+    "max_repeats",
+}
 _LOG_KEYS = {"table", "path", "reference", "labels", "format", "deck", "by", "time"}
 
 
@@ -98,6 +113,7 @@ class PolicyProcedure:
     house: int | None
     max_repeats: int
     logs: tuple[LogSpec, ...] = ()
+    source: Path | None = None  # the procedure file named by ``file``, if any
 
 
 @dataclass(frozen=True)
@@ -117,6 +133,8 @@ class Policy:
         """Every file the policy reads (for fingerprints in reports)."""
         files = [self.path]
         for proc in self.procedures:
+            if proc.source is not None:
+                files.append(proc.source)
             for log in proc.logs:
                 files.append(log.path)
                 if log.deck is not None:
@@ -209,26 +227,23 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
         if key not in _PROCEDURE_KEYS:
             allowed = ", ".join(sorted(_PROCEDURE_KEYS))
             raise doc.error(f"unknown key (allowed: {allowed})", key, table, index)
-    name = entry.get("name", f"procedure {index + 1}")
-    _typed(doc, name, str, "name", table, index)
-    steps = entry.get("steps")
-    if steps is None:
-        raise doc.error(
-            'missing: give steps = "riffle x3, strip, riffle, cut"', "steps", table, index
-        )
-    if isinstance(steps, list) and all(isinstance(s, str) for s in steps):
-        steps = ", ".join(steps)
-    if not isinstance(steps, str):
-        raise doc.error("must be a string or a list of strings", "steps", table, index)
-    try:
-        procedure = parse_procedure(steps, name=name)
-    except InputError as exc:
-        raise doc.error(str(exc), "steps", table, index) from None
-    cards = deck_size(doc, entry, table, index) or 52
+    source = None
+    if "file" in entry:
+        procedure, source = _procedure_file(doc, entry, index)
+        name = entry.get("name", procedure.name or f"procedure {index + 1}")
+        _typed(doc, name, str, "name", table, index)
+        procedure = dataclasses.replace(procedure, name=name)
+        step_key = "file"
+    else:
+        name = entry.get("name", f"procedure {index + 1}")
+        _typed(doc, name, str, "name", table, index)
+        procedure = _procedure_steps(doc, entry, index, name)
+        step_key = "steps"
+    cards = deck_size(doc, entry, table, index) or procedure.cards or 52
     try:
         procedure.check_cards(cards)
     except InputError as exc:
-        raise doc.error(str(exc), "steps", table, index) from None
+        raise doc.error(str(exc), step_key, table, index) from None
     house = entry.get("house")
     if house is not None:
         _typed(doc, house, int, "house", table, index)
@@ -244,7 +259,49 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
     if not isinstance(logs_raw, list):
         raise doc.error("must be an array of tables: write [[procedure.log]]", "log", table, index)
     logs = tuple(_log(doc, log, index, j) for j, log in enumerate(logs_raw))
-    return PolicyProcedure(name, procedure, cards, house, max_repeats, logs)
+    return PolicyProcedure(name, procedure, cards, house, max_repeats, logs, source)
+
+
+def _procedure_steps(doc: TomlFile, entry: dict, index: int, name: str) -> Procedure:
+    """The procedure written out in ``steps``."""
+    table = "procedure"
+    steps = entry.get("steps")
+    if steps is None:
+        raise doc.error(
+            'missing: give steps = "riffle x3, strip, riffle, cut" (or file = "p.toml")',
+            "steps",
+            table,
+            index,
+        )
+    if isinstance(steps, list) and all(isinstance(s, str) for s in steps):
+        steps = ", ".join(steps)
+    if not isinstance(steps, str):
+        raise doc.error("must be a string or a list of strings", "steps", table, index)
+    try:
+        return parse_procedure(steps, name=name)
+    except InputError as exc:
+        raise doc.error(str(exc), "steps", table, index) from None
+
+
+def _procedure_file(doc: TomlFile, entry: dict, index: int) -> tuple[Procedure, Path]:
+    """The procedure of a procedure file named by ``file`` (e.g. one written by
+    ``shufflecheck fit-riffle``), relative to the policy file's folder."""
+    table = "procedure"
+    if "steps" in entry:
+        raise doc.error("give steps or file, not both", "file", table, index)
+    _typed(doc, entry["file"], str, "file", table, index)
+    path = _resolve(doc.path.parent, entry["file"])
+    if not path.is_file():
+        raise doc.error(
+            f"procedure file {entry['file']!r} not found (looked in {doc.path.parent})",
+            "file",
+            table,
+            index,
+        )
+    try:
+        return load_procedure(path), path
+    except InputError as exc:
+        raise doc.error(str(exc), "file", table, index) from None
 
 
 def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:

@@ -64,6 +64,7 @@ __all__ = [
     "fixed_points_law",
     "guessing_law",
     "inversions_law",
+    "mixed_sum_tail_logs",
     "repeat_positions_law",
     "rising_law",
     "runs_law",
@@ -573,3 +574,104 @@ def sum_distribution(pmf: np.ndarray, decks: int, *, offset: int = 0) -> SumDist
     stop = min(decks * k_max, math.ceil(decks * mean + half))
     pmf_sum = _windowed_convolution(q, decks, start, stop)
     return SumDistribution(decks, decks * offset + start, pmf_sum)
+
+
+def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float, float]:
+    """Natural logs of ``P(S <= total)`` and ``P(S >= total)`` for a sum of independent
+    draws from several laws: ``parts = [(law_j, m_j), ...]`` draws ``m_j`` times from
+    ``law_j`` (the exact convolution of all of them).
+
+    The method of :func:`sum_tail_logs` with one tilt ``theta`` shared by every law
+    (eq. (2.1) of [4]: the tilted sum is the sum of the tilted draws), the tilted laws'
+    transforms multiplied on one FFT window (Bernstein's inequality, [5], with the summed
+    variance and the largest spread of one draw). With one part it is
+    :func:`sum_tail_logs`.
+    """
+    kept = [(law, _check_decks(m)) for law, m in parts if m]
+    if not kept:
+        raise InputError("a sum needs at least one draw")
+    total = int(total)
+    if len(kept) == 1:
+        return sum_tail_logs(kept[0][0], kept[0][1], total)
+    low = sum(m * law.low for law, m in kept)
+    t = total - low
+    t_max = sum(m * (len(law.counts) - 1) for law, m in kept)
+    if t < 0:
+        return -math.inf, 0.0
+    if t > t_max:
+        return 0.0, -math.inf
+    if t_max == 0:
+        return 0.0, 0.0
+    if t == 0:
+        return sum(m * float(law.log_pmf[0]) for law, m in kept), 0.0
+    if t == t_max:
+        return 0.0, sum(m * float(law.log_pmf[-1]) for law, m in kept)
+    grids = [np.arange(len(law.counts), dtype=float) for law, _ in kept]
+
+    def tilted_all(theta: float):
+        return [_tilted(law.log_pmf, ks, theta) for (law, _), ks in zip(kept, grids, strict=True)]
+
+    def gap(theta: float) -> float:
+        return (
+            sum(
+                m * float(r @ ks)
+                for (_, m), ks, (r, _) in zip(kept, grids, tilted_all(theta), strict=True)
+            )
+            - t
+        )
+
+    lo, hi = -1.0, 1.0
+    while gap(lo) > 0 and lo > -1e7:
+        lo *= 2.0
+    while gap(hi) < 0 and hi < 1e7:
+        hi *= 2.0
+    if gap(lo) > 0:
+        theta = lo
+    elif gap(hi) < 0:
+        theta = hi
+    else:
+        theta = brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
+    tilted = tilted_all(theta)
+    mean = var = 0.0
+    spread = 0.0
+    log_m = 0.0
+    for (_, m), ks, (r, lm) in zip(kept, grids, tilted, strict=True):
+        mu = float(r @ ks)
+        mean += m * mu
+        var += m * max(float(r @ (ks - mu) ** 2), 0.0)
+        spread = max(spread, ks[-1] - mu, mu)
+        log_m += m * lm
+    decks = sum(m for _, m in kept)
+    half = _bernstein_half_width(decks, var / decks, spread)
+    start = max(0, math.floor(mean - half))
+    stop = min(t_max, math.ceil(mean + half))
+    start, stop = min(start, t), max(stop, t)
+    width = stop - start + 1
+    size = sp_fft.next_fast_len(max(width, max(len(g) for g in grids)), real=True)
+    if size > _MAX_WINDOW:
+        raise InputError(f"the sum spans {width} values, too wide for the exact method")
+    log_mag = np.zeros(size // 2 + 1)
+    angle = np.zeros(size // 2 + 1)
+    for (_, m), (r, _) in zip(kept, tilted, strict=True):
+        phi = sp_fft.rfft(r, size)
+        with np.errstate(divide="ignore"):
+            log_mag += m * np.log(np.abs(phi))
+        angle += m * np.angle(phi)
+    with np.errstate(under="ignore"):
+        values = sp_fft.irfft(np.exp(log_mag) * np.exp(1j * angle), size)
+    window = values[np.arange(start, stop + 1) % size]
+    np.clip(window, 0.0, None, out=window)
+    offsets = np.arange(start, stop + 1) - t
+    base = log_m - theta * t
+    point = window[t - start]
+    log_point = base + math.log(point) if point > 0 else -math.inf
+    upper_side = theta >= 0
+    mask = offsets >= 0 if upper_side else offsets <= 0
+    tail_sum = float(window[mask] @ np.exp(-theta * offsets[mask]))
+    log_small = base + math.log(tail_sum) if tail_sum > 0 else -math.inf
+    strict = math.exp(log_small) - (math.exp(log_point) if log_point > -math.inf else 0.0)
+    log_large = math.log1p(-min(max(strict, 0.0), 1.0 - 1e-300))
+    log_small = min(log_small, 0.0)
+    if upper_side:
+        return log_large, log_small
+    return log_small, log_large

@@ -13,7 +13,16 @@ from shufflecheck.cli._app import app
 __all__ = ["app", "main"]
 
 #: command modules, in the order of the help listing
-COMMAND_MODULES = ("demo", "mix", "assess", "policy", "audit", "simulate", "characters")
+COMMAND_MODULES = (
+    "demo",
+    "mix",
+    "assess",
+    "policy",
+    "audit",
+    "fit_riffle",
+    "simulate",
+    "characters",
+)
 
 for _module in COMMAND_MODULES:
     importlib.import_module(f"shufflecheck.cli.{_module}")

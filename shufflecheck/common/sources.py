@@ -57,3 +57,20 @@ DIACONIS_FILL_PITMAN = (
     'P. Diaconis, J. A. Fill and J. Pitman, "Analysis of top to random shuffles", Combin. '
     "Probab. Comput. 1 (1992) 135-155."
 )
+WALD_WOLFOWITZ = (
+    'A. Wald and J. Wolfowitz, "On a test whether two samples are from the same population", '
+    "Ann. Math. Statist. 11 (1940) 147-162."
+)
+WILKS = (
+    'S. S. Wilks, "The large-sample distribution of the likelihood ratio for testing '
+    'composite hypotheses", Ann. Math. Statist. 9 (1938) 60-62.'
+)
+VENZON_MOOLGAVKAR = (
+    'D. J. Venzon and S. H. Moolgavkar, "A method for computing profile-likelihood-based '
+    'confidence intervals", J. Roy. Statist. Soc. Ser. C 37 (1988) 87-94.'
+)
+HOPE = (
+    'A. C. A. Hope, "A simplified Monte Carlo significance test procedure", J. Roy. Statist. '
+    "Soc. Ser. B 30 (1968) 582-598."
+)
+JENSEN = "J. L. Jensen, Saddlepoint Approximations, Oxford University Press, 1995."

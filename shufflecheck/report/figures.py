@@ -49,6 +49,7 @@ __all__ = [
     "SERIES_COLOURS",
     "SERIES_MARKERS",
     "distance_figure",
+    "expectation_figure",
     "heatmap_figure",
     "power_figure",
     "pvalue_figure",
@@ -1063,6 +1064,138 @@ def power_figure(
                     "side": s["side"],
                     "x": _as_list(s["x"]),
                     "decks": _as_list(s["y"]),
+                    "low": _as_list(s["low"]),
+                    "high": _as_list(s["high"]),
+                }
+                for s in series
+            ],
+        }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- observed vs models
+
+
+_EXPECTATION_KEYS = {"label", "kind", "values", "low", "high"}
+
+
+def _draw_expectations(
+    x: np.ndarray,
+    observed: np.ndarray,
+    models: list[dict[str, Any]],
+    *,
+    observed_label: str,
+    x_name: str,
+    y_name: str,
+) -> Any:
+    fig = _new_figure((7.2, 4.2))
+    ax = fig.add_subplot()
+    ax.bar(
+        x,
+        observed,
+        width=0.72,
+        color=OKABE_ITO["sky blue"],
+        edgecolor=_INK,
+        linewidth=0.7,
+        label=observed_label,
+        zorder=2,
+    )
+    for g, m in enumerate(models):
+        colour = (_INK, OKABE_ITO["vermillion"], OKABE_ITO["bluish green"])[g % 3]
+        marker = SERIES_MARKERS[g % len(SERIES_MARKERS)]
+        ax.plot(
+            x,
+            m["y"],
+            color=colour,
+            marker=marker,
+            markersize=4.5,
+            linestyle=KIND_LINESTYLES[m["kind"]],
+            linewidth=1.4,
+            label=f"{m['label']} ({m['kind']})",
+            zorder=4,
+        )
+        if m["kind"] == "estimate":
+            ax.fill_between(x, m["low"], m["high"], color=colour, alpha=0.2, linewidth=0, zorder=3)
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_xlim(float(x.min()) - 0.6, float(x.max()) + 0.6)
+    ax.set_ylim(bottom=0)
+    ax.set_xlabel(x_name)
+    ax.set_ylabel(y_name)
+    ax.grid(axis="x", visible=False)
+    ax.legend(loc="upper right")
+    return fig
+
+
+def expectation_figure(
+    x: Sequence[int],
+    observed: Sequence[float],
+    models: Sequence[Mapping[str, Any]],
+    *,
+    observed_label: str = "recorded",
+    x_name: str = "value",
+    y_name: str = "count",
+    level: float = 0.95,
+    name: str = "expectations",
+    caption: str | None = None,
+) -> Figure:
+    """Observed counts (bars) against what one or more models expect (lines with points).
+
+    Parameters
+    ----------
+    x : sequence of int
+        The values counted (e.g. packet lengths 1..L).
+    observed : sequence of float
+        Observed count (or frequency) at each value.
+    models : sequence of dict
+        One dict per model with keys ``label``, ``kind`` (``exact`` draws a solid line,
+        ``estimate`` a dotted line with its confidence band) and ``values``; an estimate also
+        needs ``low`` and ``high`` (its band).
+    observed_label, x_name, y_name, name, caption : str
+    level : float
+        Confidence level of the estimate bands (for the caption).
+
+    Returns
+    -------
+    Figure
+    """
+    level = _check_level(level)
+    xs = _numbers(x, "expectation figure: x")
+    obs = _numbers(observed, "expectation figure: observed")
+    if len(xs) == 0 or len(xs) != len(obs):
+        raise InputError("expectation figure: give one observed value per x (at least one)")
+    if np.any(obs < 0):
+        raise InputError("expectation figure: observed values must be >= 0")
+    if isinstance(models, Mapping):
+        raise InputError("expectation figure: models must be a list of dicts")
+    series = []
+    for k, spec in enumerate(models):
+        what = f"expectation figure, model {k + 1}"
+        _check_keys(spec, _EXPECTATION_KEYS, {"label", "kind", "values"}, what)
+        s = _series({**spec, "x": list(xs)}, x_key="x", y_key="values", what=what)
+        series.append(s)
+    with _style():
+        fig = _draw_expectations(
+            xs, obs, series, observed_label=observed_label, x_name=x_name, y_name=y_name
+        )
+        if caption is None:
+            caption = (
+                f"{y_name[:1].upper()}{y_name[1:]} by {x_name}: {observed_label} (bars) against "
+                "the models (solid line = exact, dotted line with a shaded band = estimate "
+                f"with its {_level_text(level)} confidence band)."
+            )
+        data = {
+            "kind": "expectations",
+            "x_name": x_name,
+            "y_name": y_name,
+            "x": _as_list(xs),
+            "observed": _as_list(obs),
+            "models": [
+                {
+                    "label": s["label"],
+                    "kind": s["kind"],
+                    "values": _as_list(s["y"]),
                     "low": _as_list(s["low"]),
                     "high": _as_list(s["high"]),
                 }
