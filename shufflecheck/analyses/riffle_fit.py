@@ -320,8 +320,9 @@ def _notes(
             "the fitted spread also takes in the offset (spread^2 is about the cuts' variance "
             "plus the offset squared)"
         )
-    floor = len(tests.tests) / (tests.samples + 1)
-    if floor > tests.alpha:
+    if not tests.samples:
+        notes.append("samples 0: only the exact tests were run")
+    elif len(tests.tests) / (tests.samples + 1) > tests.alpha:
         notes.append(
             f"with {tests.samples:,} simulated logs no Monte Carlo p-value can fall below "
             f"1/{tests.samples + 1:,}, so after Holm's adjustment those tests cannot reject at "

@@ -494,7 +494,8 @@ def ideal_riffle_tests(
     alpha : float
         Family-wise error level (Holm), default 0.01.
     samples : int
-        Simulated logs for the Monte Carlo nulls (default 999; at least 19).
+        Simulated logs for the Monte Carlo nulls (default 999; at least 19), or 0 to run
+        only the three exact tests (Holm then adjusts over those three).
     rng : Generator, int or None
         Randomness of the Monte Carlo nulls (an int seed makes them reproducible).
     progress : callable, optional
@@ -505,12 +506,44 @@ def ideal_riffle_tests(
     IdealRiffleTests
     """
     alpha = check_fraction(alpha, "alpha")
-    samples = check_integer(samples, "samples", low=19, why="the Monte Carlo nulls need them")
+    samples = check_integer(samples, "samples", low=0)
+    if 0 < samples < 19:
+        raise InputError(
+            f"samples must be 0 (exact tests only) or at least 19, got {samples}",
+            argument="samples",
+        )
     if not isinstance(counts, RiffleCounts) or counts.changed == 0:
         raise InputError("the tests need at least one riffle that changed the deck")
     seed = rng if isinstance(rng, int) and not isinstance(rng, bool) else None
-    generator = np.random.default_rng(rng)
     rows = [*_cut_tests(counts), _packet_test(counts)]
+    if samples:
+        rows += _monte_carlo_tests(counts, samples, np.random.default_rng(rng), progress)
+    adjusted = holm_log([r["log_p"] for r in rows])
+    tests = tuple(
+        NullTest(
+            name=r["name"],
+            title=TEST_TITLES[r["name"]],
+            statistic=r["statistic"],
+            log10_p_value=r["log_p"] / math.log(10),
+            log10_p_adjusted=float(adj) / math.log(10),
+            method=r["method"],
+            alternative=r["alternative"],
+            effect=r["effect"],
+            effect_text=r["effect_text"],
+            flagged=bool(adj <= math.log(alpha)),
+        )
+        for r, adj in zip(rows, adjusted, strict=True)
+    )
+    return IdealRiffleTests(tests, alpha, samples, seed)
+
+
+def _monte_carlo_tests(
+    counts: RiffleCounts,
+    samples: int,
+    generator: np.random.Generator,
+    progress: Callable[[int], None] | None,
+) -> list[dict]:
+    rows = []
     ratios, sizes = _simulate(counts.riffles, counts.cards, samples, generator, progress)
     observed_size = packet_size_statistic(counts)
     rows.append(
@@ -539,20 +572,4 @@ def ideal_riffle_tests(
             ),
         }
     )
-    adjusted = holm_log([r["log_p"] for r in rows])
-    tests = tuple(
-        NullTest(
-            name=r["name"],
-            title=TEST_TITLES[r["name"]],
-            statistic=r["statistic"],
-            log10_p_value=r["log_p"] / math.log(10),
-            log10_p_adjusted=float(adj) / math.log(10),
-            method=r["method"],
-            alternative=r["alternative"],
-            effect=r["effect"],
-            effect_text=r["effect_text"],
-            flagged=bool(adj <= math.log(alpha)),
-        )
-        for r, adj in zip(rows, adjusted, strict=True)
-    )
-    return IdealRiffleTests(tests, alpha, samples, seed)
+    return rows

@@ -606,19 +606,24 @@ def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float
         return sum(m * float(law.log_pmf[0]) for law, m in kept), 0.0
     if t == t_max:
         return 0.0, sum(m * float(law.log_pmf[-1]) for law, m in kept)
-    grids = [np.arange(len(law.counts), dtype=float) for law, _ in kept]
+    # the laws as rows of one matrix (log-probabilities, -inf beyond each law's end)
+    width_k = max(len(law.counts) for law, _ in kept)
+    log_q = np.full((len(kept), width_k), -np.inf)
+    for j, (law, _) in enumerate(kept):
+        log_q[j, : len(law.counts)] = law.log_pmf
+    draws = np.array([m for _, m in kept], dtype=float)
+    ks = np.arange(width_k, dtype=float)
 
-    def tilted_all(theta: float):
-        return [_tilted(law.log_pmf, ks, theta) for (law, _), ks in zip(kept, grids, strict=True)]
+    def tilted_all(theta: float) -> tuple[np.ndarray, np.ndarray]:
+        z = log_q + theta * ks
+        top = z.max(axis=1, keepdims=True)
+        w = np.exp(z - top)
+        total = w.sum(axis=1, keepdims=True)
+        return w / total, (top + np.log(total))[:, 0]
 
     def gap(theta: float) -> float:
-        return (
-            sum(
-                m * float(r @ ks)
-                for (_, m), ks, (r, _) in zip(kept, grids, tilted_all(theta), strict=True)
-            )
-            - t
-        )
+        r, _ = tilted_all(theta)
+        return float(draws @ (r @ ks)) - t
 
     lo, hi = -1.0, 1.0
     while gap(lo) > 0 and lo > -1e7:
@@ -631,32 +636,27 @@ def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float
         theta = hi
     else:
         theta = brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
-    tilted = tilted_all(theta)
-    mean = var = 0.0
-    spread = 0.0
-    log_m = 0.0
-    for (_, m), ks, (r, lm) in zip(kept, grids, tilted, strict=True):
-        mu = float(r @ ks)
-        mean += m * mu
-        var += m * max(float(r @ (ks - mu) ** 2), 0.0)
-        spread = max(spread, ks[-1] - mu, mu)
-        log_m += m * lm
-    decks = sum(m for _, m in kept)
+    r, log_ms = tilted_all(theta)
+    means = r @ ks
+    ends = np.array([len(law.counts) - 1 for law, _ in kept], dtype=float)
+    variances = np.maximum((r * (ks[None, :] - means[:, None]) ** 2).sum(axis=1), 0.0)
+    mean = float(draws @ means)
+    var = float(draws @ variances)
+    spread = float(np.max(np.maximum(ends - means, means)))
+    log_m = float(draws @ log_ms)
+    decks = int(draws.sum())
     half = _bernstein_half_width(decks, var / decks, spread)
     start = max(0, math.floor(mean - half))
     stop = min(t_max, math.ceil(mean + half))
     start, stop = min(start, t), max(stop, t)
     width = stop - start + 1
-    size = sp_fft.next_fast_len(max(width, max(len(g) for g in grids)), real=True)
+    size = sp_fft.next_fast_len(max(width, width_k), real=True)
     if size > _MAX_WINDOW:
         raise InputError(f"the sum spans {width} values, too wide for the exact method")
-    log_mag = np.zeros(size // 2 + 1)
-    angle = np.zeros(size // 2 + 1)
-    for (_, m), (r, _) in zip(kept, tilted, strict=True):
-        phi = sp_fft.rfft(r, size)
-        with np.errstate(divide="ignore"):
-            log_mag += m * np.log(np.abs(phi))
-        angle += m * np.angle(phi)
+    phi = sp_fft.rfft(r, size, axis=1)
+    with np.errstate(divide="ignore"):
+        log_mag = draws @ np.log(np.abs(phi))
+    angle = draws @ np.angle(phi)
     with np.errstate(under="ignore"):
         values = sp_fft.irfft(np.exp(log_mag) * np.exp(1j * angle), size)
     window = values[np.arange(start, stop + 1) % size]

@@ -143,8 +143,13 @@ def _tests_table(tests) -> Table:
         tuple(rows),
         notes=(
             f"'rejects' means the test rejects the ideal riffle at family-wise level "
-            f"{tests.alpha:g} (Holm). Monte Carlo p-values from {tests.samples:,} simulated logs "
-            "of ideal riffles, (1 + k)/(B + 1): valid at any number of simulations.",
+            f"{tests.alpha:g} (Holm over the {len(tests.tests)} tests)."
+            + (
+                f" Monte Carlo p-values from {tests.samples:,} simulated logs of ideal riffles, "
+                "(1 + k)/(B + 1): valid at any number of simulations."
+                if tests.samples
+                else " Only the exact tests were run (samples 0)."
+            ),
             "The cut and packet tests use the riffles that changed the deck; the likelihood "
             "ratio uses every riffle.",
         ),
@@ -206,7 +211,7 @@ def _rows_table(fit) -> Table | None:
     )
 
 
-def fit_methods(alpha: float) -> tuple[MethodNote, ...]:
+def fit_methods(alpha: float, tests: int = 5) -> tuple[MethodNote, ...]:
     return (
         MethodNote(
             "probability of each recorded riffle",
@@ -240,7 +245,7 @@ def fit_methods(alpha: float) -> tuple[MethodNote, ...]:
         MethodNote(
             "family-wise error",
             "exact",
-            f"Holm's step-down adjustment over the five tests at level {alpha:g}",
+            f"Holm's step-down adjustment over the {tests} tests at level {alpha:g}",
             (HOLM,),
         ),
     )
@@ -325,7 +330,7 @@ def fit_report(
         answer=tuple(answer),
         reproducibility=provenance,
         sections=tuple(sections),
-        methods=fit_methods(tests.alpha),
+        methods=fit_methods(tests.alpha, len(tests.tests)),
         cautions=(
             "The fitted parameters describe the recorded riffles only: another dealer, another "
             "shift or another deck may riffle differently.",
