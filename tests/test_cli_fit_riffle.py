@@ -290,3 +290,24 @@ class TestReport:
         assert "Fitted hand riffle" in markdown and "Tests of the ideal riffle" in markdown
         again = run("fit-riffle", dealer_log, "--samples", 0, "--report", folder)
         assert "exists; pass --force" in one_line_error(again)
+
+
+class TestBeforeAfterPairs:
+    def test_pairs_through_by(self, tmp_path):
+        # a lab records the deck before and after each riffle, a pair per riffle: with
+        # --by pair, each 'after' row is compared with the 'before' row of its own pair
+        rng = np.random.default_rng(21)
+        relative = hand_riffle.sample(150, 52, rng=rng, spread=3.0, clump=1.4)
+        before = np.array([rng.permutation(52) for _ in range(150)], dtype=np.int16)
+        after = np.take_along_axis(before, relative.astype(np.intp), axis=1)
+        decks = np.empty((300, 52), dtype=np.int16)
+        decks[0::2], decks[1::2] = before, after
+        log = tmp_path / "pairs.csv"
+        write_log(log, decks, columns={"pair": np.repeat(np.arange(150), 2)})
+        data = command_json("fit-riffle", log, "--by", "pair", "--samples", 0)
+        assert data["riffles"]["one_riffle"] == 150 and data["riffles"]["not_one_riffle"] == 0
+        assert data["log"]["reference_only"] == 150
+        assert abs(data["estimates"]["clump"]["value"] - 1.4) < 0.2
+        # without --by, every 'before' row is compared with the 'after' row above it
+        loose = command_json("fit-riffle", log, "--samples", 0)
+        assert loose["riffles"]["not_one_riffle"] > 100
