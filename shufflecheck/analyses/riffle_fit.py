@@ -37,6 +37,7 @@ from shufflecheck.analyses.riffle_null import (
     expected_packet_lengths,
     ideal_riffle_tests,
 )
+from shufflecheck.common.checks import check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open, atomic_write, sha256_file
 from shufflecheck.models.hand_riffle import HandRiffle
@@ -383,6 +384,13 @@ def fit_riffle_log(
     -------
     RiffleLogFit
     """
+    confidence = check_fraction(confidence, "confidence")
+    check_fraction(alpha, "alpha")
+    if check_integer(samples, "samples", low=0) and samples < 19:
+        raise InputError(
+            f"samples must be 0 (exact tests only) or at least 19, got {samples}",
+            argument="samples",
+        )
     definition, labels = log_deck(path, deck=deck, cards=cards, labels=labels)
     reader = read_log(
         path,
@@ -420,7 +428,10 @@ def fit_riffle_log(
             + "): a log of single riffles is needed"
         )
         raise InputError(f"{path}: {why}")
-    estimates = estimate_parameters(counts, confidence=confidence)
+    try:
+        estimates = estimate_parameters(counts, confidence=confidence)
+    except InputError as exc:
+        raise InputError(f"{path}: {exc}") from None
     null_rng, fitted_rng = np.random.default_rng(rng).spawn(2)
     tests = ideal_riffle_tests(
         counts, alpha=alpha, samples=samples, rng=null_rng, progress=progress
