@@ -100,6 +100,8 @@ TEST_TITLES = {
 }
 #: simulated decks per batch of the Monte Carlo null (bounds memory)
 _BATCH_DECKS = 100_000
+#: drop-table cells of the simulated logs tallied at once (bounds memory for short logs)
+_BATCH_CELLS = 4_000_000
 #: least expected packets in a cell of the packet-size statistic
 _LEAST_EXPECTED = 5.0
 
@@ -451,7 +453,8 @@ def _simulate(
     """The likelihood-ratio and packet-size statistics of ``samples`` logs of ideal riffles."""
     ratios = np.empty(samples)
     sizes = np.empty(samples)
-    per_batch = max(1, _BATCH_DECKS // max(riffles, 1))
+    # logs per batch: bounded by the decks simulated and by the drop tables tallied at once
+    per_batch = max(1, min(_BATCH_DECKS // max(riffles, 1), _BATCH_CELLS // (cards + 1) ** 2))
     done = 0
     while done < samples:
         logs = min(per_batch, samples - done)
