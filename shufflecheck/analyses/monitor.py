@@ -1,0 +1,754 @@
+"""Continuous monitoring of tables and machines: ingest logs into a store, keep anytime-valid
+evidence and change detectors per table, and report the fleet.
+
+The glue between the log reader (:mod:`shufflecheck.records.logs`), the monitoring
+mathematics (:mod:`shufflecheck.audit.monitoring`) and the store
+(:mod:`shufflecheck.stores.monitor_store`):
+
+* :func:`ingest_log` reads one log (never modifying it) and adds its new decks to their
+  tables in **one transaction**: a file already ingested (same SHA-256) adds nothing, and
+  decks of an overlapping file that the store already holds (same time and same order) are
+  recognised and skipped; a deck older than a table's newest stored deck that the store
+  does not hold is an error, since e-processes need decks in time order.
+* :func:`fleet_status` reads every table back: evidence now, alarms, the change-point set,
+  a timeline, and a one-look retrospective audit of all stored decks for comparison.
+
+Decks are related to the previous deck of the same table (the pickup order, the audit's
+default reference), across files: the store keeps each table's last order.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time as clock
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from shufflecheck.audit.battery import Tallies, run_battery
+from shufflecheck.audit.catalogue import DeckContext, battery_statistics
+from shufflecheck.audit.detector import ChangeSet
+from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
+from shufflecheck.audit.monitoring import Monitor, MonitorPlan
+from shufflecheck.audit.results import BatteryResult
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import sha256_file
+from shufflecheck.records.cards import DeckDefinition, load_deck
+from shufflecheck.records.logs import read_log
+from shufflecheck.stores.monitor_store import MonitorStore, TableRow
+
+__all__ = [
+    "FleetStatus",
+    "IngestResult",
+    "TableIngest",
+    "TableStatus",
+    "evidence_words",
+    "fleet_status",
+    "ingest_log",
+]
+
+#: Stored deck blocks hold at most this many decks (one chunk of the reader at most).
+BLOCK_DECKS = 50_000
+_LN10 = math.log(10.0)
+_MULTIPLIERS = np.random.default_rng(0x5EC).integers(1, 2**63, size=4096, dtype=np.int64) | 1
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
+def deck_digests(decks: np.ndarray) -> np.ndarray:
+    """A 64-bit fingerprint of every deck's order (rows of ``decks``), vectorized.
+
+    ``sum_i (label_i + 1) * m_i`` modulo 2^64 with fixed odd random multipliers ``m_i``: two
+    different orders of one deck share a fingerprint with chance about 2^-64.
+    """
+    d = np.asarray(decks, dtype=np.int64) + 1
+    n = d.shape[1]
+    if n > _MULTIPLIERS.size:
+        raise InputError(f"decks of more than {_MULTIPLIERS.size} cards cannot be monitored")
+    with np.errstate(over="ignore"):
+        return (d.astype(np.uint64) * _MULTIPLIERS[:n].astype(np.uint64)).sum(
+            axis=1, dtype=np.uint64
+        )
+
+
+def _deck_json(deck: DeckDefinition) -> dict[str, Any]:
+    return {
+        "name": deck.name,
+        "cards": list(deck.cards),
+        "suits": list(deck.suits),
+        "colours": list(deck.colours),
+    }
+
+
+def _deck_from_json(data: dict[str, Any]) -> DeckDefinition:
+    return DeckDefinition(
+        data["name"],
+        tuple(data["cards"]),
+        tuple(data["suits"]),
+        tuple(data["colours"]),
+        source="store",
+    )
+
+
+def _context(deck: DeckDefinition, strategies: tuple[str, ...]) -> DeckContext:
+    return DeckContext.checked(
+        deck.size,
+        suits=deck.suit_codes() if deck.suit_names else None,
+        colours=deck.colour_codes() if deck.colour_names else None,
+        strategies=strategies,
+    )
+
+
+# ------------------------------------------------------------------------------ ingest
+
+
+@dataclass(frozen=True)
+class TableIngest:
+    """What one ingest did to one table."""
+
+    table: str
+    decks_added: int
+    decks_known: int
+    first_row: int
+    last_row: int
+    decks_tested: int
+    family_alarm: dict[str, Any] | None
+    change_alarm: dict[str, Any] | None
+    new_table: bool
+
+    def as_json(self) -> dict[str, Any]:
+        return dict(self.__dict__)
+
+
+@dataclass(frozen=True)
+class IngestResult:
+    """One file ingested into a store (``already``: the same file was ingested before)."""
+
+    store: Path
+    path: Path
+    sha256: str
+    already: dict[str, Any] | None
+    rows: int
+    tables: tuple[TableIngest, ...]
+    seconds: float
+
+    @property
+    def decks_added(self) -> int:
+        return sum(t.decks_added for t in self.tables)
+
+    def as_json(self) -> dict[str, Any]:
+        return {
+            "store": str(self.store),
+            "file": str(self.path),
+            "sha256": self.sha256,
+            "already_ingested": self.already,
+            "rows": self.rows,
+            "decks_added": self.decks_added,
+            "tables": [t.as_json() for t in self.tables],
+            "seconds": self.seconds,
+        }
+
+
+@dataclass
+class _Table:
+    """A table while a file is being ingested."""
+
+    row: TableRow
+    monitor: Monitor
+    names: tuple[str, ...]
+    dtype: str
+    last_order: np.ndarray | None
+    last_time: int | None
+    origin: tuple[int, int] | None
+    stored_last_time: int | None
+    known_pairs: set[tuple[int, int]] | None = None
+    added: int = 0
+    known: int = 0
+    first_row: int | None = None
+    last_row: int = 0
+    new_table: bool = False
+    seen_new: bool = False
+    alarms_before: tuple[Any, Any] = (None, None)
+    pending: list[tuple] = field(default_factory=list)
+
+
+def _times(path: Path, chunk, column: str) -> np.ndarray:
+    if column not in chunk.columns:
+        raise InputError(f"{path}: time column {column!r} is not in the log", argument="time")
+    values = chunk.columns[column]
+    stamps = pd.to_datetime(values, errors="coerce", utc=True)
+    bad = np.flatnonzero(stamps.isna().to_numpy())
+    if bad.size:
+        row = int(chunk.rows[bad[0]])
+        raise InputError(f"{path} row {row}: {column} value {values.iloc[bad[0]]!r} is not a time")
+    return stamps.dt.tz_localize(None).to_numpy().astype("datetime64[ns]").astype(np.int64)
+
+
+def _time_text(ns: int) -> str:
+    return str(np.datetime64(int(ns), "ns").astype("datetime64[s]"))
+
+
+def ingest_log(
+    store: str | os.PathLike[str],
+    path: str | os.PathLike[str],
+    *,
+    table: str | None = None,
+    by: str | None = None,
+    time: str = "recorded_at",
+    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    labels: str = "codes",
+    fmt: str | None = None,
+    plan: MonitorPlan | None = None,
+    strategies: tuple[str, ...] = DEFAULT_STRATEGIES,
+    chunk_rows: int = BLOCK_DECKS,
+    progress: Callable[[int], None] | None = None,
+) -> IngestResult:
+    """Add the new decks of one log to their tables in a monitoring store.
+
+    Parameters
+    ----------
+    store : path
+        The store file (SQLite; created when missing).
+    path : path
+        The log (any format the reader takes); opened read-only.
+    table, by : str or None
+        The table every deck belongs to, or the column naming each deck's table (default:
+        the column ``table`` when the log has one).
+    time : str
+        Column with the time of each deck (any format pandas reads; UTC when no zone is
+        given). Within a table, times must not go backwards.
+    deck : path, name or DeckDefinition, optional
+        Deck definition (default built-in 52-card deck); must match the table's.
+    plan : MonitorPlan or None
+        Levels for a new table (default ``MonitorPlan()``); for an existing table it must
+        be None or equal to the table's plan (levels cannot change once data were seen).
+    progress : callable, optional
+        Called with the number of rows read so far.
+
+    Returns
+    -------
+    IngestResult
+    """
+    start = clock.perf_counter()
+    source = Path(path)
+    if not source.is_file():
+        raise InputError(f"cannot read {source}: no such file")
+    if table is not None and by is not None:
+        raise InputError("give a table name or a column of table names, not both")
+    definition = load_deck(deck)
+    digest = sha256_file(source)
+    size = source.stat().st_size
+    with MonitorStore(store) as db:
+        seen = db.file_by_sha(digest)
+        if seen is not None:
+            return IngestResult(
+                Path(store), source, digest, seen, 0, (), clock.perf_counter() - start
+            )
+        reader = read_log(source, deck=definition, labels=labels, fmt=fmt or "auto",
+                          chunk_rows=min(chunk_rows, BLOCK_DECKS))  # fmt: skip
+        tables: dict[str, _Table] = {}
+        rows_read = 0
+        now = _now()
+        with db.transaction():
+            file_id = db.add_file(digest, str(source), size, 0, now)
+            for chunk in reader:
+                rows_read += len(chunk)
+                if len(chunk) == 0:
+                    continue
+                times = _times(source, chunk, time)
+                names = _table_names(source, chunk, table, by)
+                for name in pd.unique(names):
+                    pick = np.flatnonzero(names == name)
+                    state = tables.get(name)
+                    if state is None:
+                        state = tables[name] = _open_table(
+                            db, str(name), definition, plan, strategies, now
+                        )
+                    _ingest_decks(
+                        db, source, file_id, state, chunk.decks[pick], chunk.rows[pick],
+                        times[pick],
+                    )  # fmt: skip
+                if progress is not None:
+                    progress(rows_read)
+            results = []
+            for name, state in tables.items():
+                db.update_table(
+                    state.row.id,
+                    decks=state.monitor.decks,
+                    origin=state.origin,
+                    last_order=state.last_order,
+                    last_time=state.last_time,
+                    state=state.monitor.state(),
+                    now=now,
+                )
+                db.add_file_table(
+                    file_id, state.row.id, state.first_row or 0, state.last_row, state.added,
+                    state.known,
+                )  # fmt: skip
+                before = state.alarms_before
+                results.append(
+                    TableIngest(
+                        table=name,
+                        decks_added=state.added,
+                        decks_known=state.known,
+                        first_row=state.first_row or 0,
+                        last_row=state.last_row,
+                        decks_tested=state.monitor.decks,
+                        family_alarm=state.monitor.family_alarm if before[0] is None else None,
+                        change_alarm=state.monitor.change_alarm if before[1] is None else None,
+                        new_table=state.new_table,
+                    )
+                )
+            if not tables:
+                raise InputError(f"{source}: no decks to ingest")
+            db.set_file_rows(file_id, rows_read)
+    return IngestResult(
+        Path(store), source, digest, None, rows_read, tuple(results), clock.perf_counter() - start
+    )
+
+
+def _table_names(path: Path, chunk, table: str | None, by: str | None) -> np.ndarray:
+    if table is not None:
+        if not str(table).strip():
+            raise InputError("a table name must not be empty", argument="table")
+        return np.full(len(chunk), str(table), dtype=object)
+    column = by or "table"
+    if column not in chunk.columns:
+        if by is None:
+            raise InputError(
+                f"{path}: no column 'table'; name the table ({{table}} NAME) or the column "
+                "holding it ({by} COLUMN)",
+                argument=("table", "by"),
+            )
+        raise InputError(f"{path}: column {column!r} is not in the log", argument="by")
+    values = chunk.columns[column].astype(str).to_numpy(dtype=object)
+    empty = np.flatnonzero(np.char.str_len(values.astype(str)) == 0)
+    if empty.size:
+        raise InputError(f"{path} row {int(chunk.rows[empty[0]])}: no table in column {column!r}")
+    return values
+
+
+def _open_table(
+    db: MonitorStore,
+    name: str,
+    definition: DeckDefinition,
+    plan: MonitorPlan | None,
+    strategies: tuple[str, ...],
+    now: str,
+) -> _Table:
+    row = db.table(name)
+    new = row is None
+    if row is None:
+        chosen = plan or MonitorPlan()
+        probe = Monitor(_context(definition, strategies), chosen)
+        dtype = "i4" if any(v == np.int32 for v in probe.dtypes.values()) else "i2"
+        table_id = db.create_table(
+            name,
+            deck=_deck_json(definition),
+            reference="previous",
+            plan=chosen.as_json(),
+            columns={"statistics": list(probe.dtypes), "dtype": dtype, "strategies": strategies},
+            now=now,
+        )
+        row = db.table(name)
+        assert row is not None and row.id == table_id
+    stored_deck = _deck_from_json(row.deck)
+    if tuple(stored_deck.cards) != tuple(definition.cards):
+        raise InputError(
+            f"table {name!r} is monitored with the deck {stored_deck.name!r}; this log was read "
+            f"with {definition.name!r}",
+            argument="deck",
+        )
+    stored_plan = MonitorPlan(**row.plan)
+    if plan is not None and plan != stored_plan:
+        raise InputError(
+            f"table {name!r} is monitored at alpha {stored_plan.alpha}, arl "
+            f"{stored_plan.arl:g}, confidence {stored_plan.confidence} since it was created; "
+            "levels cannot change once decks were seen (start a new store or table)",
+            argument=("alpha", "arl", "confidence"),
+        )
+    context = _context(stored_deck, tuple(row.columns["strategies"]))
+    monitor = Monitor(context, stored_plan, row.state)
+    out = _Table(
+        row=row,
+        monitor=monitor,
+        names=tuple(row.columns["statistics"]),
+        dtype=row.columns["dtype"],
+        last_order=row.last_order,
+        last_time=row.last_time,
+        origin=None if row.origin_time is None else (row.origin_time, row.origin_digest),
+        stored_last_time=row.last_time,
+        new_table=new,
+    )
+    out.alarms_before = (monitor.family_alarm, monitor.change_alarm)
+    return out
+
+
+def _known_mask(
+    db: MonitorStore, path: Path, state: _Table, times: np.ndarray, digests: np.ndarray,
+    rows: np.ndarray,
+) -> np.ndarray:  # fmt: skip
+    """Which decks the store already holds; errors for decks out of time order."""
+    limit = state.stored_last_time
+    if limit is None:
+        return np.zeros(times.size, dtype=bool)
+    old = times <= limit
+    if not old.any():
+        return old
+    if state.known_pairs is None:
+        low = int(times[old].min())
+        kt, kd = db.keys_between(state.row.id, low, limit)
+        if state.origin is not None and low <= state.origin[0] <= limit:
+            kt = np.r_[state.origin[0], kt]
+            kd = np.r_[state.origin[1], kd]
+        state.known_pairs = set(zip(kt.tolist(), kd.tolist(), strict=True))
+    pairs = state.known_pairs
+    known = old.copy()
+    for k in np.flatnonzero(old):
+        known[k] = (int(times[k]), int(digests[k])) in pairs
+    stray = np.flatnonzero(old & ~known)
+    if stray.size:
+        k = int(stray[0])
+        raise InputError(
+            f"{path} row {int(rows[k])}: table {state.row.name!r} already holds decks up to "
+            f"{_time_text(limit)}, and this deck ({_time_text(int(times[k]))}) is not among "
+            "them; a log must continue a table's decks in time order"
+        )
+    return known
+
+
+def _ingest_decks(
+    db: MonitorStore,
+    path: Path,
+    file_id: int,
+    state: _Table,
+    decks: np.ndarray,
+    rows: np.ndarray,
+    times: np.ndarray,
+) -> None:
+    if state.first_row is None:
+        state.first_row = int(rows[0])
+    state.last_row = int(rows[-1])
+    digests = deck_digests(decks).view(np.int64)
+    known = _known_mask(db, path, state, times, digests, rows)
+    if known.any():
+        last_known = int(np.flatnonzero(known)[-1])
+        if state.seen_new or not known[: last_known + 1].all():
+            raise InputError(
+                f"{path} row {int(rows[last_known])}: this deck of table {state.row.name!r} is "
+                "already stored but comes after decks that are not; the file does not "
+                "continue the table's log"
+            )
+        state.known += int(known.sum())
+    fresh = ~known
+    if not fresh.any():
+        return
+    decks = decks[fresh]
+    rows = rows[fresh]
+    times = times[fresh]
+    digests = digests[fresh]
+    chain = times if state.last_time is None else np.r_[state.last_time, times]
+    back = np.flatnonzero(np.diff(chain) < 0)
+    if back.size:
+        k = int(back[0]) + (0 if state.last_time is not None else 1)
+        raise InputError(
+            f"{path} row {int(rows[k])}: the time of table {state.row.name!r} goes back "
+            f"({_time_text(int(times[k]))}); sort the log by time (it is never re-ordered)"
+        )
+    state.seen_new = True
+    if state.last_order is None:
+        # the table's very first deck is only the reference of the next one
+        state.origin = (int(times[0]), int(digests[0]))
+        state.last_order = decks[0].astype(np.int16)
+        state.last_time = int(times[0])
+        state.added += 1
+        decks, rows, times, digests = decks[1:], rows[1:], times[1:], digests[1:]
+        if decks.shape[0] == 0:
+            return
+    previous = state.last_order
+    refs = np.concatenate([previous[None, :], decks[:-1]]).astype(np.int64)
+    inverse = np.argsort(refs, axis=1)
+    relative = np.take_along_axis(inverse, decks.astype(np.int64), axis=1).astype(np.int16)
+    absolute = decks.astype(np.int16)
+    trace = state.monitor.update(relative, absolute, previous)
+    stats = np.stack([trace.values[n] for n in state.names], axis=1)
+    first_deck = state.monitor.decks - decks.shape[0] + 1
+    db.add_block(
+        state.row.id,
+        first_deck,
+        file_id,
+        rows=rows,
+        times=times,
+        digests=digests,
+        stats=stats,
+        stats_dtype=state.dtype,
+        trace=np.stack([trace.family_log_e, trace.detector], axis=1),
+    )
+    state.last_order = absolute[-1].copy()
+    state.last_time = int(times[-1])
+    state.added += int(decks.shape[0])
+
+
+# ------------------------------------------------------------------------------ status
+
+
+def evidence_words(log_e: float, alpha: float) -> str:
+    """The family evidence in plain words (Ville's inequality makes ``1/E`` a bound)."""
+    e = math.exp(min(log_e, 700.0))
+    if log_e >= math.log(1 / alpha):
+        return (
+            f"alarm: evidence {_e_text(log_e)} has reached the alarm level {1 / alpha:g}; a "
+            f"uniformly random machine gets this far with probability at most {alpha:g}"
+        )
+    if e <= 1:
+        return (
+            f"no evidence against a random machine (e-value {_e_text(log_e)}; the alarm level "
+            f"is {1 / alpha:g})"
+        )
+    return (
+        f"evidence {_e_text(log_e)} against a random machine: a random machine ever reaches "
+        f"this with probability at most {1 / e:.2g}; the alarm level is {1 / alpha:g}"
+    )
+
+
+def _e_text(log_e: float) -> str:
+    if log_e > 30 * _LN10:
+        return f"10^{log_e / _LN10:.0f}"
+    e = math.exp(log_e)
+    return f"{e:.3g}"
+
+
+@dataclass(frozen=True)
+class TableStatus:
+    """Everything the dashboard shows about one table."""
+
+    name: str
+    decks: int
+    files: int
+    created_at: str
+    last_ingest: str
+    first_time: str | None
+    last_time: str | None
+    plan: MonitorPlan
+    family_log_e: float
+    max_family_log_e: float
+    evidence: str
+    family_alarm: dict[str, Any] | None
+    per_statistic: dict[str, float]
+    detector_level: float
+    detector_threshold: float
+    detector_leader: str
+    change_alarm: dict[str, Any] | None
+    change_at_alarm: ChangeSet | None
+    change_now: ChangeSet | None
+    change_rows: dict[str, Any] | None
+    timeline: dict[str, list]
+    retrospective: BatteryResult | None
+    retrospective_rows: dict[str, Any] | None
+
+    def as_json(self) -> dict[str, Any]:
+        def cs(found: ChangeSet | None) -> dict[str, Any] | None:
+            return None if found is None else dict(found.__dict__)
+
+        retro = None
+        if self.retrospective is not None:
+            r = self.retrospective
+            retro = {
+                "decks": r.decks,
+                "flagged": r.flagged,
+                "alpha": r.alpha,
+                "strongest": min(r.tests, key=lambda t: t.log10_p_adjusted).name,
+                "log10_p_adjusted": min(t.log10_p_adjusted for t in r.tests),
+                "since_when": None
+                if r.since_when is None
+                else {"deck": r.since_when.start, "test": r.since_when.test, "kind": "estimate"},
+                "rows": self.retrospective_rows,
+                "note": "one look at all stored decks (fixed-sample Holm battery); valid for "
+                "a single look, not for repeated reading",
+            }
+        return {
+            "table": self.name,
+            "decks": self.decks,
+            "files": self.files,
+            "created_at": self.created_at,
+            "last_ingest": self.last_ingest,
+            "first_deck_time": self.first_time,
+            "last_deck_time": self.last_time,
+            "plan": self.plan.as_json(),
+            "evidence": {
+                "e_value": _json_e(self.family_log_e),
+                "log10_e_value": self.family_log_e / _LN10,
+                "max_log10_e_value": self.max_family_log_e / _LN10,
+                "alarm_level": 1 / self.plan.alpha,
+                "words": self.evidence,
+                "alarm": self.family_alarm,
+                "kind": "bound",
+                "method": "average of betting e-processes against exact per-deck laws; "
+                "P(ever reaching 1/alpha | random machine) <= alpha (Ville)",
+                "per_statistic_log10_e": {k: v / _LN10 for k, v in self.per_statistic.items()},
+            },
+            "change": {
+                "cusum_now": self.detector_level,
+                "cusum_alarm_level": self.detector_threshold,
+                "leading_statistic": self.detector_leader,
+                "alarm": self.change_alarm,
+                "arl_lower_bound": self.plan.arl,
+                "set_at_alarm": cs(self.change_at_alarm),
+                "set_now": cs(self.change_now),
+                "set_rows": self.change_rows,
+                "kind": "bound",
+                "method": "CUSUM e-detectors on tilted exact laws; mean decks to a false alarm "
+                ">= arl; change-point set at the stated confidence under the alarming "
+                "alternative (working model)",
+            },
+            "timeline": self.timeline,
+            "retrospective": retro,
+        }
+
+
+def _json_e(log_e: float) -> float | str:
+    return math.exp(log_e) if log_e < 700 else "inf"
+
+
+@dataclass(frozen=True)
+class FleetStatus:
+    """Every table of a store."""
+
+    store: Path
+    schema_version: int
+    generated_at: str
+    tables: tuple[TableStatus, ...]
+
+    def as_json(self) -> dict[str, Any]:
+        from shufflecheck.common.cautions import caution
+
+        return {
+            "store": str(self.store),
+            "schema_version": self.schema_version,
+            "generated_at": self.generated_at,
+            "tables": [t.as_json() for t in self.tables],
+            "caution": caution("this monitoring"),
+        }
+
+
+def _downsample(decks: np.ndarray, trace: np.ndarray, points: int) -> dict[str, list]:
+    if decks.size == 0:
+        return {"deck": [], "log10_e": [], "cusum": []}
+    if decks.size <= points:
+        pick = np.arange(decks.size)
+    else:
+        pick = np.unique(np.r_[np.linspace(0, decks.size - 1, points).astype(int)])
+    # keep the running maximum of the detector inside each bin (peaks must not vanish)
+    cusum = trace[:, 1].astype(float)
+    bins = np.searchsorted(pick, np.arange(decks.size), side="left")
+    peak = np.full(pick.size, -np.inf)
+    np.maximum.at(peak, np.minimum(bins, pick.size - 1), cusum)
+    return {
+        "deck": decks[pick].tolist(),
+        "log10_e": (trace[pick, 0].astype(float) / _LN10).round(4).tolist(),
+        "cusum": np.round(peak, 4).tolist(),
+    }
+
+
+def table_status(db: MonitorStore, row: TableRow, *, points: int = 600) -> TableStatus:
+    """The status of one stored table (see :class:`TableStatus`)."""
+    plan = MonitorPlan(**row.plan)
+    deck = _deck_from_json(row.deck)
+    context = _context(deck, tuple(row.columns["strategies"]))
+    monitor = Monitor(context, plan, row.state)
+    names = tuple(row.columns["statistics"])
+    stored = db.decks(row.id, len(names), row.columns["dtype"])
+    decks = np.arange(1, stored.rows.size + 1)
+    change_at = change_now = None
+    change_rows = None
+    if monitor.change_alarm is not None:
+        column = stored.stats[:, names.index(monitor.change_alarm["statistic"])]
+        change_at = monitor.change_set(column, upto=int(monitor.change_alarm["deck"]))
+        change_now = monitor.change_set(column)
+        change_rows = {
+            "low": _place(stored, change_now.low),
+            "high": _place(stored, change_now.high),
+            "best": _place(stored, change_now.best),
+        }
+    retro = None
+    retro_rows = None
+    if stored.rows.size:
+        retro = _retrospective(monitor, names, stored.stats, row.state or {}, plan.alpha)
+        if retro.since_when is not None:
+            retro_rows = _place(stored, retro.since_when.start)
+    lead_name, _, level = monitor.detector_level() if monitor.decks else ("", 0, 0.0)
+    files = len({f["id"] for f in db.files(row.id)})
+    return TableStatus(
+        name=row.name,
+        decks=monitor.decks,
+        files=files,
+        created_at=row.created_at,
+        last_ingest=row.updated_at,
+        first_time=_time_text(int(stored.times[0])) if stored.times.size else None,
+        last_time=None if row.last_time is None else _time_text(row.last_time),
+        plan=plan,
+        family_log_e=monitor.family_log_e,
+        max_family_log_e=monitor.max_family_log_e,
+        evidence=evidence_words(monitor.family_log_e, plan.alpha)
+        if monitor.family_alarm is None
+        else evidence_words(max(monitor.max_family_log_e, math.log(1 / plan.alpha)), plan.alpha),
+        family_alarm=monitor.family_alarm,
+        per_statistic={n: monitor.log_e(n) for n in monitor.names},
+        detector_level=level,
+        detector_threshold=monitor.threshold,
+        detector_leader=lead_name,
+        change_alarm=monitor.change_alarm,
+        change_at_alarm=change_at,
+        change_now=change_now,
+        change_rows=change_rows,
+        timeline=_downsample(decks, stored.trace, points),
+        retrospective=retro,
+        retrospective_rows=retro_rows,
+    )
+
+
+def _place(stored, deck: int) -> dict[str, Any]:
+    k = int(deck) - 1
+    return {"deck": int(deck), "row": int(stored.rows[k]), "time": _time_text(int(stored.times[k]))}
+
+
+def _retrospective(monitor: Monitor, names, stats, state, alpha) -> BatteryResult:
+    """The fixed-sample battery on all stored decks, from the stored per-deck values."""
+    laws = monitor.laws
+    hist = {}
+    series = {}
+    for j, name in enumerate(names):
+        x = stats[:, j].astype(np.int64)
+        x = x[x >= 0]
+        hist[name] = np.bincount(x, minlength=laws[name].high + 1)
+        if name != "repeat-positions":
+            series[name] = [x]
+    statistics = tuple(
+        s for s in battery_statistics(monitor.context) if s.name in laws or s.shape == "positions"
+    )
+    positions = np.asarray(state.get("position", {}).get("counts"), dtype=np.int64)
+    decks = int(stats.shape[0])
+    return run_battery(
+        Tallies(decks, hist, positions, series),
+        statistics,
+        laws,
+        alpha=alpha,
+        position_method="auto",
+        rng=np.random.default_rng(0),
+    )
+
+
+def fleet_status(store: str | os.PathLike[str], *, points: int = 600) -> FleetStatus:
+    """Every table of a store, for the dashboard and ``--json``."""
+    with MonitorStore(store, create=False) as db:
+        version = int(db.meta("schema_version") or 0)
+        tables = tuple(table_status(db, row, points=points) for row in db.tables())
+    return FleetStatus(Path(store), version, _now(), tables)
