@@ -13,8 +13,9 @@ exceeds the log of the Shiryaev-Roberts e-detector ``M_t = sum_{j<=t} prod_{s=j.
 for which ``M_t - t`` is a martingale under the null, so the first ``t`` with ``M_t >= A``
 has mean at least ``A`` ([2]_, the Shiryaev-Roberts e-detector). With ``N`` alternatives
 in all (statistics x tilts) the alarm is raised when any ``W_t >= log(A N)``: then the
-average of the ``N`` Shiryaev-Roberts detectors is at least ``A``, so the mean time to a false alarm on a
-uniformly random machine is at least ``A`` decks (the ARL, a guaranteed lower bound).
+average of the ``N`` Shiryaev-Roberts detectors is at least ``A``, so the mean time to a
+false alarm on a uniformly random machine is at least ``A`` decks (the ARL, a guaranteed
+lower bound).
 
 **Where the change began.** After an alarm on alternative ``q`` (exact law tilted by
 ``theta``), with ``S(v) = sum_{t >= v} l_t`` over the decks so far, the set
