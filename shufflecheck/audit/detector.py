@@ -60,7 +60,7 @@ __all__ = [
 ]
 
 #: Fixed alternatives of the detector: tilts in null standard deviations (each side).
-DETECTOR_UNITS = (0.1, 0.2, 0.4, 0.8, 1.6)
+DETECTOR_UNITS = (0.1, 0.2, 0.4, 0.8)
 
 
 def detector_grid(law: Law, alternative: str) -> TiltGrid:
@@ -88,16 +88,19 @@ def detector_threshold(arl: float, alternatives: int) -> float:
 def cusum(log_ratios: np.ndarray, start: np.ndarray) -> np.ndarray:
     """Page's CUSUM ``W_t = max(0, W_{t-1} + l_t)`` for every deck, vectorized.
 
-    ``log_ratios`` has one row per deck and one column per alternative; ``start`` is
-    ``W`` before the first row. Uses ``W_t = S_t - min(-W_0, min_{s <= t} S_s)`` with the
-    cumulative sums ``S`` (the Lindley recursion unrolled).
+    ``log_ratios`` has one row per alternative and one column per deck (decks along the
+    contiguous axis); ``start`` is ``W`` of each alternative before the first deck. Uses
+    ``W_t = S_t - min(-W_0, min_{s <= t} S_s)`` with the cumulative sums ``S`` (the Lindley
+    recursion unrolled). Returns an array shaped like ``log_ratios``.
     """
     steps = np.asarray(log_ratios, dtype=float)
-    if steps.shape[0] == 0:
-        return np.zeros((0, steps.shape[1]))
-    sums = np.cumsum(steps, axis=0)
-    floor = np.minimum(np.minimum.accumulate(sums, axis=0), -np.asarray(start, dtype=float))
-    return sums - floor
+    if steps.shape[1] == 0:
+        return np.zeros_like(steps)
+    sums = np.cumsum(steps, axis=1)
+    floor = np.minimum.accumulate(sums, axis=1)
+    np.minimum(floor, -np.asarray(start, dtype=float)[:, None], out=floor)
+    sums -= floor
+    return sums
 
 
 @dataclass(frozen=True)

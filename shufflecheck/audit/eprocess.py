@@ -23,8 +23,8 @@ computed with cumulative sums, vectorized over decks.
 
 The position-by-card counts have no per-deck scalar law; their bet is
 ``e_t = (1/n) sum_i n P_t[i, card at i]`` with ``P_t`` a mixture of the uniform law and the
-Laplace-smoothed frequencies of the decks before ``t``: under the null each position holds
-a uniform card, so ``E[e_t | past] = 1``.
+Laplace-smoothed frequencies of earlier decks (refitted every ``POSITION_BLOCK`` decks):
+under the null each position holds a uniform card, so ``E[e_t | past] = 1``.
 
 A family of e-processes on the same decks is combined by their **average** (an average of
 test martingales for one filtration is a test martingale), so the family alarm at
@@ -54,6 +54,7 @@ from shufflecheck.audit.nulls import Law
 from shufflecheck.common.errors import InputError
 
 __all__ = [
+    "POSITION_BLOCK",
     "POSITION_WEIGHT",
     "PRIOR_DECKS",
     "TILT_POINTS",
@@ -73,6 +74,8 @@ TILT_POINTS = 241
 PRIOR_DECKS = 20
 #: Weight of the fitted frequencies in the position-by-card bet (the rest is uniform).
 POSITION_WEIGHT = 0.5
+#: Decks per block of the position-by-card bet (its frequencies are refitted between blocks).
+POSITION_BLOCK = 100
 
 
 @dataclass(frozen=True)
@@ -205,9 +208,12 @@ class PositionBet:
     """The position-by-card e-process: bets on where each card lands, from past frequencies.
 
     ``counts[i, c]`` is the number of past decks with reference card ``c`` at position ``i``.
-    The bet on deck ``t`` is ``e_t = (1 - w) + w * mean_i (counts[i, x_i] + 1) n / (t - 1 + n)``
-    (``w = POSITION_WEIGHT``; the fraction is the Laplace-smoothed past frequency), which has
-    null mean 1 because each position holds a uniform card under the null.
+    Decks are bet on in blocks of ``POSITION_BLOCK`` (counted from the table's first deck,
+    so any chunking gives the same bets); a deck of the block starting after ``s`` decks
+    gets ``e = (1 - w) + w * mean_i n (counts_s[i, x_i] + 1) / (s + n)`` (``w =
+    POSITION_WEIGHT``; the fraction is the Laplace-smoothed frequency of the ``s`` earlier
+    decks), which has null mean 1 given the past because each position holds a uniform card
+    under the null.
     """
 
     def __init__(self, cards: int, counts: np.ndarray | None = None, decks: int = 0) -> None:
@@ -216,30 +222,53 @@ class PositionBet:
             np.zeros((cards, cards), dtype=np.int64) if counts is None else np.array(counts)
         )
         self.decks = int(decks)
+        #: counts at the start of the current block (the bet in force)
+        self._frozen = self.counts.copy()
+        self._frozen_decks = self.decks - self.decks % POSITION_BLOCK
+        if self._frozen_decks != self.decks:
+            raise InputError("a position bet can only resume at a block boundary")
 
     def log_e(self, relative: np.ndarray) -> np.ndarray:
         """Per-deck log e-values of the new decks (rows of ``relative``); updates the state."""
         rel = np.asarray(relative, dtype=np.int64)
         k, n = rel.shape
-        if k == 0:
-            return np.zeros(0)
-        earlier = np.empty((k, n), dtype=np.int64)
-        order_index = np.arange(k)
-        for i in range(n):
-            column = rel[:, i]
-            order = np.argsort(column, kind="stable")
-            sorted_cards = column[order]
-            starts = np.r_[0, np.flatnonzero(np.diff(sorted_cards)) + 1]
-            run_start = np.repeat(starts, np.diff(np.r_[starts, k]))
-            rank = order_index - run_start  # earlier decks of this chunk with the same card
-            earlier[order, i] = rank + self.counts[i, sorted_cards]
-        decks_before = self.decks + np.arange(k, dtype=float)
-        fitted = (earlier.mean(axis=1) + 1.0) * n / (decks_before + n)
-        e = (1.0 - POSITION_WEIGHT) + POSITION_WEIGHT * fitted
-        flat = (np.arange(n, dtype=np.int64)[None, :] * n + rel).ravel()
-        self.counts += np.bincount(flat, minlength=n * n).reshape(n, n)
-        self.decks += k
-        return np.log(e)
+        out = np.empty(k)
+        columns = np.arange(n)
+        done = 0
+        while done < k:
+            room = POSITION_BLOCK - (self.decks - self._frozen_decks)
+            part = rel[done : done + room]
+            fitted = (self._frozen[columns, part].mean(axis=1) + 1.0) * n / (self._frozen_decks + n)
+            out[done : done + part.shape[0]] = np.log(
+                (1.0 - POSITION_WEIGHT) + POSITION_WEIGHT * fitted
+            )
+            flat = (columns[None, :] * n + part).ravel()
+            self.counts += np.bincount(flat, minlength=n * n).reshape(n, n)
+            self.decks += part.shape[0]
+            done += part.shape[0]
+            if self.decks - self._frozen_decks == POSITION_BLOCK:
+                self._frozen = self.counts.copy()
+                self._frozen_decks = self.decks
+        return out
+
+    def state(self) -> dict[str, object]:
+        """Counts now and at the start of the current block (enough to resume exactly)."""
+        return {
+            "counts": self.counts.tolist(),
+            "decks": self.decks,
+            "block_counts": self._frozen.tolist(),
+            "block_decks": self._frozen_decks,
+        }
+
+    @classmethod
+    def from_state(cls, cards: int, state: dict[str, object] | None) -> PositionBet:
+        if state is None:
+            return cls(cards)
+        bet = cls(cards, np.asarray(state["block_counts"], dtype=np.int64),
+                  int(state["block_decks"]))  # type: ignore[arg-type]  # fmt: skip
+        bet.counts = np.asarray(state["counts"], dtype=np.int64)
+        bet.decks = int(state["decks"])  # type: ignore[arg-type]
+        return bet
 
 
 def family_log_e(log_es: np.ndarray) -> np.ndarray:

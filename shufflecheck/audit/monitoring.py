@@ -122,12 +122,7 @@ class Monitor:
         self._log_e = {n: float(plugin.get(n, {}).get("log_e", 0.0)) for n in self.names}
         if POSITION in plugin:
             self._log_e[POSITION] = float(plugin[POSITION]["log_e"])
-        pos = st.get("position")
-        self._position = PositionBet(
-            context.cards,
-            None if pos is None else np.asarray(pos["counts"], dtype=np.int64),
-            0 if pos is None else int(pos["decks"]),
-        )
+        self._position = PositionBet.from_state(context.cards, st.get("position"))
         det = st.get("detector", {})
         self._w = {
             n: np.asarray(det.get(n, np.zeros(g.thetas.size)), dtype=float)
@@ -151,10 +146,7 @@ class Monitor:
         return {
             "decks": self.decks,
             "plugin": plugin,
-            "position": {
-                "counts": self._position.counts.tolist(),
-                "decks": self._position.decks,
-            },
+            "position": self._position.state(),
             "detector": {n: w.tolist() for n, w in self._w.items()},
             "max_family_log_e": self.max_family_log_e,
             "family_alarm": self.family_alarm,
@@ -228,16 +220,17 @@ class Monitor:
             cumulative[:, j] = self._log_e[name] + np.cumsum(steps)
             self._log_e[name] = float(cumulative[-1, j])
             alt = self.alternatives[name]
-            ratios = np.zeros((k, alt.thetas.size))
-            ratios[has] = alt.log_ratio(np.arange(alt.thetas.size)[None, :], x[has][:, None])
+            ratios = alt.log_ratio(np.arange(alt.thetas.size)[:, None], x[None, :])
+            if not has.all():
+                ratios[:, ~has] = 0.0
             w = cusum(ratios, self._w[name])
-            self._w[name] = w[-1].copy()
-            row_best = w.max(axis=1)
-            best_w = np.maximum(best_w, row_best)
+            self._w[name] = w[:, -1].copy()
+            row_best = w.max(axis=0)
+            np.maximum(best_w, row_best, out=best_w)
             crossing = np.flatnonzero(row_best >= self.threshold)
             if crossing.size:
                 t = int(crossing[0])
-                best_at.append((t, -float(row_best[t]), name, int(np.argmax(w[t]))))
+                best_at.append((t, -float(row_best[t]), name, int(np.argmax(w[:, t]))))
         pos_steps = self._position.log_e(relative)
         cumulative[:, -1] = self._log_e[POSITION] + np.cumsum(pos_steps)
         self._log_e[POSITION] = float(cumulative[-1, -1])

@@ -20,6 +20,7 @@ COMMAND_MODULES = (
     "policy",
     "audit",
     "fit_riffle",
+    "monitor",
     "simulate",
     "characters",
 )

@@ -81,6 +81,22 @@ app = typer.Typer(
 )
 
 
+def command_group(name: str, help: str) -> typer.Typer:
+    """A group of sub-commands (``shufflecheck NAME SUB ...``) with the same error handling
+    as the top level, registered on :data:`app`."""
+    group = typer.Typer(
+        cls=_Group,
+        name=name,
+        help=help,
+        no_args_is_help=True,
+        add_completion=False,
+        pretty_exceptions_enable=False,
+        rich_markup_mode=None,
+    )
+    app.add_typer(group, name=name)
+    return group
+
+
 #: ``--report DIR`` and ``--force``, shared by every analysis command
 ReportOption = Annotated[
     Path | None,

@@ -1,0 +1,171 @@
+"""``shufflecheck monitor``: continuous monitoring of tables and machines through a store.
+
+``monitor ingest STORE LOG`` adds a log's new decks to their tables (one transaction;
+re-ingesting adds nothing); ``monitor status STORE`` prints every table's evidence and
+alarms; ``monitor dashboard STORE --out DIR`` writes the fleet dashboard (HTML and JSON).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from shufflecheck.cli._app import command_group, echo, emit_json, progress, warn
+
+monitor = command_group(
+    "monitor",
+    "Continuous monitoring: ingest logs into a store, anytime-valid evidence and change "
+    "alarms per table, a fleet dashboard.",
+)
+
+StoreArgument = Annotated[
+    Path, typer.Argument(help="Monitoring store (one SQLite file; created on first ingest).")
+]
+JsonOption = Annotated[bool, typer.Option("--json", help="Machine-readable output.")]
+
+
+@monitor.command()
+def ingest(
+    store: StoreArgument,
+    logs: Annotated[list[Path], typer.Argument(help="Log file(s), ingested in the order given.")],
+    table: Annotated[
+        str | None, typer.Option(help="Table or machine every deck belongs to.")
+    ] = None,
+    by: Annotated[
+        str | None,
+        typer.Option(help="Column naming each deck's table (default: 'table' if present)."),
+    ] = None,
+    time: Annotated[str, typer.Option(help="Column with each deck's time.")] = "recorded_at",
+    deck: Annotated[Path | None, typer.Option(help="Deck definition TOML.")] = None,
+    alpha: Annotated[
+        float | None,
+        typer.Option(help="New tables: chance of ever a false evidence alarm (default 0.01)."),
+    ] = None,
+    arl: Annotated[
+        float | None,
+        typer.Option(help="New tables: mean decks to a false change alarm (default 20000)."),
+    ] = None,
+    confidence: Annotated[
+        float | None, typer.Option(help="New tables: level of the change-point set (0.95).")
+    ] = None,
+    json_out: JsonOption = False,
+) -> None:
+    """Add the new decks of logs to their tables; each file is one transaction.
+
+    A file ingested before (same SHA-256) adds nothing; decks the store already holds (same
+    time, same order) are skipped. Logs are only read, never changed. Exit code 0 whether or
+    not an alarm is raised; 2 for bad input (the store is then left as it was).
+    """
+    from shufflecheck.analyses.monitor import ingest_log
+    from shufflecheck.audit.monitoring import MonitorPlan
+
+    plan = None
+    if alpha is not None or arl is not None or confidence is not None:
+        base = MonitorPlan()
+        plan = MonitorPlan(
+            alpha=base.alpha if alpha is None else alpha,
+            arl=base.arl if arl is None else arl,
+            confidence=base.confidence if confidence is None else confidence,
+        )
+    results = []
+    for log in logs:
+        with progress(0, f"ingesting {log.name}") as update:
+            results.append(
+                ingest_log(
+                    store,
+                    log,
+                    table=table,
+                    by=by,
+                    time=time,
+                    deck=deck,
+                    plan=plan,
+                    progress=update,
+                )  # fmt: skip
+            )
+    if json_out:
+        emit_json([r.as_json() for r in results])
+        return
+    for r in results:
+        if r.already is not None:
+            echo(f"{r.path}: already ingested on {r.already['at']}; nothing added")
+            continue
+        for t in r.tables:
+            known = f", {t.decks_known:,} already stored" if t.decks_known else ""
+            echo(
+                f"{r.path}: {t.table}: {t.decks_added:,} decks added (rows {t.first_row}-"
+                f"{t.last_row}{known}); {t.decks_tested:,} tested in all"
+            )
+            if t.family_alarm is not None:
+                warn(
+                    f"ALARM {t.table}: evidence reached its level at deck {t.family_alarm['deck']:,}"
+                )
+            if t.change_alarm is not None:
+                warn(
+                    f"ALARM {t.table}: change detected at deck {t.change_alarm['deck']:,} "
+                    f"({t.change_alarm['statistic']})"
+                )
+
+
+@monitor.command()
+def status(store: StoreArgument, json_out: JsonOption = False) -> None:
+    """Every table of a store: evidence in plain words, alarms, the change-point set."""
+    from shufflecheck.analyses.monitor import fleet_status
+
+    payload = fleet_status(store).as_json()
+    if json_out:
+        emit_json(payload)
+        return
+    for t in payload["tables"]:
+        ev, ch = t["evidence"], t["change"]
+        echo(f"{t['table']}: {t['decks']:,} decks, last recorded {t['last_deck_time']}")
+        echo(f"  evidence: {ev['words']}")
+        if ch["alarm"] is None:
+            echo(
+                f"  change: no alarm (largest CUSUM {ch['cusum_now']:.3g}, alarm level "
+                f"{ch['cusum_alarm_level']:.3g}; mean decks to a false alarm >= "
+                f"{ch['arl_lower_bound']:,.0f})"
+            )
+        else:
+            found = ch["set_now"]
+            rows = ch["set_rows"]
+            echo(
+                f"  change: ALARM at deck {ch['alarm']['deck']:,} ({ch['alarm']['statistic']}); "
+                f"the departure began between deck {found['low']:,} and {found['high']:,} "
+                f"(rows {rows['low']['row']}-{rows['high']['row']}; "
+                f"{found['confidence']:.0%} under the alarming alternative)"
+            )
+        retro = t["retrospective"]
+        if retro is not None and retro["since_when"] is not None:
+            echo(
+                f"  retrospective audit (one look): since-when estimate deck "
+                f"{retro['since_when']['deck']:,}"
+            )
+    echo(payload["caution"])
+
+
+@monitor.command()
+def dashboard(
+    store: StoreArgument,
+    out: Annotated[Path, typer.Option(help="Folder for dashboard.html and dashboard.json.")],
+    json_out: JsonOption = False,
+) -> None:
+    """Write the fleet dashboard: one self-contained HTML page and the same as JSON."""
+    from shufflecheck.analyses.monitor import fleet_status
+    from shufflecheck.cli._app import to_json
+    from shufflecheck.common.errors import InputError
+    from shufflecheck.common.files import atomic_write
+    from shufflecheck.report.dashboard import dashboard_html
+
+    if not out.exists():
+        if not out.parent.exists():
+            raise InputError(f"cannot write {out}: folder {out.parent} does not exist")
+        out.mkdir()
+    payload = fleet_status(store).as_json()
+    atomic_write(out / "dashboard.json", to_json(payload) + "\n")
+    atomic_write(out / "dashboard.html", dashboard_html(payload))
+    if json_out:
+        emit_json(payload)
+        return
+    echo(f"Wrote {out / 'dashboard.html'} and {out / 'dashboard.json'}")
