@@ -252,8 +252,13 @@ def ingest_log(
             return IngestResult(
                 Path(store), source, digest, seen, 0, (), clock.perf_counter() - start
             )
-        reader = read_log(source, deck=definition, labels=labels, fmt=fmt or "auto",
-                          chunk_rows=min(chunk_rows, BLOCK_DECKS))  # fmt: skip
+        reader = read_log(
+            source,
+            deck=definition,
+            labels=labels,
+            fmt=fmt or "auto",
+            chunk_rows=min(chunk_rows, BLOCK_DECKS),
+        )
         tables: dict[str, _Table] = {}
         rows_read = 0
         now = _now()
@@ -273,9 +278,14 @@ def ingest_log(
                             db, str(name), definition, plan, strategies, now
                         )
                     _ingest_decks(
-                        db, source, file_id, state, chunk.decks[pick], chunk.rows[pick],
+                        db,
+                        source,
+                        file_id,
+                        state,
+                        chunk.decks[pick],
+                        chunk.rows[pick],
                         times[pick],
-                    )  # fmt: skip
+                    )
                 if progress is not None:
                     progress(rows_read)
             results = []
@@ -290,9 +300,13 @@ def ingest_log(
                     now=now,
                 )
                 db.add_file_table(
-                    file_id, state.row.id, state.first_row or 0, state.last_row, state.added,
+                    file_id,
+                    state.row.id,
+                    state.first_row or 0,
+                    state.last_row,
+                    state.added,
                     state.known,
-                )  # fmt: skip
+                )
                 before = state.alarms_before
                 results.append(
                     TableIngest(
@@ -393,9 +407,13 @@ def _open_table(
 
 
 def _known_mask(
-    db: MonitorStore, path: Path, state: _Table, times: np.ndarray, digests: np.ndarray,
+    db: MonitorStore,
+    path: Path,
+    state: _Table,
+    times: np.ndarray,
+    digests: np.ndarray,
     rows: np.ndarray,
-) -> np.ndarray:  # fmt: skip
+) -> np.ndarray:
     """Which decks the store already holds; errors for decks out of time order."""
     limit = state.stored_last_time
     if limit is None:

@@ -264,8 +264,9 @@ class PositionBet:
     def from_state(cls, cards: int, state: dict[str, object] | None) -> PositionBet:
         if state is None:
             return cls(cards)
-        bet = cls(cards, np.asarray(state["block_counts"], dtype=np.int64),
-                  int(state["block_decks"]))  # type: ignore[arg-type]  # fmt: skip
+        bet = cls(
+            cards, np.asarray(state["block_counts"], dtype=np.int64), int(state["block_decks"])
+        )  # type: ignore[arg-type]
         bet.counts = np.asarray(state["counts"], dtype=np.int64)
         bet.decks = int(state["decks"])  # type: ignore[arg-type]
         return bet

@@ -82,7 +82,7 @@ def ingest(
                     deck=deck,
                     plan=plan,
                     progress=update,
-                )  # fmt: skip
+                )
             )
     if json_out:
         emit_json([r.as_json() for r in results])
@@ -98,9 +98,8 @@ def ingest(
                 f"{t.last_row}{known}); {t.decks_tested:,} tested in all"
             )
             if t.family_alarm is not None:
-                warn(
-                    f"ALARM {t.table}: evidence reached its level at deck {t.family_alarm['deck']:,}"
-                )
+                deck_no = t.family_alarm["deck"]
+                warn(f"ALARM {t.table}: evidence reached its alarm level at deck {deck_no:,}")
             if t.change_alarm is not None:
                 warn(
                     f"ALARM {t.table}: change detected at deck {t.change_alarm['deck']:,} "

@@ -20,7 +20,10 @@ from typing import Any
 __all__ = ["CSP", "dashboard_html", "timeline_svg"]
 
 #: The page may load nothing: inline styles only, no scripts, no images from anywhere.
-CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'"
+CSP = (
+    "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; "
+    "form-action 'none'"
+)
 
 _STYLE = """
 :root { --ink:#1b1f24; --muted:#5b6168; --rule:#c8ccd0; --paper:#fcfcfa; --panel:#eef2f5;
@@ -54,7 +57,13 @@ svg text { font-family:var(--sans); font-size:11px; fill:var(--ink); }
 def _num(value: float, digits: int = 3) -> str:
     if not math.isfinite(value):
         return "inf"
+    if abs(value) >= 1000:
+        return f"{value:,.0f}"
     return f"{value:.{digits}g}"
+
+
+def _p_text(log10_p: float) -> str:
+    return f"{10**log10_p:.3g}" if log10_p > -4 else f"10^{log10_p:.1f}"
 
 
 def _thousands(value: int) -> str:
@@ -232,7 +241,7 @@ def _table_card(t: dict[str, Any]) -> str:
         verdict = "flags" if retro["flagged"] else "does not flag"
         retro_text = (
             f"{verdict} ({escape(retro['strongest'])}, adjusted p = "
-            f"10^{retro['log10_p_adjusted']:.2f})"
+            f"{_p_text(retro['log10_p_adjusted'])})"
         )
         if retro["since_when"] is not None:
             retro_text += f"; since-when estimate deck {_thousands(retro['since_when']['deck'])}"
