@@ -1,8 +1,8 @@
 """Invented logs for the monitoring tests: tables of a card room, simulated deck by deck.
 
 Everything here is made up for the tests (as the demo's card room is): each table's decks
-come from ``simulate_play`` (every deck is the procedure applied to the previous one) or
-from uniform numpy permutations (an ideal machine), with a time every ``every`` seconds.
+come from a procedure applied to the previous deck (as ``simulate_play`` does) or from
+uniform numpy permutations (an ideal machine), with a time every ``every`` seconds.
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from shufflecheck.models.procedures import parse_procedure, simulate_play
+from shufflecheck.models.procedures import parse_procedure
 from shufflecheck.records.logs import write_log
 
 START = np.datetime64("2026-11-02T18:00:00")
@@ -23,20 +23,29 @@ def table_decks(
     decks: int,
     *,
     seed: int,
-    change: tuple[int, str] | None = None,
+    change: tuple[int, str | None] | None = None,
 ) -> np.ndarray:
-    """``decks + 1`` recorded orders (the first is the starting order); ``procedure`` None
-    means an ideal machine (uniform permutations), ``change=(k, other)`` a fault from deck
-    ``k`` on."""
+    """``decks + 1`` recorded orders (the first is the starting order); every deck is the
+    procedure applied to the deck before it, as ``simulate_play`` does. ``procedure`` None
+    means an ideal machine (a uniform permutation); ``change=(k, other)`` a change of
+    procedure from deck ``k`` on."""
     rng = np.random.default_rng(seed)
-    if procedure is None:
-        out = np.empty((decks + 1, 52), dtype=np.int16)
-        out[0] = np.arange(52)
-        out[1:] = rng.permuted(np.tile(np.arange(52, dtype=np.int16), (decks, 1)), axis=1)
-        return out
-    first = parse_procedure(procedure)
-    other = None if change is None else (change[0], parse_procedure(change[1]))
-    return simulate_play(first, 52, decks, rng=rng, change=other)
+
+    def relative(spec: str | None, count: int) -> np.ndarray:
+        if spec is None:
+            return rng.permuted(np.tile(np.arange(52, dtype=np.int16), (count, 1)), axis=1)
+        return parse_procedure(spec).sample(count, 52, rng=rng)
+
+    if change is None:
+        rel = relative(procedure, decks)
+    else:
+        start, other = change
+        rel = np.concatenate([relative(procedure, start - 1), relative(other, decks - start + 1)])
+    out = np.empty((decks + 1, 52), dtype=np.int16)
+    out[0] = np.arange(52)
+    for t in range(decks):
+        out[t + 1] = out[t][rel[t]]
+    return out
 
 
 def frame(name: str, decks: np.ndarray, *, every: int, offset: int = 0) -> pd.DataFrame:

@@ -676,8 +676,11 @@ def _downsample(decks: np.ndarray, trace: np.ndarray, points: int) -> dict[str, 
     }
 
 
-def table_status(db: MonitorStore, row: TableRow, *, points: int = 600) -> TableStatus:
-    """The status of one stored table (see :class:`TableStatus`)."""
+def table_status(
+    db: MonitorStore, row: TableRow, *, points: int = 600, retrospective: bool = True
+) -> TableStatus:
+    """The status of one stored table (see :class:`TableStatus`); ``retrospective`` runs
+    the one-look battery on all stored decks too (for comparison)."""
     plan = MonitorPlan(**row.plan)
     deck = _deck_from_json(row.deck)
     context = _context(deck, tuple(row.columns["strategies"]))
@@ -698,7 +701,7 @@ def table_status(db: MonitorStore, row: TableRow, *, points: int = 600) -> Table
         }
     retro = None
     retro_rows = None
-    if stored.rows.size:
+    if stored.rows.size and retrospective:
         retro = _retrospective(monitor, names, stored.stats, row.state or {}, plan.alpha)
         if retro.since_when is not None:
             retro_rows = _place(stored, retro.since_when.start)
@@ -764,9 +767,15 @@ def _retrospective(monitor: Monitor, names, stats, state, alpha) -> BatteryResul
     )
 
 
-def fleet_status(store: str | os.PathLike[str], *, points: int = 600) -> FleetStatus:
-    """Every table of a store, for the dashboard and ``--json``."""
+def fleet_status(
+    store: str | os.PathLike[str], *, points: int = 600, retrospective: bool = True
+) -> FleetStatus:
+    """Every table of a store, for the dashboard and ``--json`` (``points``: timeline
+    points per table; ``retrospective``: include the one-look battery of all decks)."""
     with MonitorStore(store, create=False) as db:
         version = int(db.meta("schema_version") or 0)
-        tables = tuple(table_status(db, row, points=points) for row in db.tables())
+        tables = tuple(
+            table_status(db, row, points=points, retrospective=retrospective)
+            for row in db.tables()
+        )
     return FleetStatus(Path(store), version, _now(), tables)
