@@ -653,7 +653,7 @@ class FleetStatus:
             "schema_version": self.schema_version,
             "generated_at": self.generated_at,
             "tables": [t.as_json() for t in self.tables],
-            "caution": caution("this monitoring"),
+            "caution": caution("the monitored decks"),
         }
 
 
@@ -688,6 +688,8 @@ def table_status(
     names = tuple(row.columns["statistics"])
     stored = db.decks(row.id, len(names), row.columns["dtype"])
     decks = np.arange(1, stored.rows.size + 1)
+    files = db.files(row.id)
+    paths = {int(f["id"]): str(f["path"]) for f in files}
     change_at = change_now = None
     change_rows = None
     if monitor.change_alarm is not None:
@@ -695,22 +697,21 @@ def table_status(
         change_at = monitor.change_set(column, upto=int(monitor.change_alarm["deck"]))
         change_now = monitor.change_set(column)
         change_rows = {
-            "low": _place(stored, change_now.low),
-            "high": _place(stored, change_now.high),
-            "best": _place(stored, change_now.best),
+            "low": _place(stored, change_now.low, paths),
+            "high": _place(stored, change_now.high, paths),
+            "best": _place(stored, change_now.best, paths),
         }
     retro = None
     retro_rows = None
     if stored.rows.size and retrospective:
         retro = _retrospective(monitor, names, stored.stats, row.state or {}, plan.alpha)
         if retro.since_when is not None:
-            retro_rows = _place(stored, retro.since_when.start)
+            retro_rows = _place(stored, retro.since_when.start, paths)
     lead_name, _, level = monitor.detector_level() if monitor.decks else ("", 0, 0.0)
-    files = len({f["id"] for f in db.files(row.id)})
     return TableStatus(
         name=row.name,
         decks=monitor.decks,
-        files=files,
+        files=len(paths),
         created_at=row.created_at,
         last_ingest=row.updated_at,
         first_time=_time_text(int(stored.times[0])) if stored.times.size else None,
@@ -736,9 +737,15 @@ def table_status(
     )
 
 
-def _place(stored, deck: int) -> dict[str, Any]:
+def _place(stored, deck: int, paths: dict[int, str]) -> dict[str, Any]:
+    """Where a deck came from: its file, row and time."""
     k = int(deck) - 1
-    return {"deck": int(deck), "row": int(stored.rows[k]), "time": _time_text(int(stored.times[k]))}
+    return {
+        "deck": int(deck),
+        "file": paths.get(int(stored.file_ids[k]), ""),
+        "row": int(stored.rows[k]),
+        "time": _time_text(int(stored.times[k])),
+    }
 
 
 def _retrospective(monitor: Monitor, names, stats, state, alpha) -> BatteryResult:
@@ -775,7 +782,6 @@ def fleet_status(
     with MonitorStore(store, create=False) as db:
         version = int(db.meta("schema_version") or 0)
         tables = tuple(
-            table_status(db, row, points=points, retrospective=retrospective)
-            for row in db.tables()
+            table_status(db, row, points=points, retrospective=retrospective) for row in db.tables()
         )
     return FleetStatus(Path(store), version, _now(), tables)

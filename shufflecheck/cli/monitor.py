@@ -132,7 +132,7 @@ def status(store: StoreArgument, json_out: JsonOption = False) -> None:
             echo(
                 f"  change: ALARM at deck {ch['alarm']['deck']:,} ({ch['alarm']['statistic']}); "
                 f"the departure began between deck {found['low']:,} and {found['high']:,} "
-                f"(rows {rows['low']['row']}-{rows['high']['row']}; "
+                f"(recorded {rows['low']['time']} to {rows['high']['time']}; "
                 f"{found['confidence']:.0%} under the alarming alternative)"
             )
         retro = t["retrospective"]

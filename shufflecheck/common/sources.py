@@ -74,3 +74,21 @@ HOPE = (
     "Soc. Ser. B 30 (1968) 582-598."
 )
 JENSEN = "J. L. Jensen, Saddlepoint Approximations, Oxford University Press, 1995."
+SHAFER_VOVK = (
+    "G. Shafer and V. Vovk, Game-Theoretic Foundations for Probability and Finance, Wiley, 2019."
+)
+WAUDBY_SMITH_RAMDAS = (
+    'I. Waudby-Smith and A. Ramdas, "Estimating means of bounded random variables by '
+    'betting", J. R. Stat. Soc. B 86 (2024) 1-27.'
+)
+HOWARD_RAMDAS_MCAULIFFE_SEKHON = (
+    'S. R. Howard, A. Ramdas, J. McAuliffe and J. Sekhon, "Time-uniform, nonparametric, '
+    'nonasymptotic confidence sequences", Ann. Statist. 49 (2021) 1055-1080.'
+)
+SHIN_RAMDAS_RINALDO = (
+    'J. Shin, A. Ramdas and A. Rinaldo, "E-detectors: a nonparametric framework for '
+    'sequential change detection", New England J. Statist. Data Sci. (2024); '
+    "arXiv:2203.03532."
+)
+PAGE = 'E. S. Page, "Continuous inspection schemes", Biometrika 41 (1954) 100-115.'
+VILLE = "J. Ville, Etude critique de la notion de collectif, Gauthier-Villars, 1939."

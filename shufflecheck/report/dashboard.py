@@ -15,9 +15,29 @@ from __future__ import annotations
 
 import math
 from html import escape
+from pathlib import Path
 from typing import Any
 
-__all__ = ["CSP", "dashboard_html", "timeline_svg"]
+from shufflecheck.common.sources import (
+    HOWARD_RAMDAS_MCAULIFFE_SEKHON,
+    PAGE,
+    SHAFER_VOVK,
+    SHIN_RAMDAS_RINALDO,
+    VILLE,
+    WAUDBY_SMITH_RAMDAS,
+)
+
+#: Methods behind the page, listed at its foot.
+SOURCES = (
+    SHAFER_VOVK,
+    VILLE,
+    WAUDBY_SMITH_RAMDAS,
+    HOWARD_RAMDAS_MCAULIFFE_SEKHON,
+    PAGE,
+    SHIN_RAMDAS_RINALDO,
+)
+
+__all__ = ["CSP", "SOURCES", "dashboard_html", "timeline_svg"]
 
 #: The page may load nothing: inline styles only, no scripts, no images from anywhere.
 CSP = (
@@ -89,7 +109,13 @@ def _change_text(t: dict[str, Any]) -> str:
         f"({found['confidence']:.0%} set under the alarming alternative)"
     )
     if low and high:
-        text += f"; rows {low['row']}-{high['row']}, {low['time']} to {high['time']}"
+        where = (
+            f"row {low['row']} of {Path(low['file']).name} to row {high['row']} of "
+            f"{Path(high['file']).name}"
+            if low["file"] != high["file"]
+            else f"rows {low['row']}-{high['row']} of {Path(low['file']).name}"
+        )
+        text += f"; {where}, recorded {low['time']} to {high['time']}"
     return text
 
 
@@ -317,5 +343,9 @@ def dashboard_html(payload: dict[str, Any]) -> str:
         "<th>change point</th></tr></thead><tbody>" + "".join(rows) + "</tbody></table>"
     )
     cards = "".join(_table_card(t) for t in tables)
-    tail = f'<p class="caution note">{escape(payload["caution"])}</p></main></body></html>\n'
+    sources = "".join(f"<li>{escape(s)}</li>" for s in SOURCES)
+    tail = (
+        f'<p class="caution note">{escape(payload["caution"])}</p>'
+        f'<h2>Methods</h2><ol class="note">{sources}</ol></main></body></html>\n'
+    )
     return head + summary + cards + tail
