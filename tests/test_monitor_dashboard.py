@@ -66,7 +66,9 @@ class TestCommands:
         payload = command_json("monitor", "status", fleet[0])
         t2 = payload["tables"][1]
         assert t2["evidence"]["alarm"] is not None  # the under-shuffling crew
-        assert t2["evidence"]["kind"] == "bound"
+        assert t2["evidence"]["kind"] == "exact"
+        assert t2["evidence"]["guarantee"]["kind"] == "bound"
+        assert t2["change"]["set_now"]["kind"] == "estimate"
         t1 = payload["tables"][0]
         assert t1["evidence"]["alarm"] is None and t1["change"]["alarm"] is None
 

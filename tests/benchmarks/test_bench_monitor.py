@@ -52,7 +52,9 @@ def test_ingest_one_million(benchmark, figures, million, tmp_path):
     again = ingest_log(store, million)
     repeat = time.perf_counter() - start
     assert again.already is not None
-    figures(f"monitor ingest of {DECKS:,} decks (store {store.stat().st_size / 1e6:.0f} MB)", ingest, 30)
+    figures(
+        f"monitor ingest of {DECKS:,} decks (store {store.stat().st_size / 1e6:.0f} MB)", ingest, 30
+    )
     figures("  baseline in the same run: reading + validating the log alone", reading, 30)
     figures("  ingest / reading alone", ingest / reading, 5, "x")
     figures("  re-ingest of the same file (SHA-256, nothing added)", repeat, 5)
