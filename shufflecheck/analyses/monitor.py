@@ -23,7 +23,7 @@ import math
 import os
 import time as clock
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
@@ -177,7 +177,6 @@ class _Table:
     new_table: bool = False
     seen_new: bool = False
     alarms_before: tuple[Any, Any] = (None, None)
-    pending: list[tuple] = field(default_factory=list)
 
 
 def _times(path: Path, chunk, column: str) -> np.ndarray:
@@ -263,6 +262,11 @@ def ingest_log(
         rows_read = 0
         now = _now()
         with db.transaction():
+            seen = db.file_by_sha(digest)  # again, under the lock: another ingest may have won
+            if seen is not None:
+                return IngestResult(
+                    Path(store), source, digest, seen, 0, (), clock.perf_counter() - start
+                )
             file_id = db.add_file(digest, str(source), size, 0, now)
             for chunk in reader:
                 rows_read += len(chunk)
