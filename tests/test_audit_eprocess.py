@@ -140,7 +140,7 @@ class TestBruteForceMartingale:
         assert rng is not None
 
     def test_position_bet_alone(self):
-        # n = 4: all 24 next decks after 37 decks (mid-block) keep the mean at 1
+        # n = 4: all 24 next decks after 137 decks (inside a block) keep the mean at 1
         rng = np.random.default_rng(4)
         bet = PositionBet(4)
         bet.log_e(np.array([rng.permutation(4) for _ in range(137)]))

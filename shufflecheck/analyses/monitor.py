@@ -496,9 +496,12 @@ def _ingest_decks(
         if decks.shape[0] == 0:
             return
     previous = state.last_order
-    refs = np.concatenate([previous[None, :], decks[:-1]]).astype(np.int64)
-    inverse = np.argsort(refs, axis=1)
-    relative = np.take_along_axis(inverse, decks.astype(np.int64), axis=1).astype(np.int16)
+    # relative[t, i] = position in deck t-1 of the card at position i of deck t
+    refs = np.concatenate([previous[None, :], decks[:-1]]).astype(np.intp)
+    k, n = decks.shape
+    inverse = np.empty((k, n), dtype=np.int16)
+    inverse[np.arange(k)[:, None], refs] = np.arange(n, dtype=np.int16)
+    relative = np.take_along_axis(inverse, decks.astype(np.intp), axis=1)
     absolute = decks.astype(np.int16)
     trace = state.monitor.update(relative, absolute, previous)
     stats = np.stack([trace.values[n] for n in state.names], axis=1)
