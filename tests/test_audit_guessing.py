@@ -104,6 +104,32 @@ class TestPaths:
             np.testing.assert_array_equal(fast_picks[name], slow_picks[name])
             np.testing.assert_array_equal(fast_scores[name], slow_scores[name])
 
+    @pytest.mark.parametrize("n", [2, 3, 7, 40, 64, 100, 130])
+    def test_linear_and_generic_agree(self, n):
+        # the linear-time path (blocks of seen and unseen cards) names the same cards as
+        # the straightforward generic path, on uniform, riffled and stripped-and-cut decks
+        from shufflecheck.audit.guessing import _play_blocks
+        from shufflecheck.models.procedures import parse_procedure
+
+        rng = np.random.default_rng(100 + n)
+        decks = np.concatenate(
+            [
+                rng.permuted(np.tile(np.arange(n), (150, 1)), axis=1),
+                riffle.sample(150, n, 2, rng=rng).astype(np.int64),
+                parse_procedure("riffle x3, strip(packets=2), cut").sample(150, n, 1, rng=rng),
+            ]
+        ).astype(np.int64)
+        names = tuple(STRATEGIES)
+        slow_scores, slow_picks = _play(decks, names, record=True, force_generic=True)
+        found = _play_blocks(np.ascontiguousarray(decks.T), names, True)
+        for name in names:
+            np.testing.assert_array_equal(found[name][1].T, slow_picks[name])
+            np.testing.assert_array_equal(found[name][0], slow_scores[name])
+        if n > 63:  # the default path for large decks is the linear one
+            fast_scores, _ = _play(decks, names, record=False)
+            for name in names:
+                np.testing.assert_array_equal(fast_scores[name], slow_scores[name])
+
     def test_large_deck_generic_path(self):
         rng = np.random.default_rng(8)
         decks = riffle.sample(50, 104, 3, rng=rng)

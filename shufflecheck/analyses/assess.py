@@ -3,23 +3,33 @@
 For every repetition count the assessment gives, each number labelled:
 
 * ``exact`` — when the whole repeated procedure is one exactly analysed model (a run of
-  ideal riffles, random transpositions, top-to-random moves, cuts, ...), possibly with fixed
-  rearrangements (pile deals) at either end, which change no distance;
-* an upper ``bound`` — from the exactly analysed contiguous blocks inside it: a further
-  step never increases total variation or KL divergence (``TV(mu * nu) <= TV(nu)``,
-  ``H(XY) >= H(Y)``), and separation is submultiplicative over blocks
-  (``s(mu * nu) <= s(mu) s(nu)``, [1]);
+  ideal riffles, random transpositions, top-to-random moves, cuts, shelf passes, ...),
+  possibly with fixed rearrangements (pile deals) at either end, which change no distance;
+* an upper ``bound`` — from the exactly analysed blocks inside it
+  (:mod:`shufflecheck.models.blocks`) through the block inequalities of
+  :mod:`shufflecheck.core.block_bounds`: with ``U`` uniform and independent blocks,
+  ``B_1 * X * B_2 - U = (B_1 - U) * X * (B_2 - U)``, so every block either is absorbed
+  (factor 1) or contributes its deviation (``2 TV``, its separation, or its chi-square
+  distance through Young's and the Cauchy-Schwarz inequality); a further step never
+  increases total variation or KL, and separation is submultiplicative ([1]);
+* a ``conjectured`` upper bound — from the interleaving conjecture for separation
+  (:mod:`shufflecheck.models.interleaving`), shown beside the rigorous numbers under its own
+  label and never used to certify;
 * a lower ``bound`` at a stated confidence, from Monte Carlo: the distance between the law
   of a statistic of the deck and its exact law under a uniform deck is a lower bound on the
-  deck's total variation. The event is chosen on one half of the simulated decks (values
-  the statistic takes more often than under uniform) and its probability is bounded below
-  on the other half with the exact Clopper–Pearson bound, Bonferroni-corrected over the
-  statistics, so the bound is valid at the stated confidence ([2]). Separation is at least
-  TV, and KL (bits) at least ``2 TV^2 / ln 2`` (Pinsker's inequality, [3]);
+  deck's total variation. The decks are simulated in two halves. On the first, each
+  statistic's event is chosen (values the statistic takes more often than under uniform),
+  one member of each family of alternatives is picked (guessing strategies, short-rise
+  widths), and a likelihood-ratio score of the sequential ranks is fitted
+  (:mod:`shufflecheck.audit.ranks`); on the second, each event's probability is bounded
+  below with the exact Clopper–Pearson bound, Bonferroni-corrected over the statistics, so
+  the bound is valid at the stated confidence ([2]). The event's uniform probability is
+  exact (or, for the fitted score, a rigorous upper bound). Separation is at least TV, and
+  KL (bits) at least ``2 TV^2 / ln 2`` (Pinsker's inequality, [3]);
 * exploitability — an ``estimate``: the mean number of correct guesses per deck in the
   guessing game with feedback, for strategies suited to real procedures, against the exact
-  uniform mean ``H_n`` ([4]); the best strategy is picked on one half and measured on the
-  other, with a normal confidence interval.
+  uniform mean ``H_n`` ([4]); the best strategy is picked on the first half and measured on
+  the second, with a normal confidence interval.
 
 The simulation runs in chunks of decks, all repetition counts in one pass (each chunk is
 shuffled once more per repetition), so memory stays bounded and results are reproducible
@@ -45,19 +55,27 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from shufflecheck.audit.catalogue import DeckContext, DeckView, Statistic, battery_statistics
+from shufflecheck.audit.catalogue import (
+    DeckContext,
+    DeckView,
+    Statistic,
+    lower_bound_statistics,
+)
+from shufflecheck.audit.ranks import RankScore, fit_rank_score, rank_bin_counts
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
+from shufflecheck.core.block_bounds import block_bounds
 from shufflecheck.core.distances import DistanceRow
-from shufflecheck.models.base import Step
+from shufflecheck.models.blocks import ProcedureBlocks, procedure_blocks
+from shufflecheck.models.interleaving import conjectured_bounds
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
 from shufflecheck.models.procedures import Procedure
-from shufflecheck.models.riffle import Riffle
 
 __all__ = [
     "CAUTION",
+    "RANK_SCORE",
     "Assessment",
     "AssessmentRow",
     "StatisticBound",
@@ -65,19 +83,25 @@ __all__ = [
     "assessment_json",
     "assessment_work",
     "bound_statistics",
-    "exact_blocks",
+    "rigorous_upper_bounds",
 ]
 
 CAUTION = caution("the modelled procedure")
 
 MAX_REPEATS = 100
 MAX_DECKS = 50_000_000
+#: name of the fitted likelihood-ratio score among the lower-bound statistics
+RANK_SCORE = "rank-likelihood"
+_RANK_TITLE = "likelihood-ratio score of the sequential ranks (fitted on the first half)"
+#: the three metrics every row carries
+METRICS = ("total_variation", "separation", "kl_bits")
 
 
 @dataclass(frozen=True)
 class StatisticBound:
     """One statistic's lower confidence bound on total variation at one repetition count
-    (``statistic`` is its catalogue name, ``title`` its title)."""
+    (``statistic`` is its catalogue name, ``title`` its title); ``uniform_exact`` says
+    whether the event's uniform probability is exact (else a rigorous upper bound)."""
 
     statistic: str
     title: str
@@ -85,11 +109,17 @@ class StatisticBound:
     event_probability_uniform: float
     event_count: int
     measured_decks: int
+    uniform_exact: bool = True
 
 
 @dataclass(frozen=True)
 class AssessmentRow:
-    """Everything known about ``repeats`` runs of the procedure, each number labelled."""
+    """Everything known about ``repeats`` runs of the procedure, each number labelled.
+
+    ``upper`` holds the rigorous upper bounds of the three metrics, ``upper_extra`` the
+    bounds on the largest likelihood ratio ``n! max P`` and the chi-square distance, and
+    ``conjectured`` the figures of the interleaving conjecture (never bounds).
+    """
 
     repeats: int
     exact: DistanceRow | None
@@ -101,6 +131,8 @@ class AssessmentRow:
     best_strategy: str
     extra_guesses: Quantity
     uniform_guesses: float
+    upper_extra: dict[str, Quantity] = field(default_factory=dict)
+    conjectured: dict[str, Quantity] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -118,104 +150,19 @@ class Assessment:
 
 
 # ---------------------------------------------------------------------------------------
-# exact blocks
+# exact blocks and rigorous upper bounds
 
 
-def _block_row(steps: list[tuple[Step, int]], cards: int) -> tuple[str, DistanceRow | None]:
-    """Exact distances of a run of equal steps, or of consecutive ideal riffles (an
-    ``a``-shuffle with ``a`` the product of their packet counts, Bayer & Diaconis 1992)."""
-    if all(isinstance(step, Riffle) for step, _ in steps):
-        packets = 1
-        for step, times in steps:
-            packets *= step.hands**times
-        total = sum(times for _, times in steps)
-        label = f"riffle x{total}" if packets == 2**total else f"{packets}-shuffle"
-        from shufflecheck.models import riffle
+def rigorous_upper_bounds(split: ProcedureBlocks) -> dict[str, Quantity]:
+    """The block inequalities for one repeated procedure (empty without exact blocks).
 
-        if packets.bit_length() > riffle.MAX_EXACT_STEPS:
-            return label, None
-        return label, riffle.exact_distances(cards, 1, hands=packets)
-    ((step, times),) = steps
-    return (f"{step.describe()} x{times}" if times > 1 else step.describe()), step.exact_distances(
-        cards, times
-    )
-
-
-def exact_blocks(
-    procedure: Procedure, repeats: int, cards: int
-) -> tuple[DistanceRow | None, list[tuple[str, DistanceRow]]]:
-    """(exact distances of the whole repeated procedure or None, exact contiguous blocks).
-
-    Blocks are maximal runs of equal exactly analysed steps (consecutive ideal riffles of
-    any packet counts merge into one a-shuffle). Fixed rearrangements at either end of the
-    whole sequence change no distance, so a single block between them is exact for all.
+    Keys: the three metrics, ``likelihood_ratio`` and ``chi_square``; the method text
+    names the inequality and the blocks it used.
     """
-    runs = procedure.runs(repeats)
-    groups: list[list[tuple[Step, int]]] = []
-    for step, times in runs:
-        if (
-            groups
-            and isinstance(step, Riffle)
-            and all(isinstance(s, Riffle) for s, _ in groups[-1])
-        ):
-            groups[-1].append((step, times))
-        else:
-            groups.append([(step, times)])
-    blocks: list[tuple[str, DistanceRow]] = []
-    exact_groups = []
-    for group in groups:
-        if all(step.deterministic for step, _ in group):
-            exact_groups.append(None)
-            continue
-        label, row = _block_row(group, cards)
-        exact_groups.append(row)
-        if row is not None:
-            blocks.append((label, row))
-    # whole procedure: deterministic groups only at the ends, one exact group in between
-    random_groups = [i for i, g in enumerate(groups) if not all(s.deterministic for s, _ in g)]
-    whole: DistanceRow | None = None
-    if not random_groups:
-        fact = math.factorial(cards)
-        whole = DistanceRow(
-            repeats,
-            1.0 - 1.0 / fact if cards < 171 else 1.0,
-            1.0,
-            math.log2(fact),
-            "exact",
-            "fixed rearrangement",
-        )
-    elif len(random_groups) == 1:
-        row = exact_groups[random_groups[0]]
-        if row is not None:
-            whole = DistanceRow(
-                repeats, row.total_variation, row.separation, row.kl_bits, "exact", row.note
-            )
-    return whole, blocks
-
-
-def _upper_bounds(blocks: list[tuple[str, DistanceRow]]) -> dict[str, Quantity]:
-    if not blocks:
+    if not split.blocks:
         return {}
-    tv_min = min(row.total_variation for _, row in blocks if row.total_variation is not None)
-    sep_product = math.prod(row.separation for _, row in blocks if row.separation is not None)
-    kl_values = [row.kl_bits for _, row in blocks if row.kl_bits is not None]
-    names = ", ".join(label for label, _ in blocks)
-    out = {
-        "total_variation": Quantity(
-            min(tv_min, sep_product),
-            "bound",
-            side="upper",
-            method=f"smallest exact TV of a block, or the product of block separations ({names})",
-        ),
-        "separation": Quantity(
-            sep_product, "bound", side="upper", method=f"product of block separations ({names})"
-        ),
-    }
-    if kl_values:
-        out["kl_bits"] = Quantity(
-            min(kl_values), "bound", side="upper", method=f"smallest exact KL of a block ({names})"
-        )
-    return out
+    figures = [block.figures(k + 1) for k, block in enumerate(split.blocks)]
+    return dict(block_bounds(figures).bounds)
 
 
 # ---------------------------------------------------------------------------------------
@@ -232,15 +179,18 @@ def _clopper_pearson_lower(successes: int, trials: int, alpha: float) -> float:
 
 
 def bound_statistics(cards: int, strategies: tuple[str, ...]) -> tuple[Statistic, ...]:
-    """The catalogue statistics behind the lower bounds (one per guessing strategy; the
-    best strategy is chosen on the first half of the decks)."""
+    """The catalogue statistics behind the lower bounds (families of alternatives, such as
+    one statistic per guessing strategy, count once: their member is picked on the first
+    half of the decks)."""
     context = DeckContext.checked(cards, strategies=strategies)
-    return tuple(s for s in battery_statistics(context) if s.lower_bound)
+    return lower_bound_statistics(context)
 
 
-def _bonferroni_count(statistics: tuple[Statistic, ...]) -> int:
-    """Statistics that give a bound: the non-guessing ones and the one best strategy."""
-    return sum(s.strategy is None for s in statistics) + 1
+def _bonferroni_count(statistics: tuple[Statistic, ...], fitted: bool) -> int:
+    """Bounds that are tested: one per statistic outside a family, one per family, and the
+    fitted score."""
+    families = {s.family for s in statistics if s.family is not None}
+    return sum(s.family is None for s in statistics) + len(families) + int(fitted)
 
 
 def _uniform_pmf(stat: Statistic, cards: int) -> np.ndarray:
@@ -252,16 +202,34 @@ def _uniform_pmf(stat: Statistic, cards: int) -> np.ndarray:
     return pmf
 
 
+def _halves(decks: int) -> tuple[int, int]:
+    """Decks in the first half (choices and fits) and the second (the bounds)."""
+    first = (decks + 1) // 2
+    return first, decks - first
+
+
+def assessment_work(decks: int, repeats: int) -> int:
+    """Progress units :func:`assess` reports: one per (chunk of decks, repetition count),
+    the two halves chunked separately."""
+    return sum(-(-half // CHUNK_DECKS) for half in _halves(decks)) * repeats
+
+
 @dataclass
 class _Tally:
-    """Mergeable Monte Carlo summaries: per repetition count, per statistic and per half,
-    histograms of values; per strategy and half, sums and sums of squares of scores."""
+    """Mergeable Monte Carlo summaries, per repetition count: histograms of every
+    statistic's values on each half; sums and sums of squares of every strategy's scores
+    on the first half and of the chosen strategy's on the second; the ranks' bin counts on
+    the first half; the fitted score's event count on the second."""
 
     context: DeckContext
     statistics: tuple[Statistic, ...]
     hist: np.ndarray  # (repeats, statistics, 2, n + 1)
     sums: np.ndarray  # (repeats, strategies, 2, 2)
-    halves: np.ndarray  # decks in each half
+    rank_counts: list[np.ndarray | None]
+    scores: list[RankScore | None]
+    score_events: np.ndarray  # (repeats,)
+    halves: np.ndarray
+    best: list[str] = field(default_factory=list)
 
     @property
     def strategies(self) -> tuple[str, ...]:
@@ -276,24 +244,49 @@ class _Tally:
             stats,
             np.zeros((repeats, len(stats), 2, cards + 1), dtype=np.int64),
             np.zeros((repeats, len(strategies), 2, 2)),
+            [None] * repeats,
+            [None] * repeats,
+            np.zeros(repeats, dtype=np.int64),
             np.zeros(2, dtype=np.int64),
         )
 
-    def add(self, r: int, relative: np.ndarray, half: np.ndarray) -> None:
+    def add(self, r: int, relative: np.ndarray, half: int) -> None:
         cards = relative.shape[1]
-        view = DeckView(relative, relative, self.context)
-        values = {}
+        if half == 0:
+            context = self.context
+        else:  # only the strategy chosen on the first half is played on the second
+            context = DeckContext(cards, strategies=(self.best[r],))
+        view = DeckView(relative, relative, context)
         for s, stat in enumerate(self.statistics):
+            if stat.strategy is not None and stat.strategy not in context.strategies:
+                continue
             assert stat.values is not None
-            values[stat.name] = stat.values(view)
-            cells = half * (cards + 1) + values[stat.name]
-            self.hist[r, s] += np.bincount(cells, minlength=2 * (cards + 1)).reshape(2, -1)
-        guesses = {stat.strategy: values[stat.name] for stat in self.statistics if stat.strategy}
-        for g, name in enumerate(self.strategies):
-            scores = guesses[name].astype(np.float64)
-            for h in (0, 1):
-                chosen = scores[half == h]
-                self.sums[r, g, h] += (chosen.sum(), (chosen * chosen).sum())
+            values = stat.values(view)
+            self.hist[r, s, half] += np.bincount(values, minlength=cards + 1)
+            if stat.strategy is not None:
+                g = self.strategies.index(stat.strategy)
+                scores = values.astype(np.float64)
+                self.sums[r, g, half] += (scores.sum(), (scores * scores).sum())
+        if cards < 3:
+            return
+        if half == 0:
+            counts = rank_bin_counts(view.ranks)
+            previous = self.rank_counts[r]
+            self.rank_counts[r] = counts if previous is None else previous + counts
+        else:
+            score = self.scores[r]
+            if score is not None:
+                self.score_events[r] += int(
+                    np.count_nonzero(score.scores(view.ranks) >= score.threshold)
+                )
+
+    def fit(self) -> None:
+        """Choices made on the first half: best strategy, fitted score, per count."""
+        choose = self.sums[:, :, 0, 0] / max(int(self.halves[0]), 1)
+        self.best = [self.strategies[int(np.argmax(choose[r]))] for r in range(choose.shape[0])]
+        cards = self.context.cards
+        for r, counts in enumerate(self.rank_counts):
+            self.scores[r] = fit_rank_score(counts, cards) if counts is not None else None
 
 
 def _mean_interval(
@@ -304,11 +297,6 @@ def _mean_interval(
     variance = max(squares / count - mean * mean, 0.0) * count / max(count - 1, 1)
     stderr = math.sqrt(variance / count)
     return mean, stderr, z * stderr
-
-
-def assessment_work(decks: int, repeats: int) -> int:
-    """Progress units :func:`assess` reports: one per (chunk of decks, repetition count)."""
-    return -(-decks // CHUNK_DECKS) * repeats
 
 
 def assess(
@@ -333,8 +321,9 @@ def assess(
     repeats : int
         Largest repetition count ``R``.
     decks : int
-        Simulated decks, split in two halves (even and odd deck numbers) for the lower
-        bounds and the choice of the best guessing strategy.
+        Simulated decks, split in two halves: the first ``ceil(decks/2)`` for the choices
+        (events, family members, the fitted score, the best guessing strategy), the rest
+        for the bounds and the measured guessing edge.
     rng : Generator, int or None
         Seed or generator; the whole assessment is reproducible from it.
     confidence : float
@@ -344,6 +333,9 @@ def assess(
     progress : callable, optional
         Called with the number of (chunk, repetition) units done; there are
         :func:`assessment_work` of them.
+
+    The cost is linear in ``decks x cards x repeats`` (every statistic is computed in
+    a bounded number of passes over each deck).
     """
     from shufflecheck.audit.guessing import STRATEGIES, check_strategies
 
@@ -358,17 +350,19 @@ def assess(
 
     tally = _Tally.empty(repeats, cards, names)
     done = 0
-    for start in range(0, decks, CHUNK_DECKS):
-        stop = min(decks, start + CHUNK_DECKS)
-        half = np.arange(start, stop) % 2
-        tally.halves += np.bincount(half, minlength=2)
-        current = identity_decks(stop - start, cards)
-        for r in range(repeats):
-            current = procedure.apply(current, generator)
-            tally.add(r, current, half)
-            done += 1
-            if progress is not None:
-                progress(done)
+    for half, size in enumerate(_halves(decks)):
+        if half == 1:
+            tally.fit()
+        for start in range(0, size, CHUNK_DECKS):
+            count = min(size, start + CHUNK_DECKS) - start
+            tally.halves[half] += count
+            current = identity_decks(count, cards)
+            for r in range(repeats):
+                current = procedure.apply(current, generator)
+                tally.add(r, current, half)
+                done += 1
+                if progress is not None:
+                    progress(done)
     rows = tuple(_row(procedure, cards, r, tally, confidence) for r in range(repeats))
     notes = []
     if procedure.deterministic:
@@ -387,27 +381,25 @@ def _row(
 ) -> AssessmentRow:
     from shufflecheck.core.counting import harmonic
 
-    decks = int(tally.halves.sum())
+    chosen, measured = (int(h) for h in tally.halves)
     z = _normal_quantile(0.5 + confidence / 2)
-    whole, blocks = exact_blocks(procedure, r + 1, cards)
+    split = procedure_blocks(procedure, r + 1, cards)
+    whole = split.whole
     names = tally.strategies
+    best = tally.best[r]
     guessing = {}
     for g, name in enumerate(names):
-        total, squares = tally.sums[r, g].sum(axis=0)
-        mean, stderr, hw = _mean_interval(total, squares, decks, z)
+        total, squares = tally.sums[r, g, 0]
+        mean, stderr, hw = _mean_interval(total, squares, chosen, z)
         guessing[name] = Quantity(
             mean,
             "estimate",
             confidence=confidence,
             interval=(mean - hw, mean + hw),
             stderr=stderr,
-            method=f"Monte Carlo, {decks:,} decks",
+            method=f"Monte Carlo, the {chosen:,} decks of the first half",
         )
-    # the best strategy is picked on half 0 and measured on half 1 (no selection bias)
-    choose = tally.sums[r, :, 0, 0] / tally.halves[0]
-    best_index = int(np.argmax(choose))
-    best = names[best_index]
-    measured = int(tally.halves[1])
+    best_index = names.index(best)
     uniform_mean = float(harmonic(cards))
     mean1, stderr1, hw1 = _mean_interval(*tally.sums[r, best_index, 1], measured, z)
     extra = Quantity(
@@ -416,15 +408,13 @@ def _row(
         confidence=confidence,
         interval=(mean1 - uniform_mean - hw1, mean1 - uniform_mean + hw1),
         stderr=stderr1,
-        method=(
-            f"strategy '{best}' chosen on {int(tally.halves[0]):,} decks, measured on {measured:,}"
-        ),
+        method=f"strategy '{best}' chosen on {chosen:,} decks, measured on {measured:,}",
     )
     bounds = _statistic_bounds(tally, r, cards, best, confidence)
     top = max(bounds, key=lambda b: b.lower_bound)
     note = (
         f"lower {confidence:.0%} confidence bound from {top.title} "
-        f"(split sample of {decks:,} decks)"
+        f"(split sample of {chosen + measured:,} decks)"
     )
     tv_low = top.lower_bound
     lower = {
@@ -440,41 +430,83 @@ def _row(
             side="lower",
             confidence=confidence,
             method=f"Pinsker's inequality, KL >= 2 TV^2 / ln 2; {note}",
+            unit="bits",
         ),
     }
+    upper_all = rigorous_upper_bounds(split) if whole is None else {}
     return AssessmentRow(
         repeats=r + 1,
         exact=whole,
-        upper=_upper_bounds(blocks) if whole is None else {},
-        upper_blocks=tuple(label for label, _ in blocks),
+        upper={k: q for k, q in upper_all.items() if k in METRICS},
+        upper_blocks=tuple(block.label for block in split.blocks),
         lower=lower,
         lower_by_statistic=tuple(bounds),
         guessing=guessing,
         best_strategy=best,
         extra_guesses=extra,
         uniform_guesses=uniform_mean,
+        upper_extra={k: q for k, q in upper_all.items() if k not in METRICS},
+        conjectured=_conjectured(split, cards, upper_all),
     )
+
+
+def _conjectured(
+    split: ProcedureBlocks, cards: int, upper: dict[str, Quantity]
+) -> dict[str, Quantity]:
+    """The conjecture's figures where they say more than the rigorous bounds."""
+    out = {}
+    for metric, value in conjectured_bounds(split, cards).items():
+        rigorous = upper.get(metric)
+        if rigorous is None or value.value < rigorous.value:
+            out[metric] = value
+    return out
 
 
 def _statistic_bounds(
     tally: _Tally, r: int, cards: int, best: str, confidence: float
 ) -> list[StatisticBound]:
-    """Split-sample lower confidence bounds on TV, one per statistic (Bonferroni over the
-    statistics that give a bound): the event is where half 0 over-represents a value."""
-    alpha_each = (1 - confidence) / _bonferroni_count(tally.statistics)
-    measured = int(tally.halves[1])
+    """Split-sample lower confidence bounds on TV, Bonferroni over the bounds tested: the
+    event is where the first half over-represents a value (or, for the fitted score, a
+    score at least the threshold chosen from the fit)."""
+    score = tally.scores[r]
+    alpha_each = (1 - confidence) / _bonferroni_count(tally.statistics, score is not None)
+    chosen, measured = (int(h) for h in tally.halves)
+    candidates: dict[str, tuple[float, StatisticBound]] = {}
     bounds = []
     for s, stat in enumerate(tally.statistics):
         if stat.strategy is not None and stat.strategy != best:
             continue
         pmf = _uniform_pmf(stat, cards)
-        event = tally.hist[r, s, 0] / tally.halves[0] > pmf
+        first = tally.hist[r, s, 0] / max(chosen, 1)
+        event = first > pmf
         successes = int(tally.hist[r, s, 1][event].sum())
         uniform = float(pmf[event].sum())
         lower_p = _clopper_pearson_lower(successes, measured, alpha_each)
+        found = StatisticBound(
+            stat.name, stat.title, max(0.0, lower_p - uniform), uniform, successes, measured
+        )
+        if stat.family is None or stat.strategy is not None:
+            bounds.append(found)
+            continue
+        # a family member is picked on the first half: the largest excess there
+        excess = float(first[event].sum() - uniform)
+        held = candidates.get(stat.family)
+        if held is None or excess > held[0]:
+            candidates[stat.family] = (excess, found)
+    bounds.extend(found for _, found in candidates.values())
+    if score is not None:
+        uniform = score.uniform_probability()
+        successes = int(tally.score_events[r])
+        lower_p = _clopper_pearson_lower(successes, measured, alpha_each)
         bounds.append(
             StatisticBound(
-                stat.name, stat.title, max(0.0, lower_p - uniform), uniform, successes, measured
+                RANK_SCORE,
+                _RANK_TITLE,
+                max(0.0, lower_p - uniform),
+                uniform,
+                successes,
+                measured,
+                uniform_exact=False,
             )
         )
     return bounds
@@ -506,7 +538,9 @@ def assessment_json(result: Assessment) -> dict:
                 "repeats": row.repeats,
                 "exact": distances(row.exact),
                 "upper_bound": {k: q.as_json() for k, q in row.upper.items()},
+                "upper_bound_extra": {k: q.as_json() for k, q in row.upper_extra.items()},
                 "upper_bound_blocks": list(row.upper_blocks),
+                "conjectured": {k: q.as_json() for k, q in row.conjectured.items()},
                 "lower_bound": {k: q.as_json() for k, q in row.lower.items()},
                 "lower_bound_by_statistic": [
                     {
@@ -514,6 +548,9 @@ def assessment_json(result: Assessment) -> dict:
                         "title": b.title,
                         "total_variation_lower_bound": b.lower_bound,
                         "event_probability_uniform": b.event_probability_uniform,
+                        "event_probability_uniform_kind": (
+                            "exact" if b.uniform_exact else "upper bound"
+                        ),
                         "event_count": b.event_count,
                         "measured_decks": b.measured_decks,
                     }

@@ -39,6 +39,11 @@ For each procedure the decision is, at the first repetition count that meets the
 
 The house count's standing is ``meets`` (certified), ``fails`` (exact, or a lower
 confidence bound above the target) or ``undetermined``.
+
+When the bounds leave the decision open (no certified minimum, or an undetermined house
+count), the decision carries a :class:`~shufflecheck.analyses.settle.Settlement`: the
+smallest change that certifies, the conjectured answer under its own label, and how many
+recorded decks an audit needs to detect the procedure.
 """
 
 from __future__ import annotations
@@ -63,6 +68,7 @@ __all__ = [
     "decide",
     "evaluate_policy",
     "load_policy",
+    "policy_size",
     "policy_work",
 ]
 
@@ -385,6 +391,20 @@ class PolicyDecision:
     standing_how: str | None
     assessment: Any
     audits: tuple[tuple[LogSpec, Any], ...] = ()
+    settlement: Any = None
+
+    @property
+    def open(self) -> bool:
+        """True when the bounds leave the decision open (what :attr:`settlement` answers)."""
+        return self.minimum is None or self.standing == "undetermined"
+
+    @property
+    def open_repeats(self) -> int:
+        """The count a settlement is about: the house count when its standing is open,
+        else the smallest count the lower bounds do not exclude (else the largest)."""
+        if self.standing == "undetermined" and self.procedure.house is not None:
+            return self.procedure.house
+        return self.estimate_low or self.procedure.max_repeats
 
     def summary(self, metric_label: str, target: float) -> str:
         """One sentence a manager can read."""
@@ -470,21 +490,42 @@ def decide(
     return PolicyDecision(proc, minimum, kind, estimate_low, standing, standing_how, assessment)
 
 
+#: progress units of one settlement (its audit planning), beside the assessment's chunks
+SETTLE_WORK = 1
+
+
 def policy_work(policy: Policy) -> int:
-    """Units of work :func:`evaluate_policy` reports to its progress callback."""
+    """Units of work :func:`evaluate_policy` reports to its progress callback: the
+    assessment chunks of every procedure and one unit per procedure for its settlement."""
     from shufflecheck.analyses.assess import assessment_work
 
-    return sum(assessment_work(policy.decks, proc.max_repeats) for proc in policy.procedures)
+    return sum(
+        assessment_work(policy.decks, proc.max_repeats) + SETTLE_WORK for proc in policy.procedures
+    )
+
+
+def policy_size(policy: Policy) -> str:
+    """The expected size of :func:`evaluate_policy`, in words (said before it starts)."""
+    parts = []
+    for proc in policy.procedures:
+        parts.append(
+            f"{proc.name}: {policy.decks:,} decks x {proc.cards} cards x "
+            f"{proc.max_repeats} repetition{'s' if proc.max_repeats != 1 else ''}"
+        )
+    cells = sum(policy.decks * p.cards * p.max_repeats for p in policy.procedures)
+    return f"{'; '.join(parts)} ({cells / 1e6:,.0f} million card positions to simulate)"
 
 
 def evaluate_policy(
     policy: Policy, *, progress: Callable[[int], None] | None = None
 ) -> PolicyResult:
-    """Assess every procedure of the policy, decide, and audit the attached logs.
+    """Assess every procedure of the policy, decide, settle what the bounds leave open,
+    and audit the attached logs.
 
     ``progress`` is called with the units done so far (out of :func:`policy_work`).
     """
     from shufflecheck.analyses.assess import assess, assessment_work
+    from shufflecheck.analyses.settle import settle
 
     decisions = []
     offset = 0
@@ -505,8 +546,23 @@ def evaluate_policy(
         )
         offset += assessment_work(policy.decks, proc.max_repeats)
         decision = decide(result, policy.metric, policy.target, proc.house, proc)
+        settlement = None
+        if decision.open:
+            settlement = settle(
+                proc.procedure,
+                proc.cards,
+                result,
+                metric=policy.metric,
+                target=policy.target,
+                repeats=decision.open_repeats,
+                alpha=policy.alpha,
+                seed=policy.seed + i,
+            )
+        offset += SETTLE_WORK
+        if progress is not None:
+            progress(offset)
         audits = tuple((log, _audit(log, proc, policy)) for log in proc.logs)
-        decisions.append(dataclasses.replace(decision, audits=audits))
+        decisions.append(dataclasses.replace(decision, audits=audits, settlement=settlement))
     return PolicyResult(policy, tuple(decisions))
 
 

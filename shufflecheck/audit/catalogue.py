@@ -28,6 +28,14 @@ Catalogue (report order; the guessing game has one entry per strategy)::
     colour-runs (decks with colours)  suit-runs (decks with suits)
     guess-<strategy>  repeat-positions
 
+and, for the lower bounds of assessments only (not in the audit battery; they read the
+deck around a circle, so a cut changes nothing, and strips little)::
+
+    cyclic-rising-sequences  cyclic-valleys  short-rises-4  short-rises-16
+
+Statistics of one ``family`` (the guessing strategies; the short-rise widths) are
+alternatives: an assessment picks one member on half of its simulated decks.
+
 References
 ----------
 .. [1] D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl.
@@ -47,7 +55,7 @@ from typing import Literal
 
 import numpy as np
 
-from shufflecheck.audit import nulls, statistics
+from shufflecheck.audit import nulls, ranks, statistics
 from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies, guess_scores_many
 from shufflecheck.audit.nulls import Law
 from shufflecheck.audit.statistics import as_decks, category_codes
@@ -64,6 +72,7 @@ __all__ = [
     "deck_values",
     "guess_statistic",
     "law_sources",
+    "lower_bound_statistics",
     "statistic",
 ]
 
@@ -120,6 +129,18 @@ class DeckView:
         return statistics.order_statistics(self.relative, check=False)
 
     @cached_property
+    def rising(self) -> np.ndarray:
+        """Rising sequences (with the inversions on the 64-bit path, alone otherwise)."""
+        if statistics.bitmask_ok(self.relative.shape[1]):
+            return self.order[1]
+        return statistics.rising_only(self.relative, check=False)
+
+    @cached_property
+    def ranks(self) -> np.ndarray:
+        """Sequential ranks of :mod:`shufflecheck.audit.ranks` (one row per deck)."""
+        return ranks.inverse_ranks(self.relative, check=False)
+
+    @cached_property
     def guesses(self) -> dict[str, np.ndarray]:
         return guess_scores_many(self.relative, self.context.strategies, check=False)
 
@@ -168,6 +189,10 @@ class Statistic:
         Used for the Monte Carlo lower bounds on total variation of an assessment.
     strategy : str or None
         For the guessing game: the strategy played.
+    family : str or None
+        Statistics of one family are alternatives (one is picked for a lower bound).
+    battery : bool
+        Part of the audit battery (False: assessment lower bounds only).
     """
 
     name: str
@@ -184,6 +209,8 @@ class Statistic:
     sentence: Callable[[Statistic, float, float], str] | None = None
     lower_bound: bool = False
     strategy: str | None = None
+    family: str | None = None
+    battery: bool = True
 
     def describe_effect(self, observed: float, expected: float) -> str:
         """The effect in one sentence (means as shown, i.e. after ``shown_offset``)."""
@@ -231,7 +258,7 @@ _BASE: tuple[Statistic, ...] = (
         "two-sided",
         "rising sequences",
         "rising sequences per deck",
-        values=lambda v: v.order[1],
+        values=lambda v: v.rising,
         law=_cards(nulls.rising_law),
         law_source="Eulerian numbers (OEIS A008292)",
         lower_bound=True,
@@ -356,6 +383,54 @@ _BASE: tuple[Statistic, ...] = (
     ),
 )
 
+
+def _short_rises(width: int) -> Statistic:
+    return Statistic(
+        f"short-rises-{width}",
+        f"short rises (card c+1 within about {width} free positions below card c)",
+        "greater",
+        f"short rises (width {width})",
+        "short rises per deck",
+        values=lambda v: ranks.short_rises(v.ranks, width),
+        law=lambda c: ranks.short_rises_law(c.cards, width),
+        law_source="independent uniform sequential ranks: a sum of Bernoulli(k/m), exact",
+        lower_bound=True,
+        family="short-rises",
+        battery=False,
+    )
+
+
+#: widths of the short-rise family (positions, roughly; see audit/ranks.py)
+SHORT_RISE_WIDTHS = (4, 16)
+
+_CYCLIC: tuple[Statistic, ...] = (
+    Statistic(
+        "cyclic-rising-sequences",
+        "rising sequences after the best cut (cyclic)",
+        "two-sided",
+        "rising sequences after the best cut",
+        "rising sequences per deck",
+        values=lambda v: statistics.cyclic_rising_sequences(v.relative, check=False),
+        law=_cards(nulls.cyclic_rising_law),
+        law_source="n A(n-1, k-1), Eulerian numbers (OEIS A008292) of n - 1 cards",
+        lower_bound=True,
+        battery=False,
+    ),
+    Statistic(
+        "cyclic-valleys",
+        "valleys, the deck read around a circle",
+        "two-sided",
+        "cyclic valleys",
+        "valleys per deck",
+        values=lambda v: statistics.cyclic_valleys(v.relative, check=False),
+        law=_cards(nulls.cyclic_valleys_law),
+        law_source="n V(n-1, k-1), arrangements by valleys (OEIS A008303) of n - 1 cards",
+        lower_bound=True,
+        battery=False,
+    ),
+    *(_short_rises(w) for w in SHORT_RISE_WIDTHS),
+)
+
 _REPEAT = Statistic(
     "repeat-positions",
     "same card at the same position as in the previous deck",
@@ -386,17 +461,30 @@ def guess_statistic(strategy: str) -> Statistic:
         sentence=_guess_sentence(name),
         lower_bound=True,
         strategy=name,
+        family="guessing",
     )
 
 
 def catalogue(strategies: Sequence[str] = DEFAULT_STRATEGIES) -> tuple[Statistic, ...]:
-    """Every statistic, in report order (sequential test last), whatever a deck provides."""
-    return (*_BASE, *(guess_statistic(s) for s in check_strategies(strategies)), _REPEAT)
+    """Every statistic, in report order (sequential test last, then the statistics used
+    only for assessment lower bounds), whatever a deck provides."""
+    guesses = (guess_statistic(s) for s in check_strategies(strategies))
+    return (*_BASE, *guesses, _REPEAT, *_CYCLIC)
 
 
 def battery_statistics(context: DeckContext) -> tuple[Statistic, ...]:
-    """The statistics that apply to decks of ``context``, in report order."""
-    return tuple(s for s in catalogue(context.strategies) if context.has(s.need))
+    """The audit battery's statistics that apply to decks of ``context``, in report order."""
+    return tuple(s for s in catalogue(context.strategies) if s.battery and context.has(s.need))
+
+
+def lower_bound_statistics(context: DeckContext) -> tuple[Statistic, ...]:
+    """The statistics behind the Monte Carlo lower bounds of an assessment (per-deck, with
+    an exact law), in catalogue order."""
+    return tuple(
+        s
+        for s in catalogue(context.strategies)
+        if s.lower_bound and context.has(s.need) and s.shape == "per-deck"
+    )
 
 
 def law_sources(statistics: Sequence[Statistic]) -> str:

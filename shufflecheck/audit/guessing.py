@@ -33,7 +33,13 @@ Strategies (cards are labels in the reference order, 0 = the reference top card)
     unshuffled deck, and on a deck whose top stock was left alone.
 
 All strategies are vectorized over decks: the loop runs over the ``n`` positions, with the
-seen cards of every deck held as a 64-bit mask when ``n <= 63`` (boolean arrays otherwise).
+seen cards of every deck held as a 64-bit mask when ``n <= 63``. For larger decks the seen
+(and, read backwards, the unseen) cards are kept as merged blocks of consecutive labels
+(each block's end stored at its start and its start at its end), so every guess costs a
+few array operations whatever ``n``: the lowest unseen card and the unseen card just above
+the current packet come from the blocks of seen cards; the longest unseen block is
+followed backwards from the end of the deck, where blocks only ever merge. The cost is
+linear in ``decks x cards``.
 
 References
 ----------
@@ -152,7 +158,10 @@ def _play(
     picks = {name: np.zeros((count, n), dtype=np.int64) for name in names} if record else {}
     if count == 0 or not names:
         return scores, picks
-    play = _play_bitmask if bitmask_ok(n) and not force_generic else _play_generic
+    if force_generic:
+        play = _play_generic
+    else:
+        play = _play_bitmask if bitmask_ok(n) else _play_blocks
     for start in range(0, count, _CHUNK):
         stop = min(count, start + _CHUNK)
         cols = np.ascontiguousarray(decks[start:stop].T).astype(np.int64)
@@ -306,6 +315,110 @@ def _play_generic(
             while todo.size:
                 low[todo] += 1
                 todo = todo[seen[todo, low[todo]]]
+    return {name: (score[name], picked.get(name)) for name in names}
+
+
+#: decks per block of the linear-time path (its tables stay in cache)
+_BLOCK_DECKS = 4096
+
+
+def _merge(
+    present: np.ndarray, start_at: np.ndarray, end_at: np.ndarray, base: np.ndarray, card
+) -> tuple[np.ndarray, np.ndarray]:
+    """Add ``card`` to each deck's blocks of consecutive labels; return the merged block
+    ``(start, end)``. Tables are flat, one row of ``n + 2`` cells per deck starting at ``base``;
+    label ``c`` sits in cell ``c + 1`` (cells 0 and ``n + 1`` stay empty)."""
+    cell = base + card
+    start = np.where(present[cell], start_at[cell], card)  # cell of label card - 1
+    end = np.where(present[cell + 2], end_at[cell + 2], card)  # label card + 1
+    present[cell + 1] = True
+    end_at[base + start + 1] = end
+    start_at[base + end + 1] = start
+    return start, end
+
+
+def _play_blocks(
+    cols: np.ndarray, names: tuple[str, ...], record: bool
+) -> dict[str, tuple[np.ndarray, np.ndarray | None]]:
+    """The strategies in linear time, block by block of decks (same guesses as
+    :func:`_play_generic`)."""
+    n, count = cols.shape
+    score = {name: np.zeros(count, dtype=np.int64) for name in names}
+    picked = {name: np.zeros((n, count), dtype=np.int64) for name in names} if record else {}
+    for first in range(0, count, _BLOCK_DECKS):
+        part = slice(first, min(count, first + _BLOCK_DECKS))
+        found = _play_blocks_part(cols[:, part].astype(np.int16), names, record)
+        for name in names:
+            score[name][part] = found[name][0]
+            if record:
+                picked[name][:, part] = found[name][1]
+    return {name: (score[name], picked.get(name)) for name in names}
+
+
+def _play_blocks_part(
+    cols: np.ndarray, names: tuple[str, ...], record: bool
+) -> dict[str, tuple[np.ndarray, np.ndarray | None]]:
+    n, count = cols.shape
+    base = (np.arange(count) * (n + 2)).astype(np.int64)
+    score = {name: np.zeros(count, dtype=np.int64) for name in names}
+    picked = {name: np.zeros((n, count), dtype=np.int64) for name in names} if record else {}
+
+    def note(name: str, i: int, guess: np.ndarray) -> None:
+        score[name] += guess == cols[i]
+        if record:
+            picked[name][i] = guess
+
+    def tables() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        size = count * (n + 2)
+        return np.zeros(size, bool), np.zeros(size, np.int16), np.zeros(size, np.int16)
+
+    if "lowest-unseen" in names or "strip" in names:
+        seen, start_at, end_at = tables()
+        top = base + 1  # cell of label 0
+        last = np.full(count, n - 1, dtype=np.int16)
+        run_start = np.full(count, n, dtype=np.int16)
+        run_len = np.ones(count, dtype=np.int16)
+        block_start = np.full(count, n, dtype=np.int16)  # of the block holding the last card
+        for i in range(n):
+            card = cols[i]
+            lowest = np.where(seen[top], end_at[top] + 1, 0)
+            if "lowest-unseen" in names:
+                note("lowest-unseen", i, lowest)
+            if "strip" in names:
+                nxt = last + 1
+                cont = (nxt < n) & ~seen[base + np.minimum(nxt, n - 1) + 1]
+                if i == 0:
+                    cont[:] = False
+                jump = run_start - run_len
+                jump_ok = (jump >= 0) & ~seen[base + np.maximum(jump, 0) + 1]
+                # the unseen card just above the current packet: above its seen block
+                above = block_start - 1
+                guess = np.where(jump_ok, jump, np.where(above >= 0, above, lowest))
+                note("strip", i, np.where(cont, nxt, guess))
+            follows = (card == last + 1) & (i > 0)
+            run_len = np.where(follows, run_len + 1, 1).astype(np.int16)
+            run_start = np.where(follows, run_start, card)
+            last = card
+            block_start, _ = _merge(seen, start_at, end_at, base, card)
+    if "longest-run" in names or "next-card" in names:
+        unseen, start_at, end_at = tables()
+        longest_len = np.zeros(count, dtype=np.int16)
+        longest = np.zeros(count, dtype=np.int16)
+        for i in range(n - 1, -1, -1):
+            card = cols[i]
+            start, end = _merge(unseen, start_at, end_at, base, card)
+            length = end - start + 1
+            tie = (length == longest_len) & (start < longest)
+            longest = np.where((length > longest_len) | tie, start, longest)
+            longest_len = np.maximum(longest_len, length)
+            if "longest-run" in names:
+                note("longest-run", i, longest)
+            if "next-card" in names:
+                if i == 0:
+                    note("next-card", i, longest)
+                else:
+                    nxt = (cols[i - 1] + 1) % n
+                    note("next-card", i, np.where(unseen[base + nxt + 1], nxt, longest))
     return {name: (score[name], picked.get(name)) for name in names}
 
 

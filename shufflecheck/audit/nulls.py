@@ -60,6 +60,8 @@ __all__ = [
     "adjacent_pairs_law",
     "card_position_law",
     "cycles_law",
+    "cyclic_rising_law",
+    "cyclic_valleys_law",
     "descents_law",
     "fixed_points_law",
     "guessing_law",
@@ -209,6 +211,38 @@ def successions_law(n: int) -> Law:
     """Successions (reference card ``i+1`` directly below card ``i``): C(n-1,k) a(n-1-k)."""
     n = _check_cards(n)
     return Law.from_counts(successions_row(n), math.factorial(n))
+
+
+@cache
+def cyclic_rising_law(n: int) -> Law:
+    """Cyclic rising sequences (:func:`~shufflecheck.audit.statistics.cyclic_rising_sequences`)
+    of a uniform deck: ``n A(n-1, k-1)`` arrangements have ``k`` of them, ``k = 1..n-1``.
+
+    They are the cyclic descents of the inverse arrangement; turning its cyclic word so
+    that the largest entry comes last leaves ``1 + des`` of a uniform arrangement of the
+    other ``n - 1`` entries, and each of the ``n`` turns is one arrangement (derived in
+    docs/methods.md, checked by brute force).
+    """
+    n = _check_cards(n)
+    if n == 1:
+        return Law((1,), 1, offset=1)
+    return Law.from_counts([n * c for c in eulerian_row(n - 1)], math.factorial(n), offset=1)
+
+
+@cache
+def cyclic_valleys_law(n: int) -> Law:
+    """Cyclic valleys (:func:`~shufflecheck.audit.statistics.cyclic_valleys`) of a uniform
+    deck: ``n V(n-1, k-1)`` arrangements have ``k``, with ``V`` the arrangements of
+    ``n - 1`` cards by valleys (OEIS A008303, by turning every label ``x`` into
+    ``n - 2 - x``). Turning the circle so that the lowest card comes last, it is a valley
+    and the others are the valleys of the first ``n - 1`` cards read in a line (derived in
+    docs/methods.md, checked by brute force)."""
+    from shufflecheck.models.shelf import valley_counts
+
+    n = _check_cards(n)
+    if n == 1:
+        return Law((1,), 1)
+    return Law.from_counts([n * c for c in valley_counts(n - 1)], math.factorial(n), offset=1)
 
 
 @cache

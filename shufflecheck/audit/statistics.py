@@ -17,7 +17,12 @@ Definitions (``p`` one deck, positions and labels 0-based):
 * adjacent pairs: ``#{i : |p[i+1] - p[i]| = 1}`` (reference neighbours still touching);
 * card position: where a given reference card (the top one, the bottom one) now lies;
 * runs: maximal blocks of consecutive cards of one category (suit or colour);
-* repeat positions: positions holding the same card in two consecutive decks.
+* repeat positions: positions holding the same card in two consecutive decks;
+* cyclic rising sequences: ``#{c in Z_n : card c+1 (mod n) lies above card c}``, the
+  rising sequences left after the best cut (the smallest number over the ``n`` rotations
+  of the deck; every rotation has this number or one more);
+* cyclic valleys: cards lower than both neighbours, the deck read around a circle (the
+  bottom card's lower neighbour is the top card); a cut changes nothing.
 
 References
 ----------
@@ -38,12 +43,16 @@ __all__ = [
     "as_decks",
     "bitmask_ok",
     "card_position",
+    "card_positions",
     "category_codes",
     "cycles",
+    "cyclic_rising_sequences",
+    "cyclic_valleys",
     "descents",
     "fixed_points",
     "inversions",
     "repeat_positions",
+    "rising_only",
     "rising_sequences",
     "runs",
     "successions",
@@ -229,6 +238,49 @@ def inversions(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
 def rising_sequences(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
     """Rising sequences per deck: ``1 + #{c : card c+1 lies above card c}``."""
     return order_statistics(relative, check=check)[1]
+
+
+def card_positions(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
+    """Where each reference card lies: ``out[d, c]`` is the position of card ``c`` in deck
+    ``d`` (the inverse arrangement), ``int64``."""
+    return _inverse(_relative(relative, check))
+
+
+def rising_only(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
+    """Rising sequences without the inversions: one pass over the inverse arrangement
+    (the cheap path for decks of more than 63 cards)."""
+    p = _relative(relative, check)
+    return _chunked(lambda b: 1 + _count_true(np.diff(_inverse(b), axis=1) < 0), p)
+
+
+def cyclic_rising_sequences(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
+    """Cyclic rising sequences per deck: ``#{c in Z_n : card (c + 1) mod n lies above c}``.
+
+    This is the smallest number of rising sequences over the ``n`` cuts of the deck
+    (docs/methods.md): a cut moves the bottom of the reference cycle, so it undoes a cut.
+    """
+    p = _relative(relative, check)
+
+    def count(b: np.ndarray) -> np.ndarray:
+        where = _inverse(b)
+        wrap = (where[:, 0] < where[:, -1]).astype(np.int64)
+        # a single card is one rising sequence (for n >= 2 the count is at least 1)
+        return np.maximum(_count_true(np.diff(where, axis=1) < 0) + wrap, 1)
+
+    return _chunked(count, p)
+
+
+def cyclic_valleys(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
+    """Cyclic valleys per deck: positions whose card is below both neighbours, the deck read
+    around a circle (top and bottom are neighbours), so unchanged by a cut."""
+    p = _relative(relative, check)
+
+    def count(b: np.ndarray) -> np.ndarray:
+        before = np.roll(b, 1, axis=1)
+        after = np.roll(b, -1, axis=1)
+        return _count_true((before > b) & (b < after))
+
+    return _chunked(count, _signed(p))
 
 
 def _cycles_walk(p: np.ndarray) -> np.ndarray:

@@ -157,14 +157,17 @@ def warn(text: str) -> None:
 
 
 @contextlib.contextmanager
-def progress(total: int, label: str) -> Iterator[Callable[[int], None]]:
+def progress(total: int, label: str, size: str | None = None) -> Iterator[Callable[[int], None]]:
     """A progress bar on stderr for long work (shown only when stderr is a terminal).
 
+    ``size`` states the expected size of the work; it is printed before the bar starts.
     Yields ``update(done)`` taking the number of units finished so far.
     """
     if total <= 0 or not sys.stderr.isatty():
         yield lambda done: None
         return
+    if size:
+        typer.echo(f"{label}: {size}", err=True)
     with typer.progressbar(length=total, label=label, file=sys.stderr) as bar:
         state = {"done": 0}
 

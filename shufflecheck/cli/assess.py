@@ -64,7 +64,9 @@ def assess(
     proc = procedure_from_argument(procedure)
     n = cards if cards is not None else (proc.cards or 52)
     units = assessment_work(decks, repeat)
-    with progress(units if decks * repeat >= 200_000 else 0, "simulating") as update:
+    size = f"{decks:,} decks x {n} cards x {repeat} repetition{'s' if repeat != 1 else ''}"
+    long_work = decks * n * repeat >= 10_000_000
+    with progress(units if long_work else 0, "simulating", size) as update:
         result = run_assessment(
             proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
         )
@@ -130,31 +132,40 @@ def _print(result) -> None:
     for note in result.notes:
         echo(f"Note: {note}")
     echo()
+    conjectures = any(row.conjectured for row in result.rows)
     headers = ["r", "total variation", "how", "separation", "extra guesses/deck", "best strategy"]
+    if conjectures:
+        headers.insert(3, "conjectured TV")
     rows = []
     for row in result.rows:
         tv, how = _range(row, "total_variation")
         sep, _ = _range(row, "separation")
         extra = row.extra_guesses
         lo, hi = extra.interval
-        rows.append(
-            [
-                row.repeats,
-                tv,
-                how,
-                sep,
-                f"{extra.value:+.3f} ({lo:+.3f} to {hi:+.3f})",
-                row.best_strategy,
-            ]
-        )
-    echo(format_table(headers, rows, align="rlllll"))
+        line = [
+            row.repeats,
+            tv,
+            how,
+            sep,
+            f"{extra.value:+.3f} ({lo:+.3f} to {hi:+.3f})",
+            row.best_strategy,
+        ]
+        if conjectures:
+            guess = row.conjectured.get("total_variation")
+            line.insert(3, f"<= {_num(guess.value, 'up')}" if guess is not None else "-")
+        rows.append(line)
+    echo(format_table(headers, rows, align="rllllll" if conjectures else "rlllll"))
     echo()
     first = result.rows[0]
     echo("How each number was obtained:")
     echo("  exact       the whole repeated procedure is one exactly analysed model")
-    echo("  bounds      upper: exactly analysed blocks (a further step never increases the")
-    echo("              distance; separation multiplies over blocks); lower: statistics of the")
-    echo(f"              simulated decks, split sample, Clopper-Pearson ({result.confidence:.0%})")
+    echo("  bounds      upper: block inequalities on the exactly analysed blocks (each block")
+    echo("              absorbed, or through its TV, separation or chi-square distance);")
+    echo("              lower: statistics of the simulated decks, split sample,")
+    echo(f"              Clopper-Pearson ({result.confidence:.0%}), Bonferroni over the statistics")
+    if conjectures:
+        echo("  conjectured NOT a bound: the unproven interleaving conjecture (steps between")
+        echo("              ideal riffles never raise the separation); never used to certify")
     echo(
         f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per deck "
         f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck (H_{result.cards})"
@@ -186,11 +197,22 @@ def assessment_series(result) -> list[dict]:
                 "values": [r.exact.total_variation for r in exact],
             }
         )
+    conjectured = [r for r in result.rows if "total_variation" in r.conjectured]
+    if conjectured:
+        series.append(
+            {
+                "label": "interleaving conjecture, unproven",
+                "kind": "conjectured",
+                "side": "upper",
+                "steps": [r.repeats for r in conjectured],
+                "values": [r.conjectured["total_variation"].value for r in conjectured],
+            }
+        )
     upper = [r for r in result.rows if "total_variation" in r.upper]
     if upper:
         series.append(
             {
-                "label": "from exactly analysed blocks",
+                "label": "block inequalities, exactly analysed blocks",
                 "kind": "bound",
                 "side": "upper",
                 "steps": [r.repeats for r in upper],

@@ -35,11 +35,16 @@ def policy(
     computed, whatever the findings; 2 for a bad policy file (with file, line and key).
     """
     check_report_folder(report, force=force)
-    from shufflecheck.analyses.policy import evaluate_policy, load_policy, policy_work
+    from shufflecheck.analyses.policy import (
+        evaluate_policy,
+        load_policy,
+        policy_size,
+        policy_work,
+    )
     from shufflecheck.report.builders.policy import policy_payload
 
     loaded = load_policy(file)
-    with progress(policy_work(loaded), "assessing procedures") as update:
+    with progress(policy_work(loaded), "assessing procedures", policy_size(loaded)) as update:
         result = evaluate_policy(loaded, progress=update)
     payload = policy_payload(result)
     if report is not None:
@@ -103,6 +108,10 @@ def print_policy(result) -> None:
     echo()
     for d in result.decisions:
         echo(f"- {d.summary(label, p.target)}.")
+        if d.settlement is not None:
+            echo(f"  What would settle it ({d.settlement.repeats} repetitions):")
+            for sentence in d.settlement.sentences(label):
+                echo(f"    * {sentence}")
         for log, audit in d.audits:
             battery = audit.result.overall
             echo(f"  log {log.table or log.path.name}: {battery.verdict()}")

@@ -49,6 +49,7 @@ __all__ = [
     "MixingCurve",
     "check_metric",
     "check_target",
+    "chi_square_from_groups",
     "distances_from_groups",
     "kl_term",
     "minimum_steps",
@@ -191,3 +192,34 @@ def distances_from_groups(
     assert min_numerator is not None
     separation = (scale - min_numerator * n_factorial) / scale
     return float(tv), float(separation), kl_nats / math.log(2)
+
+
+def _ratio(numerator: int, denominator: int) -> float:
+    """``numerator / denominator`` as a float, ``inf`` when it is too large for one."""
+    try:
+        return numerator / denominator
+    except OverflowError:
+        return math.inf
+
+
+def chi_square_from_groups(
+    counts: Sequence[int], numerators: Sequence[int], denominator: int, n_factorial: int
+) -> tuple[float, float]:
+    """(chi-square distance, largest likelihood ratio) of a law constant on groups.
+
+    The chi-square distance to uniform is ``chi2 = n! sum_sigma (P(sigma) - 1/n!)^2
+    = n! sum_sigma P(sigma)^2 - 1`` (the squared ``L2(U)`` norm of ``n! P - 1``); the
+    largest likelihood ratio is ``n! max_sigma P(sigma)``. Groups as in
+    :func:`distances_from_groups`. Both are exact integers until the final division; a
+    value beyond the double range (a law on a small part of ``n!`` arrangements) is ``inf``.
+    """
+    squares = 0
+    largest = 0
+    for count, numerator in zip(counts, numerators, strict=True):
+        if count == 0:
+            continue
+        squares += count * numerator * numerator
+        largest = max(largest, numerator)
+    square_denominator = denominator * denominator
+    chi2 = _ratio(n_factorial * squares - square_denominator, square_denominator)
+    return max(chi2, 0.0), _ratio(n_factorial * largest, denominator)

@@ -62,6 +62,13 @@ class Step(ABC):
         step has no exact analysis for ``cards`` cards."""
         return None
 
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        """``(chi-square distance, largest likelihood ratio)`` to uniform after ``times``
+        consecutive steps (``n! sum (P - 1/n!)^2`` and ``n! max P``, exact up to the final
+        rounding, ``inf`` beyond the double range), or None when this step has no exact
+        law for ``cards`` cards. The block inequalities of an assessment use them."""
+        return None
+
     def parameters(self) -> dict[str, object]:
         """The step's parameters as a plain dict (for reports and JSON)."""
         return {f.name: getattr(self, f.name) for f in dataclasses.fields(self)}

@@ -45,7 +45,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_1988
-from shufflecheck.core.distances import DistanceRow, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -57,6 +57,7 @@ __all__ = [
     "Cut",
     "centred_weights",
     "check_spread",
+    "chi_square",
     "cut_law",
     "draw_from_weights",
     "exact_distances",
@@ -229,6 +230,21 @@ def exact_distances(
     return DistanceRow(times, tv, sep, kl, "exact", "law on the n rotations")
 
 
+def chi_square(
+    cards: int, times: int, *, spread: float | None = None, least: int = 1
+) -> tuple[float, float]:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` after ``times`` cuts: the
+    law sits on the ``n`` rotations, so both are of order ``n!/n`` (``inf`` for large decks)."""
+    if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+        raise InputError(
+            f"the exact cut law is limited to {MAX_EXACT_CARDS} cards and {MAX_EXACT_STEPS} cuts"
+        )
+    numerators, denominator = rotation_law(cards, times, spread=spread, least=least)
+    fact = math.factorial(cards)
+    counts = [1] * cards + [fact - cards]
+    return chi_square_from_groups(counts, [*numerators, 0], denominator, fact)
+
+
 # ---------------------------------------------------------------------------------------
 # sampling
 
@@ -297,6 +313,11 @@ class Cut(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times, spread=self.spread, least=self.least)
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+            return None
+        return chi_square(cards, times, spread=self.spread, least=self.least)
 
 
 register_model(

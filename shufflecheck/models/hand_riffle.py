@@ -67,7 +67,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM_KANTOR, GILBERT_REEDS
-from shufflecheck.core.distances import DistanceRow, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
 from shufflecheck.models import riffle
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
@@ -80,6 +80,7 @@ __all__ = [
     "HandRiffle",
     "Weave",
     "check_clump",
+    "chi_square",
     "cut_law",
     "exact_distances",
     "hand_riffle_decks",
@@ -213,6 +214,15 @@ def exact_distances(
         return fixed_arrangement_distances(cards, 0, "the unshuffled deck")
     if steps != 1 or cards > riffle.MAX_EXACT_CARDS:
         return None
+    counts, numerators, denominator = _one_step_groups(cards, spread)
+    tv, sep, kl = distances_from_groups(counts, numerators, denominator, math.factorial(cards))
+    return DistanceRow(1, tv, sep, kl, "exact", "uniform interleavings given the cut")
+
+
+def _one_step_groups(cards: int, spread: float) -> tuple[list[int], list[int], int]:
+    """Groups of one hand riffle with uniform interleavings given a cut of the given spread:
+    (counts, numerators, denominator), the identity first, then the two-sequence
+    arrangements split after each cut depth, then the arrangements it cannot reach."""
     weights = _cut_weights(cards, spread)
     total = sum(weights)
     binomials = [math.comb(cards, c) for c in range(cards + 1)]
@@ -221,11 +231,31 @@ def exact_distances(
     share = [w * (scale // b) for w, b in zip(weights, binomials, strict=True)]
     counts = [1, *(b - 1 for b in binomials[1:-1])]
     numerators = [sum(share), *share[1:-1]]
-    fact = math.factorial(cards)
-    counts.append(fact - sum(counts))
+    counts.append(math.factorial(cards) - sum(counts))
     numerators.append(0)
-    tv, sep, kl = distances_from_groups(counts, numerators, total * scale, fact)
-    return DistanceRow(1, tv, sep, kl, "exact", "uniform interleavings given the cut")
+    return counts, numerators, total * scale
+
+
+def chi_square(
+    cards: int, steps: int, *, spread: float | None = None, clump: float = 1.0
+) -> tuple[float, float] | None:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` in the cases of
+    :func:`exact_distances`, else None."""
+    check_spread(spread, "hand-riffle")
+    check_clump(clump)
+    check_cards(cards, prefix="hand-riffle: ")
+    if clump != 1:
+        return None
+    if spread is None:
+        if cards > riffle.MAX_EXACT_CARDS or steps > riffle.MAX_EXACT_STEPS:
+            return None
+        return riffle.chi_square(cards, steps)
+    fact = math.factorial(cards)
+    if steps == 0:
+        return chi_square_from_groups([1, fact - 1], [1, 0], 1, fact)
+    if steps != 1 or cards > riffle.MAX_EXACT_CARDS:
+        return None
+    return chi_square_from_groups(*_one_step_groups(cards, spread), fact)
 
 
 def sample(
@@ -274,6 +304,9 @@ class HandRiffle(Step):
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         return exact_distances(cards, times, spread=self.spread, clump=self.clump)
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        return chi_square(cards, times, spread=self.spread, clump=self.clump)
 
 
 # ---------------------------------------------------------------------------------------

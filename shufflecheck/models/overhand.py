@@ -52,7 +52,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import PEMANTLE
-from shufflecheck.core.distances import DistanceRow, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -62,6 +62,7 @@ __all__ = [
     "Overhand",
     "Strip",
     "boundary_probability",
+    "chi_square",
     "exact_distances",
     "sample",
     "strip_decks",
@@ -173,6 +174,24 @@ def exact_distances(
     return DistanceRow(1, tv, sep, kl, "exact", "one strip: boundaries are the descents")
 
 
+def chi_square(
+    cards: int, steps: int, *, packets: float | None = None, size: float | None = None
+) -> tuple[float, float] | None:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` after ``steps <= 1``
+    strips (the law of one strip on its ``2^(n-1)`` arrangements), else None."""
+    p = boundary_probability(cards, packets=packets, size=size)
+    fact = math.factorial(cards)
+    if steps == 0 or p == 0:
+        return chi_square_from_groups([1, fact - 1], [1, 0], 1, fact)
+    if steps != 1 or cards > MAX_EXACT_CARDS:
+        return None
+    gaps = cards - 1
+    a, b, d = p.numerator, (1 - p).numerator, p.denominator
+    counts = [math.comb(gaps, j) for j in range(gaps + 1)] + [fact - 2**gaps]
+    numerators = [a**j * b ** (gaps - j) for j in range(gaps + 1)] + [0]
+    return chi_square_from_groups(counts, numerators, d**gaps, fact)
+
+
 @dataclasses.dataclass(frozen=True)
 class _PacketShuffle(Step):
     """Common body of strip and overhand (same mechanics, different defaults)."""
@@ -220,6 +239,9 @@ class _PacketShuffle(Step):
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         return exact_distances(cards, times, **self._rule())
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        return chi_square(cards, times, **self._rule())
 
 
 @dataclasses.dataclass(frozen=True)

@@ -54,7 +54,7 @@ __all__ = [
 ]
 
 #: modules of this package that hold no model
-_NOT_MODELS = frozenset({"base", "permute", "procedures", "registry"})
+_NOT_MODELS = frozenset({"base", "blocks", "interleaving", "permute", "procedures", "registry"})
 
 _ENTRIES: dict[str, ModelEntry] = {}
 

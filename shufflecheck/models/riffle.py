@@ -40,7 +40,12 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import BAYER_DIACONIS, GILBERT_REEDS
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
-from shufflecheck.core.distances import DistanceRow, MixingCurve, kl_term
+from shufflecheck.core.distances import (
+    DistanceRow,
+    MixingCurve,
+    chi_square_from_groups,
+    kl_term,
+)
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, label_bits, place_by_sort_key
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -51,6 +56,7 @@ __all__ = [
     "Riffle",
     "arrangement_probability",
     "check_hands",
+    "chi_square",
     "distance_curve",
     "exact_distances",
     "rising_sequence_law",
@@ -178,6 +184,35 @@ def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
     return DistanceRow(steps, float(tv), float(separation), kl_nats / math.log(2), "exact")
 
 
+def chi_square(cards: int, steps: int, *, hands: int = 2) -> tuple[float, float]:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` after ``steps`` a-shuffles.
+
+    ``chi2 = n! sum_r A(n, r-1) (C(a+n-r, n) / a^n)^2 - 1`` over the rising-sequence
+    groups of [1], Thm. 1 (``a`` = ``hands^steps``), in exact integers; the largest ratio is
+    ``n! C(a+n-1, n) / a^n``, the chance of the unshuffled order. ``inf`` when either
+    exceeds the double range (while ``a`` is small against ``n``).
+    """
+    a = check_hands(hands)
+    _check_cards_steps(cards, steps)
+    if cards > MAX_EXACT_CARDS or steps > MAX_EXACT_STEPS:
+        raise InputError(
+            f"the exact riffle law is limited to {MAX_EXACT_CARDS} cards and "
+            f"{MAX_EXACT_STEPS} steps"
+        )
+    fact = math.factorial(cards)
+    if steps == 0:
+        return _ratio_or_inf(fact - 1), _ratio_or_inf(fact)
+    counts, numerators, denominator = _group_law(cards, a**steps)
+    return chi_square_from_groups(counts, numerators, denominator, fact)
+
+
+def _ratio_or_inf(value: int) -> float:
+    try:
+        return float(value)
+    except OverflowError:
+        return math.inf
+
+
 def distance_curve(cards: int, max_steps: int, *, hands: int = 2) -> MixingCurve:
     """Exact distances after ``k = 1..max_steps`` a-shuffles (see :func:`exact_distances`)."""
     a = check_hands(hands)
@@ -292,6 +327,11 @@ class Riffle(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times, hands=self.hands)
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+            return None
+        return chi_square(cards, times, hands=self.hands)
 
 
 register_model(

@@ -71,7 +71,12 @@ import numpy as np
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_FULMAN_HOLMES
-from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.core.distances import (
+    DistanceRow,
+    MixingCurve,
+    chi_square_from_groups,
+    distances_from_groups,
+)
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -81,6 +86,7 @@ __all__ = [
     "STACKS",
     "Shelf",
     "arrangement_probability",
+    "chi_square",
     "distance_curve",
     "equivalent_shelves",
     "exact_distances",
@@ -229,6 +235,25 @@ def exact_distances(cards: int, passes: int, *, shelves: int = 10) -> DistanceRo
     numerators = valley_numerators(cards, m)
     tv, sep, kl = distances_from_groups(valley_counts(cards), numerators, (2 * m) ** cards, fact)
     return DistanceRow(passes, tv, sep, kl, "exact", f"valley law, {m} equivalent shelves")
+
+
+def chi_square(cards: int, passes: int, *, shelves: int = 10) -> tuple[float, float]:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` after ``passes`` passes,
+    from the valley law (2) and A008303 in exact integers (``inf`` beyond doubles)."""
+    _check_shelves(shelves)
+    _check_sizes(cards, passes)
+    if cards > MAX_EXACT_CARDS or passes > MAX_EXACT_PASSES:
+        raise InputError(
+            f"the exact shelf law is limited to {MAX_EXACT_CARDS} cards and "
+            f"{MAX_EXACT_PASSES} passes"
+        )
+    fact = math.factorial(cards)
+    if passes == 0:
+        return chi_square_from_groups([1, fact - 1], [1, 0], 1, fact)
+    m = equivalent_shelves(shelves, passes)
+    return chi_square_from_groups(
+        valley_counts(cards), valley_numerators(cards, m), (2 * m) ** cards, fact
+    )
 
 
 def distance_curve(cards: int, max_passes: int, *, shelves: int = 10) -> MixingCurve:
@@ -389,6 +414,11 @@ class Shelf(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_PASSES:
             return None
         return exact_distances(cards, times, shelves=self.shelves)
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_PASSES:
+            return None
+        return chi_square(cards, times, shelves=self.shelves)
 
 
 register_model(

@@ -39,7 +39,12 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import rencontres_row, stirling2_columns
-from shufflecheck.core.distances import DistanceRow, MixingCurve, distances_from_groups
+from shufflecheck.core.distances import (
+    DistanceRow,
+    MixingCurve,
+    chi_square_from_groups,
+    distances_from_groups,
+)
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks, invert
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -50,6 +55,7 @@ __all__ = [
     "RandomToTop",
     "TopToRandom",
     "bottom_run_law",
+    "chi_square",
     "distance_curve",
     "sample",
     "sample_random_to_top",
@@ -168,6 +174,17 @@ def exact_distances(cards: int, steps: int) -> DistanceRow:
     return distance_curve(cards, steps).rows[-1]
 
 
+def chi_square(cards: int, steps: int) -> tuple[float, float]:
+    """Exact ``(chi-square distance, largest likelihood ratio)`` after ``steps``
+    top-to-random (or random-to-top) moves, from the bottom-run groups."""
+    _check(cards, steps)
+    fact = math.factorial(cards)
+    if steps == 0:
+        return chi_square_from_groups([1, fact - 1], [1, 0], 1, fact)
+    row = stirling2_columns(steps, cards)[steps]
+    return chi_square_from_groups(_run_counts(cards), _numerators(row, cards), cards**steps, fact)
+
+
 def bottom_run_law(cards: int, steps: int) -> tuple[Fraction, ...]:
     """Exact law of ``L`` after ``steps`` random-to-top moves: ``law[L - 1]``, ``L = 1..n``.
 
@@ -251,6 +268,11 @@ class TopToRandom(Step):
             return None
         return exact_distances(cards, times)
 
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+            return None
+        return chi_square(cards, times)
+
 
 @dataclasses.dataclass(frozen=True)
 class RandomToTop(Step):
@@ -269,6 +291,11 @@ class RandomToTop(Step):
         if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
             return None
         return exact_distances(cards, times)
+
+    def exact_chi_square(self, cards: int, times: int) -> tuple[float, float] | None:
+        if cards > MAX_EXACT_CARDS or times > MAX_EXACT_STEPS:
+            return None
+        return chi_square(cards, times)
 
 
 def _default_steps(cards: int) -> int:

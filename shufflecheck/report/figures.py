@@ -202,7 +202,11 @@ def _check_keys(spec: Any, allowed: set[str], required: set[str], what: str) -> 
 
 
 def _how_phrase(how: str, side: str | None) -> str:
-    return f"{side} bound" if how == "bound" else how
+    if how == "bound":
+        return f"{side} bound"
+    if how == "conjectured" and side is not None:
+        return f"conjectured {side} bound"
+    return how
 
 
 def _level_text(level: float) -> str:
@@ -239,8 +243,11 @@ def _series(
         side = "upper" if side is None else side
         if side not in ("upper", "lower"):
             raise InputError(f"{what}: side must be 'upper' or 'lower', got {side!r}")
+    elif how == "conjectured":
+        if side not in (None, "upper", "lower"):
+            raise InputError(f"{what}: side must be 'upper' or 'lower', got {side!r}")
     elif side is not None:
-        raise InputError(f"{what}: side is only for bounds")
+        raise InputError(f"{what}: side is only for bounds and conjectured bounds")
     low = high = None
     if how == "estimate":
         if "low" not in spec or "high" not in spec:
@@ -441,6 +448,11 @@ def distance_figure(
                 f"dashed = rigorous bound, dotted with a shaded band = estimate with its "
                 f"{_level_text(level)} confidence band."
             )
+            if any(s["kind"] == "conjectured" for s in series):
+                caption += (
+                    " Dash-dot-dot = conjectured: it rests on an unproven statement, is not "
+                    "a bound and certifies nothing."
+                )
             if target is not None:
                 caption += " The dash-dot line is the target."
             if any(s["minimum"] is not None for s in series):

@@ -47,18 +47,31 @@ def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
         MethodNote(
             "upper bounds",
             "bound",
-            "exactly analysed contiguous blocks: a further step never increases total "
-            "variation or KL divergence, separation is submultiplicative over blocks",
+            "block inequalities on the exactly analysed blocks: with U uniform, "
+            "B1 * X * B2 - U = (B1 - U) * X * (B2 - U) for anything independent in between, "
+            "so each block is absorbed or contributes 2 TV, its separation, or the square "
+            "root of its chi-square distance (Young's and the Cauchy-Schwarz inequality); the "
+            "smallest such bound is used (docs/methods.md)",
             (ALDOUS_DIACONIS_1987, DIACONIS_1988),
+        ),
+        MethodNote(
+            "conjectured upper bounds",
+            "conjectured",
+            "the interleaving conjecture, unproven: steps between ideal riffles never raise "
+            "the separation above that of all the riffles taken together, "
+            "1 - prod(1 - i/2^m) for m riffles; checked exhaustively for small decks, its "
+            "total-variation analogue is false; never used to certify",
+            (BAYER_DIACONIS,),
         ),
         MethodNote(
             "lower bounds",
             "bound",
-            f"distance of a statistic's law from its exact uniform law; event chosen on half "
-            f"of the simulated decks, its probability bounded on the other half "
-            f"(Clopper-Pearson, {confidence:.0%} confidence, Bonferroni over 5 statistics); "
+            f"distance of a statistic's law from its exact uniform law; events, family "
+            f"members and a fitted likelihood-ratio score chosen on the first half of the "
+            f"simulated decks, probabilities bounded on the second (Clopper-Pearson, "
+            f"{confidence:.0%} confidence, Bonferroni over the statistics); "
             "separation >= TV; KL >= 2 TV^2 / ln 2 (Pinsker)",
-            (CLOPPER_PEARSON, COVER_THOMAS),
+            (CLOPPER_PEARSON, COVER_THOMAS, DIACONIS_GRAHAM),
         ),
         MethodNote(
             "correct guesses per deck",
@@ -71,39 +84,40 @@ def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
 
 
 def assessment_table(result, metric: str = "total_variation") -> Table:
-    """Distance (exact, or lower and upper bounds) and the guessing edge for every r."""
+    """Distance (exact, or lower and upper bounds; the conjectured figure beside them when
+    there is one) and the guessing edge for every r."""
+    conjectures = any(metric in row.conjectured for row in result.rows)
     rows = []
     for row in result.rows:
         low, high = _distance_cells(row, metric)
         extra = row.extra_guesses
-        rows.append(
-            (
-                str(row.repeats),
-                low,
-                high,
-                as_value(extra),
-                row.best_strategy,
-            )
-        )
+        cells = [str(row.repeats), low, high]
+        if conjectures:
+            cells.append(as_value(row.conjectured.get(metric)))
+        cells += [as_value(extra), row.best_strategy]
+        rows.append(tuple(cells))
     name = {
         "total_variation": "total variation",
         "separation": "separation",
         "kl_bits": "KL (bits)",
     }[metric]
+    columns = ["r", f"{name}: lower", f"{name}: upper"]
+    notes = [
+        "Where the whole repeated procedure is exact, both columns show the exact value.",
+        "An upper bound of 1 means no exactly analysed block certifies anything smaller.",
+    ]
+    if conjectures:
+        columns.append(f"{name}: conjectured upper")
+        notes.append(
+            "The conjectured column rests on the unproven interleaving conjecture: it is not "
+            "a bound and certifies nothing."
+        )
+    columns += ["extra correct guesses per deck", "best strategy"]
     return Table(
         f"{name.capitalize()} to a random deck and the guessing edge, by repetitions r",
-        (
-            "r",
-            f"{name}: lower",
-            f"{name}: upper",
-            "extra correct guesses per deck",
-            "best strategy",
-        ),
+        tuple(columns),
         tuple(rows),
-        notes=(
-            "Where the whole repeated procedure is exact, both columns show the exact value.",
-            "An upper bound of 1 means no exactly analysed block certifies anything smaller.",
-        ),
+        notes=tuple(notes),
     )
 
 
@@ -117,9 +131,12 @@ def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Pr
         if row.exact is not None:
             answer.append(f"After {row.repeats} repetition(s): total variation {low}.")
         else:
+            guess = as_value(row.conjectured.get("total_variation"))
             answer.append(
                 f"After {row.repeats} repetition(s): total variation {low}"
-                + (f", {high}." if high is not None else ".")
+                + (f", {high}" if high is not None else "")
+                + (f"; {guess}, resting on an unproven conjecture" if guess is not None else "")
+                + "."
             )
     edge = first.extra_guesses
     answer.append(

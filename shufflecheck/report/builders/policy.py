@@ -63,6 +63,12 @@ def policy_payload(result) -> dict[str, Any]:
                 "standing": d.standing,
                 "standing_how": d.standing_how,
                 "summary": d.summary(METRIC_LABELS[policy.metric], policy.target),
+                "settle": None if d.settlement is None else d.settlement.as_json(),
+                "settle_summary": (
+                    []
+                    if d.settlement is None
+                    else d.settlement.sentences(METRIC_LABELS[policy.metric])
+                ),
                 "assessment": assessment_json(d.assessment),
                 "logs": [
                     {"table": log.table, "path": str(log.path), **audit.as_json()}
@@ -105,6 +111,18 @@ def policy_figure(result):
                     "steps": [r.repeats for r in upper],
                     "values": [r.upper[metric].value for r in upper],
                     **({"minimum": d.minimum} if d.minimum and d.kind == "bound" else {}),
+                }
+            )
+        guessed = [r for r in rows if metric in r.conjectured]
+        if guessed:
+            curves.append(
+                {
+                    "label": f"{name}, interleaving conjecture (unproven)",
+                    "kind": "conjectured",
+                    "side": "upper",
+                    "group": name,
+                    "steps": [r.repeats for r in guessed],
+                    "values": [r.conjectured[metric].value for r in guessed],
                 }
             )
         lower = [r for r in rows if r.exact is None]
@@ -158,6 +176,14 @@ def policy_sections(result, *, figures: bool = True) -> list[Section]:
             figures=(policy_figure(result),) if figures else (),
         )
     ]
+    open_decisions = [d for d in result.decisions if d.settlement is not None]
+    if open_decisions:
+        sections.append(
+            Section(
+                "What would settle the open decisions",
+                paragraphs=tuple(_settle_paragraph(d, label) for d in open_decisions),
+            )
+        )
     for d in result.decisions:
         table = assessment_table(d.assessment, policy.metric)
         sections.append(
@@ -176,6 +202,16 @@ def policy_sections(result, *, figures: bool = True) -> list[Section]:
             title = f"Recorded decks: {log.table or log.path.name} ({d.procedure.name})"
             sections.append(audit_section(audit, title, prefix=_slug(log) + "-", figures=figures))
     return sections
+
+
+def _settle_paragraph(decision, label: str) -> str:
+    """One paragraph: the procedure, the count in question, and each answer."""
+    settlement = decision.settlement
+    answers = "; ".join(settlement.sentences(label))
+    return (
+        f"{decision.procedure.name}, {settlement.repeats} repetition"
+        f"{'s' if settlement.repeats != 1 else ''}: {answers}."
+    )
 
 
 def _slug(log) -> str:
