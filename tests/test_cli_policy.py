@@ -329,3 +329,62 @@ class TestPolicyBadFiles:
     def test_no_procedures(self, tmp_path):
         path = write(tmp_path, "[policy]\ntarget = 0.1\n")
         assert "no procedures" in one_line_error(run("policy", path))
+
+
+class TestWhatWouldSettleIt:
+    """Issue 9, section 4: when the bounds leave a decision open, the policy says what
+    would settle it, in the terminal output and in the JSON."""
+
+    @pytest.fixture(scope="class")
+    @classmethod
+    def open_policy(cls, tmp_path_factory) -> Path:
+        folder = tmp_path_factory.mktemp("settle")
+        return write(
+            folder,
+            """
+            [policy]
+            title = "Hand procedure (invented)"
+            target = 0.1
+            decks = 2000
+            seed = 3
+            max_repeats = 3
+
+            [[procedure]]
+            name = "Hand-dealt"
+            cards = 52
+            steps = "riffle x3, strip(packets=5), riffle x3, cut"
+            house = 2
+            """,
+        )
+
+    def test_json(self, open_policy):
+        (procedure,) = policy_json(open_policy)["procedures"]
+        assert procedure["standing"] == "undetermined"
+        settle = procedure["settle"]
+        assert settle["repeats"] == 2
+        # Bayer & Diaconis (1992): 9 riffles first bring TV of 52 cards to <= 0.1 (0.0854)
+        assert settle["one_block_riffles"] == 9
+        assert settle["one_block_value"]["kind"] == "exact"
+        change = settle["certifying_change"]
+        # two blocks of 8 riffles: TV <= TV(R8) x 2 TV(R8) = 2 x 0.167^2 < 0.1, 7 are not
+        # enough (2 x 0.334^2 > 0.1): five more riffles in the first run
+        assert change["riffle_run"] == 1 and change["riffles_added"] == 5
+        assert change["bound"]["kind"] == "bound" and change["bound"]["value"] < 0.1
+        assert change["procedure"].startswith("riffle x8")
+        guess = settle["conjectured_at_repeats"]
+        assert guess["kind"] == "conjectured" and round(guess["value"], 4) == 0.2775
+        assert settle["conjectured_minimum"] == 3
+        assert settle["audit_needs"]["kind"] == "estimate"
+        assert procedure["settle_summary"] and all(procedure["settle_summary"])
+
+    def test_terminal(self, open_policy):
+        result = run("policy", open_policy)
+        assert result.exit_code == 0, result.output
+        text = result.stdout
+        assert "What would settle it (2 repetitions):" in text
+        assert "a run of 9 consecutive ideal riffles" in text
+        assert "conjectured upper bound" in text and "unproven" in text
+
+    def test_no_settlement_when_certified(self, tmp_path):
+        (procedure,) = policy_json(riffle_policy(tmp_path, 0.1, house=10))["procedures"]
+        assert procedure["settle"] is None and procedure["settle_summary"] == []

@@ -165,6 +165,24 @@ class TestDemoAnswers:
         # the file row of that deck: header row 1, starting order row 2, deck d at row d + 2
         assert table7["since_when_rows"]["all"]["row"] == start + 2
 
+    def test_hand_dealt_story(self, report):
+        procedures = {p["name"]: p for p in report["data"]["procedures"]}
+        current = procedures["Hand-dealt games"]
+        # runs of 3 riffles between a strip and a cut: no rigorous certificate
+        assert current["minimum"] is None and current["standing"] == "undetermined"
+        settle = current["settle"]
+        # Bayer & Diaconis (1992): one run of 9 riffles is enough on its own (TV 0.0854)
+        assert settle["one_block_riffles"] == 9
+        assert settle["certifying_change"]["riffles_added"] == 5
+        assert settle["conjectured_at_repeats"]["kind"] == "conjectured"
+        # the proposed rule is that change: certified by the block inequalities
+        proposed = procedures["Hand-dealt games, proposed rule"]
+        assert proposed["minimum"] == 2 and proposed["kind"] == "bound"
+        assert proposed["standing"] == "meets"
+        assert settle["certifying_change"]["procedure"] == proposed["procedure"]
+        sections = [section["title"] for section in report["sections"]]
+        assert "What would settle the open decisions" in sections
+
     def test_policy_answers(self, report):
         procedures = {p["name"]: p for p in report["data"]["procedures"]}
         yardstick = procedures["Ideal riffles (yardstick)"]

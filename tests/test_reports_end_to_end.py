@@ -200,7 +200,14 @@ def shown(cell: str) -> tuple[float, float]:
 
 
 def agrees(cell: str, value: float) -> bool:
+    """The cell shows the value: to half a unit of its last digit, or for a bound (shown
+    rounded outward, never claiming more than was proven) to one unit on the safe side."""
     number, half_unit = shown(cell)
+    text = cell.lstrip("*")
+    if text.startswith("≥"):
+        return number <= value * (1 + 1e-12) + 1e-300 and value - number <= 2 * half_unit
+    if text.startswith("≤"):
+        return number >= value * (1 - 1e-12) - 1e-300 and number - value <= 2 * half_unit
     return abs(number - value) <= half_unit * (1 + 1e-9) + 1e-300
 
 

@@ -453,11 +453,12 @@ def _row(
 def _conjectured(
     split: ProcedureBlocks, cards: int, upper: dict[str, Quantity]
 ) -> dict[str, Quantity]:
-    """The conjecture's figures where they say more than the rigorous bounds."""
+    """The conjecture's figures where they say more than the rigorous bounds (by more than
+    the last shown digit: at least 0.1% below them)."""
     out = {}
     for metric, value in conjectured_bounds(split, cards).items():
         rigorous = upper.get(metric)
-        if rigorous is None or value.value < rigorous.value:
+        if rigorous is None or value.value < 0.999 * rigorous.value:
             out[metric] = value
     return out
 

@@ -44,8 +44,8 @@ __all__ = ["AuditNeed", "CertifyingChange", "Settlement", "settle"]
 PLAN_POWER = 0.9
 #: simulated decks of that planning: 20,000 (small departures need many), fewer for shoes
 PLAN_SIMULATE = 20_000
-#: card positions the planning simulates at most
-PLAN_CELLS = 4_000_000
+#: card positions the planning simulates at most (20,000 decks of 52 cards)
+PLAN_CELLS = 1_040_000
 
 
 @dataclass(frozen=True)

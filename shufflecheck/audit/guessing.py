@@ -326,11 +326,16 @@ def _merge(
     present: np.ndarray, start_at: np.ndarray, end_at: np.ndarray, base: np.ndarray, card
 ) -> tuple[np.ndarray, np.ndarray]:
     """Add ``card`` to each deck's blocks of consecutive labels; return the merged block
-    ``(start, end)``. Tables are flat, one row of ``n + 2`` cells per deck starting at ``base``;
-    label ``c`` sits in cell ``c + 1`` (cells 0 and ``n + 1`` stay empty)."""
+    ``(start, end)``. Tables are flat, one row of ``n + 2`` cells per deck starting at
+    ``base``; label ``c`` sits in cell ``c + 1`` (cells 0 and ``n + 1`` stay empty).
+    ``start_at`` and ``end_at`` start at -1 and are only ever written at the ends of a
+    block, so (``card`` being new) ``start_at`` of label ``card - 1`` is >= 0 exactly when
+    that label is in a block, and then it is that block's end."""
     cell = base + card
-    start = np.where(present[cell], start_at[cell], card)  # cell of label card - 1
-    end = np.where(present[cell + 2], end_at[cell + 2], card)  # label card + 1
+    start = start_at[cell]  # label card - 1
+    start = np.where(start >= 0, start, card)
+    end = end_at[cell + 2]  # label card + 1
+    end = np.where(end >= 0, end, card)
     present[cell + 1] = True
     end_at[base + start + 1] = end
     start_at[base + end + 1] = start
@@ -370,7 +375,7 @@ def _play_blocks_part(
 
     def tables() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         size = count * (n + 2)
-        return np.zeros(size, bool), np.zeros(size, np.int16), np.zeros(size, np.int16)
+        return np.zeros(size, bool), np.full(size, -1, np.int16), np.full(size, -1, np.int16)
 
     if "lowest-unseen" in names or "strip" in names:
         seen, start_at, end_at = tables()
@@ -381,7 +386,7 @@ def _play_blocks_part(
         block_start = np.full(count, n, dtype=np.int16)  # of the block holding the last card
         for i in range(n):
             card = cols[i]
-            lowest = np.where(seen[top], end_at[top] + 1, 0)
+            lowest = np.where(seen[top], end_at[top] + 1, 0)  # label 0 starts its block
             if "lowest-unseen" in names:
                 note("lowest-unseen", i, lowest)
             if "strip" in names:

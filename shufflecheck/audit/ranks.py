@@ -23,7 +23,8 @@ same packet: small ranks.
   uniform deck is the product of the per-rank laws whatever the weights.
 
 The counts ``L_j = #{u < j : card u lies above card j}`` that give the ranks come from the
-placed positions held as bits of ``ceil(n/64)`` 64-bit words per deck (:func:`smaller_above`).
+placed positions held as bits of ``ceil(n/64)`` 64-bit words per deck
+(:func:`~shufflecheck.audit.statistics.smaller_above`).
 
 References
 ----------
@@ -43,7 +44,7 @@ from functools import cache
 import numpy as np
 
 from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.statistics import as_decks, card_positions
+from shufflecheck.audit.statistics import as_decks, card_positions, smaller_above
 from shufflecheck.common.errors import InputError
 
 __all__ = [
@@ -54,7 +55,6 @@ __all__ = [
     "short_rise_windows",
     "short_rises",
     "short_rises_law",
-    "smaller_above",
 ]
 
 _ONE = np.uint64(1)
@@ -65,36 +65,6 @@ CLIP = 6.0
 #: relative and absolute margins added to uniform tails computed in double precision
 TAIL_MARGIN = 1e-9
 TAIL_FLOOR = 1e-300
-
-
-def smaller_above(where: np.ndarray) -> np.ndarray:
-    """``L[d, j] = #{u < j : where[d, u] < where[d, j]}`` (``int64``): for card positions
-    ``where``, the cards of lower label lying above card ``j``.
-
-    The positions already placed are bits of ``ceil(n/64)`` 64-bit words per deck, with the
-    count of set bits in the words before each word kept beside them: one query is a word
-    read and a bit count, one insertion a bit set and one add over the deck's few words.
-    """
-    count, n = where.shape
-    width = (n + 63) // 64
-    out = np.zeros((count, n), dtype=np.int64)
-    words = np.zeros(count * width, dtype=np.uint64)
-    before = np.zeros((count, width), dtype=np.int32)  # set bits in the words before
-    flat = before.reshape(-1)
-    base = np.arange(count, dtype=np.int64) * width
-    word_index = np.arange(width)
-    cols = where.T.astype(np.int64)
-    for j in range(n):
-        p = cols[j]
-        word_of = p >> 6
-        bit = _ONE << (p & 63).astype(np.uint64)
-        cell = base + word_of
-        word = words[cell]
-        out[:, j] = flat[cell] + np.bitwise_count(word & (bit - _ONE))
-        words[cell] = word | bit
-        if width > 1:
-            before += word_index > word_of[:, None]
-    return out
 
 
 def inverse_ranks(relative: np.ndarray, *, check: bool = True) -> np.ndarray:

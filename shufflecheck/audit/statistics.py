@@ -55,6 +55,7 @@ __all__ = [
     "rising_only",
     "rising_sequences",
     "runs",
+    "smaller_above",
     "successions",
 ]
 
@@ -200,9 +201,56 @@ def _order_scan(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _inverse(p: np.ndarray) -> np.ndarray:
-    out = np.empty(p.shape, dtype=np.int64)
-    np.put_along_axis(out, p.astype(np.intp), np.broadcast_to(np.arange(p.shape[1]), p.shape), 1)
+    count, n = p.shape
+    out = np.empty(count * n, dtype=np.int64)
+    cells = (np.arange(count, dtype=np.int64)[:, None] * n + p).ravel()
+    out[cells] = np.tile(np.arange(n, dtype=np.int64), count)
+    return out.reshape(count, n)
+
+
+def smaller_above(where: np.ndarray) -> np.ndarray:
+    """``L[d, j] = #{u < j : where[d, u] < where[d, j]}`` (``int64``): for card positions
+    ``where``, the cards of lower label lying above card ``j``.
+
+    The positions already placed are bits of ``ceil(n/64)`` 64-bit words per deck, with the
+    count of set bits in the words before each word kept beside them: one query is a word
+    read and a bit count, one insertion a bit set and one add over the deck's few words.
+    """
+    count, n = where.shape
+    width = (n + 63) // 64
+    out = np.zeros((count, n), dtype=np.int64)
+    words = np.zeros(count * width, dtype=np.uint64)
+    before = np.zeros((count, width), dtype=np.int32)  # set bits in the words before
+    flat = before.reshape(-1)
+    base = np.arange(count, dtype=np.int64) * width
+    word_index = np.arange(width)
+    cols = where.T.astype(np.int64)
+    for j in range(n):
+        p = cols[j]
+        word_of = p >> 6
+        bit = _ONE << (p & 63).astype(np.uint64)
+        cell = base + word_of
+        word = words[cell]
+        out[:, j] = flat[cell] + np.bitwise_count(word & (bit - _ONE))
+        words[cell] = word | bit
+        if width > 1:
+            before += word_index > word_of[:, None]
     return out
+
+
+def _order_words(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Inversions and rising sequences for decks of more than 63 cards, linear in the cards
+    up to the word count: ``inversions = sum_j (j - L_j)`` with ``L`` from
+    :func:`smaller_above` on the inverse arrangement."""
+    count, n = p.shape
+    inv = np.zeros(count, dtype=np.int64)
+    rising = np.zeros(count, dtype=np.int64)
+    total = n * (n - 1) // 2
+    for start in range(0, count, 1 << 12):
+        where = _inverse(p[start : start + (1 << 12)])
+        inv[start : start + (1 << 12)] = total - smaller_above(where).sum(axis=1)
+        rising[start : start + (1 << 12)] = 1 + _count_true(where[:, 1:] < where[:, :-1])
+    return inv, rising
 
 
 def _order_generic(p: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -225,9 +273,11 @@ def order_statistics(
 def _order_statistics(p: np.ndarray, force_generic: bool = False) -> tuple[np.ndarray, np.ndarray]:
     if p.shape[0] == 0:
         return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64)
-    if bitmask_ok(p.shape[1]) and not force_generic:
+    if force_generic:
+        return _order_generic(p)
+    if bitmask_ok(p.shape[1]):
         return _order_scan(p)
-    return _order_generic(p)
+    return _order_words(p)
 
 
 def inversions(relative: np.ndarray, *, check: bool = True) -> np.ndarray:

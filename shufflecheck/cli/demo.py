@@ -26,9 +26,9 @@ def demo(
 ) -> None:
     """Run the main job on the bundled demo data (the invented Lantern Quay Card Room).
 
-    Policy minimums for three procedures, their assessment, audits of three tables' logs,
-    and how many decks an audit needs; prints a summary and writes a report (Markdown,
-    self-contained HTML, JSON, figures) to --out.
+    Policy minimums for four procedures, their assessment, what would settle the open one,
+    audits of three tables' logs, and how many decks an audit needs; prints a summary and
+    writes a report (Markdown, self-contained HTML, JSON, figures) to --out.
     """
     from shufflecheck.analyses.demo import demo_folder, demo_work, run_demo
     from shufflecheck.analyses.plan import planning_json

@@ -288,9 +288,13 @@ def _draw_distance(
     log_scale: bool,
     level: float,
 ) -> Any:
-    fig = _new_figure((7.2, 4.4))
+    entries = len(series) + sum(x["kind"] == "estimate" for x in series)
+    entries += (target is not None) + any(x["minimum"] is not None for x in series)
+    # many curves: a taller figure with the legend under the plot, off the lines
+    fig = _new_figure((7.2, 4.4 + 0.16 * entries) if entries > 6 else (7.2, 4.4))
     ax = fig.add_subplot()
     groups: dict[str, int] = {}
+    notes: list[tuple[float, float, str]] = []
     for s in series:
         g = groups.setdefault(s["group"], len(groups))
         colour = SERIES_COLOURS[g % len(SERIES_COLOURS)]
@@ -332,16 +336,8 @@ def _draw_distance(
                 linestyle="none",
                 zorder=4,
             )
-            ax.annotate(
-                f"minimum: {s['minimum']:g} {steps_name} ({how_text})",
-                xy=(s["x"][k], s["y"][k]),
-                xytext=(10, 12),
-                textcoords="offset points",
-                fontsize=8,
-                color=_INK,
-                arrowprops={"arrowstyle": "-", "color": _INK, "linewidth": 0.8},
-                zorder=5,
-            )
+            unit = steps_name[:-1] if s["minimum"] == 1 and steps_name.endswith("s") else steps_name
+            notes.append((s["x"][k], s["y"][k], f"minimum: {s['minimum']:g} {unit} ({how_text})"))
     if target is not None:
         ax.axhline(target, **_THRESHOLD, label=f"target = {target:g}", zorder=1)
     if log_scale:
@@ -352,6 +348,20 @@ def _draw_distance(
     from matplotlib.ticker import MaxNLocator
 
     ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    # minimum labels: stacked in the plot's free upper area, each with a line to its point
+    to_axes = ax.transAxes.inverted()
+    for k, (x, y, text) in enumerate(sorted(notes)):
+        fx, _ = to_axes.transform(ax.transData.transform((x, y)))
+        ax.annotate(
+            text,
+            xy=(x, y),
+            xytext=(min(fx + 0.04, 0.6), 0.3 + 0.09 * k),
+            textcoords="axes fraction",
+            fontsize=8,
+            color=_INK,
+            arrowprops={"arrowstyle": "-", "color": _INK, "linewidth": 0.8},
+            zorder=5,
+        )
     ax.set_xlabel(f"number of {steps_name}")
     ax.set_ylabel(f"{metric} to random" + (" (log scale)" if log_scale else ""))
     if any(s["minimum"] is not None for s in series):
@@ -365,7 +375,10 @@ def _draw_distance(
             linestyle="none",
             label="chosen minimum",
         )
-    ax.legend(loc="best")
+    if entries > 6:
+        ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=1, fontsize=7.5)
+    else:
+        ax.legend(loc="best")
     return fig
 
 
@@ -409,7 +422,8 @@ def distance_figure(
     Returns
     -------
     Figure
-        PNG at :data:`DPI` (1080 x 660 pixels) and ``data`` with every plotted number.
+        PNG at :data:`DPI` (1080 x 660 pixels; taller, with the legend under the plot, when
+        the legend has more than six entries) and ``data`` with every plotted number.
     """
     level = _check_level(level)
     if isinstance(curves, Mapping) or not len(curves):

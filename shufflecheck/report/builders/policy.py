@@ -104,7 +104,7 @@ def policy_figure(result):
         if upper:
             curves.append(
                 {
-                    "label": f"{name}, upper bound",
+                    "label": name,
                     "kind": "bound",
                     "side": "upper",
                     "group": name,
@@ -117,7 +117,7 @@ def policy_figure(result):
         if guessed:
             curves.append(
                 {
-                    "label": f"{name}, interleaving conjecture (unproven)",
+                    "label": f"{name}, interleaving conjecture",
                     "kind": "conjectured",
                     "side": "upper",
                     "group": name,
@@ -129,7 +129,7 @@ def policy_figure(result):
         if lower:
             curves.append(
                 {
-                    "label": f"{name}, lower bound",
+                    "label": name,
                     "kind": "bound",
                     "side": "lower",
                     "group": name,
