@@ -182,6 +182,13 @@ class TestDemoAnswers:
         assert settle["certifying_change"]["procedure"] == proposed["procedure"]
         sections = [section["title"] for section in report["sections"]]
         assert "What would settle the open decisions" in sections
+        # with Table 1's fitted (clumpy) riffles there is no exact block and nothing to
+        # lengthen; only an audit of recorded decks could tell (estimate)
+        fitted = procedures["Hand-dealt games, Table 1's fitted riffles"]
+        assert fitted["standing"] == "undetermined"
+        assert fitted["settle"]["certifying_change"] is None
+        assert fitted["settle"]["riffles_without_exact_law"]
+        assert fitted["settle"]["audit_needs"]["decks"] is not None
 
     def test_policy_answers(self, report):
         procedures = {p["name"]: p for p in report["data"]["procedures"]}

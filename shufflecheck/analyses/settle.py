@@ -34,6 +34,7 @@ from typing import Any
 
 from shufflecheck.common.quantity import Quantity, exact
 from shufflecheck.models.blocks import ideal_packets, procedure_blocks
+from shufflecheck.models.hand_riffle import HandRiffle
 from shufflecheck.models.interleaving import conjectured_bounds
 from shufflecheck.models.procedures import Procedure, ProcedureItem
 from shufflecheck.models.riffle import MAX_EXACT_CARDS, MAX_EXACT_STEPS, Riffle
@@ -109,6 +110,7 @@ class Settlement:
     conjectured_minimum: int | None
     conjectured_at_repeats: Quantity | None
     audit: AuditNeed | None
+    unanalysed_riffles: tuple[str, ...] = ()
 
     def sentences(self, metric_label: str) -> list[str]:
         """The answers in plain words, each with its label."""
@@ -117,6 +119,12 @@ class Settlement:
             out.append(
                 f"a run of {self.block_riffles} consecutive ideal riffles anywhere in the "
                 f"procedure certifies it ({metric_label} {self.block_value})"
+            )
+        if self.change is None and self.unanalysed_riffles:
+            out.append(
+                f"its riffles ({', '.join(self.unanalysed_riffles)}) have no exact law, so "
+                "no run of them can be lengthened into a certificate: only runs of ideal "
+                "riffles count"
             )
         if self.change is not None:
             c = self.change
@@ -170,6 +178,7 @@ class Settlement:
                 else self.conjectured_at_repeats.as_json()
             ),
             "audit_needs": None if self.audit is None else self.audit.as_json(),
+            "riffles_without_exact_law": list(self.unanalysed_riffles),
         }
 
 
@@ -301,6 +310,13 @@ def settle(
                 conjectured_minimum = r
                 break
     audit = _audit_need(procedure, cards, repeats, alpha, seed) if plan_audit else None
+    unanalysed = tuple(
+        dict.fromkeys(
+            item.step.describe()
+            for item in procedure.items
+            if isinstance(item.step, HandRiffle) and ideal_packets(item.step) is None
+        )
+    )
     return Settlement(
         metric,
         target,
@@ -311,4 +327,5 @@ def settle(
         conjectured_minimum,
         at_repeats,
         audit,
+        unanalysed,
     )

@@ -53,8 +53,10 @@ def assess(
     """Distance to a random deck and an observant player's edge, for r = 1..R repetitions.
 
     Each number says how it was obtained: exact (the whole procedure is an exactly analysed
-    model), an upper bound from exactly analysed blocks, a lower bound at the stated
-    confidence from simulated decks, or an estimate with its interval (the guessing game).
+    model), an upper bound from the exactly analysed blocks (block inequalities), a
+    conjectured upper bound (the unproven interleaving conjecture; never certifies), a
+    lower bound at the stated confidence from simulated decks, or an estimate with its
+    interval (the guessing game).
     """
     check_report_folder(report, force=force)
     from shufflecheck.analyses.assess import assess as run_assessment
