@@ -174,6 +174,7 @@ def _label(group: _Group) -> tuple[str, int | None]:
         packets = math.prod(ideal_packets(step) ** times for step, times in group.steps)
         total = group.count
         label = f"riffle x{total}" if packets == 2**total else f"{packets}-shuffle"
+        label = "riffle" if label == "riffle x1" else label
         return label, packets
     if group.kind == "shelf" and len(group.steps) > 1:
         text = ", ".join(
