@@ -152,7 +152,7 @@ class TestDeckFiles:
             ('name = "x"\ncards = [', "not a valid TOML deck definition"),
             ('name = "x"\ncards = ["AS"]\ncolour = "red"', "unknown key 'colour'"),
             ('cards = ["AS"]', "'name' must be non-empty text"),
-            ('name = "x"\ncards = "AS KS"', "'cards' must be a non-empty list"),
+            ('name = "x"\ncards = "AS KS"', "is not a built-in deck (standard-52)"),
             ('name = "x"\ncards = []', "'cards' must be a non-empty list"),
             ('name = "x"\ncards = ["AS", "as"]', "card AS is listed twice (entries 1 and 2)"),
             ('name = "x"\ncards = ["AS", { code = "J", color = "red" }]', "unknown key 'color'"),

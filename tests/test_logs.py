@@ -491,8 +491,9 @@ class TestMalformed:
     def test_missing_order_column(self, tmp_path):
         message, path = self.run(tmp_path, "1,2\n", header="table,cards")
         assert message == (
-            f"{path} row 1: missing an 'order' column (columns are: table, cards); "
-            "see docs/formats-logs.md"
+            f"{path} row 1: missing an 'order' column (columns are: table, cards); name the "
+            "order column with order_column or the position columns with position_columns "
+            "(see docs/formats-logs.md)"
         )
 
     def test_wrong_number_of_fields(self, tmp_path):

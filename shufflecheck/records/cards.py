@@ -14,6 +14,17 @@ spaces:
 * suit ``S``, ``H``, ``D``, ``C`` or a suit symbol ``♠ ♥ ♦ ♣`` (the outline symbols
   ``♤ ♡ ♢ ♧`` and an emoji/text variation selector after the symbol are accepted too).
 
+The suit may also come first (``HA``, ``H10``, ``♥Q``): rank and suit letters are disjoint,
+so a two-part code reads one way only. Cards may be spelled out in English (``Ace of
+Spades``, ``10 of hearts``, ``Queen of Clubs``; words compared without regard to case and to
+runs of spaces).
+
+A *dialect* is a reader's own spelling of cards (``SPA`` for the ace of spades, ``P`` for
+spades): the ``[codes]`` and ``[spelling]`` tables of a deck definition file add such
+spellings as aliases of the deck's cards (:meth:`DeckDefinition.with_dialect`). An alias
+names a card by its code, never by a position, so the same table serves a deck in which a
+card has several copies.
+
 The canonical code of a card is two ASCII characters, upper case, ``T`` for ten: ``AS``,
 ``TH``, ``QC`` (so ``10h``, ``Th`` and ``10♥`` are all ``TH``). Cards that are not rank +
 suit (jokers, blanks) may be listed in a deck definition file under any code of their own
@@ -36,7 +47,7 @@ from __future__ import annotations
 import os
 import sys
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from pathlib import Path
 from typing import Literal
@@ -96,22 +107,71 @@ _TRANSLATE = {
 _EXPECTED = "expected rank A,2-9,T/10,J,Q,K and suit S,H,D,C"
 _MAX_CARDS = 32767  # labels are int16
 
+#: English rank words and suit names (singular and plural) of spelled-out cards
+_RANK_WORDS = {
+    "ACE": "A",
+    "TWO": "2",
+    "THREE": "3",
+    "FOUR": "4",
+    "FIVE": "5",
+    "SIX": "6",
+    "SEVEN": "7",
+    "EIGHT": "8",
+    "NINE": "9",
+    "TEN": "T",
+    "JACK": "J",
+    "QUEEN": "Q",
+    "KING": "K",
+    **{str(k): str(k) for k in range(2, 10)},
+    "10": "T",
+    **{r: r for r in RANKS},
+}
+_SUIT_WORDS = {
+    "SPADE": "S",
+    "SPADES": "S",
+    "HEART": "H",
+    "HEARTS": "H",
+    "DIAMOND": "D",
+    "DIAMONDS": "D",
+    "CLUB": "C",
+    "CLUBS": "C",
+}
+#: words of spelled-out names, for the hint when they arrive split at spaces
+NAME_WORDS = frozenset(_RANK_WORDS) | frozenset(_SUIT_WORDS) | {"OF"}
+
 
 def _normalise(token: str) -> str:
-    """Strip, drop variation selectors, upper-case ASCII letters, suit symbols to letters."""
-    return token.strip().translate(_TRANSLATE)
+    """Strip, drop variation selectors, upper-case ASCII letters, suit symbols to letters;
+    runs of inner whitespace become one space (spelled-out names)."""
+    out = token.strip().translate(_TRANSLATE)
+    return " ".join(out.split()) if " " in out or "\t" in out else out
 
 
 def _standard(normalised: str) -> str | None:
-    """Canonical rank+suit code of a normalised token, or None if it is not one."""
-    if len(normalised) == 3 and normalised.startswith("10"):
-        rank, suit = "T", normalised[2]
-    elif len(normalised) == 2:
-        rank, suit = normalised[0], normalised[1]
-    else:
+    """Canonical rank+suit code of a normalised token, or None if it is not one.
+
+    Accepts rank first (``AS``, ``10S``), suit first (``SA``, ``S10``) and English names
+    (``ACE OF SPADES``); rank and suit letters are disjoint, so no token reads two ways.
+    """
+    size = len(normalised)
+    if size == 2:
+        a, b = normalised[0], normalised[1]
+        if a in RANKS and b in SUITS:
+            return a + b
+        if a in SUITS and b in RANKS:
+            return b + a
         return None
-    if rank in RANKS and suit in SUITS:
-        return rank + suit
+    if size == 3:
+        if normalised.startswith("10") and normalised[2] in SUITS:
+            return "T" + normalised[2]
+        if normalised.endswith("10") and normalised[0] in SUITS:
+            return "T" + normalised[0]
+        return None
+    if " OF " in normalised:
+        rank, _, suit = normalised.partition(" OF ")
+        r, s = _RANK_WORDS.get(rank), _SUIT_WORDS.get(suit)
+        if r is not None and s is not None:
+            return r + s
     return None
 
 
@@ -165,9 +225,14 @@ class DeckDefinition:
         Free text from the definition file.
     source : str
         ``"built-in"`` or the file the definition was read from.
+    aliases : tuple of (str, str)
+        A reader's own spellings: pairs ``(alias, card code)``, the alias in normalised
+        form (upper-case ASCII, single spaces). An alias names a card by its code, not by
+        its label, so a deck with several copies of a card can share the same table.
 
-    Use :meth:`from_cards` to build one from codes (suits and colours derived), and
-    :func:`load_deck` for the built-in deck or a TOML file.
+    Use :meth:`from_cards` to build one from codes (suits and colours derived),
+    :meth:`with_dialect` to add a reader's spellings, and :func:`load_deck` for the
+    built-in deck or a TOML file.
     """
 
     name: str
@@ -176,7 +241,9 @@ class DeckDefinition:
     colours: tuple[str | None, ...]
     description: str = ""
     source: str = "built-in"
+    aliases: tuple[tuple[str, str], ...] = ()
     _index: dict[str, int] = field(init=False, repr=False, compare=False)
+    _alias: dict[str, int] = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         where = f"deck {self.name!r}"
@@ -198,6 +265,28 @@ class DeckDefinition:
                 )
             index[code] = label
         object.__setattr__(self, "_index", index)
+        alias: dict[str, int] = {}
+        for spelling, code in self.aliases:
+            if code not in index:
+                raise InputError(f"{where}: alias {spelling!r} names card {code}, not in the deck")
+            if _normalise(spelling) != spelling or not spelling:
+                raise InputError(f"{where}: alias {spelling!r} is not in normalised form")
+            if spelling.isdigit():
+                raise InputError(
+                    f"{where}: alias {spelling!r} is only digits (reserved for integer labels)"
+                )
+            means = _standard(spelling) or (spelling if spelling in index else None)
+            if means is not None and means != code:
+                raise InputError(
+                    f"{where}: alias {spelling!r} for {code} already means card {means}"
+                )
+            if alias.get(spelling, index[code]) != index[code]:
+                other = self.cards[alias[spelling]]
+                raise InputError(
+                    f"{where}: spelling {spelling!r} would mean both {other} and {code}"
+                )
+            alias[spelling] = index[code]
+        object.__setattr__(self, "_alias", alias)
 
     @classmethod
     def from_cards(
@@ -265,7 +354,94 @@ class DeckDefinition:
             return None
         normalised = _normalise(code)
         canonical = _standard(normalised) or normalised
-        return self._index.get(canonical)
+        found = self._index.get(canonical)
+        return self._alias.get(normalised) if found is None else found
+
+    def with_dialect(
+        self,
+        codes: Mapping[str, str] | None = None,
+        *,
+        ranks: Mapping[str, str] | None = None,
+        suits: Mapping[str, str] | None = None,
+        where: str | None = None,
+    ) -> DeckDefinition:
+        """This deck with a reader's own spellings added as aliases.
+
+        Parameters
+        ----------
+        codes : mapping, optional
+            Whole codes: ``{"SPA": "AS", "JK1": "RJ"}`` (alias -> a card of the deck, in any
+            accepted spelling).
+        ranks, suits : mapping, optional
+            Extra spellings of ranks (``{"1": "A", "B": "J"}``) and suits (``{"P": "S"}``);
+            every rank + suit card gets each combination, rank first and suit first.
+        where : str, optional
+            Prefix of error messages (default: the deck's name).
+
+        Two cards sharing a spelling, or an alias that already means another card, raise
+        :class:`InputError` naming it, so a dialect never makes a file read two ways.
+        """
+        spot = where or f"deck {self.name!r}"
+        pairs: dict[str, str] = dict(self.aliases)
+
+        def add(spelling: str, code: str, table: str) -> None:
+            key = _normalise(spelling)
+            if not key:
+                raise InputError(f"{spot}: [{table}] has an empty spelling")
+            if key in pairs and pairs[key] != code:
+                raise InputError(
+                    f"{spot}: [{table}] spelling {spelling!r} would mean both {pairs[key]} "
+                    f"and {code}"
+                )
+            means = _standard(key) or (key if key in self._index else None)
+            if means == code:
+                return  # already a spelling of the card
+            if means is not None:
+                raise InputError(
+                    f"{spot}: [{table}] {spelling!r} already means card {means}, not {code}"
+                )
+            pairs[key] = code
+
+        for alias, target in (codes or {}).items():
+            found = self.lookup(target) if isinstance(target, str) else None
+            if found is None:
+                raise InputError(f"{spot}: [codes] {alias!r} = {target!r}: not a card of the deck")
+            code = self.cards[found]
+            means = _standard(_normalise(alias))
+            if means is not None and means != code:
+                raise InputError(
+                    f"{spot}: [codes] {alias!r} already means card {means}, not {code}"
+                )
+            add(alias, code, "codes")
+        rank_spellings = {r: [r] + (["10"] if r == "T" else []) for r in RANKS}
+        suit_spellings = {s_: [s_] for s_ in SUITS}
+        for table, extra, letters, spellings in (
+            ("spelling.ranks", ranks, RANKS, rank_spellings),
+            ("spelling.suits", suits, SUITS, suit_spellings),
+        ):
+            for alias, letter in (extra or {}).items():
+                if not isinstance(letter, str) or _normalise(letter) not in letters:
+                    raise InputError(
+                        f"{spot}: [{table}] {alias!r} = {letter!r}: expected one of "
+                        f"{', '.join(letters)}"
+                    )
+                spellings[_normalise(letter)].append(_normalise(alias))
+        if ranks or suits:
+            for code in self.cards:
+                if _standard(code) is None:
+                    continue
+                for r in rank_spellings[code[0]]:
+                    for s_ in suit_spellings[code[1]]:
+                        for spelling in (r + s_, s_ + r):
+                            means = _standard(spelling)
+                            if means is not None and means != code:
+                                raise InputError(
+                                    f"{spot}: [spelling] makes {spelling!r} mean {code}, but "
+                                    f"it already means {means}; choose other spellings"
+                                )
+                            if means is None:
+                                add(spelling, code, "spelling")
+        return replace(self, aliases=tuple(sorted(pairs.items())))
 
     def code_problem(self, code: object, position: int | None = None) -> str:
         """Why ``code`` is not a card of this deck (one line; ``position`` 1-based)."""
@@ -279,6 +455,12 @@ class DeckDefinition:
                 return (
                     f"unknown card code {shown!r}{at}; {_EXPECTED} "
                     "(integer labels need labels='int')"
+                )
+            if _normalise(code) in NAME_WORDS and len(_normalise(code)) > 2:
+                return (
+                    f"unknown card code {shown!r}{at}; spelled-out names such as 'Ace of "
+                    "Spades' need a separator between cards other than a space (a comma, "
+                    "semicolon or pipe; see separator)"
                 )
         extra = self.special_codes
         more = ", ..." if len(extra) > 6 else ""
@@ -345,6 +527,10 @@ class DeckDefinition:
             for rank in ranks:
                 for suit in symbols[code[1]]:
                     table[rank + suit] = label
+                    table[suit + rank] = label  # suit first
+        for spelling, label in self._alias.items():
+            if " " not in spelling:
+                table[spelling] = label
         return table
 
 
@@ -393,7 +579,15 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
         cards = ["AS", "KS", "QS", { code = "RJ", colour = "red" }, ...]
 
     Each entry of ``cards`` is a code or an inline table with ``code`` and optional
-    ``suit`` and ``colour``; the label of a card is its index in ``cards``.
+    ``suit`` and ``colour``; the label of a card is its index in ``cards``. ``cards`` may
+    instead name a built-in deck (``cards = "standard-52"``). A reader's own spellings
+    (a dialect, :meth:`DeckDefinition.with_dialect`) go in two optional tables::
+
+        [codes]                       # whole codes: alias = card
+        "SPA" = "AS"
+        [spelling]                    # parts: every combination, rank or suit first
+        ranks = { "1" = "A", "B" = "J" }
+        suits = { "P" = "S" }
     """
     if isinstance(spec, DeckDefinition):
         return spec
@@ -414,24 +608,47 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
         raise InputError(f"{text}: not a valid TOML deck definition ({exc})") from None
     except OSError as exc:
         raise InputError(f"{text}: cannot read deck definition ({exc.strerror})") from None
-    unknown = sorted(set(data) - {"name", "description", "cards"})
+    unknown = sorted(set(data) - {"name", "description", "cards", "codes", "spelling"})
     if unknown:
         raise InputError(
-            f"{text}: unknown key {unknown[0]!r}; a deck definition has name, description, cards"
+            f"{text}: unknown key {unknown[0]!r}; a deck definition has name, description, "
+            "cards, codes, spelling"
         )
     name = data.get("name")
     if not isinstance(name, str) or not name.strip():
         raise InputError(f"{text}: 'name' must be non-empty text")
     cards = data.get("cards")
+    if isinstance(cards, str):
+        if cards not in _BUILT_IN:
+            raise InputError(f"{text}: 'cards' = {cards!r} is not a built-in deck (standard-52)")
+        cards = list(_BUILT_IN[cards].cards)
     if not isinstance(cards, list) or not cards:
-        raise InputError(f"{text}: 'cards' must be a non-empty list of card codes")
+        raise InputError(
+            f"{text}: 'cards' must be a non-empty list of card codes or a built-in deck's name"
+        )
     description = data.get("description", "")
     if not isinstance(description, str):
         raise InputError(f"{text}: 'description' must be text")
+    codes = _text_table(data, "codes", text)
+    spelling = data.get("spelling", {})
+    if not isinstance(spelling, dict) or set(spelling) - {"ranks", "suits"}:
+        raise InputError(f"{text}: [spelling] may hold only the tables ranks and suits")
+    ranks = _text_table(spelling, "ranks", text)
+    suits = _text_table(spelling, "suits", text)
     try:
-        return DeckDefinition.from_cards(name.strip(), cards, description=description, source=text)
+        deck = DeckDefinition.from_cards(name.strip(), cards, description=description, source=text)
+        if codes or ranks or suits:
+            deck = deck.with_dialect(codes, ranks=ranks, suits=suits, where=f"deck {deck.name!r}")
+        return deck
     except InputError as exc:
         raise InputError(f"{text}: {exc}") from None
+
+
+def _text_table(data: Mapping[str, object], key: str, where: str) -> dict[str, str]:
+    table = data.get(key, {})
+    if not isinstance(table, dict) or not all(isinstance(v, str) for v in table.values()):
+        raise InputError(f"{where}: [{key}] must be a table of text values (spelling = card)")
+    return dict(table)
 
 
 def integer_deck(cards: int) -> DeckDefinition:

@@ -32,6 +32,25 @@ POSITION_COLUMN = re.compile(r"^(p|pos|position|card)?[ _-]?(\d+)$", re.IGNORECA
 QUARANTINE_HEADER = ("row", "reason", "problem", "content")
 
 
+#: Separators between the cards of one order field, by name (``space``: any run of spaces or tabs).
+SEPARATORS = {"space": None, "comma": ",", "semicolon": ";", "pipe": "|"}
+
+
+@dataclass(frozen=True)
+class ColumnMap:
+    """Where a log keeps what the reader needs (None: found as docs/formats-logs.md says).
+
+    ``order`` names the column of card orders; ``positions`` the position columns of a
+    wide file, top first; ``before`` a column with each deck's own starting order;
+    ``names`` declares the columns of a file without a header row.
+    """
+
+    order: str | None = None
+    positions: tuple[str, ...] | None = None
+    before: str | None = None
+    names: tuple[str, ...] | None = None
+
+
 # --------------------------------------------------------------------------------------
 # results
 
@@ -66,12 +85,16 @@ class LogChunk:
         (empty cells are ``""``); JSON and Parquet values keep their types.
     set_aside : SetAside
         Rows of this chunk set aside into the quarantine file (empty without one).
+    before : ndarray of int16, shape (rows, n), or None
+        Each deck's own starting order (labels, top first), when the log has a before
+        column (``before_column``); None otherwise.
     """
 
     decks: np.ndarray
     rows: np.ndarray
     columns: pd.DataFrame
     set_aside: SetAside
+    before: np.ndarray | None = None
 
     def __len__(self) -> int:
         return int(self.decks.shape[0])
@@ -86,6 +109,9 @@ class LogSummary:
     skipped (they hold no deck). ``labels`` is the numbering that was used (``codes``,
     ``int0``, ``int1``; ``int`` if no valid row fixed it) and ``base_row`` the row that
     fixed it in ``int`` mode. ``complete`` is False until the whole file was read.
+    ``order_column`` is the column the orders were read from (or ``positions 1..N``),
+    ``separator`` the separator between cards inside an order field and whether it was
+    ``detected`` or ``given``; ``header`` is ``read`` or ``declared`` (no header row).
     """
 
     path: str
@@ -99,6 +125,10 @@ class LogSummary:
     quarantine: str | None
     base_row: int | None
     complete: bool
+    order_column: str = "order"
+    separator: str = "space"
+    separator_source: str = "detected"
+    header: str = "read"
 
     @property
     def rows(self) -> int:

@@ -16,6 +16,7 @@ import gzip
 import io
 import itertools
 import json
+import re
 from collections import Counter
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
@@ -27,7 +28,7 @@ import pandas as pd
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition
-from shufflecheck.records.logs._common import POSITION_COLUMN
+from shufflecheck.records.logs._common import POSITION_COLUMN, ColumnMap
 
 # --------------------------------------------------------------------------------------
 # raw chunks, as each format delivers them
@@ -53,6 +54,7 @@ class RawChunk:
     counts: np.ndarray | None = None  # tokens per row
     failed: list[BadRow] = field(default_factory=list)
     blank: int = 0
+    before: Sequence[object] | None = None  # per row: the deck's own starting order
 
 
 def _decode(data: bytes) -> str:
@@ -84,28 +86,105 @@ def _position_columns(names: Sequence[str], where: str) -> list[int] | None:
     return [found[k] for k in range(1, len(found) + 1)]
 
 
+def find_column(names: Sequence[str], wanted: str, where: str, argument: str) -> int:
+    """Index of the column called ``wanted``: exactly, else the one equal up to case."""
+    stripped = [str(n).strip() for n in names]
+    if wanted.strip() in stripped:
+        return stripped.index(wanted.strip())
+    folded = [i for i, n in enumerate(stripped) if n.lower() == wanted.strip().lower()]
+    if len(folded) == 1:
+        return folded[0]
+    raise InputError(
+        f"{where}: no column {wanted!r} (given as {{{argument}}}; columns are: {_shown(names)})",
+        argument=argument,
+    )
+
+
+def _shown(names: Sequence[str]) -> str:
+    return ", ".join(map(str, names[:8])) + (", ..." if len(names) > 8 else "")
+
+
+def _words_of(name: str) -> list[str]:
+    return [w for w in re.split(r"[^0-9a-z]+", str(name).lower()) if w]
+
+
 def _layout(
-    names: Sequence[str], fmt: str, deck: DeckDefinition, where: str
-) -> tuple[str, list[int]]:
-    """('csv', [order index]) or ('wide', [position indices]) for a header."""
-    order = [i for i, name in enumerate(names) if name.strip().lower() == "order"]
+    names: Sequence[str], fmt: str, deck: DeckDefinition, where: str, columns: ColumnMap
+) -> tuple[str, list[int], int | None]:
+    """('csv', [order index], before) or ('wide', [position indices], before) for a header.
+
+    ``before`` is the index of the column holding each deck's own starting order, or None.
+    Without a mapping the order column is ``order`` (any case), else the one column whose
+    name has the word ``order`` in it (``Deck Order``); several such columns are refused
+    with a message naming ``order_column``.
+    """
+    before = None
+    if columns.before is not None:
+        before = find_column(names, columns.before, where, "before_column")
+    free = [i for i in range(len(names)) if i != before]
+    if columns.order is not None:
+        index = find_column(names, columns.order, where, "order_column")
+        if index == before:
+            raise InputError(f"{where}: the order column and the before column are the same")
+        return "csv", [index], before
+    if columns.positions is not None:
+        wanted = list(columns.positions)
+        if len(wanted) != deck.size:
+            raise InputError(
+                f"{where}: {len(wanted)} position columns given, deck {deck.name!r} has "
+                f"{deck.size} cards",
+                argument="position_columns",
+            )
+        return "wide", [find_column(names, w, where, "position_columns") for w in wanted], before
+    order = [i for i in free if str(names[i]).strip().lower() == "order"]
     if len(order) > 1:
-        raise InputError(f"{where}: more than one 'order' column")
+        raise InputError(
+            f"{where}: more than one 'order' column; name the one to read with {{order_column}}",
+            argument="order_column",
+        )
+    if fmt != "wide" and not order:
+        order = [i for i in free if "order" in _words_of(names[i])]
+        if len(order) > 1:
+            shown = ", ".join(repr(str(names[i])) for i in order)
+            raise InputError(
+                f"{where}: several columns could hold the deck order ({shown}); name the one "
+                "to read with {order_column} (and a starting order with a 'column:NAME' "
+                "{reference})",
+                argument=("order_column", "reference"),
+            )
     if fmt != "wide" and order:
-        return "csv", order
-    positions = _position_columns([n for i, n in enumerate(names) if i not in order], where)
+        return "csv", order, before
+    candidates = [i for i in free if i not in order]
+    positions = _position_columns([names[i] for i in candidates], where)
     if positions is not None:
-        kept = [i for i in range(len(names)) if i not in order]
-        positions = [kept[k] for k in positions]
+        positions = [candidates[k] for k in positions]
         if len(positions) != deck.size:
             raise InputError(
                 f"{where}: {len(positions)} position columns, deck {deck.name!r} has "
                 f"{deck.size} cards"
             )
-        return "wide", positions
-    shown = ", ".join(names[:8]) + (", ..." if len(names) > 8 else "")
+        return "wide", positions, before
     wanted = "position columns p1..pN" if fmt == "wide" else "an 'order' column"
-    raise InputError(f"{where}: missing {wanted} (columns are: {shown}); see docs/formats-logs.md")
+    if _looks_like_data(names, deck):
+        raise InputError(
+            f"{where} looks like a deck, not a header: the file has no header row; declare "
+            "its columns with {columns} (e.g. 'deck,table,order' or 'table,p1..p52')",
+            argument="columns",
+        )
+    raise InputError(
+        f"{where}: missing {wanted} (columns are: {_shown(names)}); name the order column "
+        "with {order_column} or the position columns with {position_columns} "
+        "(see docs/formats-logs.md)",
+        argument=("order_column", "position_columns"),
+    )
+
+
+def _looks_like_data(names: Sequence[str], deck: DeckDefinition) -> bool:
+    """True when a 'header' is made of card codes (a file without a header row)."""
+    tokens = [t for name in names for t in re.split(r"[\s,;|]+", str(name)) if t]
+    hits = sum(deck.lookup(t) is not None for t in tokens)
+    digits = sum(t.isdigit() for t in tokens)
+    return len(tokens) >= 3 and (hits >= max(3, len(tokens) // 2) or digits == len(tokens))
 
 
 def _open_binary(path: Path) -> IO[bytes]:
@@ -175,24 +254,43 @@ def _still_open(text: str, delimiter: str) -> bool:
     return False
 
 
+def _declared_delimiter(line: str, width: int, path: Path) -> str:
+    """The delimiter of a headerless file: the one that splits its first row into
+    ``width`` fields (commas when none or several do)."""
+    if ".tsv" in [s.lower() for s in path.suffixes]:
+        return "\t"
+    fitting = [d for d in (",", ";", "\t") if len(_csv_fields(line, d) or []) == width]
+    return fitting[0] if len(fitting) == 1 else ","
+
+
 def csv_chunks(
-    path: Path, shown: str, fmt: str, deck: DeckDefinition, chunk_rows: int
-) -> Iterator[RawChunk | tuple[str, list[int]]]:
-    """Yield the layout first, then one RawChunk per block of about chunk_rows records."""
+    path: Path, shown: str, fmt: str, deck: DeckDefinition, chunk_rows: int, columns: ColumnMap
+) -> Iterator[RawChunk | tuple[str, list[int], int | None, list[str]]]:
+    """Yield the layout first, then one RawChunk per block of about chunk_rows records.
+
+    With ``columns.names`` the file has no header row: those are its columns and its
+    first line is row 1, a deck.
+    """
+    headerless = columns.names is not None
     with _open_binary(path) as handle:
         try:
             first = handle.readline()
             header = first[3:] if first.startswith(b"\xef\xbb\xbf") else first
+            pending = [header] if headerless else []  # a headerless file's row 1 is a deck
             if not first:
                 raise InputError(f"{shown}: empty file")
-            if not header.strip():
+            if not header.strip() and not headerless:
                 raise InputError(f"{shown} row 1: empty; the first row must be the header")
             try:
                 header_text = header.decode("utf-8")
             except UnicodeDecodeError:
                 raise InputError(f"{shown} row 1: the header is not UTF-8 text") from None
-            delimiter = _sniff_delimiter(header_text, path)
-            for _ in range(_SPAN):
+            if headerless:
+                assert columns.names is not None
+                delimiter = _declared_delimiter(header_text.rstrip("\r\n"), len(columns.names), path)
+            else:
+                delimiter = _sniff_delimiter(header_text, path)
+            for _ in range(_SPAN if not headerless else 0):
                 if not _still_open(header_text, delimiter):
                     break
                 more = handle.readline()
@@ -201,10 +299,13 @@ def csv_chunks(
                 header_text += more.decode("utf-8", "replace")
         except (OSError, EOFError, gzip.BadGzipFile) as exc:
             raise InputError(f"cannot read {shown}: {exc}") from None
-        where = f"{shown} row 1"
-        names = _csv_fields(header_text.rstrip("\r\n"), delimiter)
-        if names is None:
-            raise InputError(f"{where}: the header is not valid CSV (check its quotes)")
+        where = f"{shown} row 1" if not headerless else f"{shown} (declared columns)"
+        if headerless:
+            names = list(columns.names or ())
+        else:
+            names = _csv_fields(header_text.rstrip("\r\n"), delimiter)
+            if names is None:
+                raise InputError(f"{where}: the header is not valid CSV (check its quotes)")
         names = [n.strip() for n in names]
         for k, name in enumerate(names):
             if not name:
@@ -212,14 +313,18 @@ def csv_chunks(
         repeated = [n for n, c in Counter(names).items() if c > 1]
         if repeated:
             raise InputError(f"{where}: column {repeated[0]!r} appears twice in the header")
-        layout, used = _layout(names, fmt, deck, where)
-        yield layout, used
-        kept = [i for i in range(len(names)) if i not in used]
-        shape = _Shape(len(names), delimiter, layout, used, kept, [names[i] for i in kept])
-        next_row = 2
+        layout, used, before = _layout(names, fmt, deck, where, columns)
+        yield layout, used, before, names
+        taken = [*used] + ([before] if before is not None else [])
+        kept = [i for i in range(len(names)) if i not in taken]
+        shape = _Shape(
+            len(names), delimiter, layout, used, kept, [names[i] for i in kept], before
+        )
+        next_row = 1 if headerless else 2
         while True:
             try:
-                lines = list(itertools.islice(handle, chunk_rows))
+                lines = pending + list(itertools.islice(handle, chunk_rows - len(pending)))
+                pending = []
                 quoted = any(b'"' in line for line in lines)
                 records = lines
                 if quoted:
@@ -247,6 +352,7 @@ class _Shape:
     used: list[int]
     kept: list[int]
     kept_names: list[str]
+    before: int | None = None
 
 
 def _csv_fields(text: str, delimiter: str) -> list[str] | None:
@@ -365,6 +471,9 @@ def _csv_raw(
     def raw_of(i: int) -> str:
         return _decode(records[good[i]])
 
+    before = None
+    if shape.before is not None:
+        before = frame.iloc[:, shape.before].to_numpy(dtype=object).tolist()
     if shape.layout == "csv":
         order = frame.iloc[:, shape.used[0]].to_numpy(dtype=object)
         return RawChunk(
@@ -375,6 +484,7 @@ def _csv_raw(
             texts=order.tolist(),
             failed=failed,
             blank=blank,
+            before=before,
         )
     cells = frame.iloc[:, shape.used].to_numpy(dtype=object)
     return RawChunk(
@@ -386,6 +496,7 @@ def _csv_raw(
         counts=np.full(len(good), len(shape.used), dtype=np.int64),
         failed=failed,
         blank=blank,
+        before=before,
     )
 
 
@@ -432,8 +543,8 @@ _JSON_KIND = {"list": "array", "str": "text", "int": "number", "float": "number"
 
 
 def _json_record(
-    line: bytes,
-) -> tuple[list[object], dict[str, Any] | None, tuple[str, str] | None]:
+    line: bytes, order_key: str = "order"
+) -> tuple[list[object] | str, dict[str, Any] | None, tuple[str, str] | None]:
     """(order, other keys, None) of one JSON line, or (None, keys or None, (reason, problem))."""
     try:
         value = json.loads(line)
@@ -444,23 +555,26 @@ def _json_record(
     if not isinstance(value, dict):
         kind = _JSON_KIND.get(type(value).__name__, "true/false/null")
         return [], None, ("malformed-json", f"a line must be a JSON object, got {kind}")
-    keys = [k for k in value if k.strip().lower() == "order"]
+    keys = [k for k in value if k == order_key] or [
+        k for k in value if k.strip().lower() == order_key.strip().lower()
+    ]
     if len(keys) != 1:
-        return (
-            [],
-            value,
-            ("missing-order", "more than one 'order' key" if keys else "no 'order' key"),
-        )
+        many = f"more than one {order_key!r} key"
+        return [], value, ("missing-order", many if keys else f"no {order_key!r} key")
     order = value.pop(keys[0])
     if isinstance(order, str):
-        return order.split(), value, None
+        return order, value, None  # one text: split by the reader's separator
     if order is None or isinstance(order, list):
         return order or [], value, None
-    problem = "'order' must be a list of card codes or a text of codes"
+    problem = f"{order_key!r} must be a list of card codes or a text of codes"
     return [], value, ("malformed-row", problem)
 
 
-def jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[RawChunk]:
+def jsonl_chunks(
+    path: Path, shown: str, chunk_rows: int, columns: ColumnMap | None = None
+) -> Iterator[RawChunk]:
+    columns = columns or ColumnMap()
+    order_key = columns.order or "order"
     with _open_binary(path) as handle:
         line_no = 0
         seen_any = False
@@ -477,9 +591,10 @@ def jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[RawChunk]:
             failed: list[BadRow] = []
             blank = 0
             rows: list[int] = []
-            orders: list[list[object]] = []
+            orders: list[list[object] | str] = []
             records: list[dict[str, Any]] = []
             raws: list[str] = []
+            befores: list[object] = []
             for line in lines:
                 line_no += 1
                 if line_no == 1 and line.startswith(b"\xef\xbb\xbf"):
@@ -488,30 +603,46 @@ def jsonl_chunks(path: Path, shown: str, chunk_rows: int) -> Iterator[RawChunk]:
                     blank += 1
                     continue
                 text = _decode(line)
-                order, value, problem = _json_record(line.strip())
+                order, value, problem = _json_record(line.strip(), order_key)
+                if problem is None and columns.before is not None:
+                    assert value is not None
+                    start = value.pop(columns.before, None)
+                    if not isinstance(start, (str, list)):
+                        problem = (
+                            "missing-order",
+                            f"{columns.before!r} must hold the deck's starting order",
+                        )
+                    befores.append(start)
                 if problem is not None:
                     failed.append(BadRow(line_no, problem[0], problem[1], text, value))
+                    if columns.before is not None and len(befores) > len(rows):
+                        befores.pop()
                     continue
                 rows.append(line_no)
                 orders.append(order)
                 records.append(value)
                 raws.append(text)
-            flat, counts = _flatten(orders)
+            texted = bool(orders) and all(isinstance(o, str) for o in orders)
+            if not texted:  # lists, perhaps with a few texts: those split at whitespace
+                orders = [o.split() if isinstance(o, str) else o for o in orders]
+            flat, counts = _flatten([] if texted else orders)  # type: ignore[arg-type]
             yield RawChunk(
                 np.asarray(rows, dtype=np.int64),
                 pd.DataFrame(records, index=range(len(records))),
                 tokens_of=lambda i, orders=orders: list(orders[i]),
                 raw_of=lambda i, raws=raws: raws[i],
-                flat=flat,
-                counts=counts,
+                texts=orders if texted else None,  # type: ignore[arg-type]
+                flat=None if texted else flat,
+                counts=None if texted else counts,
                 failed=failed,
                 blank=blank,
+                before=befores if columns.before is not None else None,
             )
 
 
 def parquet_chunks(
-    path: Path, shown: str, deck: DeckDefinition, chunk_rows: int
-) -> Iterator[RawChunk | tuple[str, list[int]]]:
+    path: Path, shown: str, deck: DeckDefinition, chunk_rows: int, columns: ColumnMap
+) -> Iterator[RawChunk | tuple[str, list[int], int | None, list[str]]]:
     try:
         import pyarrow as pa
         import pyarrow.compute as pc
@@ -526,18 +657,22 @@ def parquet_chunks(
     except (OSError, pa.ArrowException) as exc:
         raise InputError(f"{shown}: not a readable Parquet file ({exc})") from None
     names = list(parquet.schema_arrow.names)
-    layout, used = _layout(names, "auto", deck, f"{shown} schema")
-    yield layout, used
-    kept_names = [n for i, n in enumerate(names) if i not in used]
+    layout, used, before_index = _layout(names, "auto", deck, f"{shown} schema", columns)
+    yield layout, used, before_index, names
+    taken = [*used] + ([before_index] if before_index is not None else [])
+    kept_names = [n for i, n in enumerate(names) if i not in taken]
     offset = 1
     for batch in parquet.iter_batches(batch_size=chunk_rows):
         m = batch.num_rows
         rows = np.arange(offset, offset + m, dtype=np.int64)
         offset += m
-        columns = (
+        kept = (
             batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
         )
-        columns = columns.reset_index(drop=True)
+        kept = kept.reset_index(drop=True)
+        before = None
+        if before_index is not None:
+            before = batch.column(before_index).to_pylist()
 
         def raw_of(i: int, batch: Any = batch) -> str:
             return json.dumps(batch.slice(i, 1).to_pylist()[0], default=str, ensure_ascii=False)
@@ -549,15 +684,17 @@ def parquet_chunks(
                 texts = [t or "" for t in order.to_pylist()]
                 yield RawChunk(
                     rows,
-                    columns,
+                    kept,
                     tokens_of=lambda i, t=texts: t[i].split(),
                     raw_of=raw_of,
                     texts=texts,
+                    before=before,
                 )
                 continue
             if not (pa.types.is_list(kind) or pa.types.is_large_list(kind)):
                 raise InputError(
-                    f"{shown}: column 'order' has type {kind}; expected a list or text of codes"
+                    f"{shown}: column {names[used[0]]!r} has type {kind}; expected a list or "
+                    "text of codes"
                 )
             counts = pc.fill_null(pc.list_value_length(order), 0).to_numpy().astype(np.int64)
             values = pc.list_flatten(order)
@@ -567,11 +704,12 @@ def parquet_chunks(
                 flat = np.asarray(values.to_numpy(zero_copy_only=False), dtype=object)
             yield RawChunk(
                 rows,
-                columns,
+                kept,
                 tokens_of=lambda i, o=order: o[i].as_py() or [],
                 raw_of=raw_of,
                 flat=flat,
                 counts=counts,
+                before=before,
             )
             continue
         cells = [batch.column(i) for i in used]
@@ -583,9 +721,10 @@ def parquet_chunks(
             grid = np.stack([np.asarray(c.to_pylist(), dtype=object) for c in cells], axis=1)
         yield RawChunk(
             rows,
-            columns,
+            kept,
             tokens_of=lambda i, c=cells: [x[i].as_py() for x in c],
             raw_of=raw_of,
             flat=grid.ravel(),
             counts=np.full(m, len(used), dtype=np.int64),
+            before=before,
         )

@@ -3,13 +3,14 @@ row is :func:`shufflecheck.records.orders.check_arrangement`."""
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from functools import cache
 
 import numpy as np
 import pandas as pd
 
+from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition
 from shufflecheck.records.orders import integer_value
 
@@ -146,3 +147,61 @@ def permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
         flat = (part.astype(np.int32) + offsets).ravel()
         ok[lo : lo + rows] = (np.bincount(flat, minlength=rows * n).reshape(rows, n) == 1).all(1)
     return ok
+
+
+# --------------------------------------------------------------------------------------
+# separators between the cards of one order field
+
+_CANDIDATES = {",": "comma", ";": "semicolon", "|": "pipe"}
+
+
+def detect_separator(texts: Sequence[str], first_row: Callable[[int], int]) -> str | None:
+    """The separator between cards in order fields: one of ``, ; |`` or None (whitespace).
+
+    Looks at the first 200 non-empty texts. A text holding none of the candidates is
+    separated by spaces; two different candidates in the file are refused
+    (:class:`InputError` naming ``separator``), never guessed.
+    """
+    seen: dict[str, int] = {}
+    looked = 0
+    for i, text in enumerate(texts):
+        if looked >= 200:
+            break
+        if not isinstance(text, str) or not text.strip():
+            continue
+        looked += 1
+        for char in _CANDIDATES:
+            if char in text and char not in seen:
+                seen[char] = first_row(i)
+    if len(seen) > 1:
+        shown = " and ".join(f"{_CANDIDATES[c]}s (row {r})" for c, r in seen.items())
+        raise InputError(
+            f"the order fields hold {shown} between cards; give the separator with "
+            "{separator} (space, comma, semicolon or pipe)",
+            argument="separator",
+        )
+    return next(iter(seen), None)
+
+
+def split_order(text: object, separator: str | None) -> list[object]:
+    """The tokens of one order field (``separator`` None: any run of whitespace)."""
+    if not isinstance(text, str):
+        return [] if text is None else list(text)  # type: ignore[call-overload]
+    if separator is None or not text.strip():
+        return list(text.split())
+    return list(text.split(separator))
+
+
+def split_texts(texts: Sequence[str], separator: str) -> tuple[np.ndarray, np.ndarray]:
+    """Every token of order fields split at ``separator`` -> (flat tokens, tokens per row)."""
+    full = [bool(t.strip()) for t in texts]
+    counts = np.fromiter(
+        (t.count(separator) + 1 if f else 0 for t, f in zip(texts, full, strict=True)),
+        dtype=np.int64,
+        count=len(texts),
+    )
+    joined = separator.join(t for t, f in zip(texts, full, strict=True) if f)
+    tokens = joined.split(separator) if counts.sum() else []
+    flat = np.empty(len(tokens), dtype=object)
+    flat[:] = tokens
+    return flat, counts

@@ -5,8 +5,9 @@ from __future__ import annotations
 import contextlib
 import csv
 import os
+import re
 from collections import Counter
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
 
 import numpy as np
@@ -19,6 +20,8 @@ from shufflecheck.records.logs._common import (
     DEFAULT_CHUNK_ROWS,
     FORMATS,
     QUARANTINE_HEADER,
+    SEPARATORS,
+    ColumnMap,
     LogChunk,
     LogFormat,
     LogSummary,
@@ -31,7 +34,14 @@ from shufflecheck.records.logs._formats import (
     jsonl_chunks,
     parquet_chunks,
 )
-from shufflecheck.records.logs._tokens import map_tokens, permutation_rows, scan_text
+from shufflecheck.records.logs._tokens import (
+    detect_separator,
+    map_tokens,
+    permutation_rows,
+    scan_text,
+    split_order,
+    split_texts,
+)
 from shufflecheck.records.orders import Arrangement, check_arrangement
 
 # --------------------------------------------------------------------------------------
@@ -72,6 +82,8 @@ class LogReader:
         fmt: str,
         chunk_rows: int,
         quarantine: Path | None,
+        columns: ColumnMap | None = None,
+        separator: str | None = None,
     ) -> None:
         self.path = path
         self.deck = deck
@@ -81,6 +93,11 @@ class LogReader:
         self._layout = fmt
         self._chunk_rows = chunk_rows
         self._quarantine = quarantine
+        self._columns = columns or ColumnMap()
+        self._separator_given = separator is not None
+        self._separator: str | None = SEPARATORS[separator] if separator is not None else None
+        self._separator_known = separator is not None
+        self._order_column = "order"
         self._base: int | None = {"int0": 0, "int1": 1}.get(labels)
         self._base_row: int | None = None
         self._decks = 0
@@ -115,6 +132,10 @@ class LogReader:
             quarantine=None if self._quarantine is None else str(self._quarantine),
             base_row=self._base_row,
             complete=self._complete,
+            order_column=self._order_column,
+            separator=next(k for k, v in SEPARATORS.items() if v == self._separator),
+            separator_source="given" if self._separator_given else "detected",
+            header="declared" if self._columns.names is not None else "read",
         )
 
     def read_all(self) -> LogChunk:
@@ -138,6 +159,9 @@ class LogReader:
                 pd.concat([c.set_aside.columns for c in chunks], ignore_index=True),
                 np.concatenate([c.set_aside.readable for c in chunks]),
             ),
+            None
+            if chunks[0].before is None
+            else np.concatenate([c.before for c in chunks if c.before is not None]),
         )
 
     # -- machinery ----------------------------------------------------------------------
@@ -149,14 +173,23 @@ class LogReader:
     def _raw_chunks(self) -> Iterator[RawChunk]:
         if self._fmt == "jsonl":
             self._layout = "jsonl"
-            yield from jsonl_chunks(self.path, self._shown, self._chunk_rows)
+            self._order_column = self._columns.order or "order"
+            yield from jsonl_chunks(self.path, self._shown, self._chunk_rows, self._columns)
             return
         if self._fmt == "parquet":
-            source = parquet_chunks(self.path, self._shown, self.deck, self._chunk_rows)
+            source = parquet_chunks(
+                self.path, self._shown, self.deck, self._chunk_rows, self._columns
+            )
         else:
-            source = csv_chunks(self.path, self._shown, self._fmt, self.deck, self._chunk_rows)
-        layout, _ = next(source)  # type: ignore[misc]
+            source = csv_chunks(
+                self.path, self._shown, self._fmt, self.deck, self._chunk_rows, self._columns
+            )
+        layout, used, _, names = next(source)  # type: ignore[misc]
         self._layout = layout if self._fmt != "parquet" else "parquet"
+        if layout == "csv":
+            self._order_column = str(names[used[0]]).strip()
+        else:
+            self._order_column = f"positions {names[used[0]]}..{names[used[-1]]}"
         for raw in source:
             assert isinstance(raw, RawChunk)
             yield raw
@@ -194,10 +227,11 @@ class LogReader:
         m = len(raw.rows)
         integer = self._labels != "codes"
         if raw.texts is not None:
-            values, counts = scan_text(raw.texts, self.deck, integer)
+            values, counts, tokens_of = self._tokens(raw.texts, raw)
         else:
             assert raw.flat is not None and raw.counts is not None
             values, counts = map_tokens(raw.flat, self.deck, integer), raw.counts
+            tokens_of = raw.tokens_of
         starts = np.cumsum(counts) - counts
         full = np.flatnonzero(counts == n)
         grid = values[starts[full, None] + np.arange(n)] if full.size else np.zeros((0, n), int)
@@ -215,7 +249,7 @@ class LogReader:
             # the first valid row of the file fixes the numbering (fast or authoritative)
             doubtful = np.flatnonzero(~(fast[0] | fast[1]))
             for i in doubtful.tolist():
-                checked[i] = check_arrangement(raw.tokens_of(i), self.deck, labels="int")
+                checked[i] = check_arrangement(tokens_of(i), self.deck, labels="int")
             found = [(int(raw.rows[np.argmax(ok)]), b) for b, ok in fast.items() if ok.any()]
             found += [(int(raw.rows[i]), c.base) for i, c in checked.items() if c.ok]
             if found:
@@ -228,7 +262,7 @@ class LogReader:
         bad = list(raw.failed)
         for i in np.flatnonzero(~good).tolist():
             result = checked.get(i) or check_arrangement(
-                raw.tokens_of(i), self.deck, labels=self._labels, base=self._base
+                tokens_of(i), self.deck, labels=self._labels, base=self._base
             )
             if result.ok:
                 good[i] = True
@@ -244,6 +278,9 @@ class LogReader:
                         kept,
                     )
                 )
+        before = None
+        if raw.before is not None:
+            before = self._before(raw, good, bad)
         bad.sort(key=lambda b: b.row)
         keep = np.flatnonzero(good)
         names = list(raw.columns.columns)
@@ -258,8 +295,75 @@ class LogReader:
             rows=raw.rows[keep],
             columns=raw.columns.iloc[keep].reset_index(drop=True),
             set_aside=set_aside,
+            before=None if before is None else before[keep],
         )
         return chunk, bad
+
+    def _tokens(
+        self, texts: Sequence[object], raw: RawChunk
+    ) -> tuple[np.ndarray, np.ndarray, Callable[[int], list[object]]]:
+        """Values and token counts of order texts, split at the file's separator."""
+        integer = self._labels != "codes"
+        strings = [t if isinstance(t, str) else "" for t in texts]
+        if not self._separator_known:
+            try:
+                self._separator = detect_separator(strings, lambda i: int(raw.rows[i]))
+            except InputError as exc:
+                raise InputError(
+                    f"{self._shown}: {exc.template}", argument=exc.arguments
+                ) from None
+            self._separator_known = any(t.strip() for t in strings)
+        sep = self._separator
+        if sep is None:
+            values, counts = scan_text(strings, self.deck, integer)
+        else:
+            flat, counts = split_texts(strings, sep)
+            values = map_tokens(flat, self.deck, integer)
+        return values, counts, lambda i: split_order(strings[i], sep)
+
+    def _before(self, raw: RawChunk, good: np.ndarray, bad: list[BadRow]) -> np.ndarray:
+        """Each good row's starting order (the before column); rows whose starting order
+        is not an arrangement of the deck are set aside (``good`` updated in place)."""
+        n = self.deck.size
+        cells = list(raw.before or ())
+        out = np.zeros((len(cells), n), dtype=np.int16)
+        if all(isinstance(c, str) or c is None for c in cells):
+            values, counts, tokens_of = self._tokens(cells, raw)
+        else:
+            lists = [split_order(c, self._separator) for c in cells]
+            flat = np.empty(sum(map(len, lists)), dtype=object)
+            flat[:] = [t for tokens in lists for t in tokens]
+            values = map_tokens(flat, self.deck, self._labels != "codes")
+            counts = np.fromiter(map(len, lists), dtype=np.int64, count=len(lists))
+            tokens_of = lists.__getitem__
+        starts = np.cumsum(counts) - counts
+        full = np.flatnonzero(good & (counts == n))
+        grid = values[starts[full, None] + np.arange(n)] - (self._base or 0)
+        ok = ((grid >= 0) & (grid < n)).all(axis=1)
+        ok[ok] = permutation_rows(grid[ok], n)
+        out[full[ok]] = grid[ok]
+        doubtful = good.copy()
+        doubtful[full[ok]] = False
+        for i in np.flatnonzero(doubtful).tolist():
+            result = check_arrangement(
+                tokens_of(i), self.deck, labels=self._labels, base=self._base
+            )
+            if result.ok:
+                out[i] = result.labels
+                continue
+            good[i] = False
+            name = self._columns.before
+            kept = raw.columns.iloc[i].to_dict() if raw.columns.shape[1] else {}
+            bad.append(
+                BadRow(
+                    int(raw.rows[i]),
+                    str(result.reason),
+                    f"starting order ({name}): {result.problem}",
+                    raw.raw_of(i),
+                    kept,
+                )
+            )
+        return out
 
 
 def read_log(
@@ -270,6 +374,11 @@ def read_log(
     fmt: LogFormat = "auto",
     chunk_rows: int = DEFAULT_CHUNK_ROWS,
     quarantine: str | os.PathLike[str] | None = None,
+    order_column: str | None = None,
+    position_columns: str | Sequence[str] | None = None,
+    before_column: str | None = None,
+    columns: str | Sequence[str] | None = None,
+    separator: str | None = None,
 ) -> LogReader:
     """Open a log of recorded deck orders for reading in chunks.
 
@@ -293,6 +402,24 @@ def read_log(
         Without it the first bad row raises :class:`InputError`. With it, bad rows are
         written there (CSV: row, reason, problem, content; atomically, when reading
         finishes) and reading goes on; the file is written even when no row is bad.
+    order_column : str, optional
+        The column (JSON key) holding the orders, e.g. ``"Deck Order"``. Without it:
+        ``order`` in any case, else the one column whose name has the word "order".
+    position_columns : str or sequence of str, optional
+        The position columns of a wide file, top first: names, or one text such as
+        ``"Card 1..Card 52"`` or ``"c1,c2,c3"`` (see :func:`column_names`).
+    before_column : str, optional
+        A column holding each deck's own starting order (same codes and separator as the
+        orders); chunks then carry it as ``before``. A row whose starting order is not an
+        arrangement of the deck is a bad row like any other.
+    columns : str or sequence of str, optional
+        The file has no header row; these are its columns in order (``"deck,table,order"``
+        or ``"table,p1..p52"``). Its first line is row 1.
+    separator : {"space", "comma", "semicolon", "pipe"}, optional
+        Between the cards inside an order field (``space``: any run of spaces or tabs).
+        Default: detected from the first rows (none of ``, ; |``: spaces; two of them: an
+        error asking for this argument).
+        Spelled-out names (``Ace of Spades``) need one other than spaces.
 
     Returns
     -------
@@ -323,4 +450,60 @@ def read_log(
         target = Path(quarantine)
         if target.exists() and target.resolve() == source.resolve():
             raise InputError(f"quarantine file {target} is the log itself; choose another path")
-    return LogReader(source, shown, load_deck(deck), labels, kind, chunk_rows, target)
+    if separator is not None and separator not in SEPARATORS:
+        raise InputError(
+            f"separator {separator!r} is not one of {', '.join(SEPARATORS)}", argument="separator"
+        )
+    mapping = ColumnMap(
+        order=order_column,
+        positions=None
+        if position_columns is None
+        else column_names(position_columns, argument="position_columns"),
+        before=before_column,
+        names=None if columns is None else column_names(columns, argument="columns"),
+    )
+    if mapping.names is not None and kind in ("jsonl", "parquet"):
+        raise InputError(
+            f"{shown}: declared columns are for CSV files without a header row; {kind} "
+            "names its own",
+            argument="columns",
+        )
+    return LogReader(
+        source, shown, load_deck(deck), labels, kind, chunk_rows, target, mapping, separator
+    )
+
+
+_RANGE = re.compile(r"^(?P<prefix>.*?)(?P<low>\d+)\s*\.\.\s*(?P=prefix)?(?P<high>\d+)(?P<suffix>.*)$")
+
+
+def column_names(spec: str | Sequence[str], *, argument: str = "columns") -> tuple[str, ...]:
+    """Column names from a list or from one text: names separated by commas, where an item
+    ``p1..p52`` (or ``Card 1..Card 52``) stands for every name in that numbered range.
+
+    Examples
+    --------
+    >>> column_names("deck, table, p1..p3")
+    ('deck', 'table', 'p1', 'p2', 'p3')
+    >>> column_names("Card 1..Card 2")
+    ('Card 1', 'Card 2')
+    """
+    items = [spec] if isinstance(spec, str) else list(spec)
+    out: list[str] = []
+    for item in items:
+        if not isinstance(item, str):
+            raise InputError(f"{argument}: column names must be text, got {item!r}", argument=argument)
+        parts = item.split(",") if isinstance(spec, str) else [item]
+        for part in parts:
+            name = part.strip()
+            if not name:
+                raise InputError(f"{argument}: an empty column name in {spec!r}", argument=argument)
+            match = _RANGE.match(name)
+            if match and ".." in name:
+                low, high = int(match["low"]), int(match["high"])
+                if not 0 <= low <= high or high - low > 100_000:
+                    raise InputError(f"{argument}: range {name!r} must count upwards", argument=argument)
+                prefix, suffix = match["prefix"], match["suffix"]
+                out += [f"{prefix}{k}{suffix}" for k in range(low, high + 1)]
+            else:
+                out.append(name)
+    return tuple(out)
