@@ -48,7 +48,7 @@ from shufflecheck.common.checks import check_cards, check_fraction, check_intege
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Kind
 
-__all__ = ["PowerPlan", "PowerRow", "plan_decks", "sum_test_power"]
+__all__ = ["PowerPlan", "PowerRow", "detectable_shifts", "plan_decks", "sum_test_power"]
 
 Sampler = Callable[[int, np.random.Generator], np.ndarray]
 
@@ -331,3 +331,61 @@ def _position_row(
         base,
         "shift = ||M - J/n||^2 (squared frequency departure)",
     )
+
+
+def detectable_shifts(
+    statistics: Sequence[Statistic],
+    laws: dict[str, Law],
+    decks: int,
+    alpha: float,
+    power: float = 0.9,
+) -> tuple[tuple[str, str, Any], ...]:
+    """The smallest shift of each test's per-deck mean that ``decks`` decks would flag.
+
+    With ``m`` tests in the battery, a test at level ``alpha / m`` (halved per tail when
+    two-sided; Holm's first step, as in :func:`plan_decks`) flags a shift ``delta`` of the
+    per-deck mean with power about ``power`` when ``delta >= (z_a + z_b) s0 / sqrt(D)``
+    (normal approximation to the exact ``D``-fold law, ``s0`` its exact per-deck standard
+    deviation under a uniform deck). Tests that run on consecutive pairs use ``D - 1``.
+
+    Returns
+    -------
+    tuple of (name, title, Quantity)
+        Sorted from the most to the least sensitive test relative to its null spread; each
+        shift is an ``estimate`` (normal approximation), in the test's unit.
+    """
+    from shufflecheck.common.quantity import estimate
+
+    check_fraction(alpha, "alpha")
+    check_fraction(power, "power")
+    m = max(1, len(statistics))
+    rows = []
+    for stat in statistics:
+        law = laws.get(stat.name)
+        if law is None or law.low == law.high:
+            continue
+        count = decks - 1 if stat.shape == "consecutive" else decks
+        if count < 1:
+            continue
+        sides = 2 if stat.alternative == "two-sided" else 1
+        z = stats.norm.isf(alpha / m / sides) + stats.norm.ppf(power)
+        spread = math.sqrt(float(law.variance))
+        shift = z * spread / math.sqrt(count)
+        rows.append(
+            (
+                shift / spread,
+                stat.name,
+                stat.title,
+                estimate(
+                    shift,
+                    unit=stat.unit,
+                    digits=2,
+                    method=(
+                        f"normal approximation to the exact law of the sum over {count} "
+                        f"decks; level alpha/{m} per test, power {power:g}"
+                    ),
+                ),
+            )
+        )
+    rows.sort(key=lambda r: r[0])
+    return tuple((name, title, q) for _, name, title, q in rows)

@@ -151,6 +151,22 @@ class BatterySummary:
         self._groups: dict[object, _State] = {}
         self._grouped: bool | None = None
 
+    def __getstate__(self) -> dict:
+        # the catalogue's records and laws follow from the context: rebuilt, not shipped
+        # (a summary crosses processes when parts of an audit run on a cluster)
+        state = self.__dict__.copy()
+        for key in ("context", "statistics", "laws"):
+            state.pop(key, None)
+        return state
+
+    def __setstate__(self, state: dict) -> None:
+        self.__dict__.update(state)
+        self.context = DeckContext.checked(
+            self.n, suits=self.suits, colours=self.colours, strategies=self.strategies
+        )
+        self.statistics = battery_statistics(self.context)
+        self.laws = {s.name: s.law(self.context) for s in self.statistics if s.law is not None}
+
     @classmethod
     def empty(
         cls,
@@ -304,6 +320,35 @@ class BatterySummary:
                 out._overall.hist[_SEQUENTIAL][cross] += 1
         if len(out._groups) > MAX_GROUPS:
             raise InputError(f"groups: more than {MAX_GROUPS} distinct values")
+        return out
+
+    def merge_front(self, front: BatterySummary, positions: Sequence[int]) -> BatterySummary:
+        """``front.merge(self)``, but with ``front``'s decks standing, in the time order of
+        all decks, before the decks of ``self`` at ``positions`` (one sorted index into
+        ``self``'s decks per deck of ``front``; ``0`` for all gives ``front.merge(self)``).
+
+        Each group's decks of ``front`` must come before that group's decks of ``self``
+        (as the first deck of a group in a later chunk does); only the order of all decks
+        together, which the "since when" scan of the whole log reads, needs the positions.
+        """
+        out = front.merge(self)
+        if len(positions) != front.decks:
+            raise InputError(f"positions: expected {front.decks} values, got {len(positions)}")
+        series = out._overall.series
+        if series is None or not front.decks:
+            return out
+        assert front._overall.series is not None and self._overall.series is not None
+        for name in series:
+            empty = np.zeros(0, dtype=self._dtypes[name])
+            mine = self._overall.series[name]
+            theirs = front._overall.series[name]
+            series[name] = [
+                np.insert(
+                    np.concatenate(mine) if mine else empty,
+                    np.asarray(positions, dtype=np.intp),
+                    np.concatenate(theirs) if theirs else empty,
+                )
+            ]
         return out
 
     def as_arrays(self) -> dict[str, np.ndarray]:

@@ -55,6 +55,7 @@ class RawChunk:
     failed: list[BadRow] = field(default_factory=list)
     blank: int = 0
     before: Sequence[object] | None = None  # per row: the deck's own starting order
+    done: float = 0.0  # fraction of the file read after this chunk (for progress)
 
 
 def _decode(data: bytes) -> str:
@@ -194,6 +195,16 @@ def _open_binary(path: Path) -> IO[bytes]:
         return open(path, "rb")
     except OSError as exc:
         raise InputError(f"cannot read {path}: {exc.strerror or exc}") from None
+
+
+def _fraction(handle: IO[bytes], path: Path) -> float:
+    """How much of the file (on disk, compressed or not) has been read."""
+    try:
+        raw = getattr(handle, "fileobj", None) or handle
+        size = path.stat().st_size
+        return min(1.0, raw.tell() / size) if size else 1.0
+    except (OSError, ValueError, AttributeError):
+        return 0.0
 
 
 def _sniff_delimiter(header: str, path: Path) -> str:
@@ -341,7 +352,9 @@ def csv_chunks(
                 return
             rows = np.arange(next_row, next_row + len(records), dtype=np.int64)
             next_row += len(records)
-            yield _csv_block(records, rows, shape, quoted=quoted)
+            block = _csv_block(records, rows, shape, quoted=quoted)
+            block.done = _fraction(handle, path)
+            yield block
 
 
 @dataclass(frozen=True)
@@ -637,6 +650,7 @@ def jsonl_chunks(
                 failed=failed,
                 blank=blank,
                 before=befores if columns.before is not None else None,
+                done=_fraction(handle, path),
             )
 
 
@@ -689,6 +703,7 @@ def parquet_chunks(
                     raw_of=raw_of,
                     texts=texts,
                     before=before,
+                    done=(offset - 1) / max(1, parquet.metadata.num_rows),
                 )
                 continue
             if not (pa.types.is_list(kind) or pa.types.is_large_list(kind)):
@@ -710,6 +725,7 @@ def parquet_chunks(
                 flat=flat,
                 counts=counts,
                 before=before,
+                done=(offset - 1) / max(1, parquet.metadata.num_rows),
             )
             continue
         cells = [batch.column(i) for i in used]
@@ -727,4 +743,5 @@ def parquet_chunks(
             flat=grid.ravel(),
             counts=np.full(m, len(used), dtype=np.int64),
             before=before,
+            done=(offset - 1) / max(1, parquet.metadata.num_rows),
         )

@@ -98,6 +98,8 @@ class LogReader:
         self._separator: str | None = SEPARATORS[separator] if separator is not None else None
         self._separator_known = separator is not None
         self._order_column = "order"
+        #: fraction of the file read so far (for progress bars)
+        self.fraction = 0.0
         self._base: int | None = {"int0": 0, "int1": 1}.get(labels)
         self._base_row: int | None = None
         self._decks = 0
@@ -203,6 +205,7 @@ class LogReader:
                 writer.writerow(QUARANTINE_HEADER)
             seen = 0
             for raw in self._raw_chunks():
+                self.fraction = raw.done
                 chunk, bad = self._check(raw)
                 seen += len(raw.rows) + len(raw.failed)
                 self._blank += raw.blank
@@ -220,6 +223,7 @@ class LogReader:
                 below = "" if self._fmt in ("jsonl", "parquet") else " below the header"
                 raise InputError(f"{self._shown}: no deck rows{below}")
             self._complete = True
+            self.fraction = 1.0
 
     def _check(self, raw: RawChunk) -> tuple[LogChunk, list[BadRow]]:
         """Vectorised check of a raw chunk; rows it cannot vouch for get check_arrangement."""

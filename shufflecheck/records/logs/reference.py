@@ -26,12 +26,26 @@ class Reference:
     ``kind`` is ``previous`` (the default: each deck against the deck before it in the log,
     the pickup order; with grouping, the previous deck of the same group), ``first`` (the
     first deck of the log, or of each group, is the reference and is not tested) or
-    ``order`` (one fixed order, ``order``, for every deck; all decks are tested).
+    ``order`` (one fixed order, ``order``, for every deck; all decks are tested),
+    ``column`` (each deck's own starting order, read from the column ``column``: labs that
+    record what their rig saw) or ``pairs`` (rows come in pairs, the deck before the pass
+    and the deck after it, in each group; the second row of each pair is tested).
     """
 
-    kind: Literal["previous", "first", "order"] = "previous"
+    kind: Literal["previous", "first", "order", "column", "pairs"] = "previous"
     order: np.ndarray | None = None
     source: str = "previous"
+    column: str | None = None
+
+    #: The choices of :meth:`parse`, one line each (the ``--reference`` help).
+    CHOICES = (
+        "previous (default): the deck before it in the log, of the same group with by",
+        "first: the first deck of the log (of each group), which is not tested",
+        "deck: the deck definition's own order (for standard-52, a new pack)",
+        "column:NAME: each deck's own starting order, in the column NAME",
+        "pairs: rows alternate before/after a pass (per group); after-rows are tested",
+        "a file holding one order, or an order written out (codes separated by spaces)",
+    )
 
     @classmethod
     def parse(
@@ -47,8 +61,18 @@ class Reference:
         definition = load_deck(deck)
         text = "previous" if spec is None else os.fspath(spec)
         keyword = text.strip().lower()
-        if keyword in ("previous", "first"):
-            return cls(keyword, None, keyword)  # type: ignore[arg-type]
+        if keyword in ("previous", "first", "pairs"):
+            source = "pairs (before, after)" if keyword == "pairs" else keyword
+            return cls(keyword, None, source)  # type: ignore[arg-type]
+        if keyword.startswith("column:"):
+            name = text.strip()[len("column:") :].strip()
+            if not name:
+                raise InputError(
+                    "reference 'column:' needs the name of the column holding each deck's "
+                    "starting order, e.g. column:before",
+                    argument="reference",
+                )
+            return cls("column", None, f"column {name}", name)
         if keyword == "deck":
             order = np.arange(definition.size, dtype=np.int16)
             return cls("order", order, f"deck order of {definition.name}")
@@ -70,8 +94,9 @@ class Reference:
             order = parse_order(text, definition, labels=labels, where="reference order")
             return cls("order", order, "given order")
         raise InputError(
-            f"reference {text!r} is not previous, first, deck, an existing file or an order "
-            f"of {definition.size} card codes separated by spaces"
+            f"reference {text!r} is not previous, first, deck, column:NAME, pairs, an existing "
+            f"file or an order of {definition.size} card codes separated by spaces",
+            argument="reference",
         )
 
     def stream(self, by: str | None = None) -> ReferenceStream:
@@ -126,6 +151,29 @@ class ReferenceStream:
         self._broken: set[int] = set()  # groups whose last row was set aside
         self._first_unknown: int | None = None  # first: earliest unreadable row set aside
         self._first_gap: dict[int, int] = {}  # first: group -> earliest row set aside
+        #: ``previous``: the first deck of each group this stream met, which served only as
+        #: a reference: (group value, deck, row, an unreadable row came before it). A later
+        #: merge with what came before (:meth:`tails`) can still test it.
+        self.heads: list[tuple[Any, np.ndarray, int, bool]] = []
+        #: whether an unreadable row (its group unknown) was set aside
+        self.saw_unreadable = False
+        self._earliest_unreadable: int | None = None
+
+    def tails(self) -> dict[Any, np.ndarray | None]:
+        """``previous``: the deck each group's next deck would be compared with, by group
+        value (None without grouping); ``None`` as the deck where the chain is broken."""
+        values = {i: v for v, i in self._ids.items()}
+        out: dict[Any, np.ndarray | None] = {
+            values.get(g): deck for g, (deck, _) in self._carry.items()
+        }
+        out.update({values.get(g): None for g in self._broken})
+        return out
+
+    def _value(self, group: int) -> Any:
+        for value, index in self._ids.items():
+            if index == group:
+                return value
+        return None
 
     def _group_ids(self, values: pd.Series) -> np.ndarray:
         try:
@@ -148,6 +196,15 @@ class ReferenceStream:
         """Relative permutations of the tested decks of ``chunk``, in row order."""
         decks, rows = chunk.decks, chunk.rows
         n = decks.shape[1]
+        if self.reference.kind == "column":
+            if chunk.before is None:
+                raise InputError(
+                    f"reference {self.reference.source!r}: the log was read without its "
+                    "starting orders (read it with before_column)"
+                )
+            self.tested += len(rows)
+            zero = np.zeros(len(rows), dtype=np.int64)
+            return RelativeChunk(relative_to(decks, chunk.before), rows, zero, chunk.columns)
         if self.reference.kind == "order":
             order = self.reference.order
             assert order is not None
@@ -166,8 +223,12 @@ class ReferenceStream:
             aside.columns.loc[readable].reset_index(drop=True), int(readable.sum())
         )
         unknown = np.sort(aside.rows[~readable])
+        if unknown.size:
+            self.saw_unreadable = True
         if self.reference.kind == "first":
             picked, refs, ref_rows = self._first(decks, rows, groups, known, known_groups, unknown)
+        elif self.reference.kind == "pairs":
+            picked, refs, ref_rows = self._pairs(decks, rows, groups, known, known_groups, unknown)
         else:
             picked, refs, ref_rows = self._previous(
                 decks, rows, groups, known, known_groups, unknown
@@ -217,6 +278,12 @@ class ReferenceStream:
                 carried.append(deck)
             elif g in self._broken:
                 after_gap[k] = True
+            elif is_deck[k]:
+                row = int(ev_row[k])
+                before = self._earliest_unreadable is not None or bool(
+                    unknown.size and unknown[0] < row
+                )
+                self.heads.append((self._value(g), decks[ev_index[k]].copy(), row, before))
         has_ref = is_deck & (ref >= 0)
         if unknown.size:
             # a row of unknown group between a deck and its reference breaks the chain
@@ -236,6 +303,8 @@ class ReferenceStream:
                 self._carry.pop(g, None)
                 self._broken.add(g)
         if unknown.size:
+            if self._earliest_unreadable is None:
+                self._earliest_unreadable = int(unknown[0])
             cutoff = int(unknown[-1])
             for g in [g for g, (_, row) in self._carry.items() if row < cutoff]:
                 del self._carry[g]
@@ -286,3 +355,57 @@ class ReferenceStream:
         refs = np.stack([self._carry[int(g)][0] for g in groups[picked]])
         ref_rows = np.array([self._carry[int(g)][1] for g in groups[picked]], dtype=np.int64)
         return picked, refs, ref_rows
+
+    def _pairs(
+        self,
+        decks: np.ndarray,
+        rows: np.ndarray,
+        groups: np.ndarray,
+        known: np.ndarray,
+        known_groups: np.ndarray,
+        unknown: np.ndarray,
+    ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Rows alternate before/after in each group; a set-aside row keeps its place in
+        the alternation (its partner is not tested). An unreadable row of unknown group
+        makes the alternation of every group unknown: an error, never a guess."""
+        m, n = decks.shape
+        if unknown.size:
+            raise InputError(
+                f"reference 'pairs': row {int(unknown[0])} could not be read, so which rows "
+                "pair up after it is unknown; repair the row (or give each deck's starting "
+                "order in a column)"
+            )
+        ev_row = np.concatenate([rows, known])
+        ev_group = np.concatenate([groups, known_groups])
+        ev_index = np.concatenate([np.arange(m), np.full(len(known), -1)])
+        order = np.lexsort((ev_row, ev_group))
+        ev_row, ev_group, ev_index = ev_row[order], ev_group[order], ev_index[order]
+        picked: list[int] = []
+        refs: list[np.ndarray] = []
+        ref_rows: list[int] = []
+        for k in range(len(order)):
+            g = int(ev_group[k])
+            pending = self._carry.pop(g, None)  # (deck, row) of an unpaired before-row
+            broken = g in self._broken
+            index = int(ev_index[k])
+            if pending is None and not broken:  # a before-row
+                if index >= 0:
+                    self._carry[g] = (decks[index].copy(), int(ev_row[k]))
+                    self.reference_only += 1
+                else:
+                    self._broken.add(g)
+                continue
+            self._broken.discard(g)  # an after-row closes the pair
+            if index < 0:
+                continue
+            if pending is None:
+                self.after_set_aside += 1
+                continue
+            picked.append(index)
+            refs.append(pending[0])
+            ref_rows.append(pending[1])
+        chosen = np.asarray(picked, dtype=np.int64)
+        back = np.argsort(chosen, kind="stable")
+        if not picked:
+            return chosen, np.zeros((0, n), np.int16), np.zeros(0, np.int64)
+        return chosen[back], np.stack(refs)[back], np.asarray(ref_rows, dtype=np.int64)[back]

@@ -1,0 +1,139 @@
+"""Independent tasks on a Dask cluster, results handed back in the order of the tasks.
+
+The embedded default starts a local cluster (``distributed.LocalCluster``) with one worker
+process per core and one thread per worker; ``scheduler`` connects to an existing cluster
+instead (``tcp://host:8786``). Results come back in task order whatever order the workers
+finish in, so a caller that folds them (merging audit summaries) gets the same answer on
+any cluster. Each result is released once handed over, so the client holds one finished
+result at a time beyond the ones still running.
+
+Needs the optional packages ``dask`` and ``distributed`` (``pip install
+'shufflecheck[dask]'``).
+
+References
+----------
+.. [1] M. Rocklin, "Dask: Parallel computation with blocked algorithms and task
+       scheduling", Proceedings of the 14th Python in Science Conference (2015) 130-136.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import logging
+import os
+import warnings
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from shufflecheck.common.errors import InputError
+
+__all__ = ["Cluster", "available", "run_in_order"]
+
+
+def available() -> bool:
+    """Whether dask and distributed can be imported."""
+    try:
+        import dask  # noqa: F401
+        import distributed  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+@dataclass(frozen=True)
+class Cluster:
+    """Where tasks ran: ``address`` of the scheduler, ``workers`` and whether the cluster
+    was started here (``local``)."""
+
+    address: str
+    workers: int
+    local: bool
+
+    def describe(self) -> str:
+        where = "local cluster" if self.local else f"cluster at {self.address}"
+        return f"dask, {where}, {self.workers} worker{'s' if self.workers != 1 else ''}"
+
+
+@contextlib.contextmanager
+def _client(
+    scheduler: str | None, workers: int | None, processes: bool
+) -> Iterator[tuple[Any, Cluster]]:
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError:
+        raise InputError(
+            "the Dask engine needs the packages dask and distributed "
+            "(pip install 'shufflecheck[dask]')",
+            argument="engine",
+        ) from None
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        if scheduler is not None:
+            try:
+                client = Client(scheduler, timeout="10s")
+            except (OSError, TimeoutError, ValueError) as exc:
+                raise InputError(
+                    f"cannot reach the Dask scheduler at {scheduler} ({exc})",
+                    argument="scheduler",
+                ) from None
+            count = len(client.scheduler_info().get("workers", {}))
+            try:
+                yield client, Cluster(scheduler, count, local=False)
+            finally:
+                client.close()
+            return
+        count = workers or os.cpu_count() or 1
+        if count < 1:
+            raise InputError(f"workers must be at least 1, got {count}", argument="workers")
+        cluster = LocalCluster(
+            n_workers=count,
+            threads_per_worker=1,
+            processes=processes,
+            dashboard_address=None,
+            silence_logs=logging.ERROR,
+        )
+        client = Client(cluster)
+        try:
+            yield client, Cluster(cluster.scheduler_address, count, local=True)
+        finally:
+            client.close()
+            cluster.close()
+
+
+def run_in_order(
+    function: Callable[[Any], Any],
+    items: Sequence[Any],
+    *,
+    scheduler: str | None = None,
+    workers: int | None = None,
+    processes: bool = True,
+    on_cluster: Callable[[Cluster], None] | None = None,
+) -> Iterator[Any]:
+    """``function(item)`` for every item on a Dask cluster, yielded in the order of ``items``.
+
+    Parameters
+    ----------
+    function : callable
+        A module-level function (it is sent to the workers by reference).
+    items : sequence
+        One task per item.
+    scheduler : str, optional
+        Address of an existing scheduler; default: start a local cluster.
+    workers : int, optional
+        Workers of a local cluster (default: one per core).
+    processes : bool
+        Local workers as processes (default) or as threads of this process.
+    on_cluster : callable, optional
+        Called once with the :class:`Cluster` before the first result.
+    """
+    with _client(scheduler, workers, processes) as (client, cluster):
+        if on_cluster is not None:
+            on_cluster(cluster)
+        futures = client.map(function, list(items), pure=False)
+        try:
+            for future in futures:
+                yield future.result()
+                future.release()
+        finally:
+            client.cancel([f for f in futures if not f.done()])
