@@ -17,110 +17,39 @@ from __future__ import annotations
 import dataclasses
 import os
 from collections.abc import Callable, Iterable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult, BatterySummary
-from shufflecheck.audit.power import detectable_shifts
+from shufflecheck.analyses.fleet import audit_parts, dask_installed
+from shufflecheck.analyses.log_parts import (
+    ALL,
+    AuditOptions,
+    Part,
+    deck_for,
+    scan_sources,
+    split_place,
+)
+from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult
 from shufflecheck.audit.positions import MONTE_CARLO_BELOW
+from shufflecheck.audit.power import detectable_shifts
 from shufflecheck.common.errors import InputError
-from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
-from shufflecheck.records.logs import LogChunk, LogSummary, Reference, read_log
-from shufflecheck.records.logs.sources import Source, log_sources
-from shufflecheck.records.logs.times import TimeReader, first_backwards
-from shufflecheck.records.orders import relative_to
+from shufflecheck.records.cards import DeckDefinition
+from shufflecheck.records.logs import LogSummary
+from shufflecheck.records.logs.sources import log_sources
 
 __all__ = [
-    "AuditOptions",
-    "log_deck",
     "LogAudit",
-    "Part",
+    "SmallLog",
     "audit_log",
+    "choose_engine",
     "finish_audit",
-    "merge_parts",
-    "scan_sources",
+    "log_deck",
+    "total_bytes",
 ]
-
-_ALL = "__all__"
-_SHIFT = 40  # a deck's place: source index << _SHIFT | row
-
-
-def place_of(source: int, row: int | np.ndarray) -> Any:
-    """The place code of a row of a source (rows stay ordered across sources)."""
-    return (np.int64(source) << _SHIFT) | row
-
-
-def _split_place(code: int) -> tuple[int, int]:
-    return int(code) >> _SHIFT, int(code) & ((1 << _SHIFT) - 1)
-
-
-@dataclass(frozen=True)
-class AuditOptions:
-    """How every part of an audit is read and related (shared by all engines)."""
-
-    deck: DeckDefinition
-    reference: str = "previous"
-    labels: str = "codes"
-    fmt: str = "auto"
-    by: str | None = None
-    time: str | None = None
-    time_format: str | None = None
-    quarantine: Path | None = None
-    strategies: tuple[str, ...] = DEFAULT_STRATEGIES
-    chunk_rows: int = 50_000
-    order_column: str | None = None
-    position_columns: str | tuple[str, ...] | None = None
-    columns: str | tuple[str, ...] | None = None
-    separator: str | None = None
-
-    @property
-    def parsed_reference(self) -> Reference:
-        return Reference.parse(self.reference, self.deck, labels=self.labels)  # type: ignore[arg-type]
-
-    def empty_summary(self) -> BatterySummary:
-        deck = self.deck
-        return BatterySummary.empty(
-            deck.size,
-            suits=deck.suit_codes() if deck.suit_names else None,
-            colours=deck.colour_codes() if deck.colour_names else None,
-            strategies=self.strategies,
-        )
-
-
-@dataclass
-class _Head:
-    """The first deck of a group in a part, used there only as a reference."""
-
-    group: Any
-    deck: np.ndarray
-    place: int
-    unreadable_before: bool
-    position: int  # tested decks (all groups) of the part before it
-    time: str | None
-
-
-@dataclass
-class Part:
-    """What one or more consecutive sources contribute to an audit; parts merge exactly
-    (:func:`merge_parts`, the later part second)."""
-
-    summary: BatterySummary
-    readers: list[LogSummary]
-    tested: int = 0
-    reference_only: int = 0
-    after_set_aside: int = 0
-    places: dict[Any, list[np.ndarray]] = field(default_factory=dict)
-    times: dict[Any, list[np.ndarray]] = field(default_factory=dict)
-    heads: list[_Head] = field(default_factory=list)
-    tails: dict[Any, np.ndarray | None] = field(default_factory=dict)
-    unreadable: bool = False
-    first_time: dict[Any, tuple[int, int]] = field(default_factory=dict)  # group -> (ns, place)
-    last_time: dict[Any, int] = field(default_factory=dict)
-    time_format: str | None = None
 
 
 @dataclass(frozen=True)
@@ -138,12 +67,19 @@ class SmallLog:
     power: float
     detectable: tuple[tuple[str, str, Any], ...]
 
+    def highlights(self) -> tuple[tuple[str, str, Any], ...]:
+        """The best guessing strategy, then rising sequences, then the most sensitive rest."""
+        guess = [d for d in self.detectable if d[0].startswith("guess-")][:1]
+        rising = [d for d in self.detectable if d[0] == "rising-sequences"]
+        rest = [d for d in self.detectable if d not in guess and d not in rising]
+        return tuple(guess + rising + rest)[:3]
+
     def text(self) -> str:
-        shown = "; ".join(f"{title}: {q.text()}" for _, title, q in self.detectable[:3])
+        shown = "; ".join(f"{title} by {q.text()}" for _, title, q in self.highlights())
         return (
             f"a small log: {self.decks:,} decks tested, fewer than the {self.needed:,} its "
-            f"battery is built for; with power {self.power:g} it would flag only shifts of at "
-            f"least {shown}"
+            f"battery is built for; with power {self.power:g} it is sure to flag only large "
+            f"departures, e.g. a shift of {shown}"
         )
 
     def as_json(self) -> dict[str, Any]:
@@ -214,9 +150,7 @@ class LogAudit:
                     "since_when": self.since_when_place(str(key)) or None,
                 }
             )
-        flagged = sorted(
-            (r for r in rows if r["flagged"]), key=lambda r: r["log10_p_adjusted"]
-        )
+        flagged = sorted((r for r in rows if r["flagged"]), key=lambda r: r["log10_p_adjusted"])
         return {
             "by": self.by,
             "groups": len(rows),
@@ -295,301 +229,6 @@ def _tests_frame(battery: Any) -> pd.DataFrame:
 
 
 # --------------------------------------------------------------------------------------
-# reading parts
-
-
-def _deck_for(deck: Any, cards: int | None, labels: str, where: str) -> DeckDefinition:
-    if deck is None and cards is not None and cards != 52:
-        if not labels.startswith("int"):
-            raise InputError(
-                f"{where}: a {cards}-card deck needs a deck definition ({{deck}} FILE) for card "
-                "codes, or integer labels ({labels} int)",
-                argument=("deck", "labels"),
-            )
-        definition = integer_deck(cards)
-    else:
-        definition = load_deck(deck)
-    if cards is not None and definition.size != cards:
-        raise InputError(
-            f"{where}: the deck definition {definition.name!r} has {definition.size} cards, "
-            f"but {cards} were expected"
-        )
-    return definition
-
-
-def log_deck(
-    path: str | os.PathLike[str],
-    *,
-    deck: str | os.PathLike[str] | DeckDefinition | None = None,
-    cards: int | None = None,
-    labels: str = "codes",
-) -> tuple[DeckDefinition, str]:
-    """The deck a log's rows are arrangements of, and the label mode to read them with.
-
-    Without a deck definition, a size other than 52 means a deck of that many cards known
-    by integer labels; with one, its size must equal ``cards`` when both are given. The
-    label mode ``cards`` is the same as ``codes``.
-    """
-    definition = _deck_for(deck, cards, labels, os.fspath(path))
-    return definition, ("codes" if labels == "cards" else labels)
-
-
-def _quarantine_for(options: AuditOptions, source: Source, several: bool) -> Path | None:
-    if options.quarantine is None:
-        return None
-    if not several:
-        return options.quarantine
-    folder = options.quarantine
-    folder.mkdir(parents=True, exist_ok=True)
-    name = "__".join([f"{k}={v}" for k, v in source.constants] + [source.path.name])
-    return folder / f"{name}.set-aside.csv"
-
-
-def _with_constants(chunk: LogChunk, source: Source, index: int) -> LogChunk:
-    """The chunk with rows as places (ordered across sources) and partition keys as columns."""
-    columns, aside = chunk.columns, chunk.set_aside.columns
-    if source.constants:
-        columns = columns.copy()
-        aside = aside.copy()
-        for key, value in source.constants:
-            if key not in columns.columns:
-                columns[key] = value
-                aside[key] = value
-    return dataclasses.replace(
-        chunk,
-        rows=place_of(index, chunk.rows),
-        columns=columns,
-        set_aside=dataclasses.replace(
-            chunk.set_aside, rows=place_of(index, chunk.set_aside.rows), columns=aside
-        ),
-    )
-
-
-def _group_keys(chunk_columns: pd.DataFrame, by: str | None, rows: int) -> np.ndarray | None:
-    if by is None:
-        return None
-    return chunk_columns[by].astype(str).to_numpy() if rows else np.zeros(0, dtype=object)
-
-
-def scan_sources(
-    sources: Sequence[Source],
-    options: AuditOptions,
-    *,
-    first_index: int = 0,
-    several: bool | None = None,
-    progress: Callable[[int], None] | None = None,
-) -> Part:
-    """Read ``sources`` one after another with one reference stream: a :class:`Part`.
-
-    ``first_index`` is the index of ``sources[0]`` among all sources of the audit (places
-    stay ordered across parts); ``progress`` gets the bytes of the files read so far.
-    """
-    reference = options.parsed_reference
-    stream = reference.stream(by=options.by)
-    part = Part(options.empty_summary(), [])
-    several = len(sources) > 1 if several is None else several
-    times = None
-    if options.time is not None:
-        times = TimeReader(options.time, options.time_format, where="")
-    done = 0
-    for offset, source in enumerate(sources):
-        index = first_index + offset
-        reader = read_log(
-            source.path,
-            deck=options.deck,
-            labels=options.labels,  # type: ignore[arg-type]
-            fmt=options.fmt,  # type: ignore[arg-type]
-            chunk_rows=options.chunk_rows,
-            quarantine=_quarantine_for(options, source, several),
-            order_column=options.order_column,
-            position_columns=options.position_columns,
-            before_column=reference.column if reference.kind == "column" else None,
-            columns=options.columns,
-            separator=options.separator,
-        )
-        for raw_chunk in reader:
-            chunk = _with_constants(raw_chunk, source, index)
-            if times is not None and len(chunk):
-                times.where = str(source.path)
-                _check_times(part, chunk, options, times)
-            heads_before = len(stream.heads)
-            rel = stream.relative(chunk)
-            for group, deck, place, unreadable in stream.heads[heads_before:]:
-                stamp = None
-                if options.time is not None:
-                    k = int(np.searchsorted(chunk.rows, place))
-                    stamp = str(chunk.columns[options.time].iloc[k])
-                position = part.tested + int(np.searchsorted(rel.rows, place))
-                part.heads.append(_Head(group, deck, place, unreadable, position, stamp))
-            if len(rel):
-                index_in = np.searchsorted(chunk.rows, rel.rows)
-                absolute = chunk.decks[index_in]
-                groups = _group_keys(rel.columns, options.by, len(rel))
-                part.summary.update(rel.relative, absolute, groups=groups)
-                part.tested += len(rel)
-                keys = [_ALL] + ([] if groups is None else sorted(set(groups.tolist())))
-                for key in keys:
-                    pick = slice(None) if key == _ALL else np.nonzero(groups == key)[0]
-                    part.places.setdefault(key, []).append(rel.rows[pick])
-                    if options.time is not None:
-                        part.times.setdefault(key, []).append(
-                            rel.columns[options.time].astype(str).to_numpy()[pick]
-                        )
-            if progress is not None:
-                progress(done + int(reader.fraction * source.size))
-        done += source.size
-        part.readers.append(reader.summary)
-    part.reference_only = stream.reference_only
-    part.after_set_aside = stream.after_set_aside
-    part.tails = stream.tails() if reference.kind == "previous" else {}
-    part.unreadable = stream.saw_unreadable
-    part.time_format = None if times is None else times.format
-    return part
-
-
-def _check_times(part: Part, chunk: LogChunk, options: AuditOptions, times: TimeReader) -> None:
-    """Decks in time order, in each group with ``by``; first and last time per group kept."""
-    column = options.time
-    assert column is not None
-    if column not in chunk.columns:
-        raise InputError(
-            f"{times.where}: time column {column!r} is not in the log", argument="time"
-        )
-    rows = chunk.rows & ((1 << _SHIFT) - 1)
-    if options.by is not None and options.by not in chunk.columns:
-        shown = ", ".join(map(str, chunk.columns.columns)) or "none"
-        raise InputError(f"no column {options.by!r} to group by (columns: {shown})")
-    stamps = times.stamps(chunk.columns[column], rows)
-    groups = _group_keys(chunk.columns, options.by, len(chunk))
-    keys = [None] if groups is None else list(dict.fromkeys(groups.tolist()))
-    for key in keys:
-        pick = np.arange(len(stamps)) if key is None else np.flatnonzero(groups == key)
-        values = stamps[pick]
-        back = first_backwards(values, part.last_time.get(key))
-        if back is not None:
-            row = int(rows[pick[back]])
-            scope = "" if key is None else f" (in {options.by} {key})"
-            raise InputError(
-                f"{times.where} row {row}: {column} goes back in time{scope}; sort the log by "
-                f"{column} before auditing (it is never re-ordered silently)"
-            )
-        part.first_time.setdefault(key, (int(values[0]), int(chunk.rows[pick[0]])))
-        part.last_time[key] = int(values[-1])
-
-
-# --------------------------------------------------------------------------------------
-# merging parts
-
-
-def merge_parts(a: Part, b: Part, options: AuditOptions, paths: Sequence[Path]) -> Part:
-    """The part of ``a``'s decks followed by ``b``'s, exactly as one stream would read them.
-
-    The first deck of each group in ``b`` (a reference only there) is compared with the
-    last deck of its group in ``a`` and tested, unless a set-aside row broke the chain.
-    ``paths`` are the files of the audit by source index (for messages).
-    """
-    kind = options.parsed_reference.kind
-    if kind in ("first", "pairs"):
-        raise InputError(
-            f"reference {kind!r} relates decks across the whole log and cannot be merged from "
-            "parts; audit these logs in one process (engine 'single')",
-            argument="reference",
-        )
-    for key, (stamp, place) in b.first_time.items():
-        last = a.last_time.get(key)
-        if last is not None and stamp < last:
-            source, row = _split_place(place)
-            scope = "" if key is None else f" (in {options.by} {key})"
-            raise InputError(
-                f"{paths[source]} row {row}: {options.time} goes back in time{scope}; sort "
-                f"the logs by {options.time} before auditing (they are never re-ordered)"
-            )
-    tested: list[_Head] = []
-    broken = 0
-    rest: list[_Head] = []
-    for head in sorted(b.heads, key=lambda h: h.place):
-        if head.group in a.tails:
-            if a.tails[head.group] is None or head.unreadable_before:
-                broken += 1
-            else:
-                tested.append(head)
-        else:
-            rest.append(head)
-    summary_b = b.summary
-    if tested:
-        front = options.empty_summary()
-        decks = np.stack([h.deck for h in tested])
-        refs = np.stack([a.tails[h.group] for h in tested])  # type: ignore[misc]
-        groups = None if options.by is None else np.array([str(h.group) for h in tested])
-        front.update(relative_to(decks, refs), decks, groups=groups)
-        summary_b = b.summary.merge_front(front, [h.position for h in tested])
-    places = _splice(a.places, b.places, tested, lambda h: np.array([h.place]))
-    times = (
-        _splice(a.times, b.times, tested, lambda h: np.array([h.time], dtype=object))
-        if options.time is not None
-        else {}
-    )
-    tails = {g: None for g in a.tails} if b.unreadable else dict(a.tails)
-    tails.update(b.tails)
-    # the heads of b still untested: their place in the merged order of tested decks
-    # counts a's decks and the heads of b tested now that stand before them
-    heads = list(a.heads) + [
-        dataclasses.replace(
-            h,
-            unreadable_before=h.unreadable_before or a.unreadable,
-            position=h.position
-            + a.tested
-            + sum((t.position, t.place) < (h.position, h.place) for t in tested),
-        )
-        for h in rest
-    ]
-    first_time = dict(a.first_time)
-    for key, value in b.first_time.items():
-        first_time.setdefault(key, value)
-    return Part(
-        summary=a.summary.merge(summary_b),
-        readers=a.readers + b.readers,
-        tested=a.tested + b.tested + len(tested),
-        reference_only=a.reference_only + b.reference_only - len(tested) - broken,
-        after_set_aside=a.after_set_aside + b.after_set_aside + broken,
-        places=places,
-        times=times,
-        heads=heads,
-        tails=tails,
-        unreadable=a.unreadable or b.unreadable,
-        first_time=first_time,
-        last_time={**a.last_time, **b.last_time},
-        time_format=a.time_format or b.time_format,
-    )
-
-
-def _splice(
-    a: dict[Any, list[np.ndarray]],
-    b: dict[Any, list[np.ndarray]],
-    tested: list[_Head],
-    value: Callable[[_Head], np.ndarray],
-) -> dict[Any, list[np.ndarray]]:
-    """``a`` then ``b`` per key, with the tested heads inserted where they stand in ``b``."""
-    out = {k: list(v) for k, v in a.items()}
-    inserted: dict[Any, list[tuple[int, np.ndarray]]] = {}
-    for h in tested:
-        inserted.setdefault(_ALL, []).append((h.position, value(h)))
-        if h.group is not None:
-            inserted.setdefault(str(h.group), []).append((0, value(h)))
-    for key in set(b) | set(inserted):
-        mine = np.concatenate(b[key]) if key in b and b[key] else None
-        extra = inserted.get(key, [])
-        if extra:
-            at = [p for p, _ in extra]
-            values = np.concatenate([v for _, v in extra])
-            base = mine if mine is not None else values[:0]
-            mine = np.insert(base, np.asarray(at, dtype=np.intp), values)
-        if mine is not None:
-            out.setdefault(key, []).append(mine)
-    return out
-
-
-# --------------------------------------------------------------------------------------
 # finishing
 
 
@@ -613,6 +252,23 @@ def _combined_reader(readers: Sequence[LogSummary], shown: str) -> LogSummary:
         quarantine=None if first.quarantine is None else str(Path(first.quarantine).parent),
         complete=all(r.complete for r in readers),
     )
+
+
+def log_deck(
+    path: str | os.PathLike[str],
+    *,
+    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    cards: int | None = None,
+    labels: str = "codes",
+) -> tuple[DeckDefinition, str]:
+    """The deck a log's rows are arrangements of, and the label mode to read them with.
+
+    Without a deck definition, a size other than 52 means a deck of that many cards known
+    by integer labels; with one, its size must equal ``cards`` when both are given. The
+    label mode ``cards`` is the same as ``codes``.
+    """
+    definition = deck_for(deck, cards, labels, os.fspath(path))
+    return definition, ("codes" if labels == "cards" else labels)
 
 
 def finish_audit(
@@ -671,7 +327,7 @@ def _since_when_rows(
 ) -> dict[str, dict[str, Any]]:
     """Row (file, time) of the first deck of each 'since when' stretch."""
     out = {}
-    targets = [(_ALL, result.overall)] + [(str(k), b) for k, b in result.groups]
+    targets = [(ALL, result.overall)] + [(str(k), b) for k, b in result.groups]
     for key, battery in targets:
         found = battery.since_when
         if found is None or key not in places:
@@ -680,13 +336,13 @@ def _since_when_rows(
         k = found.start - 1
         if not 0 <= k < ordered.size:
             continue
-        source, row = _split_place(int(ordered[k]))
+        source, row = split_place(int(ordered[k]))
         entry: dict[str, Any] = {"row": row}
         if len(paths) > 1:
             entry["file"] = str(paths[source])
         if key in times:
             entry["time"] = str(np.concatenate(times[key])[k])
-        out["all" if key == _ALL else key] = entry
+        out["all" if key == ALL else key] = entry
     return out
 
 
@@ -777,7 +433,7 @@ def audit_log(
     """
     sources = log_sources(path)
     shown = os.fspath(path) if isinstance(path, (str, os.PathLike)) else f"{len(sources)} logs"
-    definition = _deck_for(deck, cards, labels, shown)
+    definition = deck_for(deck, cards, labels, shown)
     options = AuditOptions(
         deck=definition,
         reference=reference,
@@ -801,8 +457,6 @@ def audit_log(
     if engine not in ("single", "dask"):
         raise InputError(f"engine {engine!r} is not one of single, dask", argument="engine")
     if scheduler is not None or engine == "dask":
-        from shufflecheck.analyses.fleet import audit_parts
-
         part, used = audit_parts(
             sources, options, scheduler=scheduler, workers=workers, progress=progress
         )
@@ -811,6 +465,26 @@ def audit_log(
         )
     part = scan_sources(sources, options, progress=progress)
     return finish_audit(part, options, shown=shown, paths=paths, alpha=alpha, rng=rng)
+
+
+def choose_engine(
+    path: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
+    engine: str = "auto",
+    scheduler: str | None = None,
+) -> str:
+    """``single`` or ``dask`` for ``engine="auto"``: Dask when a scheduler is given, or when
+    there are several files and dask is installed; one process otherwise."""
+    if engine != "auto":
+        return engine
+    if scheduler is not None:
+        return "dask"
+    try:
+        several = len(log_sources(path)) > 1
+    except InputError:
+        return "single"  # the audit itself says what is wrong
+    if not several:
+        return "single"
+    return "dask" if dask_installed() else "single"
 
 
 def total_bytes(path: str | os.PathLike[str] | Iterable[str | os.PathLike[str]]) -> int:

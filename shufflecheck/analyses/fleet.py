@@ -1,7 +1,7 @@
 """Audits of many logs at once (a fleet of tables) on a Dask cluster.
 
-Each file of the audit is read as its own part on a worker (:func:`audit_log.scan_sources`)
-and the parts are merged on the client in file order (:func:`audit_log.merge_parts`).
+Each file of the audit is read as its own part on a worker (:func:`log_parts.scan_sources`)
+and the parts are merged on the client in file order (:func:`log_parts.merge_parts`).
 Summaries merge exactly, and the first deck of each group in a part is compared with the
 last deck of that group in the part before, so the result equals, to the last digit, the
 audit of the same files read one after another in one process. Memory per worker is that
@@ -13,12 +13,17 @@ from __future__ import annotations
 from collections.abc import Callable, Sequence
 from typing import Any
 
-from shufflecheck.analyses.audit_log import AuditOptions, Part, merge_parts, scan_sources
+from shufflecheck.analyses.log_parts import AuditOptions, Part, merge_parts, scan_sources
 from shufflecheck.common.errors import InputError
-from shufflecheck.engines.dask import Cluster, run_in_order
+from shufflecheck.engines.dask import Cluster, available, run_in_order
 from shufflecheck.records.logs.sources import Source
 
-__all__ = ["audit_parts"]
+__all__ = ["audit_parts", "dask_installed"]
+
+
+def dask_installed() -> bool:
+    """Whether the Dask engine can run here (dask and distributed importable)."""
+    return available()
 
 
 def _scan_one(task: tuple[Source, int, AuditOptions]) -> Part:

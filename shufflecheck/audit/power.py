@@ -27,6 +27,8 @@ References
        Statist. 6 (1979) 65-70.
 .. [2] P. B. Patnaik, "The non-central chi-square and F-distributions and their
        applications", Biometrika 36 (1949) 202-232.
+.. [3] F. P. Cantelli, "Sui confini della probabilità", Atti del Congresso Internazionale
+       dei Matematici, Bologna 1928, vol. 6, 47-59 (the one-sided Chebyshev inequality).
 """
 
 from __future__ import annotations
@@ -340,21 +342,27 @@ def detectable_shifts(
     alpha: float,
     power: float = 0.9,
 ) -> tuple[tuple[str, str, Any], ...]:
-    """The smallest shift of each test's per-deck mean that ``decks`` decks would flag.
+    """Shifts of each test's per-deck mean that ``decks`` decks flag with power ``power``.
 
     With ``m`` tests in the battery, a test at level ``alpha / m`` (halved per tail when
-    two-sided; Holm's first step, as in :func:`plan_decks`) flags a shift ``delta`` of the
-    per-deck mean with power about ``power`` when ``delta >= (z_a + z_b) s0 / sqrt(D)``
-    (normal approximation to the exact ``D``-fold law, ``s0`` its exact per-deck standard
-    deviation under a uniform deck). Tests that run on consecutive pairs use ``D - 1``.
+    two-sided) flags the battery under Holm's method whatever the others do (Holm's first
+    step, [1]_, as in :func:`plan_decks`). Its critical value ``c`` for the sum over ``D``
+    decks comes from the exact ``D``-fold null law (:func:`~shufflecheck.audit.nulls.
+    sum_distribution`). A procedure whose per-deck mean is shifted by ``delta`` towards the
+    alternative, with the per-deck variance ``s0^2`` of a random deck, has a sum with mean
+    ``D (mu0 + delta)`` and variance ``D s0^2``; by Cantelli's one-sided inequality
+    ``P(S beyond c) >= power`` ([3]_) as soon as ``D |delta| >= |c - D mu0| + s0 sqrt(D power /
+    (1 - power))``, whatever the shape of its law. That ``delta`` is returned as an upper
+    bound on the smallest detectable shift (under the stated variance; the normal
+    approximation needs about half as much). Tests on consecutive pairs use ``D - 1``.
 
     Returns
     -------
     tuple of (name, title, Quantity)
-        Sorted from the most to the least sensitive test relative to its null spread; each
-        shift is an ``estimate`` (normal approximation), in the test's unit.
+        Sorted from the most to the least sensitive test relative to its null spread;
+        each shift is a ``bound`` (upper), in the test's unit.
     """
-    from shufflecheck.common.quantity import estimate
+    from shufflecheck.common.quantity import upper_bound
 
     check_fraction(alpha, "alpha")
     check_fraction(power, "power")
@@ -367,22 +375,29 @@ def detectable_shifts(
         count = decks - 1 if stat.shape == "consecutive" else decks
         if count < 1:
             continue
-        sides = 2 if stat.alternative == "two-sided" else 1
-        z = stats.norm.isf(alpha / m / sides) + stats.norm.ppf(power)
-        spread = math.sqrt(float(law.variance))
-        shift = z * spread / math.sqrt(count)
+        level = alpha / m / (2 if stat.alternative == "two-sided" else 1)
+        null = sum_distribution(np.asarray(law.pmf, dtype=float), count, offset=law.offset)
+        values = null.start + np.arange(len(null.pmf))
+        mean, spread = float(law.mean), math.sqrt(float(law.variance))
+        if stat.alternative == "less":
+            cut = values[np.flatnonzero(null.cdf(values) <= level)]
+            gap = count * mean - (cut[-1] if cut.size else null.start - 1)
+        else:
+            cut = values[np.flatnonzero(null.sf(values) <= level)]
+            gap = (cut[0] if cut.size else values[-1] + 1) - count * mean
+        shift = (max(0.0, float(gap)) + spread * math.sqrt(count * power / (1 - power))) / count
         rows.append(
             (
                 shift / spread,
                 stat.name,
                 stat.title,
-                estimate(
+                upper_bound(
                     shift,
                     unit=stat.unit,
                     digits=2,
                     method=(
-                        f"normal approximation to the exact law of the sum over {count} "
-                        f"decks; level alpha/{m} per test, power {power:g}"
+                        f"exact critical value of the sum over {count} decks at level "
+                        f"alpha/{m}, Cantelli's inequality for power {power:g}"
                     ),
                 ),
             )

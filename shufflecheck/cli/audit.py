@@ -28,24 +28,78 @@ class Labels(str, Enum):
     int1 = "int1"
 
 
+class Separator(str, Enum):
+    space = "space"
+    comma = "comma"
+    semicolon = "semicolon"
+    pipe = "pipe"
+
+
+class Engine(str, Enum):
+    auto = "auto"
+    single = "single"
+    dask = "dask"
+
+
 @app.command()
 def audit(
     log: Annotated[
-        Path,
+        str,
         typer.Argument(
-            help="Recorded log: CSV (order column or one column per position), JSON Lines, Parquet."
+            help="Recorded log: CSV (order column or one column per position), JSON Lines, "
+            "Parquet; or a folder of logs, a Parquet dataset partitioned by key=value folders "
+            "(table=T7/date=2026-11-02/), or a quoted glob such as 'logs/*.csv'."
         ),
     ],
     reference: Annotated[
         str,
         typer.Option(
             help="Reference order of each deck: previous (default: the deck before it in the "
-            "log, i.e. the pickup order), first (row 1 is the reference), or an order/file."
+            "log, of the same group with --by: the pickup order); first (the first deck, not "
+            "tested); deck (the deck definition's order, e.g. a new pack); column:NAME (each "
+            "deck's own starting order in column NAME); pairs (rows alternate before/after a "
+            "pass); or an order written out / a file holding one."
         ),
     ] = "previous",
-    by: Annotated[str | None, typer.Option(help="Column to group results by, e.g. table.")] = None,
+    by: Annotated[
+        str | None,
+        typer.Option(
+            help="Column to group results by, e.g. table (per-table table + fleet summary)."
+        ),
+    ] = None,
     time: Annotated[
-        str | None, typer.Option(help="Column with the time of each deck (log in time order).")
+        str | None,
+        typer.Option(
+            help="Column with the time of each deck (decks in time order, per --by group)."
+        ),
+    ] = None,
+    time_format: Annotated[
+        str | None,
+        typer.Option(
+            help="strptime format of --time, e.g. '%d/%m/%Y %I:%M %p' (default: decided from the "
+            "values; an ambiguous day/month order is an error)."
+        ),
+    ] = None,
+    order_column: Annotated[
+        str | None,
+        typer.Option(help="Column holding the orders, e.g. 'Deck Order' (default: order)."),
+    ] = None,
+    position_columns: Annotated[
+        str | None,
+        typer.Option(
+            help="Position columns of a wide file, top first: 'Card 1..Card 52' or a,b,c."
+        ),
+    ] = None,
+    columns: Annotated[
+        str | None,
+        typer.Option(
+            help="The file has no header row; its columns in order, e.g. 'deck,table,order' "
+            "or 'table,p1..p52'."
+        ),
+    ] = None,
+    separator: Annotated[
+        Separator | None,
+        typer.Option(help="Between cards inside the order field (default: detected)."),
     ] = None,
     alpha: Annotated[float, typer.Option(help="Family-wise error level (Holm).")] = 0.01,
     quarantine: Annotated[
@@ -67,6 +121,20 @@ def audit(
         str | None,
         typer.Option("--format", help="csv, wide, jsonl or parquet (default: extension)."),
     ] = None,
+    engine: Annotated[
+        Engine,
+        typer.Option(
+            help="auto (default: Dask for several files when installed, else one process), "
+            "single, or dask."
+        ),
+    ] = Engine.auto,
+    scheduler: Annotated[
+        str | None,
+        typer.Option(help="Address of an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."),
+    ] = None,
+    workers: Annotated[
+        int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
+    ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
@@ -76,9 +144,10 @@ def audit(
     Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
     """
     check_report_folder(report, force=force)
-    from shufflecheck.analyses.audit_log import audit_log
+    from shufflecheck.analyses.audit_log import audit_log, choose_engine, total_bytes
 
-    with progress(0, "reading") as update:
+    chosen = choose_engine(log, engine.value, scheduler)
+    with progress(total_bytes(log), "reading") as update:
         result = audit_log(
             log,
             reference=reference,
@@ -88,16 +157,25 @@ def audit(
             cards=cards,
             by=by,
             time=time,
+            time_format=time_format,
             alpha=alpha,
             quarantine=quarantine,
             progress=update,
+            order_column=order_column,
+            position_columns=position_columns,
+            columns=columns,
+            separator=None if separator is None else separator.value,
+            engine=chosen,
+            scheduler=scheduler,
+            workers=workers,
         )
     payload = result.as_json()
     if report is not None:
         from shufflecheck.report.builders.audit import audit_report
         from shufflecheck.report.provenance import collect_provenance
 
-        inputs = [log] + ([deck] if deck is not None else [])
+        files = [Path(s.path) for s in result.sources] or [Path(log)]
+        inputs = files + ([deck] if deck is not None else [])
         document = audit_report(
             result,
             payload=payload,
@@ -126,6 +204,16 @@ def print_audit(result) -> None:
         f"reference, {result.after_set_aside:,} untested after a set-aside row); "
         f"alpha {overall.alpha:g}."
     )
+    read = f"Read {info.format}: orders from {info.order_column}"
+    if info.order_column.startswith("positions") is False:
+        read += f", cards separated by {info.separator} ({info.separator_source})"
+    if info.header == "declared":
+        read += ", columns declared (no header row)"
+    if result.time_format:
+        read += f"; times as {result.time_format}"
+    echo(read + f"; {result.engine}.")
+    if result.small is not None:
+        echo(f"Note: {result.small.text()}.")
     echo()
     rows = []
     for t in overall.by_adjusted_p():
@@ -152,8 +240,9 @@ def print_audit(result) -> None:
         place = f" ({where})" if where else ""
         echo()
         echo(f"Since when (estimate): {overall.since_when.text}{place}.")
-    for key, battery in result.result.groups:
-        echo(f"  {result.by} = {key}: {battery.verdict()}")
+    fleet = result.fleet()
+    if fleet is not None:
+        _print_fleet(result, fleet)
     for name, why in overall.skipped:
         echo(f"Not run: {name}: {why}")
     echo()
@@ -162,6 +251,39 @@ def print_audit(result) -> None:
         "estimates from the recorded decks against exact expectations for a random deck."
     )
     echo(f"{caution('these recorded decks')} {LOGS_UNTOUCHED}")
+
+
+def _print_fleet(result, fleet) -> None:
+    from shufflecheck.audit.results import format_p
+    from shufflecheck.report.render.terminal import format_table
+
+    echo()
+    echo(
+        f"By {fleet['by']}: {fleet['flagged']} of {fleet['groups']} flagged "
+        "(each group's battery at the same family-wise level)."
+    )
+    rows = []
+    shown = sorted(fleet["table"], key=lambda r: (not r["flagged"], r["log10_p_adjusted"] or 0.0))
+    for r in shown[:40]:
+        rows.append(
+            [
+                r["group"],
+                f"{r['decks']:,}",
+                "FLAGGED" if r["flagged"] else "",
+                r["strongest"] or "",
+                format_p(r["log10_p_adjusted"]) if r["log10_p_adjusted"] is not None else "",
+                r["since_when"] or "",
+            ]
+        )
+    echo(
+        format_table(
+            [fleet["by"], "decks", "", "strongest test", "p (Holm)", "since when (estimate)"],
+            rows,
+            align="lrllrl",
+        )
+    )
+    if len(shown) > 40:
+        echo(f"... and {len(shown) - 40} more (all in --json and --report).")
 
 
 def _repeat_range(text: str) -> list[int]:

@@ -298,7 +298,9 @@ def csv_chunks(
                 raise InputError(f"{shown} row 1: the header is not UTF-8 text") from None
             if headerless:
                 assert columns.names is not None
-                delimiter = _declared_delimiter(header_text.rstrip("\r\n"), len(columns.names), path)
+                delimiter = _declared_delimiter(
+                    header_text.rstrip("\r\n"), len(columns.names), path
+                )
             else:
                 delimiter = _sniff_delimiter(header_text, path)
             for _ in range(_SPAN if not headerless else 0):
@@ -328,9 +330,7 @@ def csv_chunks(
         yield layout, used, before, names
         taken = [*used] + ([before] if before is not None else [])
         kept = [i for i in range(len(names)) if i not in taken]
-        shape = _Shape(
-            len(names), delimiter, layout, used, kept, [names[i] for i in kept], before
-        )
+        shape = _Shape(len(names), delimiter, layout, used, kept, [names[i] for i in kept], before)
         next_row = 1 if headerless else 2
         while True:
             try:
@@ -680,9 +680,7 @@ def parquet_chunks(
         m = batch.num_rows
         rows = np.arange(offset, offset + m, dtype=np.int64)
         offset += m
-        kept = (
-            batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
-        )
+        kept = batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
         kept = kept.reset_index(drop=True)
         before = None
         if before_index is not None:

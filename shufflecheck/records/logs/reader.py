@@ -313,9 +313,7 @@ class LogReader:
             try:
                 self._separator = detect_separator(strings, lambda i: int(raw.rows[i]))
             except InputError as exc:
-                raise InputError(
-                    f"{self._shown}: {exc.template}", argument=exc.arguments
-                ) from None
+                raise InputError(f"{self._shown}: {exc.template}", argument=exc.arguments) from None
             self._separator_known = any(t.strip() for t in strings)
         sep = self._separator
         if sep is None:
@@ -477,7 +475,9 @@ def read_log(
     )
 
 
-_RANGE = re.compile(r"^(?P<prefix>.*?)(?P<low>\d+)\s*\.\.\s*(?P=prefix)?(?P<high>\d+)(?P<suffix>.*)$")
+_RANGE = re.compile(
+    r"^(?P<prefix>.*?)(?P<low>\d+)\s*\.\.\s*(?P=prefix)?(?P<high>\d+)(?P<suffix>.*)$"
+)
 
 
 def column_names(spec: str | Sequence[str], *, argument: str = "columns") -> tuple[str, ...]:
@@ -495,7 +495,9 @@ def column_names(spec: str | Sequence[str], *, argument: str = "columns") -> tup
     out: list[str] = []
     for item in items:
         if not isinstance(item, str):
-            raise InputError(f"{argument}: column names must be text, got {item!r}", argument=argument)
+            raise InputError(
+                f"{argument}: column names must be text, got {item!r}", argument=argument
+            )
         parts = item.split(",") if isinstance(spec, str) else [item]
         for part in parts:
             name = part.strip()
@@ -505,7 +507,9 @@ def column_names(spec: str | Sequence[str], *, argument: str = "columns") -> tup
             if match and ".." in name:
                 low, high = int(match["low"]), int(match["high"])
                 if not 0 <= low <= high or high - low > 100_000:
-                    raise InputError(f"{argument}: range {name!r} must count upwards", argument=argument)
+                    raise InputError(
+                        f"{argument}: range {name!r} must count upwards", argument=argument
+                    )
                 prefix, suffix = match["prefix"], match["suffix"]
                 out += [f"{prefix}{k}{suffix}" for k in range(low, high + 1)]
             else:

@@ -89,7 +89,11 @@ class TimeReader:
         sample = values.iloc[:_SAMPLE]
         if _reads_all(sample, "ISO8601"):
             return "ISO8601"
-        fits = [(fmt, order) for fmt, order in candidate_formats() if _reads_all(sample, fmt)]
+        # the formats that read the most values (a stray bad value is then reported at its
+        # row by the caller, in the format that fits the rest)
+        read = [(int(_parse(sample, f).notna().sum()), f, o) for f, o in candidate_formats()]
+        best = max(count for count, _, _ in read)
+        fits = [(f, o) for count, f, o in read if count == best and best > 0]
         if not fits:
             shown = values.iloc[0]
             raise InputError(
