@@ -871,7 +871,10 @@ class TestReferenceFixed:
     @pytest.mark.parametrize(
         ("spec", "message"),
         [
-            ("sideways", "reference 'sideways' is not previous, first, deck, column:NAME, pairs, an existing file"),
+            (
+                "sideways",
+                "reference 'sideways' is not previous, first, deck, column:NAME, pairs, an existing file",
+            ),
             ("AS KS", "reference order: 2 cards, deck 'standard-52' has 52"),
         ],
     )

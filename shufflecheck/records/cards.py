@@ -460,7 +460,7 @@ class DeckDefinition:
                 return (
                     f"unknown card code {shown!r}{at}; spelled-out names such as 'Ace of "
                     "Spades' need a separator between cards other than a space (a comma, "
-                    "semicolon or pipe; see separator)"
+                    "semicolon or pipe; see {separator})"
                 )
         extra = self.special_codes
         more = ", ..." if len(extra) > 6 else ""
@@ -477,7 +477,8 @@ class DeckDefinition:
         """
         found = self.lookup(code)
         if found is None:
-            raise InputError(self.code_problem(code))
+            problem = self.code_problem(code)
+            raise InputError(problem, argument="separator" if "{separator}" in problem else None)
         return found
 
     def code(self, label: int) -> str:

@@ -218,7 +218,8 @@ def parse_order(
     tokens = order.split() if isinstance(order, str) else list(order)
     checked = check_arrangement(tokens, deck, labels=labels)
     if not checked.ok:
-        raise InputError(f"{where}: {checked.problem}")
+        named = "separator" if "{separator}" in str(checked.problem) else None
+        raise InputError(f"{where}: {checked.problem}", argument=named)
     assert checked.labels is not None
     return checked.labels
 

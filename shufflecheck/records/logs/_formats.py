@@ -156,7 +156,17 @@ def _layout(
     if fmt != "wide" and order:
         return "csv", order, before
     candidates = [i for i in free if i not in order]
-    positions = _position_columns([names[i] for i in candidates], where)
+    headerless = InputError(
+        f"{where} looks like a deck, not a header: the file has no header row; declare "
+        "its columns with {columns} (e.g. 'deck,table,order' or 'table,p1..p52')",
+        argument="columns",
+    )
+    try:
+        positions = _position_columns([names[i] for i in candidates], where)
+    except InputError:
+        if _looks_like_data(names, deck):
+            raise headerless from None
+        raise
     if positions is not None:
         positions = [candidates[k] for k in positions]
         if len(positions) != deck.size:
@@ -167,11 +177,7 @@ def _layout(
         return "wide", positions, before
     wanted = "position columns p1..pN" if fmt == "wide" else "an 'order' column"
     if _looks_like_data(names, deck):
-        raise InputError(
-            f"{where} looks like a deck, not a header: the file has no header row; declare "
-            "its columns with {columns} (e.g. 'deck,table,order' or 'table,p1..p52')",
-            argument="columns",
-        )
+        raise headerless
     raise InputError(
         f"{where}: missing {wanted} (columns are: {_shown(names)}); name the order column "
         "with {order_column} or the position columns with {position_columns} "

@@ -47,6 +47,9 @@ from shufflecheck.records.orders import Arrangement, check_arrangement
 # --------------------------------------------------------------------------------------
 # the reader
 
+#: arguments a row's problem may point to (marked ``{name}`` in the text)
+_NAMED = ("separator",)
+
 
 def _format_of(path: Path, fmt: str) -> str:
     if fmt not in FORMATS:
@@ -212,9 +215,15 @@ class LogReader:
                 if bad:
                     if writer is None:
                         first = bad[0]
-                        raise InputError(f"{self._where(first.row)}: {first.problem}")
+                        named = tuple(a for a in _NAMED if "{" + a + "}" in first.problem)
+                        raise InputError(
+                            f"{self._where(first.row)}: {first.problem}", argument=named or None
+                        )
                     for item in bad:
-                        writer.writerow((item.row, item.reason, item.problem, item.raw))
+                        problem = item.problem
+                        for a in _NAMED:
+                            problem = problem.replace("{" + a + "}", a)
+                        writer.writerow((item.row, item.reason, problem, item.raw))
                         self._reasons[item.reason] += 1
                 self._decks += len(chunk)
                 if len(chunk) or len(chunk.set_aside.rows):
