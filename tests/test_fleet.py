@@ -94,7 +94,7 @@ class TestDaskEqualsOneProcess:
         one = audit_log(dataset, **options)
         many = audit_log(dataset, scheduler=cluster.scheduler_address, **options)
         assert comparable(one) == comparable(many)
-        assert many.engine == "dask, cluster at {}, 2 workers".format(cluster.scheduler_address)
+        assert many.engine == f"dask, cluster at {cluster.scheduler_address}, 2 workers"
         assert one.engine == "single process"
         # each table's second day starts with a deck compared with the first day's last
         assert (

@@ -873,7 +873,8 @@ class TestReferenceFixed:
         [
             (
                 "sideways",
-                "reference 'sideways' is not previous, first, deck, column:NAME, pairs, an existing file",
+                "reference 'sideways' is not previous, first, deck, column:NAME, pairs, an "
+                "existing file",
             ),
             ("AS KS", "reference order: 2 cards, deck 'standard-52' has 52"),
         ],

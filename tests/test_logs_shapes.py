@@ -16,7 +16,6 @@ import pytest
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import RANKS, STANDARD_52, load_deck
 from shufflecheck.records.logs import Reference, read_log
-from shufflecheck.records.orders import relative_to
 
 from ._cli import command_json, one_line_error, run
 
@@ -32,7 +31,11 @@ def spelled(row, style: str) -> list[str]:
     """Codes of one deck in another spelling (the reader must accept every one)."""
     out = []
     words = dict(
-        zip(RANKS, "Ace Two Three Four Five Six Seven Eight Nine Ten Jack Queen King".split())
+        zip(
+            RANKS,
+            "Ace Two Three Four Five Six Seven Eight Nine Ten Jack Queen King".split(),
+            strict=True,
+        )
     )
     suits = {"S": "Spades", "H": "Hearts", "D": "Diamonds", "C": "Clubs"}
     for label in row:
