@@ -148,6 +148,33 @@ class Assessment:
     rows: tuple[AssessmentRow, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
 
+    def to_dict(self) -> dict:
+        """The ``shufflecheck assess --json`` form (:func:`assessment_json`)."""
+        return assessment_json(self)
+
+    def to_frame(self):  # -> pandas.DataFrame
+        """One row per repetition count: exact total variation where known, the rigorous
+        upper and Monte Carlo lower bounds, and the guessing edge (with their kinds)."""
+        import pandas as pd
+
+        out = []
+        for row in self.rows:
+            upper = row.upper.get("total_variation")
+            lower = row.lower.get("total_variation")
+            out.append(
+                {
+                    "repeats": row.repeats,
+                    "total_variation": None if row.exact is None else row.exact.total_variation,
+                    "total_variation_kind": None if row.exact is None else row.exact.kind,
+                    "upper_bound": None if upper is None else upper.value,
+                    "lower_bound": None if lower is None else lower.value,
+                    "best_strategy": row.best_strategy,
+                    "extra_correct_guesses": row.extra_guesses.value,
+                    "extra_correct_guesses_stderr": row.extra_guesses.stderr,
+                }
+            )
+        return pd.DataFrame(out).set_index("repeats")
+
 
 # ---------------------------------------------------------------------------------------
 # exact blocks and rigorous upper bounds

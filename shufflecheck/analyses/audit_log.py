@@ -30,6 +30,7 @@ from shufflecheck.analyses.log_parts import (
     AuditOptions,
     Part,
     deck_for,
+    scan_frame,
     scan_sources,
     split_place,
 )
@@ -44,6 +45,7 @@ from shufflecheck.records.logs.sources import log_sources
 __all__ = [
     "LogAudit",
     "SmallLog",
+    "audit_frame",
     "audit_log",
     "choose_engine",
     "finish_audit",
@@ -465,6 +467,48 @@ def audit_log(
         )
     part = scan_sources(sources, options, progress=progress)
     return finish_audit(part, options, shown=shown, paths=paths, alpha=alpha, rng=rng)
+
+
+def audit_frame(
+    frame: pd.DataFrame,
+    *,
+    reference: str = "previous",
+    labels: str = "codes",
+    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    cards: int | None = None,
+    by: str | None = None,
+    time: str | None = None,
+    time_format: str | None = None,
+    alpha: float = 0.01,
+    strategies: tuple[str, ...] = DEFAULT_STRATEGIES,
+    chunk_rows: int = 50_000,
+    rng: np.random.Generator | int | None = 0,
+    order_column: str | None = None,
+    position_columns: str | Sequence[str] | None = None,
+    separator: str | None = None,
+    name: str = "data frame",
+) -> LogAudit:
+    """Audit the decks of a pandas DataFrame, read like a log (:func:`audit_log` for the
+    arguments; ``by``, ``time`` and ``column:NAME`` references name its columns)."""
+    definition = deck_for(deck, cards, labels, name)
+    options = AuditOptions(
+        deck=definition,
+        reference=reference,
+        labels="codes" if labels == "cards" else labels,
+        by=by,
+        time=time,
+        time_format=time_format,
+        strategies=tuple(strategies),
+        chunk_rows=chunk_rows,
+        order_column=order_column,
+        position_columns=position_columns
+        if position_columns is None or isinstance(position_columns, str)
+        else tuple(position_columns),
+        separator=separator,
+    )
+    options.parsed_reference  # noqa: B018 - a bad reference fails before any reading
+    part = scan_frame(frame, options, name=name)
+    return finish_audit(part, options, shown=name, paths=[Path(name)], alpha=alpha, rng=rng)
 
 
 def choose_engine(

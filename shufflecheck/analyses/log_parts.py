@@ -14,7 +14,7 @@ on it).
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -25,7 +25,7 @@ import pandas as pd
 from shufflecheck.audit import DEFAULT_STRATEGIES, BatterySummary
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
-from shufflecheck.records.logs import LogChunk, LogSummary, Reference, read_log
+from shufflecheck.records.logs import LogChunk, LogSummary, Reference, read_frame, read_log
 from shufflecheck.records.logs.sources import Source
 from shufflecheck.records.logs.times import TimeReader, first_backwards
 from shufflecheck.records.orders import relative_to
@@ -38,6 +38,7 @@ __all__ = [
     "deck_for",
     "merge_parts",
     "place_of",
+    "scan_frame",
     "scan_sources",
     "split_place",
 ]
@@ -194,28 +195,58 @@ def scan_sources(
     stay ordered across parts); ``progress`` gets the bytes of the files read so far.
     """
     reference = options.parsed_reference
+    several = len(sources) > 1 if several is None else several
+
+    def readers() -> Iterator[tuple[int, Source, Any]]:
+        for offset, source in enumerate(sources):
+            reader = read_log(
+                source.path,
+                deck=options.deck,
+                labels=options.labels,  # type: ignore[arg-type]
+                fmt=options.fmt,  # type: ignore[arg-type]
+                chunk_rows=options.chunk_rows,
+                quarantine=_quarantine_for(options, source, several),
+                order_column=options.order_column,
+                position_columns=options.position_columns,
+                before_column=reference.column if reference.kind == "column" else None,
+                columns=options.columns,
+                separator=options.separator,
+            )
+            yield first_index + offset, source, reader
+
+    return _scan(readers(), options, progress)
+
+
+def scan_frame(frame: pd.DataFrame, options: AuditOptions, *, name: str = "data frame") -> Part:
+    """A :class:`Part` of the decks of a pandas DataFrame (rows numbered 1, 2, ...)."""
+    reference = options.parsed_reference
+    reader = read_frame(
+        frame,
+        deck=options.deck,
+        labels=options.labels,  # type: ignore[arg-type]
+        chunk_rows=options.chunk_rows,
+        order_column=options.order_column,
+        position_columns=options.position_columns,
+        before_column=reference.column if reference.kind == "column" else None,
+        separator=options.separator,
+        name=name,
+    )
+    return _scan(iter([(0, Source(Path(name)), reader)]), options, None)
+
+
+def _scan(
+    readers: Iterator[tuple[int, Source, Any]],
+    options: AuditOptions,
+    progress: Callable[[int], None] | None,
+) -> Part:
+    reference = options.parsed_reference
     stream = reference.stream(by=options.by)
     part = Part(options.empty_summary(), [])
-    several = len(sources) > 1 if several is None else several
     times = None
     if options.time is not None:
         times = TimeReader(options.time, options.time_format, where="")
     done = 0
-    for offset, source in enumerate(sources):
-        index = first_index + offset
-        reader = read_log(
-            source.path,
-            deck=options.deck,
-            labels=options.labels,  # type: ignore[arg-type]
-            fmt=options.fmt,  # type: ignore[arg-type]
-            chunk_rows=options.chunk_rows,
-            quarantine=_quarantine_for(options, source, several),
-            order_column=options.order_column,
-            position_columns=options.position_columns,
-            before_column=reference.column if reference.kind == "column" else None,
-            columns=options.columns,
-            separator=options.separator,
-        )
+    for index, source, reader in readers:
         for raw_chunk in reader:
             chunk = _with_constants(raw_chunk, source, index)
             if times is not None and len(chunk):

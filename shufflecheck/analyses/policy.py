@@ -449,6 +449,84 @@ class PolicyResult:
         """True when every procedure with a house count is certified to meet the target."""
         return all(d.standing in (None, "meets") for d in self.decisions)
 
+    def to_dict(self) -> dict[str, Any]:
+        """The ``shufflecheck policy --json`` form."""
+        return policy_json(self)
+
+    def to_frame(self):  # -> pandas.DataFrame
+        """One row per procedure: minimum, how it is known, the house count's standing."""
+        import pandas as pd
+
+        return pd.DataFrame(
+            [
+                {
+                    k: p[k]
+                    for k in (
+                        "name",
+                        "procedure",
+                        "cards",
+                        "minimum",
+                        "kind",
+                        "smallest_not_excluded",
+                        "house",
+                        "standing",
+                        "standing_how",
+                    )
+                }
+                for p in self.to_dict()["procedures"]
+            ]
+        ).astype({"minimum": "Int64", "smallest_not_excluded": "Int64", "house": "Int64"})
+
+
+def policy_json(result: PolicyResult) -> dict[str, Any]:
+    """The JSON form of a policy result (``shufflecheck policy --json``)."""
+    from shufflecheck.analyses.assess import assessment_json
+    from shufflecheck.core.distances import METRIC_LABELS
+
+    policy = result.policy
+    out: dict[str, Any] = {
+        "policy": {
+            "file": str(policy.path),
+            "title": policy.title,
+            "metric": policy.metric,
+            "target": policy.target,
+            "confidence": policy.confidence,
+            "simulated_decks": policy.decks,
+            "seed": policy.seed,
+            "alpha": policy.alpha,
+        },
+        "all_house_counts_meet_target": result.all_met,
+        "procedures": [],
+    }
+    for d in result.decisions:
+        proc = d.procedure
+        out["procedures"].append(
+            {
+                "name": proc.name,
+                "procedure": proc.procedure.describe(),
+                "cards": proc.cards,
+                "minimum": d.minimum,
+                "kind": d.kind if d.minimum is not None else "estimate",
+                "smallest_not_excluded": d.estimate_low,
+                "house": proc.house,
+                "standing": d.standing,
+                "standing_how": d.standing_how,
+                "summary": d.summary(METRIC_LABELS[policy.metric], policy.target),
+                "settle": None if d.settlement is None else d.settlement.as_json(),
+                "settle_summary": (
+                    []
+                    if d.settlement is None
+                    else d.settlement.sentences(METRIC_LABELS[policy.metric])
+                ),
+                "assessment": assessment_json(d.assessment),
+                "logs": [
+                    {"table": log.table, "path": str(log.path), **audit.as_json()}
+                    for log, audit in d.audits
+                ],
+            }
+        )
+    return out
+
 
 def _value(row, metric: str):
     """(exact value or None, upper bound or None, lower bound or None) at one row."""

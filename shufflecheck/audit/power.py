@@ -121,6 +121,16 @@ class PowerPlan:
             "rows": [r.as_json() for r in self.rows],
         }
 
+    def to_dict(self) -> dict[str, Any]:
+        """Same as :meth:`as_json` (plain types)."""
+        return self.as_json()
+
+    def to_frame(self):  # -> pandas.DataFrame
+        """One row per test: decks needed (an estimate) and its relative standard error."""
+        import pandas as pd
+
+        return pd.DataFrame([r.as_json() for r in self.rows])
+
 
 def sum_test_power(
     null: Law, alternative_pmf: np.ndarray, decks: int, level: float, alternative: str

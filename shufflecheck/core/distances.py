@@ -41,9 +41,16 @@ from shufflecheck.common.quantity import Kind
 METRICS = ("total_variation", "separation", "kl_bits")
 #: command-line spellings of the metrics
 METRIC_NAMES = {"total-variation": "total_variation", "separation": "separation", "kl": "kl_bits"}
+#: the metrics in words (tables, reports, sentences)
+METRIC_LABELS = {
+    "total_variation": "total variation",
+    "separation": "separation",
+    "kl_bits": "KL divergence (bits)",
+}
 
 __all__ = [
     "METRICS",
+    "METRIC_LABELS",
     "METRIC_NAMES",
     "DistanceRow",
     "MixingCurve",
@@ -94,6 +101,38 @@ class MixingCurve:
     bounds: tuple[DistanceRow, ...] = field(default_factory=tuple)
     bound_source: str = ""
     bound_name: str = ""
+
+    def minimum(self, target: float, metric: str = "total_variation") -> int | None:
+        """The fewest steps whose exact value (or rigorous upper bound) is ``<= target``."""
+        return minimum_steps(self.rows, metric, target)
+
+    def to_dict(self) -> dict[str, object]:
+        """Plain types: model, cards, parameters, source, and every row with its ``kind``."""
+
+        def row(r: DistanceRow) -> dict[str, object]:
+            return {
+                "steps": r.steps,
+                "total_variation": r.total_variation,
+                "separation": r.separation,
+                "kl_bits": r.kl_bits,
+                "kind": r.kind,
+            }
+
+        return {
+            "model": self.model,
+            "cards": self.cards,
+            "parameters": dict(self.parameters),
+            "source": self.source,
+            "rows": [row(r) for r in self.rows],
+            "bounds": [row(r) for r in self.bounds],
+            "bound_source": self.bound_source or None,
+        }
+
+    def to_frame(self):  # -> pandas.DataFrame
+        """One row per number of steps: the three distances and how they were obtained."""
+        import pandas as pd
+
+        return pd.DataFrame(self.to_dict()["rows"]).set_index("steps")
 
 
 def check_metric(metric: str) -> str:

@@ -35,7 +35,7 @@ References
 from __future__ import annotations
 
 from shufflecheck.records.logs._common import REASONS, LogChunk, LogFormat, LogSummary, SetAside
-from shufflecheck.records.logs.reader import LogReader, column_names, read_log
+from shufflecheck.records.logs.reader import LogReader, column_names, read_frame, read_log
 from shufflecheck.records.logs.reference import Reference, ReferenceStream, RelativeChunk
 from shufflecheck.records.logs.writer import write_log
 
@@ -50,6 +50,7 @@ __all__ = [
     "RelativeChunk",
     "SetAside",
     "column_names",
+    "read_frame",
     "read_log",
     "write_log",
 ]

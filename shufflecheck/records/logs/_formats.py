@@ -749,3 +749,79 @@ def parquet_chunks(
             before=before,
             done=(offset - 1) / max(1, parquet.metadata.num_rows),
         )
+
+
+def frame_chunks(
+    frame: pd.DataFrame, shown: str, deck: DeckDefinition, chunk_rows: int, columns: ColumnMap
+) -> Iterator[RawChunk | tuple[str, list[int], int | None, list[str]]]:
+    """A pandas DataFrame read like a file: an order column (texts or lists of codes or
+    integer labels) or position columns; rows numbered 1.. in frame order."""
+    names = [str(c) for c in frame.columns]
+    if len(set(names)) != len(names):
+        raise InputError(f"{shown}: column names must be distinct")
+    layout, used, before_index = _layout(names, "auto", deck, shown, columns)
+    yield layout, used, before_index, names
+    taken = [*used] + ([before_index] if before_index is not None else [])
+    kept_at = [i for i in range(len(names)) if i not in taken]
+    total = max(1, len(frame))
+    for lo in range(0, len(frame), chunk_rows):
+        block = frame.iloc[lo : lo + chunk_rows]
+        m = len(block)
+        rows = np.arange(lo + 1, lo + 1 + m, dtype=np.int64)
+        kept = block.iloc[:, kept_at].reset_index(drop=True)
+        kept.columns = [names[i] for i in kept_at]
+        before = None if before_index is None else block.iloc[:, before_index].tolist()
+
+        def raw_of(i: int, block: pd.DataFrame = block) -> str:
+            return json.dumps(block.iloc[i].to_dict(), default=str, ensure_ascii=False)
+
+        done = min(1.0, (lo + m) / total)
+        if layout == "csv":
+            values = block.iloc[:, used[0]].tolist()
+            if all(isinstance(v, str) for v in values):
+                yield RawChunk(
+                    rows,
+                    kept,
+                    tokens_of=lambda i, v=values: v[i].split(),
+                    raw_of=raw_of,
+                    texts=values,
+                    before=before,
+                    done=done,
+                )
+                continue
+            lists = [
+                []
+                if v is None
+                else (v.tolist() if hasattr(v, "tolist") else list(v))
+                if not isinstance(v, str)
+                else v.split()
+                for v in values
+            ]
+            flat, counts = _flatten(lists)
+            yield RawChunk(
+                rows,
+                kept,
+                tokens_of=lambda i, v=lists: list(v[i]),
+                raw_of=raw_of,
+                flat=flat,
+                counts=counts,
+                before=before,
+                done=done,
+            )
+            continue
+        cells = block.iloc[:, used]
+        grid = cells.to_numpy()
+        if not np.issubdtype(grid.dtype, np.integer):
+            grid = cells.to_numpy(dtype=object)
+        else:
+            grid = grid.astype(np.int64)
+        yield RawChunk(
+            rows,
+            kept,
+            tokens_of=lambda i, g=grid: list(g[i]),
+            raw_of=raw_of,
+            flat=grid.ravel(),
+            counts=np.full(m, len(used), dtype=np.int64),
+            before=before,
+            done=done,
+        )

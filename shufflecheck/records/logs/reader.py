@@ -31,6 +31,7 @@ from shufflecheck.records.logs._formats import (
     BadRow,
     RawChunk,
     csv_chunks,
+    frame_chunks,
     jsonl_chunks,
     parquet_chunks,
 )
@@ -87,8 +88,10 @@ class LogReader:
         quarantine: Path | None,
         columns: ColumnMap | None = None,
         separator: str | None = None,
+        frame: pd.DataFrame | None = None,
     ) -> None:
         self.path = path
+        self._frame = frame
         self.deck = deck
         self._shown = shown
         self._labels = labels
@@ -181,7 +184,12 @@ class LogReader:
             self._order_column = self._columns.order or "order"
             yield from jsonl_chunks(self.path, self._shown, self._chunk_rows, self._columns)
             return
-        if self._fmt == "parquet":
+        if self._fmt == "frame":
+            assert self._frame is not None
+            source = frame_chunks(
+                self._frame, self._shown, self.deck, self._chunk_rows, self._columns
+            )
+        elif self._fmt == "parquet":
             source = parquet_chunks(
                 self.path, self._shown, self.deck, self._chunk_rows, self._columns
             )
@@ -190,7 +198,7 @@ class LogReader:
                 self.path, self._shown, self._fmt, self.deck, self._chunk_rows, self._columns
             )
         layout, used, _, names = next(source)  # type: ignore[misc]
-        self._layout = layout if self._fmt != "parquet" else "parquet"
+        self._layout = layout if self._fmt not in ("parquet", "frame") else self._fmt
         if layout == "csv":
             self._order_column = str(names[used[0]]).strip()
         else:
@@ -481,6 +489,53 @@ def read_log(
         )
     return LogReader(
         source, shown, load_deck(deck), labels, kind, chunk_rows, target, mapping, separator
+    )
+
+
+def read_frame(
+    frame: pd.DataFrame,
+    *,
+    deck: DeckDefinition | str | os.PathLike[str] | None = None,
+    labels: Labels = "codes",
+    chunk_rows: int = DEFAULT_CHUNK_ROWS,
+    order_column: str | None = None,
+    position_columns: str | Sequence[str] | None = None,
+    before_column: str | None = None,
+    separator: str | None = None,
+    name: str = "data frame",
+) -> LogReader:
+    """Read a pandas DataFrame of recorded orders like a log file (see :func:`read_log`).
+
+    The frame has an order column (texts of codes, or lists of codes or integer labels)
+    or position columns; other columns are kept. Rows are numbered 1, 2, ... in frame
+    order, and a bad row raises :class:`InputError` naming ``name`` and the row.
+    """
+    if not isinstance(frame, pd.DataFrame):
+        raise InputError(f"{name}: expected a pandas DataFrame, got {type(frame).__name__}")
+    if labels not in LABEL_MODES:
+        raise InputError(f"labels {labels!r} is not one of {', '.join(LABEL_MODES)}")
+    if separator is not None and separator not in SEPARATORS:
+        raise InputError(
+            f"separator {separator!r} is not one of {', '.join(SEPARATORS)}", argument="separator"
+        )
+    mapping = ColumnMap(
+        order=order_column,
+        positions=None
+        if position_columns is None
+        else column_names(position_columns, argument="position_columns"),
+        before=before_column,
+    )
+    return LogReader(
+        Path(name),
+        name,
+        load_deck(deck),
+        labels,
+        "frame",
+        chunk_rows,
+        None,
+        mapping,
+        separator,
+        frame=frame,
     )
 
 

@@ -15,11 +15,7 @@ from shufflecheck.report.provenance import Provenance
 
 __all__ = ["METRIC_LABELS", "mixing_report"]
 
-METRIC_LABELS = {
-    "total_variation": "total variation",
-    "separation": "separation",
-    "kl_bits": "KL divergence (bits)",
-}
+from shufflecheck.core.distances import METRIC_LABELS
 
 
 def _cell(value: float | None, kind: str):

@@ -31,52 +31,10 @@ def _decision_cells(decision) -> tuple:
 
 
 def policy_payload(result) -> dict[str, Any]:
-    """The ``--json`` form of a policy result."""
-    from shufflecheck.analyses.assess import assessment_json
+    """The ``--json`` form of a policy result (:func:`shufflecheck.analyses.policy.policy_json`)."""
+    from shufflecheck.analyses.policy import policy_json
 
-    policy = result.policy
-    out = {
-        "policy": {
-            "file": str(policy.path),
-            "title": policy.title,
-            "metric": policy.metric,
-            "target": policy.target,
-            "confidence": policy.confidence,
-            "simulated_decks": policy.decks,
-            "seed": policy.seed,
-            "alpha": policy.alpha,
-        },
-        "all_house_counts_meet_target": result.all_met,
-        "procedures": [],
-    }
-    for d in result.decisions:
-        proc = d.procedure
-        out["procedures"].append(
-            {
-                "name": proc.name,
-                "procedure": proc.procedure.describe(),
-                "cards": proc.cards,
-                "minimum": d.minimum,
-                "kind": d.kind if d.minimum is not None else "estimate",
-                "smallest_not_excluded": d.estimate_low,
-                "house": proc.house,
-                "standing": d.standing,
-                "standing_how": d.standing_how,
-                "summary": d.summary(METRIC_LABELS[policy.metric], policy.target),
-                "settle": None if d.settlement is None else d.settlement.as_json(),
-                "settle_summary": (
-                    []
-                    if d.settlement is None
-                    else d.settlement.sentences(METRIC_LABELS[policy.metric])
-                ),
-                "assessment": assessment_json(d.assessment),
-                "logs": [
-                    {"table": log.table, "path": str(log.path), **audit.as_json()}
-                    for log, audit in d.audits
-                ],
-            }
-        )
-    return out
+    return policy_json(result)
 
 
 def policy_figure(result):
