@@ -180,14 +180,17 @@ def _low_bit(x: np.ndarray) -> np.ndarray:
 
 def _high_bit(x: np.ndarray) -> np.ndarray:
     """Index of the highest set bit of each uint64 (-1 for zero)."""
+    if x.size and int(x.max()) < (1 << 53):  # exact as a double: read its exponent
+        return np.frexp(x.astype(np.float64))[1].astype(np.int64) - 1
     y = x | (x >> np.uint64(1))
     for s in (2, 4, 8, 16, 32):
         y |= y >> np.uint64(s)
     return np.bitwise_count(y).astype(np.int64) - 1
 
 
-def _longest_run_start(unseen: np.ndarray, n: int) -> np.ndarray:
-    """Lowest start of a longest block of consecutive set bits (bitmask of unseen cards)."""
+def _longest_run(unseen: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Lowest start and length of a longest block of consecutive set bits (bitmask of
+    unseen cards; length 0 where none is set)."""
     levels = [unseen]  # levels[j]: bit u set iff bits u .. u + 2^j - 1 are all set
     span = 1
     while 2 * span <= n:
@@ -202,7 +205,13 @@ def _longest_run_start(unseen: np.ndarray, n: int) -> np.ndarray:
         hit = cand != 0
         cur = np.where(hit, cand, cur)
         length = np.where(hit, length + step, length)
-    return _low_bit(cur)
+    length = np.where(unseen != 0, length, np.uint64(0))
+    return _low_bit(cur), length.astype(np.int64)
+
+
+def _longest_run_start(unseen: np.ndarray, n: int) -> np.ndarray:
+    """Lowest start of a longest block of consecutive set bits (bitmask of unseen cards)."""
+    return _longest_run(unseen, n)[0]
 
 
 def _play_bitmask(
@@ -217,10 +226,15 @@ def _play_bitmask(
     score = {name: np.zeros(count, dtype=np.int64) for name in names}
     picked = {name: np.zeros((n, count), dtype=np.int64) for name in names} if record else {}
     want_run = "next-card" in names or "longest-run" in names
+    # the longest unseen block, kept up to date: seeing a card outside it leaves it the
+    # lowest longest block (other blocks only shrink), so only decks whose card fell inside
+    # it are recomputed
+    best_start = np.zeros(count, dtype=np.int64)
+    best_len = np.full(count, n, dtype=np.int64)
     for i in range(n):
         card = cols[i]
         unseen = ~seen & full
-        longest = _longest_run_start(unseen, n) if want_run else None
+        longest = best_start
         lowest = _low_bit(unseen)
         for name in names:
             if name == "longest-run":
@@ -244,6 +258,11 @@ def _play_bitmask(
         run_start = np.where(follows, run_start, card)
         last = card
         seen |= _ONE << card.astype(np.uint64)
+        if want_run and i < n - 1:
+            hit = np.flatnonzero((card >= best_start) & (card < best_start + best_len))
+            if hit.size:
+                best_start = best_start.copy()
+                best_start[hit], best_len[hit] = _longest_run(~seen[hit] & full, n)
     return {name: (score[name], picked.get(name)) for name in names}
 
 

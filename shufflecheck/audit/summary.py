@@ -218,6 +218,7 @@ class BatterySummary:
         absolute: np.ndarray | None = None,
         *,
         groups: Sequence[object] | np.ndarray | None = None,
+        check: bool = True,
     ) -> None:
         """Add a chunk of decks, given in time order.
 
@@ -231,9 +232,20 @@ class BatterySummary:
         groups : length-k sequence or None
             Group value of each deck (e.g. the table); all chunks must either give groups
             or not.
+        check : bool
+            Check that the rows are arrangements (``False`` for decks a log reader has
+            already validated and related to their references).
         """
-        rel = as_decks(relative, cards=self.n, name="relative decks")
-        ab = rel if absolute is None else as_decks(absolute, cards=self.n, name="absolute decks")
+        if check:
+            rel = as_decks(relative, cards=self.n, name="relative decks")
+            ab = (
+                rel if absolute is None else as_decks(absolute, cards=self.n, name="absolute decks")
+            )
+        else:
+            rel = np.asarray(relative)
+            ab = rel if absolute is None else np.asarray(absolute)
+            if rel.ndim != 2 or rel.shape[1] != self.n:
+                raise InputError(f"relative decks: expected {self.n} cards per deck")
         if ab.shape != rel.shape:
             raise InputError(
                 f"absolute decks: expected shape {rel.shape} like the relative decks, "

@@ -261,11 +261,12 @@ def relative_to(decks: np.ndarray, reference: np.ndarray) -> np.ndarray:
         return inverse[decks]
     if reference.shape != decks.shape:
         raise InputError(f"reference shape {reference.shape} does not match decks {decks.shape}")
-    inverse = np.empty((count, n), dtype=np.int16)
-    np.put_along_axis(
-        inverse,
-        reference.astype(np.intp, copy=False),
-        np.arange(n, dtype=np.int16)[None, :],
-        axis=1,
+    # one flat scatter and one flat gather (row offsets added), in 32-bit indices when
+    # they fit: the inverse of each reference, then each deck read through it
+    kind = np.int32 if count * n < 2**31 else np.int64
+    offsets = (np.arange(count, dtype=kind) * n)[:, None]
+    inverse = np.empty(count * n, dtype=np.int16)
+    inverse[(reference.astype(kind) + offsets).ravel()] = np.tile(
+        np.arange(n, dtype=np.int16), count
     )
-    return np.take_along_axis(inverse, decks.astype(np.intp, copy=False), axis=1)
+    return inverse[(decks.astype(kind) + offsets).ravel()].reshape(count, n)

@@ -43,6 +43,25 @@ class BadRow:
     columns: dict[str, Any] | None  # kept columns, or None if the row could not be split
 
 
+@dataclass(frozen=True)
+class OrderSpans:
+    """The order field of every row as a byte range of one buffer (no text made)."""
+
+    buf: np.ndarray  # uint8
+    starts: np.ndarray  # int64, per row
+    ends: np.ndarray
+
+    def text(self, i: int) -> str:
+        return bytes(self.buf[self.starts[i] : self.ends[i]]).decode("utf-8")
+
+    def texts(self) -> list[str]:
+        data = self.buf.tobytes()
+        return [
+            data[a:b].decode("utf-8")
+            for a, b in zip(self.starts.tolist(), self.ends.tolist(), strict=True)
+        ]
+
+
 @dataclass
 class RawChunk:
     rows: np.ndarray
@@ -56,6 +75,7 @@ class RawChunk:
     blank: int = 0
     before: Sequence[object] | None = None  # per row: the deck's own starting order
     done: float = 0.0  # fraction of the file read after this chunk (for progress)
+    spans: OrderSpans | None = None  # the order field as bytes, instead of texts
 
 
 def _decode(data: bytes) -> str:
@@ -342,7 +362,7 @@ def csv_chunks(
             try:
                 lines = pending + list(itertools.islice(handle, chunk_rows - len(pending)))
                 pending = []
-                quoted = any(b'"' in line for line in lines)
+                quoted = b'"' in b"".join(lines)
                 records = lines
                 if quoted:
                     records, still_open = _csv_records(lines, delimiter)
@@ -383,15 +403,16 @@ def _csv_fields(text: str, delimiter: str) -> list[str] | None:
 
 def _plain_block(
     records: list[bytes], rows: np.ndarray, shape: _Shape
-) -> tuple[list[int], str, int, list[BadRow]] | None:
+) -> tuple[list[int], bytes, int, list[BadRow]] | None:
     """Check a block without quotes with array operations.
 
-    Returns (indices of good records, their text joined, blank count, failed rows), or None
-    when some line needs the record-by-record loop (not UTF-8, a stray carriage return).
+    Returns (indices of good records, their bytes joined, blank count, failed rows), or
+    None when some line needs the record-by-record loop (not UTF-8, a stray carriage
+    return).
     """
     data = b"".join(records)
     try:
-        text = data.decode("utf-8")
+        data.decode("utf-8")
     except UnicodeDecodeError:
         return None
     buf = np.frombuffer(data, dtype=np.uint8)
@@ -422,15 +443,92 @@ def _plain_block(
     ]
     good = np.flatnonzero(~blank & ~wrong).tolist()
     if len(good) != len(records):
-        text = "".join(records[k].decode("utf-8") for k in good)
-    return good, text, int(blank.sum()), failed
+        data = b"".join(records[k] for k in good)
+    return good, data, int(blank.sum()), failed
+
+
+def _field_spans(data: bytes, delimiter: str, field: int, width: int) -> OrderSpans:
+    """Byte range of field ``field`` in every line of ``data`` (lines known to have
+    ``width`` fields and no quotes), without making text of it."""
+    buf = np.frombuffer(data, dtype=np.uint8)
+    if not data:
+        empty = np.zeros(0, dtype=np.int64)
+        return OrderSpans(buf, empty, empty)
+    ends = np.flatnonzero(buf == 10)
+    if not data.endswith(b"\n"):
+        ends = np.append(ends, buf.size)
+    begins = np.concatenate([[0], ends[:-1] + 1]).astype(np.int64)
+    cr = (ends > begins) & (buf[np.maximum(ends - 1, 0)] == 13)
+    line_end = ends - cr
+    sep = np.flatnonzero(buf == ord(delimiter))
+    first = np.searchsorted(sep, begins)
+    start = begins if field == 0 else sep[first + field - 1] + 1
+    stop = line_end if field == width - 1 else sep[first + field]
+    return OrderSpans(buf, start.astype(np.int64), stop.astype(np.int64))
+
+
+def _kept_frame(data: bytes, count: int, shape: _Shape) -> pd.DataFrame:
+    """The kept columns of a block without quotes, as text (pyarrow's reader when it is
+    installed, else pandas' C parser; neither makes text of the order field)."""
+    if not shape.kept:
+        return pd.DataFrame(index=range(count))
+    try:
+        import pyarrow as pa
+        import pyarrow.csv as pacsv
+    except ImportError:
+        pa = None
+    if pa is not None:
+        names = [str(i) for i in range(shape.width)]
+        table = pacsv.read_csv(
+            pa.py_buffer(data if data.endswith(b"\n") else data + b"\n"),
+            read_options=pacsv.ReadOptions(column_names=names, use_threads=False),
+            parse_options=pacsv.ParseOptions(delimiter=shape.delimiter, quote_char=False),
+            convert_options=pacsv.ConvertOptions(
+                column_types={names[i]: pa.string() for i in shape.kept},
+                include_columns=[names[i] for i in shape.kept],
+                strings_can_be_null=False,
+                quoted_strings_can_be_null=False,
+            ),
+        )
+        frame = table.to_pandas()
+        frame.columns = shape.kept_names
+        return frame
+    frame = pd.read_csv(
+        io.BytesIO(data if data.endswith(b"\n") else data + b"\n"),
+        sep=shape.delimiter,
+        header=None,
+        names=list(range(shape.width)),
+        usecols=shape.kept,
+        dtype=object,
+        na_filter=False,
+        skip_blank_lines=False,
+        quoting=csv.QUOTE_NONE,
+        engine="c",
+        encoding="utf-8",
+    )
+    frame = frame[shape.kept]
+    frame.columns = shape.kept_names
+    return frame.reset_index(drop=True)
 
 
 def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted: bool) -> RawChunk:
     plain = None if quoted else _plain_block(records, rows, shape)
+    if plain is not None and shape.layout == "csv" and shape.before is None:
+        good, data, blank, failed = plain
+        good_rows = rows[np.asarray(good, dtype=np.int64)] if good else np.zeros(0, dtype=np.int64)
+        spans = _field_spans(data, shape.delimiter, shape.used[0], shape.width)
+        return RawChunk(
+            good_rows,
+            _kept_frame(data, len(good), shape) if good else _empty_kept(shape),
+            tokens_of=lambda i: spans.text(i).split(),
+            raw_of=lambda i: _decode(records[good[i]]),
+            spans=spans,
+            failed=failed,
+            blank=blank,
+        )
     if plain is not None:
-        good, joined, blank, failed = plain
-        frame = _split_fields(joined, len(good), shape.width, shape.delimiter)
+        good, data, blank, failed = plain
+        frame = _split_fields(data.decode("utf-8"), len(good), shape.width, shape.delimiter)
         return _csv_raw(frame, records, rows, good, shape, failed, blank)
     failed = []
     blank = 0
@@ -469,6 +567,10 @@ def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted:
         texts.append(text)
     frame = _split_fields(texts, len(texts), shape.width, shape.delimiter)
     return _csv_raw(frame, records, rows, good, shape, failed, blank)
+
+
+def _empty_kept(shape: _Shape) -> pd.DataFrame:
+    return pd.DataFrame({name: pd.Series([], dtype=object) for name in shape.kept_names})
 
 
 def _csv_raw(

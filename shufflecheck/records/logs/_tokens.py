@@ -138,6 +138,10 @@ def map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.ndar
 def permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
     """Rows of ``labels`` (values already in 0..n-1) holding every label exactly once."""
     m = labels.shape[0]
+    if n <= 63 and labels.shape[1] == n and hasattr(np, "bitwise_count"):
+        # n values in 0..n-1 whose bits together fill all n bits: each label once
+        masks = np.bitwise_or.reduce(np.left_shift(1, labels.astype(np.int64)), axis=1)
+        return masks == (1 << n) - 1
     ok = np.zeros(m, dtype=bool)
     step = max(1, (1 << 22) // max(n, 1))  # about 4M cells at a time
     for lo in range(0, m, step):
@@ -205,3 +209,22 @@ def split_texts(texts: Sequence[str], separator: str) -> tuple[np.ndarray, np.nd
     flat = np.empty(len(tokens), dtype=object)
     flat[:] = tokens
     return flat, counts
+
+
+def scan_spans(
+    buf: np.ndarray, starts: np.ndarray, ends: np.ndarray, deck: DeckDefinition
+) -> tuple[np.ndarray, np.ndarray] | None:
+    """Card codes of order fields given as byte ranges of ``buf``, when every field is
+    ``n`` two-byte codes separated by single spaces (what ``write_log`` writes): one
+    gather and one table lookup, no text made. None when some field is written otherwise
+    (the caller then splits texts)."""
+    n = deck.size
+    width = 3 * n - 1
+    if starts.size == 0 or not ((ends - starts) == width).all():
+        return None
+    at = starts[:, None] + np.arange(0, width, 3)  # first byte of each code
+    if n > 1 and not (buf[at[:, :-1] + 2] == 32).all():
+        return None
+    pairs = buf[at].astype(np.uint16) | (buf[at + 1].astype(np.uint16) << 8)
+    values = _keys(deck).table16[pairs]  # int16 labels, -1 for anything else
+    return values.ravel(), np.full(starts.size, n, dtype=np.int64)

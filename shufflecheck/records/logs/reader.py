@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import contextlib
 import csv
+import dataclasses
 import os
 import re
 from collections import Counter
@@ -39,6 +40,7 @@ from shufflecheck.records.logs._tokens import (
     detect_separator,
     map_tokens,
     permutation_rows,
+    scan_spans,
     scan_text,
     split_order,
     split_texts,
@@ -247,7 +249,20 @@ class LogReader:
         n = self.deck.size
         m = len(raw.rows)
         integer = self._labels != "codes"
-        if raw.texts is not None:
+        fast = None
+        if raw.spans is not None:
+            if not self._separator_known:
+                self._tokens(raw.spans.texts()[:200], raw)  # detects the separator
+            if self._separator is None and not integer:
+                fast = scan_spans(raw.spans.buf, raw.spans.starts, raw.spans.ends, self.deck)
+            if fast is None:
+                raw = dataclasses.replace(raw, texts=raw.spans.texts(), spans=None)
+        if fast is not None:
+            values, counts = fast
+            spans = raw.spans
+            assert spans is not None
+            tokens_of = lambda i: spans.text(i).split()  # noqa: E731
+        elif raw.texts is not None:
             values, counts, tokens_of = self._tokens(raw.texts, raw)
         else:
             assert raw.flat is not None and raw.counts is not None
@@ -255,7 +270,12 @@ class LogReader:
             tokens_of = raw.tokens_of
         starts = np.cumsum(counts) - counts
         full = np.flatnonzero(counts == n)
-        grid = values[starts[full, None] + np.arange(n)] if full.size else np.zeros((0, n), int)
+        if full.size == m and values.size == m * n:  # every row has n tokens: no gather
+            grid = values.reshape(m, n)
+        elif full.size:
+            grid = values[starts[full, None] + np.arange(n)]
+        else:
+            grid = np.zeros((0, n), dtype=np.int64)
         # rows the fast path vouches for, per numbering (0 for card codes)
         bases = [self._base] if not integer or self._base is not None else [0, 1]
         fast: dict[int, np.ndarray] = {}
