@@ -39,9 +39,11 @@ def audit_parts(
     workers: int | None = None,
     processes: bool = True,
     progress: Callable[[int], None] | None = None,
+    report: dict[str, Any] | None = None,
 ) -> tuple[Part, str]:
     """The merged :class:`Part` of all sources, computed one file per task; and a
-    description of the cluster that ran them."""
+    description of the cluster that ran them (``report``: see
+    :func:`shufflecheck.engines.dask.run_in_order`)."""
     kind = options.parsed_reference.kind
     if kind in ("first", "pairs") and len(sources) > 1:
         raise InputError(
@@ -67,6 +69,7 @@ def audit_parts(
             workers=workers,
             processes=processes,
             on_cluster=remember,
+            report=report,
         ),
         strict=True,
     ):

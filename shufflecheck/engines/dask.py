@@ -28,7 +28,21 @@ from typing import Any
 
 from shufflecheck.common.errors import InputError
 
-__all__ = ["Cluster", "available", "run_in_order"]
+__all__ = ["Cluster", "available", "peak_memory_mb", "run_in_order"]
+
+
+def peak_memory_mb() -> float:
+    """Peak resident memory of this process in MB (Linux ``VmHWM``; else ``ru_maxrss``)."""
+    try:
+        with open("/proc/self/status", encoding="ascii") as handle:
+            for line in handle:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    import resource
+
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 def available() -> bool:
@@ -109,6 +123,7 @@ def run_in_order(
     workers: int | None = None,
     processes: bool = True,
     on_cluster: Callable[[Cluster], None] | None = None,
+    report: dict[str, Any] | None = None,
 ) -> Iterator[Any]:
     """``function(item)`` for every item on a Dask cluster, yielded in the order of ``items``.
 
@@ -126,6 +141,9 @@ def run_in_order(
         Local workers as processes (default) or as threads of this process.
     on_cluster : callable, optional
         Called once with the :class:`Cluster` before the first result.
+    report : dict, optional
+        Filled after the last result with ``worker_peak_mb``: each worker's peak resident
+        memory in MB (the memory a task needed, with the worker's own).
     """
     with _client(scheduler, workers, processes) as (client, cluster):
         if on_cluster is not None:
@@ -135,5 +153,7 @@ def run_in_order(
             for future in futures:
                 yield future.result()
                 future.release()
+            if report is not None:
+                report["worker_peak_mb"] = client.run(peak_memory_mb)
         finally:
             client.cancel([f for f in futures if not f.done()])
