@@ -140,14 +140,69 @@ def audit_section(audit, title: str, *, prefix: str = "", figures: bool = True) 
         where = audit.since_when_place()
         place = f" First deck of that stretch: {where}." if where else ""
         paragraphs.append(f"Since when (estimate): {battery.since_when.text}.{place}")
-    for key, group in audit.result.groups:
-        paragraphs.append(f"{audit.by} = {key}: {group.verdict()}.")
+    fleet = audit.fleet() if hasattr(audit, "fleet") else None
     tables = [_tests_table(battery, f"Tests on {audit.path.name}")]
+    if fleet is not None:
+        strongest = fleet["strongest"]
+        line = (
+            f"By {fleet['by']}: {fleet['flagged']} of {fleet['groups']} flagged, each on its "
+            "own battery at the same family-wise level."
+        )
+        if strongest:
+            top = strongest[0]
+            line += (
+                f" Strongest finding: {fleet['by']} {top['group']}, {top['strongest']} "
+                f"({top['effect']})"
+                + (f", since {top['since_when']}" if top["since_when"] else "")
+                + "."
+            )
+        paragraphs.append(line)
+        tables.append(_groups_table(audit, fleet))
+    else:
+        for key, group in audit.result.groups:
+            paragraphs.append(f"{audit.by} = {key}: {group.verdict()}.")
+    small = getattr(audit, "small", None)
+    if small is not None:
+        paragraphs.append(f"Note: {small.text()}.")
     return Section(
         title,
         paragraphs=tuple(paragraphs),
         tables=tuple(tables),
         figures=audit_figures(audit, prefix) if figures else (),
+    )
+
+
+def _groups_table(audit, fleet: dict[str, Any]) -> Table:
+    """One row per group: decks, verdict, strongest test, its adjusted p-value, since when."""
+    rows = []
+    by_key = dict(audit.result.groups)
+    ordered = sorted(
+        fleet["table"], key=lambda r: (not r["flagged"], r["log10_p_adjusted"] or 0.0)
+    )
+    for r in ordered:
+        battery = by_key.get(r["group"]) or next(
+            b for k, b in audit.result.groups if str(k) == r["group"]
+        )
+        worst = battery.by_adjusted_p()[0]
+        rows.append(
+            (
+                r["group"],
+                exact(r["decks"]),
+                "flagged" if r["flagged"] else "",
+                r["strongest"] or "",
+                _p_cell(worst.log10_p_adjusted, worst.method),
+                r["since_when"] or "",
+            )
+        )
+    return Table(
+        f"Per {fleet['by']}",
+        (fleet["by"], "decks", "verdict", "strongest test", "p-value (Holm)", "since when"),
+        tuple(rows),
+        notes=(
+            f"Each {fleet['by']} is tested on its own battery (Holm at level "
+            f"{audit.result.overall.alpha:g}); flagged ones first. 'Since when' is an "
+            "estimate: the first deck of the biased stretch.",
+        ),
     )
 
 
