@@ -43,6 +43,7 @@ from shufflecheck.records.logs import LogSummary
 from shufflecheck.records.logs.sources import log_sources
 
 __all__ = [
+    "DASK_FROM_BYTES",
     "LogAudit",
     "SmallLog",
     "audit_frame",
@@ -511,22 +512,27 @@ def audit_frame(
     return finish_audit(part, options, shown=name, paths=[Path(name)], alpha=alpha, rng=rng)
 
 
+#: With ``engine="auto"``, several logs of at least this many bytes go to Dask.
+DASK_FROM_BYTES = 64 * 2**20
+
+
 def choose_engine(
     path: str | os.PathLike[str] | Sequence[str | os.PathLike[str]],
     engine: str = "auto",
     scheduler: str | None = None,
 ) -> str:
     """``single`` or ``dask`` for ``engine="auto"``: Dask when a scheduler is given, or when
-    there are several files and dask is installed; one process otherwise."""
+    there are several files of at least :data:`DASK_FROM_BYTES` together and dask is
+    installed (starting a cluster costs seconds); one process otherwise."""
     if engine != "auto":
         return engine
     if scheduler is not None:
         return "dask"
     try:
-        several = len(log_sources(path)) > 1
+        sources = log_sources(path)
     except InputError:
         return "single"  # the audit itself says what is wrong
-    if not several:
+    if len(sources) < 2 or sum(s.size for s in sources) < DASK_FROM_BYTES:
         return "single"
     return "dask" if dask_installed() else "single"
 

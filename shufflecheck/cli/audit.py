@@ -124,8 +124,8 @@ def audit(
     engine: Annotated[
         Engine,
         typer.Option(
-            help="auto (default: Dask for several files when installed, else one process), "
-            "single, or dask."
+            help="auto (default: Dask for several files of 64 MB or more when installed, else "
+            "one process), single, or dask."
         ),
     ] = Engine.auto,
     scheduler: Annotated[

@@ -176,9 +176,7 @@ def _groups_table(audit, fleet: dict[str, Any]) -> Table:
     """One row per group: decks, verdict, strongest test, its adjusted p-value, since when."""
     rows = []
     by_key = dict(audit.result.groups)
-    ordered = sorted(
-        fleet["table"], key=lambda r: (not r["flagged"], r["log10_p_adjusted"] or 0.0)
-    )
+    ordered = sorted(fleet["table"], key=lambda r: (not r["flagged"], r["log10_p_adjusted"] or 0.0))
     for r in ordered:
         battery = by_key.get(r["group"]) or next(
             b for k, b in audit.result.groups if str(k) == r["group"]
