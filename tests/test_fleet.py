@@ -213,6 +213,11 @@ def test_sources_in_order(tmp_path):
         "a/y.csv",
         "b/x.csv",
     ]
+    (tmp_path / "ds" / "table=T7" / "date=2026-11-02").mkdir(parents=True)
+    (tmp_path / "ds" / "table=T7" / "date=2026-11-02" / "part-0.parquet").write_text("")
+    found = log_sources(str(tmp_path / "ds" / "table=T7" / "*" / "*.parquet"))
+    assert found[0].constants == (("table", "T7"), ("date", "2026-11-02"))
+    shutil.rmtree(tmp_path / "ds")
     with pytest.raises(InputError, match="no file matches"):
         log_sources(str(tmp_path / "*.jsonl"))
     shutil.rmtree(tmp_path / "a")

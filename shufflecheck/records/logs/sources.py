@@ -4,8 +4,9 @@ dataset partitioned by folders named ``key=value`` (``table=T7/date=2026-11-02/`
 Sources are listed in one fixed order, sorted by path, so every engine reads "the same
 data" in the same order (a log's decks in file order; ``date=`` folders in ISO 8601 order
 sort by time). In a partitioned dataset the values of the partition keys are not inside
-the files: each source carries them as ``constants``, added as columns to every row (so
-``--by table`` groups by the partition key).
+the files: each source carries the ``key=value`` folders on its path as ``constants``,
+added as columns to every row that has no column of that name (so ``--by table`` groups by
+the partition key, whether the dataset, a glob or one file of it is audited).
 
 References
 ----------
@@ -53,8 +54,9 @@ def _is_log(path: Path) -> bool:
     return bool(suffixes) and suffixes[-1] in LOG_SUFFIXES and not path.name.startswith(".")
 
 
-def _keys(path: Path, root: Path) -> tuple[tuple[str, str], ...]:
-    parts = path.relative_to(root).parts[:-1]
+def _keys(path: Path) -> tuple[tuple[str, str], ...]:
+    """``key=value`` folders on the way to ``path`` (a partitioned dataset's keys)."""
+    parts = path.parts[:-1]
     out = []
     for part in parts:
         if "=" in part:
@@ -70,7 +72,7 @@ def _folder(root: Path) -> list[Source]:
         raise InputError(
             f"{root}: a folder without logs (files ending in {', '.join(LOG_SUFFIXES)})"
         )
-    sources = [Source(p, _keys(p, root)) for p in files]
+    sources = [Source(p, _keys(p)) for p in files]
     kinds = {len(s.constants) for s in sources}
     if len(kinds) > 1:
         raise InputError(
@@ -101,11 +103,11 @@ def log_sources(spec: str | os.PathLike[str] | Sequence[str | os.PathLike[str]])
     if path.is_dir():
         return _folder(path)
     if path.exists():
-        return [Source(path)]
+        return [Source(path, _keys(path))]
     if any(ch in text for ch in "*?["):
         matches = sorted(Path(m) for m in glob.glob(text, recursive=True))
         files = [m for m in matches if m.is_file()]
         if not files:
             raise InputError(f"no file matches {text!r}")
-        return [Source(m) for m in files]
+        return [Source(m, _keys(m)) for m in files]
     raise InputError(f"cannot read {text}: no such file")
