@@ -73,7 +73,9 @@ def audit_parts(
         ),
         strict=True,
     ):
-        merged = part if merged is None else merge_parts(merged, part, options, paths)
+        merged = (
+            part if merged is None else merge_parts(merged, part, options, paths, in_place=True)
+        )
         done += source.size
         if progress is not None:
             progress(done)

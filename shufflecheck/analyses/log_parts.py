@@ -321,12 +321,16 @@ def _check_times(part: Part, chunk: LogChunk, options: AuditOptions, times: Time
 # merging parts
 
 
-def merge_parts(a: Part, b: Part, options: AuditOptions, paths: Sequence[Path]) -> Part:
+def merge_parts(
+    a: Part, b: Part, options: AuditOptions, paths: Sequence[Path], *, in_place: bool = False
+) -> Part:
     """The part of ``a``'s decks followed by ``b``'s, exactly as one stream would read them.
 
     The first deck of each group in ``b`` (a reference only there) is compared with the
     last deck of its group in ``a`` and tested, unless a set-aside row broke the chain.
-    ``paths`` are the files of the audit by source index (for messages).
+    ``paths`` are the files of the audit by source index (for messages). With
+    ``in_place``, ``a``'s summary and lists are extended rather than copied (``a`` is then
+    used up: a fold over many parts stays linear in their number).
     """
     kind = options.parsed_reference.kind
     if kind in ("first", "pairs"):
@@ -363,9 +367,9 @@ def merge_parts(a: Part, b: Part, options: AuditOptions, paths: Sequence[Path]) 
         groups = None if options.by is None else np.array([str(h.group) for h in tested])
         front.update(relative_to(decks, refs), decks, groups=groups)
         summary_b = b.summary.merge_front(front, [h.position for h in tested])
-    places = _splice(a.places, b.places, tested, lambda h: np.array([h.place]))
+    places = _splice(a.places, b.places, tested, lambda h: np.array([h.place]), in_place)
     times = (
-        _splice(a.times, b.times, tested, lambda h: np.array([h.time], dtype=object))
+        _splice(a.times, b.times, tested, lambda h: np.array([h.time], dtype=object), in_place)
         if options.time is not None
         else {}
     )
@@ -387,7 +391,7 @@ def merge_parts(a: Part, b: Part, options: AuditOptions, paths: Sequence[Path]) 
     for key, value in b.first_time.items():
         first_time.setdefault(key, value)
     return Part(
-        summary=a.summary.merge(summary_b),
+        summary=a.summary.merge(summary_b, in_place=in_place),
         readers=a.readers + b.readers,
         tested=a.tested + b.tested + len(tested),
         reference_only=a.reference_only + b.reference_only - len(tested) - broken,
@@ -408,9 +412,10 @@ def _splice(
     b: dict[Any, list[np.ndarray]],
     tested: list[Head],
     value: Callable[[Head], np.ndarray],
+    in_place: bool = False,
 ) -> dict[Any, list[np.ndarray]]:
     """``a`` then ``b`` per key, with the tested heads inserted where they stand in ``b``."""
-    out = {k: list(v) for k, v in a.items()}
+    out = a if in_place else {k: list(v) for k, v in a.items()}
     inserted: dict[Any, list[tuple[int, np.ndarray]]] = {}
     for h in tested:
         inserted.setdefault(ALL, []).append((h.position, value(h)))

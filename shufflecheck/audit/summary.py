@@ -310,10 +310,14 @@ class BatterySummary:
         out._groups = {k: v.copy() for k, v in self._groups.items()}
         return out
 
-    def merge(self, other: BatterySummary) -> BatterySummary:
-        """A new summary of ``self``'s decks followed in time by ``other``'s."""
+    def merge(self, other: BatterySummary, *, in_place: bool = False) -> BatterySummary:
+        """A new summary of ``self``'s decks followed in time by ``other``'s.
+
+        With ``in_place`` the result is ``self``, extended (folding many parts into one
+        summary then costs the size of each part, not of the whole so far).
+        """
         self._compatible(other)
-        out = self.copy()
+        out = self if in_place else self.copy()
         if other._grouped is None:
             return out
         if out._grouped is None:
