@@ -59,7 +59,7 @@ def comparable(audit) -> str:
 @pytest.fixture(scope="module")
 def cluster():
     with distributed.LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None
+        n_workers=2, threads_per_worker=1, processes=False, dashboard_address=":0"
     ) as local:
         yield local
 

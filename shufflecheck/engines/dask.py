@@ -104,7 +104,7 @@ def _client(
             n_workers=count,
             threads_per_worker=1,
             processes=processes,
-            dashboard_address=None,
+            dashboard_address=":0",
             silence_logs=logging.ERROR,
         )
         client = Client(cluster)
