@@ -157,6 +157,7 @@ class TestResults:
         assert list(assessment.to_frame().index) == [1, 2, 3]
         assert assessment.to_dict()["rows"][0]["repeats"] == 1
 
+    @pytest.mark.slow  # two policy evaluations; the walkthrough runs policy() by default
     def test_policy_dict_is_the_cli_json(self, at_root):
         cli = command_json("policy", "data/demo/policy.toml")
         mine = json.loads(

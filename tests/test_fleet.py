@@ -167,7 +167,7 @@ class TestMergeIsExact:
     """Without a cluster: one log split into files, audited part by part and merged, equals
     the audit of the whole log (a different code path: one stream over one file)."""
 
-    @pytest.mark.parametrize("seed", [1, 2, 3])
+    @pytest.mark.parametrize("seed", [1, 2])
     def test_random_splits(self, tmp_path, seed):
         rng = np.random.default_rng(seed)
         decks = np.concatenate(
