@@ -163,7 +163,9 @@ class TestResults:
         mine = json.loads(
             json.dumps(shufflecheck.policy("data/demo/policy.toml").to_dict(), default=float)
         )
-        assert mine["procedures"][2]["minimum"] == cli["procedures"][2]["minimum"] == 9
+        ideal = [p["minimum"] for p in mine["procedures"] if p["name"].startswith("Ideal")]
+        assert ideal == [p["minimum"] for p in cli["procedures"] if p["name"].startswith("Ideal")]
+        assert ideal == [9]  # Bayer & Diaconis 1992: 9 riffles for TV <= 0.1
         assert mine.keys() == cli.keys()
 
     def test_audit_is_callable_beside_the_layer(self):
