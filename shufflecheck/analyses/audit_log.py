@@ -81,7 +81,7 @@ class SmallLog:
         shown = "; ".join(f"{title} by {q.text()}" for _, title, q in self.highlights())
         return (
             f"a small log: {self.decks:,} decks tested, fewer than the {self.needed:,} its "
-            f"battery is built for; with power {self.power:g} it is sure to flag only large "
+            f"battery is built for; with power {self.power:g} it flags only large "
             f"departures, e.g. a shift of {shown}"
         )
 
