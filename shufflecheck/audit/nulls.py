@@ -66,6 +66,7 @@ __all__ = [
     "fixed_points_law",
     "guessing_law",
     "inversions_law",
+    "mixed_sum_p_value",
     "mixed_sum_tail_logs",
     "repeat_positions_law",
     "rising_law",
@@ -709,3 +710,16 @@ def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float
     if upper_side:
         return log_large, log_small
     return log_small, log_large
+
+
+def mixed_sum_p_value(parts: list[tuple[Law, int]], total: int, alternative: str) -> float:
+    """Natural log of the exact p-value of a sum over decks whose per-deck laws differ
+    (see :func:`mixed_sum_tail_logs`; alternatives as in :func:`sum_p_value`)."""
+    lower, upper = mixed_sum_tail_logs(parts, total)
+    if alternative == "greater":
+        return upper
+    if alternative == "less":
+        return lower
+    if alternative == "two-sided":
+        return min(0.0, math.log(2.0) + min(lower, upper))
+    raise InputError(f"alternative must be 'greater', 'less' or 'two-sided', got {alternative!r}")

@@ -1,0 +1,388 @@
+"""Exact null laws for shoes: statistics of a uniformly random arrangement of a multiset.
+
+A shoe of ``k`` packs, or any deck with repeated cards, is a *multiset*: ``counts[v]``
+cards of class ``v`` (a card code, a value, a suit). Under the null hypothesis every
+arrangement of the multiset (a *word* with ``counts[v]`` letters ``v``) is equally likely;
+there are ``multinomial(n; counts)`` of them. Each law here counts words in exact Python
+integers and returns a :class:`~shufflecheck.audit.nulls.Law` over that total:
+
+* :func:`value_successions_law` -- positions ``i`` with ``class(i+1) = class(i) + 1``
+  (a card followed by one of the next value), by inclusion-exclusion over marked
+  successions counted with a transfer over the values;
+* :func:`matches_law` -- positions holding the same class in two independent uniform
+  words (the sequential test between consecutive shoes): the rook polynomial of a union
+  of complete boards ([2]_), a multiset form of the rencontres numbers;
+* :func:`zone_maximum_law` -- the largest number of *marked* cards (e.g. cards whose code
+  occurs in a segment of the reference shoe) in one of several fixed zones of the shoe:
+  the marked cards occupy a uniform random set of positions, so the zone counts are
+  multivariate hypergeometric;
+* :func:`greedy_guessing_law` -- correct guesses in the guessing game with complete
+  feedback when the player always names a most frequent remaining class (the optimal
+  strategy under the null, [1]_), by dynamic programming over the remaining counts;
+* runs of equal classes are :func:`shufflecheck.audit.nulls.runs_law`.
+
+References
+----------
+.. [1] P. Diaconis and R. Graham, "The analysis of sequential experiments with feedback to
+       subjects", Ann. Statist. 9 (1981) 3-23 (the greedy strategy is optimal; the ESP deck
+       of 5 x 5 symbols).
+.. [2] J. Riordan, *An Introduction to Combinatorial Analysis*, Wiley, 1958, ch. 7-8 (rook
+       polynomials; permutations with restricted positions).
+.. [3] R. P. Stanley, *Enumerative Combinatorics*, vol. 1, 2nd ed., Cambridge University
+       Press, 2012, section 2.1 (inclusion-exclusion).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from collections.abc import Sequence
+from functools import cache
+
+from shufflecheck.audit.nulls import Law
+from shufflecheck.common.errors import InputError
+
+__all__ = [
+    "GREEDY_STATE_BUDGET",
+    "GuessingOutOfReach",
+    "greedy_guessing_law",
+    "greedy_state_estimate",
+    "matches_law",
+    "multinomial",
+    "value_successions_law",
+    "value_successions_row",
+    "zone_maximum_law",
+]
+
+#: Largest number of (sorted) count states the greedy-guessing DP visits before refusing.
+GREEDY_STATE_BUDGET = 3_000_000
+
+
+def _counts(counts: Sequence[int], *, keep_zeros: bool = False) -> tuple[int, ...]:
+    try:
+        out = tuple(int(c) for c in counts)
+    except (TypeError, ValueError):
+        raise InputError(f"counts must be integers, got {counts!r}") from None
+    if any(c < 0 for c in out):
+        raise InputError(f"counts must be >= 0, got {out}")
+    if not keep_zeros:
+        out = tuple(c for c in out if c)
+    if sum(out) < 1:
+        raise InputError("a multiset needs at least one card")
+    return out
+
+
+def multinomial(counts: Sequence[int]) -> int:
+    """Number of arrangements of a multiset: ``n! / prod counts[v]!``."""
+    out, seen = 1, 0
+    for c in _counts(counts):
+        seen += c
+        out *= math.comb(seen, c)
+    return out
+
+
+# --------------------------------------------------------------------------- successions
+
+
+@cache
+def _successions_row(counts: tuple[int, ...]) -> tuple[int, ...]:
+    n = sum(counts)
+    size = len(counts)
+    caps = [min(counts[v], counts[v + 1]) for v in range(size - 1)]
+    g_max = sum(caps)
+    # cards of classes above v: R_v = n - (c_0 + ... + c_v)
+    above = [n - sum(counts[: v + 1]) for v in range(size)]
+    # D[gamma]: ways for classes v+1.. with gamma glues at or after v (processed from the top)
+    table = [0] * (g_max + 1)
+    table[0] = 1
+    top = 0
+    for v in range(size - 2, -1, -1):
+        nxt = [0] * (g_max + 1)
+        for gamma_next in range(top + 1):
+            ways = table[gamma_next]
+            if not ways:
+                continue
+            for g in range(caps[v] + 1):
+                gamma = gamma_next + g
+                free = above[v] - gamma  # unused unit slots when class v + 1 starts units
+                fresh = counts[v + 1] - g
+                if free < fresh:
+                    continue
+                nxt[gamma] += ways * math.comb(counts[v], g) * math.comb(free, fresh)
+        table = nxt
+        top += caps[v]
+    # marked configurations with G glues: C(n - G, c_0) * D_0(G)
+    marked = [
+        math.comb(n - g, counts[0]) * table[g] if n - g >= counts[0] else 0
+        for g in range(g_max + 1)
+    ]
+    row = []
+    for s in range(g_max + 1):
+        row.append(sum((-1) ** (g - s) * math.comb(g, s) * marked[g] for g in range(s, g_max + 1)))
+    return tuple(row)
+
+
+def value_successions_row(counts: Sequence[int]) -> tuple[int, ...]:
+    """``row[s]``: arrangements of the multiset with exactly ``s`` value successions.
+
+    Classes are ordered ``0, 1, ..., V-1`` (the order of ``counts``; zero counts are kept
+    as empty classes); a succession is a position ``i`` with ``class(i+1) = class(i) + 1``.
+
+    Method (inclusion-exclusion, [3]_): mark any subset of the successions of a word; the
+    marked successions glue the word into *units*, each a run of consecutive classes
+    ``a, a+1, ..., b``. With ``U`` units, a word with marks is a sequence of ``U`` units in
+    which class ``v`` is covered ``counts[v]`` times; choosing, class by class from the
+    top, which of the ``c_v`` units covering ``v`` continue to ``v + 1`` (``g_v`` of them,
+    ``C(c_v, g_v)`` ways) and which unit slots the ``c_{v+1} - g_v`` fresh units of class
+    ``v + 1`` occupy (``C(R_v - gamma_v, c_{v+1} - g_v)``, ``R_v`` the cards above ``v``,
+    ``gamma_v`` the glues from ``v`` up) counts them exactly. With ``F(G)`` the number of
+    marked words with ``G`` glues, ``row[s] = sum_G (-1)^(G-s) C(G, s) F(G)``.
+    """
+    parts = _counts(counts, keep_zeros=True)
+    return _successions_row(parts)
+
+
+@cache
+def _successions_law(parts: tuple[int, ...]) -> Law:
+    return Law.from_counts(_successions_row(parts), multinomial(parts))
+
+
+def value_successions_law(counts: Sequence[int]) -> Law:
+    """Exact law of the value successions of a uniform arrangement (see
+    :func:`value_successions_row`)."""
+    return _successions_law(_counts(counts, keep_zeros=True))
+
+
+# --------------------------------------------------------------------------- matches
+
+
+@cache
+def _matches_law(parts: tuple[int, ...]) -> Law:
+    n = sum(parts)
+    # rook numbers of the union of complete c x c boards: prod_v sum_j C(c, j)^2 j! x^j
+    rook = [1]
+    for c in parts:
+        block = [math.comb(c, j) ** 2 * math.factorial(j) for j in range(c + 1)]
+        out = [0] * (len(rook) + c)
+        for i, a in enumerate(rook):
+            for j, b in enumerate(block):
+                out[i + j] += a * b
+        rook = out
+    denominator = math.prod(math.factorial(c) for c in parts)
+    # words agreeing with a fixed word on a chosen set of j positions, summed over sets
+    at_least = [r * math.factorial(n - j) for j, r in enumerate(rook)]
+    row = []
+    for m in range(len(at_least)):
+        value = sum(
+            (-1) ** (j - m) * math.comb(j, m) * at_least[j] for j in range(m, len(at_least))
+        )
+        row.append(value // denominator)
+    return Law.from_counts(row, multinomial(parts))
+
+
+def matches_law(counts: Sequence[int]) -> Law:
+    """Positions holding the same class in two independent uniform arrangements.
+
+    By symmetry the law does not depend on the first arrangement. Placing the second
+    arrangement as a permutation of the ``n`` physical cards, the positions where it agrees
+    with the first form a rook placement on the union of complete ``c_v x c_v`` boards, so
+    the number of permutations agreeing on at least a chosen ``j``-set, summed over the
+    sets, is ``r_j (n - j)!`` with ``r_j`` the rook numbers
+    ``[x^j] prod_v sum_i C(c_v, i)^2 i! x^i`` ([2]_); inclusion-exclusion gives the exact
+    count, divided by ``prod c_v!`` for arrangements with copies alike. With every count 1
+    these are the rencontres numbers.
+    """
+    return _matches_law(tuple(sorted(_counts(counts))))
+
+
+# --------------------------------------------------------------------------- zones
+
+
+@cache
+def _zone_maximum_law(cards: int, marked: int, zones: tuple[int, ...]) -> Law:
+    # P(zone counts t_z) = prod C(w_z, t_z) C(rest, marked - sum t) / C(n, marked);
+    # the positions outside every zone form one more (unscored) zone.
+    rest = cards - sum(zones)
+    layer: dict[tuple[int, int], int] = {(0, 0): 1}  # (marked placed, max so far) -> ways
+    for width in zones:
+        nxt: dict[tuple[int, int], int] = defaultdict(int)
+        for (placed, best), ways in layer.items():
+            for t in range(min(width, marked - placed) + 1):
+                nxt[(placed + t, max(best, t))] += ways * math.comb(width, t)
+        layer = nxt
+    row = [0] * (max(zones) + 1)
+    for (placed, best), ways in layer.items():
+        left = marked - placed
+        if 0 <= left <= rest:
+            row[best] += ways * math.comb(rest, left)
+    return Law.from_counts(row, math.comb(cards, marked))
+
+
+def zone_maximum_law(cards: int, marked: int, zones: Sequence[int]) -> Law:
+    """Largest number of marked cards in one zone, for ``marked`` cards in uniformly random
+    positions of a shoe of ``cards`` cards and disjoint zones of the given widths.
+
+    Under a uniform arrangement of any multiset, the set of positions holding cards of a
+    chosen group of classes is a uniform ``marked``-subset, so the zone counts are
+    multivariate hypergeometric; the law of their maximum is counted zone by zone.
+    """
+    widths = tuple(int(w) for w in zones)
+    if not widths or any(w < 1 for w in widths) or sum(widths) > cards:
+        raise InputError(f"zones must be positive widths adding up to at most {cards}")
+    if not 0 <= marked <= cards:
+        raise InputError(f"marked cards must be from 0 to {cards}, got {marked}")
+    return _zone_maximum_law(int(cards), int(marked), widths)
+
+
+# --------------------------------------------------------------------------- guessing
+
+
+class GuessingOutOfReach(InputError):
+    """The greedy-guessing DP would visit more states than the budget allows."""
+
+
+def _multisets(size: int, top: int) -> int:
+    return math.comb(top + size, size)
+
+
+def greedy_state_estimate(counts: Sequence[int]) -> int:
+    """An upper estimate of the count states :func:`greedy_guessing_law` visits.
+
+    Classes with equal counts are interchangeable, so states are multisets of remaining
+    counts per group of equal classes; a unique largest class that exceeds every other
+    class is handled in closed form down to the second largest count.
+    """
+    parts = sorted(_counts(counts), reverse=True)
+    groups: dict[int, int] = defaultdict(int)
+    for c in parts:
+        groups[c] += 1
+    total = 1
+    if len(parts) > 1 and parts[0] > parts[1]:
+        cap = parts[1]
+        groups[parts[0]] -= 1
+        if not groups[parts[0]]:
+            del groups[parts[0]]
+        total *= cap + 1
+    for c, m in groups.items():
+        total *= _multisets(m, c)
+    return total
+
+
+@cache
+def _greedy_rows(parts: tuple[int, ...]) -> tuple[int, tuple[int, ...]]:
+    """(offset, row): words of the multiset by the number of correct greedy guesses."""
+    # start: a unique leader above every other class is guessed right until it falls to
+    # the second largest count (others never grow); the words leading to each entry state
+    # are counted in closed form, then the DP runs over sorted states.
+    start = tuple(sorted(parts, reverse=True))
+    layer: dict[tuple[int, ...], dict[int, int]]
+    if len(start) > 1 and start[0] > start[1]:
+        lead, others = start[0], start[1:]
+        drops = lead - others[0]
+        layer = defaultdict(lambda: defaultdict(int))
+        # removals d from the others before the leader's drops-th draw:
+        # C(drops - 1 + j, j) * multinomial(j; d)  (the last letter is the leader's)
+        # keyed by the sorted remaining counts of the classes processed so far (only they
+        # matter for the future; the number removed follows from them)
+        removal: dict[tuple[int, ...], int] = {(): 1}
+        processed = 0
+        for c in others:
+            nxt: dict[tuple[int, ...], int] = defaultdict(int)
+            for key, ways in removal.items():
+                j = processed - sum(key)
+                for x in range(c + 1):
+                    new = tuple(sorted((*key, c - x), reverse=True))
+                    nxt[new] += ways * math.comb(j + x, x)
+            removal = nxt
+            processed += c
+            if len(removal) > GREEDY_STATE_BUDGET:
+                raise GuessingOutOfReach(
+                    f"the exact guessing law for counts {parts} needs more than "
+                    f"{GREEDY_STATE_BUDGET:,} states"
+                )
+        for left, ways in removal.items():
+            j = processed - sum(left)
+            state = tuple(sorted((others[0], *left), reverse=True))
+            layer[state][drops] += ways * math.comb(drops - 1 + j, j)
+        layer = {k: dict(v) for k, v in layer.items()}
+    else:
+        layer = {start: {0: 1}}
+    by_total: dict[int, dict[tuple[int, ...], dict[int, int]]] = defaultdict(dict)
+    for state, dist in layer.items():
+        by_total[sum(state)][state] = dist
+    remaining = max(by_total) if by_total else 0
+    visited = 0
+    current: dict[tuple[int, ...], dict[int, int]] = {}
+    final: dict[int, int] = defaultdict(int)
+    for total in range(remaining, 0, -1):
+        for state, dist in by_total.pop(total, {}).items():
+            merged = current.setdefault(state, {})
+            for s, ways in dist.items():
+                merged[s] = merged.get(s, 0) + ways
+        nxt_layer: dict[tuple[int, ...], dict[int, int]] = defaultdict(lambda: defaultdict(int))
+        for state, dist in current.items():
+            visited += 1
+            if visited > GREEDY_STATE_BUDGET:
+                raise GuessingOutOfReach(
+                    f"the exact guessing law for counts {parts} needs more than "
+                    f"{GREEDY_STATE_BUDGET:,} states"
+                )
+            top = state[0]
+            i = 0
+            size = len(state)
+            while i < size and state[i] > 0:
+                x = state[i]
+                m = 1
+                while i + m < size and state[i + m] == x:
+                    m += 1
+                j = i + m - 1  # decrement the last copy to keep the tuple sorted
+                successor = (*state[:j], x - 1, *state[j + 1 :])
+                target = nxt_layer[successor]
+                if x == top:  # one of the m tied classes is the guess
+                    for s, ways in dist.items():
+                        target[s + 1] += ways
+                        if m > 1:
+                            target[s] += ways * (m - 1)
+                else:
+                    for s, ways in dist.items():
+                        target[s] += ways * m
+                i += m
+        current = {}
+        for state, dist in nxt_layer.items():
+            if state[0] == 0:
+                for s, ways in dist.items():
+                    final[s] += ways
+            else:
+                current[state] = dict(dist)
+    low = min(final)
+    row = tuple(final.get(s, 0) for s in range(low, max(final) + 1))
+    return low, row
+
+
+def greedy_guessing_law(counts: Sequence[int], *, budget: int | None = None) -> Law:
+    """Correct guesses of a player who always names a most frequent remaining class.
+
+    The player sees every card after guessing it (complete feedback). Under a uniform
+    arrangement the next card is class ``v`` with chance ``R_v / r`` whatever was seen, so
+    naming a class with the largest remaining count ``M`` is right with chance ``M / r``:
+    the greedy strategy, optimal for the expected score ([1]_). Which of several tied
+    classes is named does not change the law (tied classes are interchangeable), so the
+    dynamic programme runs over sorted count vectors, counting words exactly; a unique
+    largest class above every other is handled in closed form (every draw of it is a
+    correct guess until it falls to the second largest count). Raises
+    :class:`GuessingOutOfReach` when the number of states exceeds the budget
+    (:data:`GREEDY_STATE_BUDGET`; :func:`greedy_state_estimate` tells beforehand).
+
+    Examples
+    --------
+    The ESP deck of five symbols, five cards each: mean ``8.6468`` correct guesses
+    (Diaconis & Graham 1981).
+    """
+    parts = _counts(counts)
+    if budget is not None and greedy_state_estimate(parts) > budget:
+        raise GuessingOutOfReach(
+            f"the exact guessing law for counts {parts} needs about "
+            f"{greedy_state_estimate(parts):,} states (budget {budget:,})"
+        )
+    offset, row = _greedy_rows(tuple(sorted(parts, reverse=True)))
+    return Law.from_counts(row, multinomial(parts), offset=offset)

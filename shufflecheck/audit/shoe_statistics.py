@@ -1,0 +1,165 @@
+"""Per-shoe statistics of recorded shoes (decks with repeated cards), vectorized over shoes.
+
+A batch of recorded shoes is an integer array ``words`` of shape ``(shoes, n)``:
+``words[d, i]`` is the *kind* of the card at position ``i`` (0 = top), a label of the
+shoe's distinct card codes (copies of a card share one kind). A *feature* groups kinds
+into classes (``classes[kind]``: a value, a suit, a colour); the statistics below read the
+classes of the cards top to bottom. Every function returns one ``int64`` value per shoe and
+loops only over positions, never over shoes.
+
+* :func:`value_successions` -- positions where a card is followed by one of the next class;
+* runs of equal classes are :func:`shufflecheck.audit.statistics.runs`;
+* :func:`class_position_counts` -- the ``(n, V)`` position-by-class count matrix;
+* :func:`zone_counts` -- per shoe, the cards in each zone whose kind occurs in a segment of
+  the reference shoe, and how many such cards the shoe holds;
+* :func:`greedy_scores` -- correct guesses when always naming a most frequent remaining
+  class (lowest class on ties);
+* matches between consecutive shoes are :func:`shufflecheck.audit.statistics.repeat_positions`.
+
+References
+----------
+.. [1] P. Diaconis and R. Graham, "The analysis of sequential experiments with feedback to
+       subjects", Ann. Statist. 9 (1981) 3-23 (the greedy guessing strategy).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from shufflecheck.common.errors import InputError
+
+__all__ = [
+    "check_words",
+    "class_position_counts",
+    "greedy_scores",
+    "value_successions",
+    "zone_counts",
+]
+
+_CHUNK = 1 << 14
+
+
+def check_words(words: object, copies: np.ndarray, *, name: str = "shoes") -> np.ndarray:
+    """Check that every row of ``words`` holds kind ``k`` exactly ``copies[k]`` times.
+
+    Returns the array (no copy for an integer array); raises :class:`InputError` naming the
+    first bad row (1-based) and the first kind with a wrong count.
+    """
+    arr = np.asarray(words)
+    copies = np.asarray(copies, dtype=np.int64)
+    kinds = copies.size
+    n = int(copies.sum())
+    if arr.ndim != 2 or arr.shape[1] != n:
+        raise InputError(f"{name}: expected a 2-D array (shoes, {n}), got shape {arr.shape}")
+    if arr.size and not np.issubdtype(arr.dtype, np.integer):
+        raise InputError(f"{name}: expected integer kind labels, got dtype {arr.dtype}")
+    for start in range(0, arr.shape[0], _CHUNK):
+        block = arr[start : start + _CHUNK]
+        if block.size and (block.min() < 0 or block.max() >= kinds):
+            bad = np.flatnonzero((block.min(axis=1) < 0) | (block.max(axis=1) >= kinds))
+            raise InputError(
+                f"{name}: row {start + int(bad[0]) + 1} has a kind label outside 0..{kinds - 1}"
+            )
+        offsets = (np.arange(block.shape[0], dtype=np.int64) * kinds)[:, None]
+        counts = np.bincount((block + offsets).ravel(), minlength=block.shape[0] * kinds)
+        counts = counts.reshape(block.shape[0], kinds)
+        wrong = (counts != copies).any(axis=1)
+        if wrong.any():
+            row = int(np.argmax(wrong))
+            kind = int(np.argmax(counts[row] != copies))
+            raise InputError(
+                f"{name}: row {start + row + 1}: kind {kind} appears {int(counts[row, kind])} "
+                f"times, {int(copies[kind])} expected"
+            )
+    return arr
+
+
+def _classes_of(words: np.ndarray, classes: np.ndarray) -> np.ndarray:
+    table = np.asarray(classes)
+    small = table.astype(np.int16) if table.max(initial=0) < 32767 else table.astype(np.int64)
+    return small[words]
+
+
+def value_successions(words: np.ndarray, classes: np.ndarray) -> np.ndarray:
+    """Positions ``i`` with ``class(i+1) = class(i) + 1`` per shoe (classes in feature order)."""
+    out = np.zeros(words.shape[0], dtype=np.int64)
+    for start in range(0, words.shape[0], _CHUNK):
+        cls = _classes_of(words[start : start + _CHUNK], classes).astype(np.int32)
+        out[start : start + _CHUNK] = np.count_nonzero(cls[:, 1:] - cls[:, :-1] == 1, axis=1)
+    return out
+
+
+def class_position_counts(words: np.ndarray, classes: np.ndarray, size: int) -> np.ndarray:
+    """``(n, size)`` int64 matrix: ``counts[i, v]`` shoes with a card of class ``v`` at ``i``."""
+    n = words.shape[1]
+    out = np.zeros(n * size, dtype=np.int64)
+    base = np.arange(n, dtype=np.int64) * size
+    step = max(1, (1 << 20) // max(n, 1))
+    for start in range(0, words.shape[0], step):
+        cls = _classes_of(words[start : start + step], classes).astype(np.int64) + base
+        out += np.bincount(cls.ravel(), minlength=n * size)
+    return out.reshape(n, size)
+
+
+def zone_counts(
+    words: np.ndarray,
+    references: np.ndarray,
+    kinds: int,
+    segment: tuple[int, int],
+    zones: tuple[int, ...],
+) -> tuple[np.ndarray, np.ndarray]:
+    """Cards of the reference segment's kinds, per zone of each shoe.
+
+    Parameters
+    ----------
+    words, references : (shoes, n) int arrays
+        Each shoe and its reference shoe (kind labels).
+    kinds : int
+        Number of distinct kinds.
+    segment : (start, length)
+        The reference positions ``start .. start + length - 1`` (0-based) whose cards are
+        followed.
+    zones : tuple of int
+        Widths of consecutive zones of the new shoe from the top.
+
+    Returns
+    -------
+    (counts, marked) : ((shoes, zones) int64 array, (shoes,) int64 array)
+        ``counts[d, z]`` cards of zone ``z`` whose kind occurs in the segment of shoe
+        ``d``'s reference; ``marked[d]`` such cards in the whole shoe.
+    """
+    start, length = segment
+    shoes, n = words.shape
+    edges = np.concatenate([[0], np.cumsum(zones)])
+    counts = np.zeros((shoes, len(zones)), dtype=np.int64)
+    marked = np.zeros(shoes, dtype=np.int64)
+    for lo in range(0, shoes, _CHUNK):
+        ref = references[lo : lo + _CHUNK, start : start + length].astype(np.int64)
+        m = ref.shape[0]
+        present = np.zeros((m, kinds), dtype=bool)
+        present[np.arange(m)[:, None], ref] = True
+        hit = np.take_along_axis(present, words[lo : lo + _CHUNK].astype(np.int64), axis=1)
+        cum = np.concatenate([np.zeros((m, 1), dtype=np.int64), np.cumsum(hit, axis=1)], axis=1)
+        counts[lo : lo + _CHUNK] = cum[:, edges[1:]] - cum[:, edges[:-1]]
+        marked[lo : lo + _CHUNK] = cum[:, n]
+    return counts, marked
+
+
+def greedy_scores(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarray) -> np.ndarray:
+    """Correct guesses per shoe for a player who names a most frequent remaining class
+    (the lowest such class on ties) before each card and then sees it."""
+    counts = np.asarray(class_counts, dtype=np.int32)
+    out = np.zeros(words.shape[0], dtype=np.int64)
+    for start in range(0, words.shape[0], _CHUNK):
+        cls = _classes_of(words[start : start + _CHUNK], classes).astype(np.intp)
+        m = cls.shape[0]
+        remaining = np.broadcast_to(counts, (m, counts.size)).copy()
+        rows = np.arange(m)
+        score = np.zeros(m, dtype=np.int64)
+        for i in range(cls.shape[1]):
+            guess = np.argmax(remaining, axis=1)
+            card = cls[:, i]
+            score += guess == card
+            remaining[rows, card] -= 1
+        out[start : start + _CHUNK] = score
+    return out
