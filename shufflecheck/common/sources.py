@@ -92,3 +92,18 @@ SHIN_RAMDAS_RINALDO = (
 )
 PAGE = 'E. S. Page, "Continuous inspection schemes", Biometrika 41 (1954) 100-115.'
 VILLE = "J. Ville, Etude critique de la notion de collectif, Gauthier-Villars, 1939."
+TRADE_PRACTICE = (
+    "Common practice of the card trade, no published source: the mechanics are described in "
+    "docs/models.md and every parameter is set from what is seen at the table."
+)
+CONGER_VISWANATH = (
+    'M. Conger and D. Viswanath, "Riffle shuffles of decks with repeated cards", Ann. '
+    "Probab. 34 (2006) 804-819."
+)
+ASSAF_DIACONIS_SOUNDARARAJAN = (
+    'S. Assaf, P. Diaconis and K. Soundararajan, "A rule of thumb for riffle shuffling", Ann. '
+    "Appl. Probab. 21 (2011) 843-875."
+)
+RIORDAN_1958 = (
+    "J. Riordan, An Introduction to Combinatorial Analysis, Wiley, 1958 (rook polynomials)."
+)
