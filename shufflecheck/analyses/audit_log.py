@@ -15,6 +15,7 @@ the time of the first deck of the biased stretch.
 from __future__ import annotations
 
 import dataclasses
+import math
 import os
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
@@ -35,12 +36,14 @@ from shufflecheck.analyses.log_parts import (
     split_place,
 )
 from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult
+from shufflecheck.audit.catalogue import ShoeContext
 from shufflecheck.audit.positions import MONTE_CARLO_BELOW
 from shufflecheck.audit.power import detectable_shifts
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition
 from shufflecheck.records.logs import LogSummary
 from shufflecheck.records.logs.sources import log_sources
+from shufflecheck.records.shoes import ShoeDefinition, load_shoe
 
 __all__ = [
     "DASK_FROM_BYTES",
@@ -104,7 +107,7 @@ class LogAudit:
     table; ``groups_frame()`` one row per group."""
 
     path: Path
-    deck: DeckDefinition
+    deck: DeckDefinition | ShoeDefinition
     reference: str
     by: str | None
     time: str | None
@@ -120,6 +123,7 @@ class LogAudit:
     engine: str = "single process"
     time_format: str | None = None
     small: SmallLog | None = None
+    shoe: ShoeContext | None = None
 
     @property
     def set_aside(self) -> int:
@@ -188,6 +192,17 @@ class LogAudit:
             "files": len(self.sources) or 1,
             "engine": self.engine,
         }
+        if self.shoe is not None:
+            out["log"]["shoe"] = {
+                "cards": self.shoe.cards,
+                "kinds": len(self.shoe.copies),
+                "copies": sorted(set(self.shoe.copies)),
+                "feature": self.shoe.feature,
+                "classes": list(self.shoe.names),
+                "class_counts": list(self.shoe.class_counts),
+                "segment": {"start": self.shoe.segment[0] + 1, "cards": self.shoe.segment[1]},
+                "zones": list(self.shoe.zones),
+            }
         if self.since_when_rows:
             out["since_when_rows"] = self.since_when_rows
         out["small_log"] = self.small.as_json() if self.small else None
@@ -296,6 +311,8 @@ def finish_audit(
     arrays = summary.as_arrays()
     small = None
     needed = int(MONTE_CARLO_BELOW * options.deck.size)
+    if options.shoe is not None:  # the position-by-value test: 5 expected per cell
+        needed = math.ceil(MONTE_CARLO_BELOW * options.deck.size / min(options.shoe.class_counts))
     if summary.decks < needed:
         power = 0.9
         small = SmallLog(
@@ -322,6 +339,7 @@ def finish_audit(
         engine=engine,
         time_format=part.time_format,
         small=small,
+        shoe=options.shoe,
     )
 
 
@@ -359,8 +377,10 @@ def audit_log(
     reference: str = "previous",
     labels: str = "codes",
     fmt: str | None = None,
-    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    deck: str | os.PathLike[str] | DeckDefinition | ShoeDefinition | None = None,
     cards: int | None = None,
+    feature: str | None = None,
+    segment: tuple[int, int] | None = None,
     by: str | None = None,
     time: str | None = None,
     time_format: str | None = None,
@@ -397,13 +417,21 @@ def audit_log(
         Card codes, or integer labels (``int`` detects 0- or 1-based numbering).
     fmt : str or None
         Log format (default: from the extension).
-    deck : path, name or DeckDefinition, optional
+    deck : path, name, DeckDefinition or ShoeDefinition, optional
         Deck definition (default: the built-in 52-card deck); a reader's own card codes
-        are a ``[codes]`` / ``[spelling]`` table in its file.
+        are a ``[codes]`` / ``[spelling]`` table in its file. ``shoe(packs=6)`` or a deck
+        file with ``copies`` for a shoe (repeated cards), whose rows are checked by counting
+        copies and tested with the shoe battery.
     cards : int or None
         Deck size. Without a deck definition, a size other than 52 means a deck of that many
         cards known by integer labels (``labels="int"``); with one, an error when its size
         differs.
+    feature : str or None
+        Shoes: what the game sees of a card (``rank`` by default; ``blackjack``,
+        ``baccarat``, ``cards``, ``colour``, ``suit``); the value tests read it.
+    segment : (start, length) or None
+        Shoes: reference positions (1-based start) followed by the zone test (default: the
+        reference's first 52 cards).
     by : str or None
         Column to group results by (e.g. ``table``); each group is tested on its own and a
         fleet summary says how many groups were flagged.
@@ -436,9 +464,12 @@ def audit_log(
     """
     sources = log_sources(path)
     shown = os.fspath(path) if isinstance(path, (str, os.PathLike)) else f"{len(sources)} logs"
-    definition = deck_for(deck, cards, labels, shown)
+    definition, shoe, chunk_rows = _definition(
+        deck, cards, labels, shown, feature, segment, chunk_rows
+    )
     options = AuditOptions(
         deck=definition,
+        shoe=shoe,
         reference=reference,
         labels="codes" if labels == "cards" else labels,
         fmt=fmt or "auto",
@@ -470,6 +501,35 @@ def audit_log(
     return finish_audit(part, options, shown=shown, paths=paths, alpha=alpha, rng=rng)
 
 
+def _definition(
+    deck: Any,
+    cards: int | None,
+    labels: str,
+    shown: str,
+    feature: str | None,
+    segment: tuple[int, int] | None,
+    chunk_rows: int,
+) -> tuple[DeckDefinition | ShoeDefinition, ShoeContext | None, int]:
+    """The deck (or shoe) of an audit, the shoe battery's context, and the rows per chunk
+    (for a shoe, scaled so that a chunk holds about as many cards as for 52-card decks)."""
+    shoe = load_shoe(deck) if deck is not None else None
+    if shoe is None:
+        if feature is not None or segment is not None:
+            raise InputError(
+                "a feature and a segment apply to shoes (decks with repeated cards); give the "
+                "shoe as the deck, e.g. shoe(packs=6)",
+                argument=("feature", "deck"),
+            )
+        return deck_for(deck, cards, labels, shown), None, chunk_rows
+    if cards is not None and cards != shoe.size:
+        raise InputError(f"{shown}: the shoe {shoe.name!r} has {shoe.size} cards, not {cards}")
+    if labels not in ("codes", "cards"):
+        raise InputError(f"{shown}: a shoe log names its cards by code", argument="labels")
+    span = None if segment is None else (int(segment[0]) - 1, int(segment[1]))
+    context = ShoeContext.of(shoe, feature or "rank", segment=span)
+    return shoe, context, max(1000, chunk_rows * 52 // shoe.size)
+
+
 def audit_frame(
     frame: pd.DataFrame,
     *,
@@ -477,6 +537,8 @@ def audit_frame(
     labels: str = "codes",
     deck: str | os.PathLike[str] | DeckDefinition | None = None,
     cards: int | None = None,
+    feature: str | None = None,
+    segment: tuple[int, int] | None = None,
     by: str | None = None,
     time: str | None = None,
     time_format: str | None = None,
@@ -491,9 +553,12 @@ def audit_frame(
 ) -> LogAudit:
     """Audit the decks of a pandas DataFrame, read like a log (:func:`audit_log` for the
     arguments; ``by``, ``time`` and ``column:NAME`` references name its columns)."""
-    definition = deck_for(deck, cards, labels, name)
+    definition, shoe, chunk_rows = _definition(
+        deck, cards, labels, name, feature, segment, chunk_rows
+    )
     options = AuditOptions(
         deck=definition,
+        shoe=shoe,
         reference=reference,
         labels="codes" if labels == "cards" else labels,
         by=by,

@@ -23,12 +23,14 @@ import numpy as np
 import pandas as pd
 
 from shufflecheck.audit import DEFAULT_STRATEGIES, BatterySummary
+from shufflecheck.audit.catalogue import ShoeContext
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
 from shufflecheck.records.logs import LogChunk, LogSummary, Reference, read_frame, read_log
 from shufflecheck.records.logs.sources import Source
 from shufflecheck.records.logs.times import TimeReader, first_backwards
 from shufflecheck.records.orders import relative_to
+from shufflecheck.records.shoes import ShoeDefinition
 
 __all__ = [
     "ALL",
@@ -58,9 +60,14 @@ def split_place(code: int) -> tuple[int, int]:
 
 @dataclass(frozen=True)
 class AuditOptions:
-    """How every part of an audit is read and related (shared by all engines)."""
+    """How every part of an audit is read and related (shared by all engines).
 
-    deck: DeckDefinition
+    For a shoe (``deck`` a :class:`ShoeDefinition`), ``shoe`` is the battery's context
+    (feature, segment) and decks are related to their references as words, not as
+    permutations.
+    """
+
+    deck: DeckDefinition | ShoeDefinition
     reference: str = "previous"
     labels: str = "codes"
     fmt: str = "auto"
@@ -74,6 +81,7 @@ class AuditOptions:
     position_columns: str | tuple[str, ...] | None = None
     columns: str | tuple[str, ...] | None = None
     separator: str | None = None
+    shoe: ShoeContext | None = None
 
     @property
     def parsed_reference(self) -> Reference:
@@ -81,6 +89,9 @@ class AuditOptions:
 
     def empty_summary(self) -> BatterySummary:
         deck = self.deck
+        if self.shoe is not None:
+            return BatterySummary.empty(deck.size, shoe=self.shoe)
+        assert isinstance(deck, DeckDefinition)
         return BatterySummary.empty(
             deck.size,
             suits=deck.suit_codes() if deck.suit_names else None,
@@ -240,7 +251,7 @@ def _scan(
     progress: Callable[[int], None] | None,
 ) -> Part:
     reference = options.parsed_reference
-    stream = reference.stream(by=options.by)
+    stream = reference.stream(by=options.by, words=options.shoe is not None)
     part = Part(options.empty_summary(), [])
     times = None
     if options.time is not None:
@@ -262,10 +273,15 @@ def _scan(
                 position = part.tested + int(np.searchsorted(rel.rows, place))
                 part.heads.append(Head(group, deck, place, unreadable, position, stamp))
             if len(rel):
-                index_in = np.searchsorted(chunk.rows, rel.rows)
-                absolute = chunk.decks[index_in]
                 groups = _group_keys(rel.columns, options.by, len(rel))
-                part.summary.update(rel.relative, absolute, groups=groups, check=False)
+                if options.shoe is not None:  # shoes: the words and their reference words
+                    part.summary.update(
+                        rel.relative, rel.relative, groups=groups, references=rel.reference
+                    )
+                else:
+                    index_in = np.searchsorted(chunk.rows, rel.rows)
+                    absolute = chunk.decks[index_in]
+                    part.summary.update(rel.relative, absolute, groups=groups, check=False)
                 part.tested += len(rel)
                 keys = [ALL] + ([] if groups is None else sorted(set(groups.tolist())))
                 for key in keys:
@@ -365,7 +381,10 @@ def merge_parts(
         decks = np.stack([h.deck for h in tested])
         refs = np.stack([a.tails[h.group] for h in tested])  # type: ignore[misc]
         groups = None if options.by is None else np.array([str(h.group) for h in tested])
-        front.update(relative_to(decks, refs), decks, groups=groups)
+        if options.shoe is not None:
+            front.update(decks, decks, groups=groups, references=refs)
+        else:
+            front.update(relative_to(decks, refs), decks, groups=groups)
         summary_b = b.summary.merge_front(front, [h.position for h in tested])
     places = _splice(a.places, b.places, tested, lambda h: np.array([h.place]), in_place)
     times = (

@@ -32,10 +32,15 @@ import numpy as np
 
 from shufflecheck.audit import nulls
 from shufflecheck.audit.catalogue import Statistic
-from shufflecheck.audit.effects import position_effect, sum_effect
+from shufflecheck.audit.effects import (
+    class_position_effect,
+    keyed_sum_effect,
+    position_effect,
+    sum_effect,
+)
 from shufflecheck.audit.holm import holm_log
 from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.positions import position_test
+from shufflecheck.audit.positions import class_position_test, position_test
 from shufflecheck.audit.results import BatteryResult, SinceWhen, TestResult
 from shufflecheck.audit.timeline import change_point, describe
 
@@ -49,20 +54,24 @@ class Tallies:
     """What one set of decks (all decks, or one group) contributes to the tests.
 
     ``hist[name]`` counts the decks (or consecutive pairs) at each value of a per-deck
-    statistic; ``positions[i, c]`` counts the decks with reference card ``c`` at position
-    ``i``; ``series[name]`` holds per-deck values in time order (None when not kept).
+    statistic (for a statistic whose law depends on the deck, ``hist[name][key, value]``);
+    ``positions[i, c]`` counts the decks with reference card ``c`` at position ``i`` (for
+    shoes: with a card of class ``c``, and ``class_counts`` the cards of each class);
+    ``series[name]`` holds per-deck values in time order (None when not kept).
     """
 
     decks: int
     hist: Mapping[str, np.ndarray]
     positions: np.ndarray
     series: Mapping[str, Sequence[np.ndarray]] | None = None
+    class_counts: tuple[int, ...] | None = None
+    class_names: tuple[str, ...] = ()
 
 
 def run_battery(
     tallies: Tallies,
     statistics: Sequence[Statistic],
-    laws: Mapping[str, Law],
+    laws: Mapping[str, Law | Mapping[int, Law]],
     *,
     alpha: float,
     position_method: str = "auto",
@@ -70,11 +79,55 @@ def run_battery(
     rng: np.random.Generator,
     since_when: bool = True,
 ) -> BatteryResult:
-    """Test every statistic on ``tallies``; Holm at ``alpha``; since when if flagged."""
+    """Test every statistic on ``tallies``; Holm at ``alpha``; since when if flagged.
+
+    ``laws[name]`` is the exact per-deck law, or for a statistic with ``law_keys`` a
+    mapping from key to law (the sum over decks is then tested against the exact
+    convolution of the decks' own laws, :func:`~shufflecheck.audit.nulls.mixed_sum_p_value`).
+    """
     cards = tallies.positions.shape[0]
     rows = []
     skipped: list[tuple[str, str]] = []
     for stat in statistics:
+        if stat.shape == "class-positions":
+            assert tallies.class_counts is not None
+            test = class_position_test(
+                tallies.positions,
+                tallies.decks,
+                tallies.class_counts,
+                method=position_method,
+                resamples=resamples,
+                rng=rng,
+            )
+            effect = class_position_effect(
+                tallies.positions, tallies.decks, tallies.class_counts, tallies.class_names
+            )
+            rows.append((stat, test.statistic, test.log_p, test.method, test.detail, effect))
+            continue
+        if stat.law_keys is not None:
+            keyed = laws[stat.name]
+            assert isinstance(keyed, Mapping)
+            table = tallies.hist[stat.name]
+            parts = [
+                (keyed[int(k)], int(table[k].sum())) for k in np.flatnonzero(table.sum(axis=1))
+            ]
+            count = sum(c for _, c in parts)
+            if count == 0:
+                skipped.append((stat.name, "no shoe with a reference to follow"))
+                continue
+            if all(law.low == law.high for law, _ in parts):
+                skipped.append((stat.name, "constant on these shoes"))
+                continue
+            values = np.arange(table.shape[1], dtype=np.int64)
+            total = int((table @ values).sum())
+            log_p = nulls.mixed_sum_p_value(parts, total, stat.alternative)
+            detail = (
+                f"sum over {count} shoes against the exact convolution of each shoe's own law "
+                f"({len(parts)} distinct laws; {stat.alternative})"
+            )
+            effect = keyed_sum_effect(stat, table, keyed)
+            rows.append((stat, float(total), log_p, "exact", detail, effect))
+            continue
         if stat.shape == "positions":
             test = position_test(
                 tallies.positions,
@@ -87,6 +140,7 @@ def run_battery(
             rows.append((stat, test.statistic, test.log_p, test.method, test.detail, effect))
             continue
         law = laws[stat.name]
+        assert isinstance(law, Law)
         hist = tallies.hist[stat.name]
         count = int(hist.sum())
         if count == 0:
@@ -124,7 +178,8 @@ def run_battery(
     when = None
     if flagged and since_when and tallies.series is not None:
         when = _since_when(tallies.series, tests, statistics, laws)
-    return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when)
+    unit = "deck" if tallies.class_counts is None else "shoe"
+    return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
 def _since_when(
@@ -138,6 +193,7 @@ def _since_when(
         return None
     best = min(candidates, key=lambda t: (t.log10_p_adjusted, t.log10_p_value))
     law = laws[best.name]
+    assert isinstance(law, Law)
     values = np.concatenate(series[best.name]).astype(np.int64)
     mean0, var0 = float(law.mean), float(law.variance)
     direction = 1 if best.alternative == "greater" or best.effect.value >= 0 else -1

@@ -36,6 +36,13 @@ deck around a circle, so a cut changes nothing, and strips little)::
 Statistics of one ``family`` (the guessing strategies; the short-rise widths) are
 alternatives: an assessment picks one member on half of its simulated decks.
 
+Shoes (decks with repeated cards, ``DeckContext.shoe`` set; the permutation statistics
+above do not apply to them, since copies of a card cannot be told apart)::
+
+    value-runs  value-successions (ordered features)  value-positions
+    segment-zone  guess-most-frequent (when its exact law is within reach)
+    shoe-repeat-positions
+
 References
 ----------
 .. [1] D. Bayer and P. Diaconis, "Trailing the dovetail shuffle to its lair", Ann. Appl.
@@ -44,6 +51,8 @@ References
        Press, 2012 (descents, fixed points, cycles, inversions).
 .. [3] P. Diaconis and R. Graham, "The analysis of sequential experiments with feedback to
        subjects", Ann. Statist. 9 (1981) 3-23 (the guessing game).
+.. [4] J. Riordan, *An Introduction to Combinatorial Analysis*, Wiley, 1958 (rook
+       polynomials: matches between two arrangements of a multiset).
 """
 
 from __future__ import annotations
@@ -55,17 +64,19 @@ from typing import Literal
 
 import numpy as np
 
-from shufflecheck.audit import nulls, ranks, statistics
+from shufflecheck.audit import nulls, ranks, shoe_nulls, shoe_statistics, statistics
 from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies, guess_scores_many
 from shufflecheck.audit.nulls import Law
 from shufflecheck.audit.statistics import as_decks, category_codes
 from shufflecheck.common.errors import InputError
+from shufflecheck.records.shoes import ShoeDefinition
 
 __all__ = [
     "Alternative",
     "DeckContext",
     "DeckView",
     "Shape",
+    "ShoeContext",
     "Statistic",
     "battery_statistics",
     "catalogue",
@@ -77,7 +88,109 @@ __all__ = [
 ]
 
 Alternative = Literal["two-sided", "greater", "less"]
-Shape = Literal["per-deck", "positions", "consecutive"]
+Shape = Literal["per-deck", "positions", "class-positions", "consecutive"]
+Need = Literal["colours", "suits", "multiset", "ordered", "guessing"]
+
+
+def default_segment(cards: int) -> tuple[int, int]:
+    """The reference segment followed by default: its first pack (52 cards) in a shoe of
+    three packs or more, else its top quarter."""
+    length = 52 if cards >= 156 else max(1, cards // 4)
+    return 0, length
+
+
+@dataclass(frozen=True)
+class ShoeContext:
+    """What the shoe statistics need (one optional field of :class:`DeckContext`).
+
+    ``copies[k]`` identical copies of kind ``k``; ``classes[k]`` the class of kind ``k``
+    under the feature the game sees (``feature``; ``names`` of the classes; ``ordered``
+    when the classes are values in order); ``segment = (start, length)`` the reference
+    positions (0-based) whose cards the zone test follows into ``zones`` (widths of
+    consecutive zones of the new shoe from the top); ``guess_budget`` the most states the
+    exact law of the guessing game may take.
+    """
+
+    copies: tuple[int, ...]
+    classes: tuple[int, ...]
+    names: tuple[str, ...]
+    feature: str = "cards"
+    ordered: bool = False
+    segment: tuple[int, int] | None = None
+    zones: tuple[int, ...] | None = None
+    guess_budget: int = shoe_nulls.GREEDY_STATE_BUDGET
+
+    def __post_init__(self) -> None:
+        if len(self.classes) != len(self.copies) or not self.copies:
+            raise InputError("a shoe context needs one class and one copy count per kind")
+        if min(self.copies) < 1 or min(self.classes) < 0 or max(self.classes) >= len(self.names):
+            raise InputError("shoe context: copies >= 1 and classes within the class names")
+        n = self.cards
+        segment = default_segment(n) if self.segment is None else tuple(self.segment)
+        start, length = (int(x) for x in segment)
+        if start < 0 or length < 1 or start + length > n:
+            raise InputError(f"segment {segment} does not fit a shoe of {n} cards")
+        object.__setattr__(self, "segment", (start, length))
+        zones = self.zones
+        if zones is None:
+            zones = (length,) * (n // length)
+        zones = tuple(int(w) for w in zones)
+        if not zones or min(zones) < 1 or sum(zones) > n:
+            raise InputError(f"zones {zones} must be positive widths within {n} cards")
+        object.__setattr__(self, "zones", zones)
+
+    @classmethod
+    def of(
+        cls,
+        definition: ShoeDefinition,
+        feature: str = "rank",
+        *,
+        segment: tuple[int, int] | None = None,
+        zones: tuple[int, ...] | None = None,
+    ) -> ShoeContext:
+        """The context of a shoe definition read through ``feature`` (a feature of
+        :data:`~shufflecheck.records.shoes.FEATURES` other than ``distinct``, which a log
+        cannot show: copies are alike in a recorded shoe)."""
+        feat = definition.feature(feature)
+        if feat.of_kind is None:
+            raise InputError(
+                "a recorded shoe cannot tell copies apart: choose a feature other than "
+                "distinct (cards, rank, blackjack, baccarat, colour, suit)",
+                argument="feature",
+            )
+        return cls(
+            tuple(definition.copies),
+            tuple(feat.of_kind),
+            tuple(feat.names),
+            feat.name,
+            feat.ordered,
+            segment,
+            zones,
+        )
+
+    @property
+    def cards(self) -> int:
+        return sum(self.copies)
+
+    @property
+    def class_counts(self) -> tuple[int, ...]:
+        out = [0] * len(self.names)
+        for k, c in enumerate(self.copies):
+            out[self.classes[k]] += c
+        return tuple(out)
+
+    def class_array(self) -> np.ndarray:
+        return np.asarray(self.classes, dtype=np.int64)
+
+    def provides(self, need: str | None) -> bool:
+        if need == "multiset":
+            return True
+        if need == "ordered":
+            return self.ordered and len(self.names) > 1
+        if need == "guessing":
+            counts = self.class_counts
+            return shoe_nulls.greedy_state_estimate(counts) <= self.guess_budget
+        return False
 
 
 @dataclass(frozen=True)
@@ -86,13 +199,17 @@ class DeckContext:
 
     ``suits`` / ``colours`` are category codes per *absolute* label (as returned by
     :func:`~shufflecheck.audit.statistics.category_codes`), or None when the deck has none;
-    ``strategies`` are the guessing strategies the battery plays.
+    ``strategies`` are the guessing strategies the battery plays. ``shoe`` is set for decks
+    with repeated cards (:class:`ShoeContext`): then only the statistics that need
+    ``multiset`` (and ``ordered`` / ``guessing`` where the shoe provides them) apply, and
+    decks are words of kind labels rather than permutations.
     """
 
     cards: int
     suits: np.ndarray | None = None
     colours: np.ndarray | None = None
     strategies: tuple[str, ...] = DEFAULT_STRATEGIES
+    shoe: ShoeContext | None = None
 
     @classmethod
     def checked(
@@ -102,27 +219,47 @@ class DeckContext:
         suits: object = None,
         colours: object = None,
         strategies: Sequence[str] = DEFAULT_STRATEGIES,
+        shoe: ShoeContext | None = None,
     ) -> DeckContext:
         """A context with its category codes and strategies checked."""
+        if shoe is not None and shoe.cards != cards:
+            raise InputError(f"the shoe has {shoe.cards} cards, not {cards}")
         return cls(
             int(cards),
             None if suits is None else category_codes(suits, cards, name="suits"),
             None if colours is None else category_codes(colours, cards, name="colours"),
             check_strategies(strategies),
+            shoe,
         )
 
     def has(self, need: str | None) -> bool:
+        """Whether a statistic with this ``need`` applies to the decks of this context."""
+        if self.shoe is not None:
+            return self.shoe.provides(need)
+        if need in ("multiset", "ordered", "guessing"):
+            return False
         return need is None or getattr(self, need) is not None
 
 
 class DeckView:
     """One chunk of checked decks, with intermediate results shared between statistics
-    (inversions and rising sequences in one pass; every strategy's guesses in one pass)."""
+    (inversions and rising sequences in one pass; every strategy's guesses in one pass).
 
-    def __init__(self, relative: np.ndarray, absolute: np.ndarray, context: DeckContext) -> None:
+    For shoes, ``relative`` and ``absolute`` are the recorded words (kind labels) and
+    ``reference`` the reference shoe of each row (for the zone test).
+    """
+
+    def __init__(
+        self,
+        relative: np.ndarray,
+        absolute: np.ndarray,
+        context: DeckContext,
+        reference: np.ndarray | None = None,
+    ) -> None:
         self.relative = relative
         self.absolute = absolute
         self.context = context
+        self.reference = reference
 
     @cached_property
     def order(self) -> tuple[np.ndarray, np.ndarray]:
@@ -143,6 +280,17 @@ class DeckView:
     @cached_property
     def guesses(self) -> dict[str, np.ndarray]:
         return guess_scores_many(self.relative, self.context.strategies, check=False)
+
+    @cached_property
+    def zones(self) -> tuple[np.ndarray, np.ndarray]:
+        """Shoes: (cards of the reference segment's codes per zone, such cards per shoe)."""
+        shoe = self.context.shoe
+        assert shoe is not None and shoe.segment is not None and shoe.zones is not None
+        if self.reference is None:
+            raise InputError("the zone test needs the reference shoe of every recorded shoe")
+        return shoe_statistics.zone_counts(
+            self.absolute, self.reference, len(shoe.copies), shoe.segment, shoe.zones
+        )
 
 
 def _default_sentence(stat: Statistic, observed: float, expected: float) -> str:
@@ -178,8 +326,10 @@ class Statistic:
         ``law(context)``: exact per-deck (or per-pair) law under a uniform deck.
     law_source : str
         How that law is obtained, with its source (a table cell in reports).
-    need : {"colours", "suits"} or None
-        What the deck definition must provide for the statistic to apply.
+    need : {"colours", "suits", "multiset", "ordered", "guessing"} or None
+        What the deck definition must provide for the statistic to apply (``multiset``:
+        a shoe; ``ordered``: a shoe whose feature is an order of values; ``guessing``: a
+        shoe whose guessing law is within reach). None: decks of distinct cards.
     shown_offset : int
         Added to the mean before it is shown (1 for positions counted from 1 = top).
     sentence : callable or None
@@ -193,6 +343,10 @@ class Statistic:
         Statistics of one family are alternatives (one is picked for a lower bound).
     battery : bool
         Part of the audit battery (False: assessment lower bounds only).
+    law_keys : callable or None
+        ``law_keys(view)``: per deck, the key of its own exact law when the law depends on
+        the deck (the zone test: on the reference segment); ``keyed_law(context, key)``
+        is then that law and ``law`` is unused.
     """
 
     name: str
@@ -204,13 +358,15 @@ class Statistic:
     values: Callable[[DeckView], np.ndarray] | None = None
     law: Callable[[DeckContext], Law] | None = None
     law_source: str = ""
-    need: Literal["colours", "suits"] | None = None
+    need: Need | None = None
     shown_offset: int = 0
     sentence: Callable[[Statistic, float, float], str] | None = None
     lower_bound: bool = False
     strategy: str | None = None
     family: str | None = None
     battery: bool = True
+    law_keys: Callable[[DeckView], np.ndarray] | None = None
+    keyed_law: Callable[[DeckContext, int], Law] | None = None
 
     def describe_effect(self, observed: float, expected: float) -> str:
         """The effect in one sentence (means as shown, i.e. after ``shown_offset``)."""
@@ -445,6 +601,131 @@ _REPEAT = Statistic(
 )
 
 
+def _shoe(context: DeckContext) -> ShoeContext:
+    assert context.shoe is not None
+    return context.shoe
+
+
+def _per_shoe_sentence(stat: Statistic, observed: float, expected: float) -> str:
+    diff = observed - expected
+    side = "below" if diff < 0 else "above"
+    return (
+        f"{stat.what} {abs(diff):.2g} {side} random on average "
+        f"({observed:.4g} per shoe vs {expected:.4g} expected)"
+    )
+
+
+def _shoe_guess_sentence(stat: Statistic, observed: float, expected: float) -> str:
+    diff = observed - expected
+    word = "extra" if diff >= 0 else "fewer"
+    return (
+        f"{abs(diff):.2g} {word} correct guesses per shoe naming a most frequent remaining "
+        f"value ({observed:.4g} vs {expected:.4g} expected)"
+    )
+
+
+def _zone_sentence(stat: Statistic, observed: float, expected: float) -> str:
+    return (
+        f"the busiest zone holds {observed:.3g} cards of the reference segment's codes per "
+        f"shoe vs {expected:.3g} expected"
+    )
+
+
+def _shoe_repeat_sentence(stat: Statistic, observed: float, expected: float) -> str:
+    return (
+        f"{observed:.3g} positions per shoe hold the same card code as in the previous shoe "
+        f"vs {expected:.3g} expected"
+    )
+
+
+_SHOE: tuple[Statistic, ...] = (
+    Statistic(
+        "value-runs",
+        "runs of equal values",
+        "two-sided",
+        "runs of equal values",
+        "runs per shoe",
+        values=lambda v: statistics.runs(v.absolute, _shoe(v.context).class_array(), check=False),
+        law=lambda c: nulls.runs_law(_shoe(c).class_counts),
+        law_source="runs of a multiset (inclusion-exclusion, exact integers)",
+        need="multiset",
+        sentence=_per_shoe_sentence,
+        lower_bound=True,
+    ),
+    Statistic(
+        "value-successions",
+        "value successions (a card followed by one of the next value)",
+        "two-sided",
+        "value successions",
+        "successions per shoe",
+        values=lambda v: shoe_statistics.value_successions(
+            v.absolute, _shoe(v.context).class_array()
+        ),
+        law=lambda c: shoe_nulls.value_successions_law(_shoe(c).class_counts),
+        law_source="marked successions glued into units, inclusion-exclusion (exact integers)",
+        need="ordered",
+        sentence=_per_shoe_sentence,
+        lower_bound=True,
+    ),
+    Statistic(
+        "value-positions",
+        "position-by-value counts (chi-square)",
+        "greater",
+        "position-by-value frequencies",
+        "percentage points (largest cell excess)",
+        shape="class-positions",
+        law_source="multivariate hypergeometric cells: chi-square with (n-1)(V-1) df, or a "
+        "Monte Carlo null for few shoes",
+        need="multiset",
+    ),
+    Statistic(
+        "segment-zone",
+        "cards of a reference segment in the busiest zone",
+        "greater",
+        "cards of the reference segment's codes in the busiest zone",
+        "cards per shoe",
+        values=lambda v: v.zones[0].max(axis=1),
+        law_keys=lambda v: v.zones[1],
+        keyed_law=lambda c, key: shoe_nulls.zone_maximum_law(
+            _shoe(c).cards, int(key), _shoe(c).zones
+        ),
+        law_source="multivariate hypergeometric zone counts, maximum counted zone by zone "
+        "(exact integers, per shoe)",
+        sentence=_zone_sentence,
+        need="multiset",
+    ),
+    Statistic(
+        "guess-most-frequent",
+        "guessing game with feedback, naming a most frequent remaining value",
+        "greater",
+        "correct guesses naming a most frequent remaining value",
+        "extra correct guesses per shoe",
+        values=lambda v: shoe_statistics.greedy_scores(
+            v.absolute, _shoe(v.context).class_array(), np.asarray(_shoe(v.context).class_counts)
+        ),
+        law=lambda c: shoe_nulls.greedy_guessing_law(_shoe(c).class_counts),
+        law_source="dynamic programme over the remaining counts (exact integers)",
+        sentence=_shoe_guess_sentence,
+        need="guessing",
+        lower_bound=True,
+    ),
+)
+
+_SHOE_REPEAT = Statistic(
+    "shoe-repeat-positions",
+    "same card code at the same position as in the previous shoe",
+    "greater",
+    "positions holding the previous shoe's card code",
+    "positions per shoe",
+    shape="consecutive",
+    values=lambda v: statistics.repeat_positions(v.absolute, check=False),
+    law=lambda c: shoe_nulls.matches_law(_shoe(c).copies),
+    law_source="rook polynomial of the copies, inclusion-exclusion (exact integers)",
+    sentence=_shoe_repeat_sentence,
+    need="multiset",
+)
+
+
 def guess_statistic(strategy: str) -> Statistic:
     """The guessing game with feedback played with ``strategy`` (one of
     :data:`~shufflecheck.audit.guessing.STRATEGIES`)."""
@@ -466,10 +747,10 @@ def guess_statistic(strategy: str) -> Statistic:
 
 
 def catalogue(strategies: Sequence[str] = DEFAULT_STRATEGIES) -> tuple[Statistic, ...]:
-    """Every statistic, in report order (sequential test last, then the statistics used
-    only for assessment lower bounds), whatever a deck provides."""
+    """Every statistic, in report order (sequential test last, then the shoe statistics,
+    then the statistics used only for assessment lower bounds), whatever a deck provides."""
     guesses = (guess_statistic(s) for s in check_strategies(strategies))
-    return (*_BASE, *guesses, _REPEAT, *_CYCLIC)
+    return (*_BASE, *guesses, _REPEAT, *_SHOE, _SHOE_REPEAT, *_CYCLIC)
 
 
 def battery_statistics(context: DeckContext) -> tuple[Statistic, ...]:

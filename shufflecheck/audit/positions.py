@@ -37,7 +37,13 @@ from scipy import stats
 
 from shufflecheck.common.errors import InputError
 
-__all__ = ["MONTE_CARLO_BELOW", "PositionTest", "position_counts", "position_test"]
+__all__ = [
+    "MONTE_CARLO_BELOW",
+    "PositionTest",
+    "class_position_test",
+    "position_counts",
+    "position_test",
+]
 
 #: The Monte Carlo null is the default when the expected count per cell is below this.
 MONTE_CARLO_BELOW = 5.0
@@ -186,3 +192,83 @@ def _simulate(n: int, decks: int, resamples: int, rng: np.random.Generator, stat
         counts = np.bincount(keys.ravel(), minlength=m * n * n).reshape(m, n, n)
         out[start : start + m] = stat_fn(counts, decks)
     return out
+
+
+# --------------------------------------------------------------------------------------
+# shoes: position-by-value counts
+
+
+def _class_pearson(counts: np.ndarray, decks: int, class_counts: np.ndarray) -> np.ndarray:
+    n = counts.shape[-2]
+    expected = decks * class_counts / n  # per column
+    dev = counts - expected
+    return (dev * dev / expected).sum(axis=(-2, -1))
+
+
+def class_position_test(
+    counts: np.ndarray,
+    decks: int,
+    class_counts: tuple[int, ...] | np.ndarray,
+    *,
+    method: str = "auto",
+    resamples: int = 999,
+    rng: np.random.Generator | int | None = None,
+) -> PositionTest:
+    """Pearson's test of position-by-value counts of shoes (decks with repeated cards).
+
+    ``counts[i, v]`` shoes with a card of class ``v`` at position ``i``; a shoe holds
+    ``class_counts[v]`` cards of class ``v`` out of ``n``. Under uniform arrangements each
+    position's class is multivariate hypergeometric with cell mean ``D c_v / n``. A uniform
+    arrangement of the multiset is a uniform permutation matrix ``P`` read through the
+    ``n x V`` class matrix ``C``; with ``H`` the centring projection, the covariance of
+    ``P`` is ``H (x) H / (n - 1)`` ([2]), so the standardized counts have covariance
+    ``n/(n-1)`` times a projection of rank ``(n-1)(V-1)``: ``X^2`` has mean exactly
+    ``n (V - 1)`` and ``X^2 (n-1)/n`` tends to chi-square with ``(n-1)(V-1)`` degrees of
+    freedom (``asymptotic``). With every count 1 this is :func:`position_test`. When the
+    smallest expected cell is below 5 the default is a Monte Carlo null (simulated audits of
+    ``D`` uniform shoes, [3]).
+    """
+    c = np.asarray(counts)
+    classes = np.asarray(class_counts, dtype=np.int64)
+    if c.ndim != 2 or c.shape[1] != classes.size or c.shape[0] < 2:
+        raise InputError(
+            f"position-by-value counts must be (positions, {classes.size}), got {c.shape}"
+        )
+    n = c.shape[0]
+    if int(classes.sum()) != n or classes.min() < 1:
+        raise InputError("class counts must be >= 1 and add up to the positions")
+    if decks < 1 or (c.sum(axis=1) != decks).any() or (c.sum(axis=0) != decks * classes).any():
+        raise InputError("position-by-value counts do not match the shoes and their classes")
+    if method not in ("auto", "asymptotic", "monte-carlo"):
+        raise InputError(f"method must be auto, asymptotic or monte-carlo, got {method!r}")
+    observed = float(_class_pearson(c.astype(np.float64), decks, classes))
+    df = (n - 1) * (classes.size - 1)
+    scaled = observed * (n - 1) / n
+    if method == "auto":
+        smallest = decks * int(classes.min()) / n
+        method = "monte-carlo" if smallest < MONTE_CARLO_BELOW else "asymptotic"
+    if method == "asymptotic" or df == 0:
+        log_p, bounded = _chi2_log_sf(scaled, max(df, 1))
+        detail = f"chi-square x (n-1)/n against chi-square with {df} degrees of freedom" + (
+            " (tail beyond double range: upper bound)" if bounded else ""
+        )
+        return PositionTest(observed, scaled, df, log_p, "asymptotic", detail, "pearson", 0)
+    generator = np.random.default_rng(rng)
+    word = np.repeat(np.arange(classes.size), classes)
+    base = np.arange(n, dtype=np.int64) * classes.size
+    sims = np.empty(resamples)
+    per = max(1, _SIM_ELEMENTS // max(1, decks * n))
+    for start in range(0, resamples, per):
+        m = min(per, resamples - start)
+        shoes = generator.permuted(np.tile(word, (m * decks, 1)), axis=1)
+        keys = (shoes + base).reshape(m, decks * n) + (
+            np.arange(m, dtype=np.int64) * n * classes.size
+        )[:, None]
+        tally = np.bincount(keys.ravel(), minlength=m * n * classes.size)
+        sims[start : start + m] = _class_pearson(
+            tally.reshape(m, n, classes.size).astype(np.float64), decks, classes
+        )
+    exceed = int(np.count_nonzero(sims >= observed * (1 - 1e-12)))
+    log_p = math.log((1 + exceed) / (resamples + 1))
+    detail = f"chi-square against {resamples} simulated audits of {decks} uniform shoes"
+    return PositionTest(observed, scaled, df, log_p, "monte-carlo", detail, "pearson", resamples)

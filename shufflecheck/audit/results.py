@@ -171,6 +171,8 @@ class BatteryResult:
     tests: tuple[TestResult, ...]
     skipped: tuple[tuple[str, str], ...] = ()
     since_when: SinceWhen | None = None
+    #: what one recorded arrangement is called: "deck", or "shoe" for decks with copies
+    unit: str = "deck"
 
     def by_adjusted_p(self) -> tuple[TestResult, ...]:
         """Tests sorted by adjusted p-value (most significant first), ties in battery order."""
@@ -187,13 +189,13 @@ class BatteryResult:
         """One line: flagged or not, and by which test."""
         if not self.flagged:
             return (
-                f"no test flags the {self.decks} decks at family-wise level {self.alpha:g} "
-                "(Holm); this is not proof of randomness"
+                f"no test flags the {self.decks} {self.unit}s at family-wise level "
+                f"{self.alpha:g} (Holm); this is not proof of randomness"
             )
         worst = self.by_adjusted_p()[0]
         count = sum(t.flagged for t in self.tests)
         return (
-            f"FLAGGED: {count} of {len(self.tests)} tests reject a uniform deck at "
+            f"FLAGGED: {count} of {len(self.tests)} tests reject a uniform {self.unit} at "
             f"family-wise level {self.alpha:g} (Holm); strongest: {worst.title}, adjusted "
             f"p = {format_p(worst.log10_p_adjusted)}; {worst.effect.text}"
         )

@@ -41,6 +41,7 @@ from functools import cache
 
 from shufflecheck.audit.nulls import Law
 from shufflecheck.common.errors import InputError
+from shufflecheck.core.counting import poly_multiply
 
 __all__ = [
     "GREEDY_STATE_BUDGET",
@@ -200,21 +201,31 @@ def matches_law(counts: Sequence[int]) -> Law:
 
 @cache
 def _zone_maximum_law(cards: int, marked: int, zones: tuple[int, ...]) -> Law:
-    # P(zone counts t_z) = prod C(w_z, t_z) C(rest, marked - sum t) / C(n, marked);
-    # the positions outside every zone form one more (unscored) zone.
+    # N(max <= m) = [x^marked] prod_z (sum_{t <= m} C(w_z, t) x^t) * (1 + x)^rest: the
+    # positions outside every zone form one more, unscored zone.
     rest = cards - sum(zones)
-    layer: dict[tuple[int, int], int] = {(0, 0): 1}  # (marked placed, max so far) -> ways
+    outside = [math.comb(rest, t) for t in range(min(rest, marked) + 1)]
+    widths: dict[int, int] = defaultdict(int)
     for width in zones:
-        nxt: dict[tuple[int, int], int] = defaultdict(int)
-        for (placed, best), ways in layer.items():
-            for t in range(min(width, marked - placed) + 1):
-                nxt[(placed + t, max(best, t))] += ways * math.comb(width, t)
-        layer = nxt
-    row = [0] * (max(zones) + 1)
-    for (placed, best), ways in layer.items():
-        left = marked - placed
-        if 0 <= left <= rest:
-            row[best] += ways * math.comb(rest, left)
+        widths[width] += 1
+    at_most = []
+    for m in range(max(zones) + 1):
+        poly = [1]
+        for width, times in widths.items():
+            base = [math.comb(width, t) for t in range(min(m, width) + 1)]
+            while times:  # powers by squaring, truncated at x^marked
+                if times & 1:
+                    poly = poly_multiply(poly, base)[: marked + 1]
+                times >>= 1
+                if times:
+                    base = poly_multiply(base, base)[: marked + 1]
+        # coefficient of x^marked in poly * outside
+        at_most.append(
+            sum(
+                poly[i] * outside[marked - i] for i in range(len(poly)) if marked - i < len(outside)
+            )
+        )
+    row = [at_most[0]] + [at_most[m] - at_most[m - 1] for m in range(1, len(at_most))]
     return Law.from_counts(row, math.comb(cards, marked))
 
 

@@ -15,6 +15,15 @@ each per-deck statistic in time order (two bytes per deck and statistic). Chunks
 groups therefore combine exactly: ``a.merge(b)`` (``b`` recorded after ``a``) equals the
 summary of the concatenated decks. :meth:`BatterySummary.finish` runs the battery
 (:func:`shufflecheck.audit.battery.run_battery`) on each.
+
+Shoes (decks with repeated cards) use the same summary with a
+:class:`~shufflecheck.audit.catalogue.ShoeContext`: chunks are recorded words (kind labels,
+copies counted by :func:`~shufflecheck.audit.shoe_statistics.check_words`) with the
+reference shoe of every row, the position counts are by value, and a statistic whose law
+depends on the shoe keeps a histogram per law key::
+
+    summary = BatterySummary.empty(312, shoe=ShoeContext(copies, classes, names))
+    summary.update(words, words, references=reference_words)
 """
 
 from __future__ import annotations
@@ -25,10 +34,12 @@ from collections.abc import Sequence
 import numpy as np
 
 from shufflecheck.audit.battery import Tallies, run_battery
-from shufflecheck.audit.catalogue import DeckContext, DeckView, battery_statistics
+from shufflecheck.audit.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
 from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
+from shufflecheck.audit.nulls import Law
 from shufflecheck.audit.positions import position_counts
 from shufflecheck.audit.results import AuditResult
+from shufflecheck.audit.shoe_statistics import check_words, class_position_counts
 from shufflecheck.audit.statistics import as_decks
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
@@ -38,20 +49,41 @@ __all__ = ["MAX_GROUPS", "BatterySummary"]
 #: Largest number of distinct group values one summary accepts.
 MAX_GROUPS = 1000
 
-_SEQUENTIAL = "repeat-positions"
+_SEQUENTIAL_NAMES = frozenset({"repeat-positions", "shoe-repeat-positions"})
+
+
+class _KeyedLaws(dict):
+    """Exact laws of a statistic whose law depends on the deck, computed per key on demand."""
+
+    def __init__(self, make) -> None:
+        super().__init__()
+        self._make = make
+
+    def __missing__(self, key: int) -> Law:
+        law = self._make(int(key))
+        self[int(key)] = law
+        return law
 
 
 class _State:
     """What one group (or all decks) contributes to the tests."""
 
-    def __init__(self, lengths: dict[str, int], n: int, series: bool) -> None:
+    def __init__(
+        self, lengths: dict[str, int | tuple[int, int]], shape: tuple[int, int], series: bool
+    ) -> None:
         self.decks = 0
         self.hist = {name: np.zeros(size, dtype=np.int64) for name, size in lengths.items()}
-        self.positions = np.zeros((n, n), dtype=np.int64)
+        self.positions = np.zeros(shape, dtype=np.int64)
         self.first: np.ndarray | None = None
         self.last: np.ndarray | None = None
         self.series: dict[str, list[np.ndarray]] | None = (
-            {name: [] for name in lengths if name != _SEQUENTIAL} if series else None
+            {
+                name: []
+                for name, size in lengths.items()
+                if name not in _SEQUENTIAL_NAMES and not isinstance(size, tuple)
+            }
+            if series
+            else None
         )
 
     def copy(self) -> _State:
@@ -61,13 +93,18 @@ class _State:
         out.series = None if self.series is None else {k: list(v) for k, v in self.series.items()}
         return out
 
-    def add(self, values: dict[str, np.ndarray], rel: np.ndarray, dtypes: dict) -> None:
-        self.decks += rel.shape[0]
+    def add(self, values: dict, positions: np.ndarray, count: int, dtypes: dict) -> None:
+        self.decks += count
         for name, v in values.items():
-            self.hist[name] += np.bincount(v, minlength=self.hist[name].size)
+            hist = self.hist[name]
+            if isinstance(v, tuple):  # (values, law keys)
+                cells = v[1].astype(np.int64) * hist.shape[1] + v[0]
+                hist += np.bincount(cells, minlength=hist.size).reshape(hist.shape)
+                continue
+            hist += np.bincount(v, minlength=hist.size)
             if self.series is not None:
                 self.series[name].append(v.astype(dtypes[name]))
-        self.positions += position_counts(rel, self.positions.shape[0])
+        self.positions += positions
 
     def add_sequence(self, ab: np.ndarray) -> np.ndarray:
         """Repeat-position counts of consecutive decks (with the last deck seen before)."""
@@ -83,8 +120,12 @@ class _State:
         return matches
 
     def add_matches(self, matches: np.ndarray) -> None:
-        hist = self.hist[_SEQUENTIAL]
+        hist = self.hist[self.sequential]
         hist += np.bincount(matches, minlength=hist.size)
+
+    @property
+    def sequential(self) -> str:
+        return next(name for name in self.hist if name in _SEQUENTIAL_NAMES)
 
     def absorb(self, other: _State, sequential: bool) -> int | None:
         """Add ``other`` (recorded after ``self``); returns the boundary pair's count."""
@@ -99,7 +140,7 @@ class _State:
         if sequential:
             if self.last is not None and other.first is not None:
                 cross = int(np.count_nonzero(self.last == other.first))
-                self.hist[_SEQUENTIAL][cross] += 1
+                self.hist[self.sequential][cross] += 1
             if self.first is None:
                 self.first = None if other.first is None else other.first.copy()
             if other.last is not None:
@@ -132,22 +173,39 @@ class BatterySummary:
         colours: np.ndarray | None,
         strategies: tuple[str, ...],
         keep_series: bool,
+        shoe: ShoeContext | None = None,
     ) -> None:
         self.n = n
         self.suits = suits
         self.colours = colours
         self.strategies = strategies
         self.keep_series = keep_series
-        self.context = DeckContext.checked(n, suits=suits, colours=colours, strategies=strategies)
+        self.shoe = shoe
+        self.context = DeckContext.checked(
+            n, suits=suits, colours=colours, strategies=strategies, shoe=shoe
+        )
         #: the statistics of the battery, in report order (from the catalogue)
         self.statistics = battery_statistics(self.context)
-        #: exact null law of each statistic with one (all but position-by-card)
-        self.laws = {s.name: s.law(self.context) for s in self.statistics if s.law is not None}
-        self._lengths = {name: law.high + 1 for name, law in self.laws.items()}
+        #: exact null law of each statistic with one (all but the position tests); for a
+        #: statistic whose law depends on the deck, a mapping key -> law
+        self.laws: dict[str, Law | _KeyedLaws] = {}
+        self._lengths: dict[str, int | tuple[int, int]] = {}
+        for stat in self.statistics:
+            if stat.keyed_law is not None:
+                make = stat.keyed_law
+                self.laws[stat.name] = _KeyedLaws(lambda key, make=make: make(self.context, key))
+                assert shoe is not None and shoe.zones is not None
+                self._lengths[stat.name] = (n + 1, max(shoe.zones) + 1)
+            elif stat.law is not None:
+                law = stat.law(self.context)
+                self.laws[stat.name] = law
+                self._lengths[stat.name] = law.high + 1
         self._dtypes = {
-            name: np.int16 if size <= 32767 else np.int32 for name, size in self._lengths.items()
+            name: np.int16 if not isinstance(size, tuple) and size <= 32767 else np.int32
+            for name, size in self._lengths.items()
         }
-        self._overall = _State(self._lengths, n, keep_series)
+        self._positions_shape = (n, n) if shoe is None else (n, len(shoe.names))
+        self._overall = _State(self._lengths, self._positions_shape, keep_series)
         self._groups: dict[object, _State] = {}
         self._grouped: bool | None = None
 
@@ -176,6 +234,7 @@ class BatterySummary:
         colours: np.ndarray | None = None,
         strategies: Sequence[str] = DEFAULT_STRATEGIES,
         keep_series: bool = True,
+        shoe: ShoeContext | None = None,
     ) -> BatterySummary:
         """An empty summary for decks of ``n`` cards.
 
@@ -191,6 +250,9 @@ class BatterySummary:
             Guessing strategies to play (:data:`shufflecheck.audit.guessing.STRATEGIES`).
         keep_series : bool
             Keep per-deck values in time order for "since when" (2 bytes/deck/statistic).
+        shoe : ShoeContext or None
+            For shoes (decks with repeated cards): copies, the feature's classes, the
+            followed segment and zones; chunks are then words with their references.
         """
         n = check_cards(int(n) if isinstance(n, np.integer) else n, prefix="an audit: ")
         suit_arr = None if suits is None else np.asarray(suits).copy()
@@ -201,6 +263,7 @@ class BatterySummary:
             colours=colour_arr,
             strategies=check_strategies(strategies),
             keep_series=bool(keep_series),
+            shoe=shoe,
         )
 
     @property
@@ -219,6 +282,7 @@ class BatterySummary:
         *,
         groups: Sequence[object] | np.ndarray | None = None,
         check: bool = True,
+        references: np.ndarray | None = None,
     ) -> None:
         """Add a chunk of decks, given in time order.
 
@@ -235,8 +299,16 @@ class BatterySummary:
         check : bool
             Check that the rows are arrangements (``False`` for decks a log reader has
             already validated and related to their references).
+        references : (k, n) int array or None
+            Shoes only: the reference shoe (kind labels) of every row, for the zone test.
         """
-        if check:
+        if self.shoe is not None:
+            copies = np.asarray(self.shoe.copies)
+            rel = check_words(relative, copies, name="shoes")
+            ab = rel if absolute is None else check_words(absolute, copies, name="shoes")
+            if references is not None:
+                references = check_words(references, copies, name="reference shoes")
+        elif check:
             rel = as_decks(relative, cards=self.n, name="relative decks")
             ab = (
                 rel if absolute is None else as_decks(absolute, cards=self.n, name="absolute decks")
@@ -257,15 +329,22 @@ class BatterySummary:
         grouped = groups is not None
         if self._grouped is not None and self._grouped != grouped:
             raise InputError("give groups for every chunk of an audit or for none")
-        view = DeckView(rel, ab, self.context)
-        values = {
-            s.name: s.values(view)
-            for s in self.statistics
-            if s.shape == "per-deck" and s.values is not None
-        }
+        if references is not None and references.shape != ab.shape:
+            raise InputError(f"references: expected shape {ab.shape}, got {references.shape}")
+        view = DeckView(rel, ab, self.context, reference=references)
+        values: dict = {}
+        for stat in self.statistics:
+            if stat.shape != "per-deck" or stat.values is None:
+                continue
+            if stat.law_keys is not None:
+                if references is None:
+                    continue
+                values[stat.name] = (stat.values(view), stat.law_keys(view))
+            else:
+                values[stat.name] = stat.values(view)
         if not grouped:
             self._grouped = False
-            self._overall.add(values, rel, self._dtypes)
+            self._overall.add(values, self._position_counts(rel, ab), count, self._dtypes)
             self._overall.add_sequence(ab)
             return
         labels = np.asarray(groups)
@@ -279,16 +358,27 @@ class BatterySummary:
         if len(set(self._groups) | set(new)) > MAX_GROUPS:
             raise InputError(f"groups: more than {MAX_GROUPS} distinct values")
         self._grouped = True
-        self._overall.add(values, rel, self._dtypes)
+        self._overall.add(values, self._position_counts(rel, ab), count, self._dtypes)
         all_matches = []
         for g, key in enumerate(new):
             pick = np.nonzero(index == g)[0]
             state = self._groups.get(key)
             if state is None:
-                state = self._groups[key] = _State(self._lengths, self.n, self.keep_series)
-            state.add({k: v[pick] for k, v in values.items()}, rel[pick], self._dtypes)
+                state = self._groups[key] = _State(
+                    self._lengths, self._positions_shape, self.keep_series
+                )
+            picked = {
+                k: (v[0][pick], v[1][pick]) if isinstance(v, tuple) else v[pick]
+                for k, v in values.items()
+            }
+            state.add(picked, self._position_counts(rel[pick], ab[pick]), pick.size, self._dtypes)
             all_matches.append(state.add_sequence(ab[pick]))
         self._overall.add_matches(np.concatenate(all_matches))
+
+    def _position_counts(self, rel: np.ndarray, ab: np.ndarray) -> np.ndarray:
+        if self.shoe is None:
+            return position_counts(rel, self.n)
+        return class_position_counts(ab, self.shoe.class_array(), len(self.shoe.names))
 
     def _compatible(self, other: BatterySummary) -> None:
         same = (
@@ -297,6 +387,7 @@ class BatterySummary:
             and self.keep_series == other.keep_series
             and _same(self.suits, other.suits)
             and _same(self.colours, other.colours)
+            and self.shoe == other.shoe
         )
         if not same:
             raise InputError("cannot merge summaries of different decks or batteries")
@@ -333,7 +424,7 @@ class BatterySummary:
                 continue
             cross = mine.absorb(state, sequential=True)
             if cross is not None:
-                out._overall.hist[_SEQUENTIAL][cross] += 1
+                out._overall.hist[out._overall.sequential][cross] += 1
         if len(out._groups) > MAX_GROUPS:
             raise InputError(f"groups: more than {MAX_GROUPS} distinct values")
         return out
@@ -417,7 +508,14 @@ class BatterySummary:
 
         def battery(state: _State):
             return run_battery(
-                Tallies(state.decks, state.hist, state.positions, state.series),
+                Tallies(
+                    state.decks,
+                    state.hist,
+                    state.positions,
+                    state.series,
+                    None if self.shoe is None else self.shoe.class_counts,
+                    () if self.shoe is None else self.shoe.names,
+                ),
                 self.statistics,
                 self.laws,
                 alpha=float(alpha),

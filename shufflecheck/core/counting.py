@@ -33,6 +33,7 @@ __all__ = [
     "harmonic",
     "mahonian_row",
     "no_succession_count",
+    "poly_multiply",
     "rencontres_row",
     "stirling1_row",
     "stirling2_columns",
@@ -223,3 +224,24 @@ def harmonic(n: int) -> Fraction:
     """
     _check_n(n)
     return sum((Fraction(1, j) for j in range(1, n + 1)), Fraction(0))
+
+
+def poly_multiply(a: list[int] | tuple[int, ...], b: list[int] | tuple[int, ...]) -> list[int]:
+    """Exact product of two polynomials with non-negative integer coefficients
+    (``a[i]`` is the coefficient of ``x^i``).
+
+    Kronecker substitution: each polynomial is packed into one big integer with slots wide
+    enough for every coefficient of the product, the integers are multiplied once, and the
+    slots are read back.
+    """
+    if not a or not b:
+        return []
+    if min(a) < 0 or min(b) < 0:
+        raise InputError("poly_multiply needs non-negative coefficients")
+    bound = max(a) * max(b) * min(len(a), len(b))
+    size = max(1, (bound.bit_length() + 8) // 8)  # bytes per slot
+    packed_a = int.from_bytes(b"".join(v.to_bytes(size, "little") for v in a), "little")
+    packed_b = int.from_bytes(b"".join(v.to_bytes(size, "little") for v in b), "little")
+    count = len(a) + len(b) - 1
+    data = (packed_a * packed_b).to_bytes(count * size, "little")
+    return [int.from_bytes(data[i * size : (i + 1) * size], "little") for i in range(count)]

@@ -129,7 +129,10 @@ def _segment_index(lengths: np.ndarray, cards: int) -> np.ndarray:
 
 
 def _uniform_labels(
-    rng: np.random.Generator, segment: np.ndarray, starts: np.ndarray, first: np.ndarray,
+    rng: np.random.Generator,
+    segment: np.ndarray,
+    starts: np.ndarray,
+    first: np.ndarray,
     lengths: np.ndarray,
 ) -> np.ndarray:
     """True where a position takes a card of the first grab: a uniform interleaving of the

@@ -254,6 +254,14 @@ class ShoeDefinition:
 
     # -- codes -----------------------------------------------------------------------
 
+    def lookup(self, code: object) -> int | None:
+        """Kind of a card code in any accepted spelling (as the kinds' deck reads it)."""
+        return self.kinds.lookup(code)
+
+    def spellings(self) -> dict[str, int]:
+        """Every accepted spelling of every kind -> kind (the log reader's token table)."""
+        return self.kinds.spellings()
+
     def format_order(self, kinds: Sequence[int] | np.ndarray) -> str:
         """Canonical codes of one recorded shoe, top first, separated by single spaces."""
         return " ".join(self.kinds.cards[int(k)] for k in kinds)

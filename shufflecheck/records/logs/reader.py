@@ -46,6 +46,7 @@ from shufflecheck.records.logs._tokens import (
     split_texts,
 )
 from shufflecheck.records.orders import Arrangement, check_arrangement
+from shufflecheck.records.shoes import ShoeDefinition, check_shoe_row, copy_rows, load_shoe
 
 # --------------------------------------------------------------------------------------
 # the reader
@@ -83,7 +84,7 @@ class LogReader:
         self,
         path: Path,
         shown: str,
-        deck: DeckDefinition,
+        deck: DeckDefinition | ShoeDefinition,
         labels: str,
         fmt: str,
         chunk_rows: int,
@@ -95,6 +96,16 @@ class LogReader:
         self.path = path
         self._frame = frame
         self.deck = deck
+        # a shoe (repeated cards): rows are words of its kinds, checked by counting copies
+        self._shoe = deck if isinstance(deck, ShoeDefinition) else None
+        if self._shoe is not None and labels != "codes":
+            raise InputError(f"{shown}: a shoe log names its cards by code (labels=codes)")
+        if self._shoe is not None and columns is not None and columns.before is not None:
+            raise InputError(
+                f"{shown}: a starting-order column is for decks of distinct cards; a shoe "
+                "is tested against the previous shoe, the first or a fixed order",
+                argument="before_column",
+            )
         self._shown = shown
         self._labels = labels
         self._fmt = fmt
@@ -279,10 +290,14 @@ class LogReader:
         # rows the fast path vouches for, per numbering (0 for card codes)
         bases = [self._base] if not integer or self._base is not None else [0, 1]
         fast: dict[int, np.ndarray] = {}
+        labels_of = n if self._shoe is None else self._shoe.kind_count
         for base in bases:
             shifted = grid - (base or 0)
-            ok = ((shifted >= 0) & (shifted < n)).all(axis=1)
-            ok[ok] = permutation_rows(shifted[ok], n)
+            ok = ((shifted >= 0) & (shifted < labels_of)).all(axis=1)
+            if self._shoe is not None:
+                ok[ok] = copy_rows(shifted[ok], self._shoe.copies_array())
+            else:
+                ok[ok] = permutation_rows(shifted[ok], n)
             fast[base or 0] = np.zeros(m, dtype=bool)
             fast[base or 0][full[ok]] = True
         checked: dict[int, Arrangement] = {}
@@ -302,9 +317,7 @@ class LogReader:
         decks[good] = grid[good[full]] - key
         bad = list(raw.failed)
         for i in np.flatnonzero(~good).tolist():
-            result = checked.get(i) or check_arrangement(
-                tokens_of(i), self.deck, labels=self._labels, base=self._base
-            )
+            result = checked.get(i) or self._authoritative(tokens_of(i))
             if result.ok:
                 good[i] = True
                 decks[i] = result.labels
@@ -339,6 +352,14 @@ class LogReader:
             before=None if before is None else before[keep],
         )
         return chunk, bad
+
+    def _authoritative(self, tokens: list[object]) -> Arrangement:
+        """The check behind every message about one row (copies counted for a shoe)."""
+        if self._shoe is None:
+            assert isinstance(self.deck, DeckDefinition)
+            return check_arrangement(tokens, self.deck, labels=self._labels, base=self._base)
+        kinds, reason, problem = check_shoe_row(tokens, self._shoe)
+        return Arrangement(kinds, reason, problem)
 
     def _tokens(
         self, texts: Sequence[object], raw: RawChunk
@@ -408,7 +429,7 @@ class LogReader:
 def read_log(
     path: str | os.PathLike[str],
     *,
-    deck: DeckDefinition | str | os.PathLike[str] | None = None,
+    deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None = None,
     labels: Labels = "codes",
     fmt: LogFormat = "auto",
     chunk_rows: int = DEFAULT_CHUNK_ROWS,
@@ -426,8 +447,10 @@ def read_log(
     path : path
         The log (``.csv``, ``.tsv``, ``.txt``, ``.jsonl``, ``.ndjson``, ``.parquet``; any of
         the text formats may be gzip-compressed, ``.csv.gz``). Opened read-only.
-    deck : DeckDefinition, name or path, optional
-        The deck every row must be an arrangement of (default: built-in ``standard-52``).
+    deck : DeckDefinition, ShoeDefinition, name or path, optional
+        The deck every row must be an arrangement of (default: built-in ``standard-52``);
+        a shoe (``shoe(packs=6)``, a deck file with ``copies``) is checked by counting the
+        copies of every card, and its rows are words of the shoe's kinds.
     labels : {"codes", "int", "int0", "int1"}
         Cells are card codes, or integer labels numbered from 0 (``int0``), from 1
         (``int1``) or from whichever the file uses (``int``: the first valid row fixes the
@@ -508,14 +531,24 @@ def read_log(
             argument="columns",
         )
     return LogReader(
-        source, shown, load_deck(deck), labels, kind, chunk_rows, target, mapping, separator
+        source, shown, _definition(deck), labels, kind, chunk_rows, target, mapping, separator
     )
+
+
+def _definition(
+    deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None,
+) -> DeckDefinition | ShoeDefinition:
+    """The deck or shoe a log's rows are checked against."""
+    definition = load_shoe(deck) if deck is not None else None
+    if definition is None:
+        definition = load_deck(deck)  # type: ignore[arg-type]
+    return definition
 
 
 def read_frame(
     frame: pd.DataFrame,
     *,
-    deck: DeckDefinition | str | os.PathLike[str] | None = None,
+    deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None = None,
     labels: Labels = "codes",
     chunk_rows: int = DEFAULT_CHUNK_ROWS,
     order_column: str | None = None,
@@ -548,7 +581,7 @@ def read_frame(
     return LogReader(
         Path(name),
         name,
-        load_deck(deck),
+        _definition(deck),
         labels,
         "frame",
         chunk_rows,

@@ -14,6 +14,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import LogChunk
 from shufflecheck.records.orders import parse_order, relative_to
+from shufflecheck.records.shoes import ShoeDefinition, check_shoe_row, load_shoe
 
 # --------------------------------------------------------------------------------------
 # reference orders and relative permutations
@@ -51,13 +52,17 @@ class Reference:
     def parse(
         cls,
         spec: str | os.PathLike[str] | None,
-        deck: DeckDefinition | str | os.PathLike[str] | None = None,
+        deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None = None,
         *,
         labels: Labels = "codes",
     ) -> Reference:
         """``previous`` (default), ``first``, ``deck`` (the definition's own order, e.g. a new
         pack), a file holding one order, or an order written out (codes separated by
-        spaces). Integer labels follow ``labels`` like the log."""
+        spaces). Integer labels follow ``labels`` like the log. For a shoe the order is a
+        word of its card codes, checked by counting copies."""
+        shoe = load_shoe(deck) if deck is not None else None
+        if shoe is not None:
+            return cls._parse_shoe(spec, shoe)
         definition = load_deck(deck)
         text = "previous" if spec is None else os.fspath(spec)
         keyword = text.strip().lower()
@@ -99,9 +104,52 @@ class Reference:
             argument="reference",
         )
 
-    def stream(self, by: str | None = None) -> ReferenceStream:
-        """A stateful converter of chunks to relative permutations (see ReferenceStream)."""
-        return ReferenceStream(self, by)
+    @classmethod
+    def _parse_shoe(cls, spec: str | os.PathLike[str] | None, shoe: ShoeDefinition) -> Reference:
+        text = "previous" if spec is None else os.fspath(spec)
+        keyword = text.strip().lower()
+        if keyword in ("previous", "first", "pairs"):
+            source = "pairs (before, after)" if keyword == "pairs" else keyword
+            return cls(keyword, None, source)  # type: ignore[arg-type]
+        if keyword.startswith("column:"):
+            raise InputError(
+                "reference 'column:' is for decks of distinct cards; a shoe is tested against "
+                "the previous shoe, the first, pairs of rows or a fixed order",
+                argument="reference",
+            )
+        if keyword == "deck":
+            return cls("order", shoe.physical_kinds(), f"reference order of {shoe.name}")
+        path = Path(text)
+        try:
+            is_file = path.is_file()
+        except OSError:
+            is_file = False
+        if is_file:
+            try:
+                content = path.read_text(encoding="utf-8-sig")
+            except (OSError, UnicodeDecodeError) as exc:
+                raise InputError(f"cannot read reference order {text}: {exc}") from None
+            tokens = " ".join(ln.split("#", 1)[0] for ln in content.splitlines()).split()
+            where = text
+        elif any(ch.isspace() for ch in text.strip()):
+            tokens, where = text.split(), "reference order"
+        else:
+            raise InputError(
+                f"reference {text!r} is not previous, first, deck, pairs, an existing file or an "
+                f"order of {shoe.size} card codes separated by spaces",
+                argument="reference",
+            )
+        kinds, _, problem = check_shoe_row(tokens, shoe)
+        if kinds is None:
+            raise InputError(f"{where}: {problem}")
+        return cls(
+            "order", kinds, "given order" if where == "reference order" else f"order in {text}"
+        )
+
+    def stream(self, by: str | None = None, *, words: bool = False) -> ReferenceStream:
+        """A stateful converter of chunks to relative permutations (see ReferenceStream);
+        ``words=True`` for shoes: the decks and their reference decks, no permutation."""
+        return ReferenceStream(self, by, words=words)
 
 
 @dataclass(frozen=True)
@@ -111,13 +159,16 @@ class RelativeChunk:
     ``relative[k, i]`` is the position in the reference deck of the card at position ``i``
     of deck ``k`` (identity = unchanged). ``rows`` are the decks' row numbers,
     ``reference_rows`` the row of each reference deck (``0`` for a fixed order), and
-    ``columns`` their kept columns.
+    ``columns`` their kept columns. For shoes (words with repeated cards, no permutation
+    to take) ``relative`` holds the decks themselves and ``reference`` the reference deck
+    of every row.
     """
 
     relative: np.ndarray
     rows: np.ndarray
     reference_rows: np.ndarray
     columns: pd.DataFrame
+    reference: np.ndarray | None = None
 
     def __len__(self) -> int:
         return int(self.relative.shape[0])
@@ -140,9 +191,10 @@ class ReferenceStream:
     them was set aside).
     """
 
-    def __init__(self, reference: Reference, by: str | None = None) -> None:
+    def __init__(self, reference: Reference, by: str | None = None, *, words: bool = False) -> None:
         self.reference = reference
         self.by = by
+        self.words = words
         self.tested = 0
         self.reference_only = 0
         self.after_set_aside = 0
@@ -212,6 +264,9 @@ class ReferenceStream:
                 raise InputError(f"reference order has {order.shape[0]} cards, decks have {n}")
             self.tested += len(rows)
             zero = np.zeros(len(rows), dtype=np.int64)
+            if self.words:
+                same = np.broadcast_to(order, decks.shape)
+                return RelativeChunk(decks, rows, zero, chunk.columns, same)
             return RelativeChunk(relative_to(decks, order), rows, zero, chunk.columns)
         groups = self._groups(chunk.columns, len(rows))
         aside = chunk.set_aside
@@ -234,6 +289,14 @@ class ReferenceStream:
                 decks, rows, groups, known, known_groups, unknown
             )
         self.tested += len(picked)
+        if self.words:
+            return RelativeChunk(
+                decks[picked],
+                rows[picked],
+                ref_rows,
+                chunk.columns.iloc[picked].reset_index(drop=True),
+                refs if len(picked) else np.zeros((0, n), np.int16),
+            )
         return RelativeChunk(
             relative_to(decks[picked], refs) if len(picked) else np.zeros((0, n), np.int16),
             rows[picked],

@@ -17,12 +17,13 @@ import pandas as pd
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open
 from shufflecheck.records.cards import DeckDefinition, load_deck
+from shufflecheck.records.shoes import ShoeDefinition, load_shoe
 
 # --------------------------------------------------------------------------------------
 # writing
 
 
-def _checked_decks(decks: np.ndarray, deck: DeckDefinition) -> np.ndarray:
+def _checked_decks(decks: np.ndarray, deck: DeckDefinition | ShoeDefinition) -> np.ndarray:
     array = np.asarray(decks)
     n = deck.size
     if array.ndim != 2 or array.shape[1] != n or array.dtype.kind not in "iu":
@@ -80,7 +81,7 @@ def _order_texts(decks: np.ndarray, words: list[str]) -> list[str]:
 def write_log(
     path: str | os.PathLike[str],
     decks: np.ndarray,
-    deck: DeckDefinition | str | os.PathLike[str] | None = None,
+    deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None = None,
     columns: pd.DataFrame | Mapping[str, Sequence[Any]] | None = None,
     *,
     labels: Literal["codes", "int0", "int1"] = "codes",
@@ -96,21 +97,28 @@ def write_log(
     path : path
         Output file (replaced atomically if it exists).
     decks : ndarray, shape (D, n)
-        Arrangements, labels of ``deck`` top first.
-    deck : DeckDefinition, name or path, optional
-        Default: built-in ``standard-52``.
+        Arrangements, labels of ``deck`` top first (for a shoe: physical cards, labelled
+        by their reference position; each is written as its card code, copies alike).
+    deck : DeckDefinition, ShoeDefinition, name or path, optional
+        Default: built-in ``standard-52``; ``shoe(packs=6)`` and deck files with ``copies``
+        give shoes.
     columns : DataFrame or mapping of column -> values, optional
         Other columns, one value per deck (no column may be called ``order``).
     labels : {"codes", "int0", "int1"}
     """
-    definition = load_deck(deck)
+    shoe = load_shoe(deck) if deck is not None else None
+    definition: DeckDefinition | ShoeDefinition = shoe if shoe is not None else load_deck(deck)
     array = _checked_decks(decks, definition)
     frame = _columns_frame(columns, array.shape[0])
     target = Path(path)
     suffix = target.suffix.lower()
     if labels not in ("codes", "int0", "int1"):
         raise InputError(f"labels {labels!r} is not one of codes, int0, int1")
-    if labels == "codes":
+    if isinstance(definition, ShoeDefinition):
+        if labels != "codes":
+            raise InputError("a shoe log names its cards by code (labels='codes')")
+        words = [definition.kinds.cards[k] for k in definition.reference_kinds]
+    elif labels == "codes":
         words = list(definition.cards)
     else:
         base = 1 if labels == "int1" else 0
