@@ -1,0 +1,238 @@
+"""The shoe battery: catalogue records against brute force over every arrangement of a small
+shoe, summaries that merge exactly, calibration on uniform shoes, detection of a grab
+shuffle, and shoe logs read and validated by counting copies."""
+
+from __future__ import annotations
+
+import math
+from collections import Counter
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from sympy.utilities.iterables import multiset_permutations
+
+from shufflecheck.analyses.audit_log import audit_log
+from shufflecheck.audit.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
+from shufflecheck.audit.shoe_statistics import check_words, class_position_counts, zone_counts
+from shufflecheck.audit.summary import BatterySummary
+from shufflecheck.common.errors import InputError
+from shufflecheck.models.procedures import parse_procedure, simulate_play
+from shufflecheck.records.logs import read_log, write_log
+from shufflecheck.records.shoes import check_shoe_row, load_shoe, shoe
+
+COPIES = (2, 2, 1, 2)  # a small invented shoe: four kinds, seven cards
+
+
+def all_words(copies) -> np.ndarray:
+    letters = [k for k, c in enumerate(copies) for _ in range(c)]
+    return np.array(list(multiset_permutations(letters)), dtype=np.int64)
+
+
+def context(classes, names, ordered=True, segment=(0, 3), zones=(3, 3)) -> DeckContext:
+    shoe_ctx = ShoeContext(COPIES, classes, names, "test", ordered, segment, zones)
+    return DeckContext.checked(sum(COPIES), shoe=shoe_ctx)
+
+
+def law_counts(law):
+    return {law.offset + k: c for k, c in enumerate(law.counts) if c}
+
+
+def law_probabilities(law):
+    return {law.offset + k: Fraction(c, law.total) for k, c in enumerate(law.counts) if c}
+
+
+def frequencies(values):
+    counted = Counter(values.tolist())
+    return {k: Fraction(v, len(values)) for k, v in counted.items()}
+
+
+class TestRecordsAgainstBruteForce:
+    @pytest.mark.parametrize(
+        ("classes", "names"),
+        [
+            ((0, 1, 2, 3), ("a", "b", "c", "d")),
+            ((0, 0, 1, 1), ("lo", "hi")),
+            ((1, 0, 1, 0), ("x", "y")),
+        ],
+    )
+    def test_per_shoe_records(self, classes, names):
+        ctx = context(classes, names)
+        words = all_words(COPIES)
+        view = DeckView(words, words, ctx, reference=np.repeat(words[:1], len(words), axis=0))
+        checked = 0
+        for stat in battery_statistics(ctx):
+            if stat.shape != "per-deck":
+                continue
+            values = stat.values(view)
+            if stat.law_keys is not None:
+                keys = stat.law_keys(view)
+                assert len(set(keys.tolist())) == 1  # one reference: one law
+                law = stat.keyed_law(ctx, int(keys[0]))
+            else:
+                law = stat.law(ctx)
+            # brute force over all 7!/(2!2!1!2!) = 630 arrangements
+            assert len(words) == 630
+            assert frequencies(values) == law_probabilities(law), stat.name
+            checked += 1
+        assert checked >= 4
+
+    def test_zone_law_for_every_reference(self):
+        ctx = context((0, 1, 2, 3), ("a", "b", "c", "d"))
+        stat = next(s for s in battery_statistics(ctx) if s.name == "segment-zone")
+        words = all_words(COPIES)
+        for ref in words[::97]:
+            view = DeckView(words, words, ctx, reference=np.repeat(ref[None, :], len(words), 0))
+            values, keys = stat.values(view), stat.law_keys(view)
+            law = stat.keyed_law(ctx, int(keys[0]))
+            assert frequencies(values) == law_probabilities(law)
+
+    def test_matches_between_shoes(self):
+        ctx = context((0, 1, 2, 3), ("a", "b", "c", "d"))
+        stat = next(s for s in battery_statistics(ctx) if s.name == "shoe-repeat-positions")
+        words = all_words(COPIES)
+        counted: Counter = Counter()
+        for ref in words[::31]:
+            pair_values = np.count_nonzero(words == ref, axis=1)
+            counted.update(pair_values.tolist())
+        law = stat.law(ctx)
+        scale = len(words[::31])
+        assert dict(counted) == {k: v * scale for k, v in law_counts(law).items()}
+
+    def test_permutation_statistics_do_not_apply(self):
+        names = {s.name for s in battery_statistics(context((0, 1, 2, 3), tuple("abcd")))}
+        assert "rising-sequences" not in names and "value-runs" in names
+        plain = {s.name for s in battery_statistics(DeckContext.checked(7))}
+        assert "value-runs" not in plain
+
+    def test_unordered_feature_has_no_successions(self):
+        names = {s.name for s in battery_statistics(context((0, 1, 0, 1), ("x", "y"), False))}
+        assert "value-successions" not in names
+
+
+class TestSummary:
+    def test_merge_equals_one_pass(self):
+        ctx = ShoeContext.of(shoe(2), "blackjack")
+        rng = np.random.default_rng(4)
+        kinds = shoe(2).physical_kinds()
+        words = kinds[np.argsort(rng.random((301, 104)), axis=1)]
+        one = BatterySummary.empty(104, shoe=ctx)
+        one.update(words[1:], words[1:], references=words[:-1])
+        a = BatterySummary.empty(104, shoe=ctx)
+        b = BatterySummary.empty(104, shoe=ctx)
+        a.update(words[1:150], words[1:150], references=words[:149])
+        b.update(words[150:], words[150:], references=words[149:-1])
+        merged = a.merge(b)
+        for key, value in one.as_arrays().items():
+            assert (merged.as_arrays()[key] == value).all(), key
+        r1, r2 = one.finish(), merged.finish()
+        assert [t.log10_p_value for t in r1.overall.tests] == [
+            t.log10_p_value for t in r2.overall.tests
+        ]
+
+    def test_calibration_on_uniform_shoes(self):
+        # 400 audits of 60 uniform shoes of 2 packs: family-wise false alarms near alpha
+        ctx = ShoeContext.of(shoe(2), "colour")
+        kinds = shoe(2).physical_kinds()
+        rng = np.random.default_rng(11)
+        alarms = 0
+        audits = 400
+        for _ in range(audits):
+            words = kinds[np.argsort(rng.random((61, 104)), axis=1)]
+            summary = BatterySummary.empty(104, shoe=ctx, keep_series=False)
+            summary.update(words[1:], words[1:], references=words[:-1])
+            result = summary.finish(alpha=0.05, rng=rng, since_when=False)
+            alarms += result.overall.flagged
+        # Holm controls the family-wise rate at 0.05; allow 3 binomial standard errors
+        assert alarms / audits <= 0.05 + 3 * math.sqrt(0.05 * 0.95 / audits)
+
+    def test_grab_is_detected(self):
+        ctx = ShoeContext.of(shoe(6), "cards")
+        proc = parse_procedure("grab")
+        orders = simulate_play(proc, 312, 400, rng=3)
+        words = shoe(6).physical_kinds()[orders]
+        summary = BatterySummary.empty(312, shoe=ctx)
+        summary.update(words[1:], words[1:], references=words[:-1])
+        result = summary.finish()
+        assert result.overall.flagged
+        assert result.overall.test("segment-zone").flagged
+        assert result.overall.unit == "shoe" and "uniform shoe" in result.overall.verdict()
+
+    def test_words_are_checked(self):
+        with pytest.raises(InputError, match=r"row 2: kind 0 appears 3 times, 2 expected"):
+            check_words(np.array([[0, 0, 1, 1, 2, 3, 3], [0, 0, 0, 1, 2, 3, 3]]), np.array(COPIES))
+
+
+class TestStatistics:
+    def test_zone_counts_by_hand(self):
+        words = np.array([[0, 1, 2, 3, 0, 1, 3]])
+        refs = np.array([[3, 3, 0, 1, 0, 2, 1]])
+        counts, marked = zone_counts(words, refs, 4, (0, 3), (3, 3))
+        # segment kinds {3, 0}: positions 0, 3, 4, 6 of the shoe
+        assert counts.tolist() == [[1, 2]] and marked.tolist() == [4]
+
+    def test_class_positions(self):
+        words = np.array([[0, 1, 2], [2, 1, 0]])
+        got = class_position_counts(words, np.array([0, 1, 1]), 2)
+        assert got.tolist() == [[1, 1], [0, 2], [1, 1]]
+
+
+class TestShoeLogs:
+    def test_definitions(self):
+        six = load_shoe("shoe(packs=6)")
+        assert six.size == 312 and six.copies == (6,) * 52 and six.packs == 6
+        assert six.class_counts("blackjack") == (24,) * 9 + (96,)
+        assert six.feature("baccarat").names[0] == "0"
+        assert six.class_counts("baccarat")[0] == 96
+        assert load_shoe("standard-52") is None
+        with pytest.raises(InputError, match="unknown parameter 'decks'"):
+            load_shoe("shoe(decks=6)")
+
+    def test_deck_file_with_copies(self, tmp_path):
+        path = tmp_path / "house.toml"
+        path.write_text(
+            'name = "house-mini"\ncopies = 2\ncards = ["AS", "KH", { code = "JK", copies = 3 }]\n',
+            encoding="utf-8",
+        )
+        definition = load_shoe(path)
+        assert definition.copies == (2, 2, 6) and definition.size == 10
+        assert definition.feature("rank").names[-1] == "JK"
+
+    def test_row_messages(self):
+        six = shoe(6)
+        codes = six.format_order(six.reference_kinds).split()
+        codes[11] = "JH"  # a QS recorded as JH
+        _, reason, problem = check_shoe_row(codes, six)
+        assert reason == "wrong-copies"
+        assert problem == "JH appears 7 times, 6 expected; QS appears 5 times, 6 expected"
+        _, reason, problem = check_shoe_row(codes[:-1], six)
+        assert reason == "wrong-length" and problem.startswith(
+            "311 cards, shoe 'shoe-6x52' has 312"
+        )
+
+    def test_read_audit_and_quarantine(self, tmp_path):
+        orders = simulate_play(parse_procedure("grab, grab"), 312, 60, rng=9)
+        log = tmp_path / "shoes.csv"
+        write_log(log, orders, "shoe(packs=6)", {"shoe": list(range(61))})
+        lines = log.read_text(encoding="utf-8").splitlines()
+        cells = lines[12].split(",")
+        codes = cells[1].split()
+        codes[0] = "QH" if codes[0] != "QH" else "KH"
+        lines[12] = ",".join([cells[0], " ".join(codes)])
+        bad = tmp_path / "bad.csv"
+        bad.write_text("\n".join(lines) + "\n", encoding="utf-8")
+        with pytest.raises(InputError, match=r"bad.csv row 13: .* appears 7 times, 6 expected"):
+            read_log(bad, deck="shoe(packs=6)").read_all()
+        quarantine = tmp_path / "aside.csv"
+        result = audit_log(bad, deck="shoe(packs=6)", feature="blackjack", quarantine=quarantine)
+        assert result.set_aside == 1 and "wrong-copies" in quarantine.read_text(encoding="utf-8")
+        payload = result.as_json()
+        assert payload["log"]["shoe"]["feature"] == "blackjack"
+        names = {t["name"] for t in payload["tests"]}
+        assert {"value-runs", "value-successions", "segment-zone"} <= names
+
+    def test_feature_needs_a_shoe(self, tmp_path):
+        log = tmp_path / "decks.csv"
+        write_log(log, np.tile(np.arange(52), (3, 1)), None)
+        with pytest.raises(InputError, match="apply to shoes"):
+            audit_log(log, feature="blackjack")
