@@ -61,8 +61,8 @@ from shufflecheck.records.shoes import ShoeDefinition
 
 __all__ = [
     "CAUTION",
-    "chance_text",
     "TrackingExposure",
+    "chance_text",
     "recorded_exposure",
     "tracking_exposure",
     "tracking_json",
