@@ -96,6 +96,10 @@ class TrackingExposure:
     mean_caught_random: Quantity
     method: str
     notes: tuple[str, ...] = field(default_factory=tuple)
+    #: per measured shoe, the slug cards caught by the window (for figures)
+    caught: np.ndarray = field(default_factory=lambda: np.zeros(0, np.int64), compare=False)
+    #: the catch's law in a random shoe (exact or simulated, as ``chance_random`` says)
+    random_pmf: np.ndarray = field(default_factory=lambda: np.zeros(0), compare=False)
 
     def sentence(self) -> str:
         """What a tracker could do, in one sentence of plain units."""
@@ -315,6 +319,7 @@ def tracking_exposure(
             f"Monte Carlo, {random_got.size:,} uniform shoes, the same placement rule",
         )
         mean_random = _mean(random_got.astype(float), confidence, "Monte Carlo, uniform shoes")
+        random_pmf = np.bincount(random_got, minlength=window + 1) / random_got.size
     else:
         table = np.concatenate(window_counts)
         half = np.arange(table.shape[0]) % 2
@@ -332,6 +337,7 @@ def tracking_exposure(
         mean_random = Quantity(
             window * length / cards, "exact", unit="cards", method="hypergeometric mean"
         )
+        random_pmf = hyper.pmf(np.arange(window + 1))
         notes.append(f"the best fixed window starts at position {best_start} (1 = top)")
     chance = _proportion(int((measured >= at_least).sum()), measured.size, confidence, how)
     random_span = _spans(_random_members(generator, min(shoes, 200_000), cards, length), keep)
@@ -365,6 +371,8 @@ def tracking_exposure(
         mean_caught_random=mean_random,
         method=how,
         notes=tuple(notes),
+        caught=measured.astype(np.int64),
+        random_pmf=np.asarray(random_pmf, dtype=float),
     )
 
 
@@ -476,6 +484,8 @@ def recorded_exposure(
             "the window is placed where it catches most in each shoe, which no observer "
             "knows in advance: an upper figure for what tracking could gain",
         ),
+        caught=caught.astype(np.int64),
+        random_pmf=np.bincount(caught_random, minlength=window + 1) / caught_random.size,
     )
 
 

@@ -29,6 +29,7 @@ depends on the shoe keeps a histogram per law key::
 from __future__ import annotations
 
 import copy
+import dataclasses
 from collections.abc import Sequence
 
 import numpy as np
@@ -527,4 +528,27 @@ class BatterySummary:
 
         overall = battery(self._overall)
         groups = tuple((key, battery(self._groups[key])) for key in self.group_keys())
+        extra = self._not_applicable()
+        if extra:
+            overall = dataclasses.replace(overall, skipped=overall.skipped + extra)
         return AuditResult(overall, groups)
+
+    def _not_applicable(self) -> tuple[tuple[str, str], ...]:
+        """Shoe tests left out for this shoe, with the reason (reported as not run)."""
+        if self.shoe is None:
+            return ()
+        out = []
+        if not self.shoe.provides("ordered"):
+            out.append(("value-successions", f"the classes of {self.shoe.feature} have no order"))
+        if not self.shoe.provides("guessing"):
+            from shufflecheck.audit.shoe_nulls import greedy_state_estimate
+
+            states = greedy_state_estimate(self.shoe.class_counts)
+            out.append(
+                (
+                    "guess-most-frequent",
+                    f"its exact null law would take about {states:,} count states, beyond the "
+                    f"budget of {self.shoe.guess_budget:,}",
+                )
+            )
+        return tuple(out)

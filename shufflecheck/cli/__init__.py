@@ -21,6 +21,7 @@ COMMAND_MODULES = (
     "audit",
     "fit_riffle",
     "monitor",
+    "track",
     "simulate",
     "characters",
 )

@@ -20,6 +20,29 @@ from shufflecheck.cli._app import (
 )
 from shufflecheck.common.cautions import LOGS_UNTOUCHED, caution
 
+#: the features a recorded shoe can be read through (copies alike: not "distinct")
+Feature = Enum(
+    "Feature",
+    {name: name for name in ("rank", "blackjack", "baccarat", "cards", "colour", "suit")},
+    type=str,
+)
+
+
+def segment_option(text: str | None) -> tuple[int, int] | None:
+    """``"1:52"`` (start:length, start 1-based) -> (1, 52)."""
+    if text is None:
+        return None
+    from shufflecheck.common.errors import InputError
+
+    parts = text.replace("-", ":").split(":")
+    try:
+        start, length = (int(x) for x in parts)
+    except ValueError:
+        raise InputError(
+            f"--segment must be START:CARDS like 1:52 (reference positions from 1), got {text!r}"
+        ) from None
+    return start, length
+
 
 class Labels(str, Enum):
     codes = "codes"
@@ -109,12 +132,30 @@ def audit(
         Labels, typer.Option(help="Card codes, or integer labels (0..n-1 or 1..n).")
     ] = Labels.codes,
     deck: Annotated[
-        Path | None, typer.Option(help="Deck definition TOML for non-standard decks.")
+        str | None,
+        typer.Option(
+            help="Deck definition TOML for non-standard decks; a shoe of repeated cards as "
+            "shoe(packs=6) or a TOML file with copies."
+        ),
     ] = None,
     cards: Annotated[
         int | None,
         typer.Option(
             "--cards", "-n", help="Cards per deck, for integer-labelled logs without --deck."
+        ),
+    ] = None,
+    feature: Annotated[
+        Feature | None,
+        typer.Option(
+            help="Shoes: what the game sees of a card (rank by default; blackjack: 10-J-Q-K "
+            "alike; baccarat: value mod 10; cards: codes, copies alike; colour; suit)."
+        ),
+    ] = None,
+    segment: Annotated[
+        str | None,
+        typer.Option(
+            help="Shoes: reference positions whose cards the zone test follows, START:CARDS "
+            "(default 1:52, the reference's first pack)."
         ),
     ] = None,
     log_format: Annotated[
@@ -155,6 +196,8 @@ def audit(
             fmt=log_format,
             deck=deck,
             cards=cards,
+            feature=None if feature is None else feature.value,
+            segment=segment_option(segment),
             by=by,
             time=time,
             time_format=time_format,
@@ -175,7 +218,7 @@ def audit(
         from shufflecheck.report.provenance import collect_provenance
 
         files = [Path(s.path) for s in result.sources] or [Path(log)]
-        inputs = files + ([deck] if deck is not None else [])
+        inputs = files + ([Path(deck)] if deck is not None and Path(deck).is_file() else [])
         document = audit_report(
             result,
             payload=payload,
@@ -198,8 +241,16 @@ def print_audit(result) -> None:
     overall = result.result.overall
     echo(f"{result.path}: {overall.verdict()}")
     info = result.reader
+    unit = "decks" if result.shoe is None else "shoes"
+    if result.shoe is not None:
+        shoe = result.shoe
+        echo(
+            f"Shoe {result.deck.name} ({shoe.cards} cards, copies alike); feature "
+            f"{shoe.feature}; segment {shoe.segment[0] + 1}-{sum(shoe.segment)} followed into "
+            f"{len(shoe.zones)} zones."
+        )
     echo(
-        f"{result.tested:,} decks tested against reference '{result.reference}'"
+        f"{result.tested:,} {unit} tested against reference '{result.reference}'"
         f" ({info.decks:,} read, {info.set_aside:,} set aside, {result.reference_only:,} only a "
         f"reference, {result.after_set_aside:,} untested after a set-aside row); "
         f"alpha {overall.alpha:g}."
@@ -248,9 +299,9 @@ def print_audit(result) -> None:
     echo()
     echo(
         "p-values: exact null laws unless the method says asymptotic or monte-carlo; effects are "
-        "estimates from the recorded decks against exact expectations for a random deck."
+        f"estimates from the recorded {unit} against exact expectations for a random one."
     )
-    echo(f"{caution('these recorded decks')} {LOGS_UNTOUCHED}")
+    echo(f"{caution(f'these recorded {unit}')} {LOGS_UNTOUCHED}")
 
 
 def _print_fleet(result, fleet) -> None:

@@ -43,8 +43,11 @@ def simulate(
         typer.Option("--from", help="With --then: first simulated deck of the change (1-based)."),
     ] = None,
     deck: Annotated[
-        Path | None,
-        typer.Option(help="Deck definition TOML for card codes (default: standard 52)."),
+        str | None,
+        typer.Option(
+            help="Deck definition TOML for card codes (default: standard 52); a shoe of "
+            "repeated cards as shoe(packs=6) or a TOML file with copies."
+        ),
     ] = None,
     table: Annotated[str | None, typer.Option(help="Add a 'table' column with this value.")] = None,
     start: Annotated[
@@ -66,12 +69,18 @@ def simulate(
     from shufflecheck.models.procedures import procedure_from_argument, simulate_play
     from shufflecheck.records.cards import load_deck
     from shufflecheck.records.logs import write_log
+    from shufflecheck.records.shoes import load_shoe
 
     if out.exists() and not force:
         raise InputError(f"{out} exists; pass --force to replace it")
     proc = procedure_from_argument(procedure)
-    n = cards if cards is not None else (proc.cards or 52)
-    definition = load_deck(deck) if deck is not None else (load_deck() if n == 52 else None)
+    shoe = load_shoe(deck) if deck is not None else None
+    default = shoe.size if shoe is not None else 52
+    n = cards if cards is not None else (proc.cards or default)
+    if shoe is not None:
+        definition = shoe
+    else:
+        definition = load_deck(deck) if deck is not None else (load_deck() if n == 52 else None)
     if definition is not None and definition.size != n:
         raise InputError(f"deck definition has {definition.size} cards but --cards is {n}")
     change = None
@@ -116,13 +125,19 @@ def simulate(
         "labels": "codes" if definition is not None else "int (1..n)",
     }
     if json_out:
+        if shoe is not None:
+            summary["shoe"] = shoe.describe()
         emit_json(summary)
         return
     how = f"--reference {reference.value}" + (
         "" if definition is not None else f" --labels int --cards {n}"
     )
+    if shoe is not None:
+        how += f' --deck "{deck}"'
+        summary["shoe"] = shoe.describe()
+    unit = "shoes" if shoe is not None else "decks"
     echo(
-        f"Wrote {out}: {decks:,} simulated decks of {n} cards after '{proc.describe()}' "
+        f"Wrote {out}: {decks:,} simulated {unit} of {n} cards after '{proc.describe()}' "
         f"(seed {seed}; row 1 is the starting order; audit with {how})."
     )
     if change is not None:

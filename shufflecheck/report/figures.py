@@ -798,6 +798,9 @@ def _draw_scores(
     shown: int,
     score_name: str,
     count_name: str,
+    sample_label: str = "recorded decks",
+    null_label: str = "a random deck",
+    null_kind: str = "exact",
 ) -> Any:
     fig = _new_figure((7.2, 4.2))
     ax = fig.add_subplot()
@@ -809,7 +812,7 @@ def _draw_scores(
         color=OKABE_ITO["sky blue"],
         edgecolor=_INK,
         linewidth=0.7,
-        label="recorded decks",
+        label=sample_label,
         zorder=2,
     )
     ax.step(
@@ -818,7 +821,7 @@ def _draw_scores(
         where="mid",
         color=_INK,
         linewidth=1.0,
-        linestyle=KIND_LINESTYLES["exact"],
+        linestyle=KIND_LINESTYLES[null_kind],
         zorder=3,
     )
     ax.plot(
@@ -828,15 +831,15 @@ def _draw_scores(
         marker="o",
         markersize=4.5,
         linestyle="none",
-        label="expected under a random deck (exact law)",
+        label=f"expected under {null_label} ({null_kind} law)",
         zorder=4,
     )
     ax.axvline(
         null_mean,
         color=_INK,
         linewidth=1.0,
-        linestyle=KIND_LINESTYLES["exact"],
-        label="mean under a random deck (exact)",
+        linestyle=KIND_LINESTYLES[null_kind],
+        label=f"mean under {null_label} ({null_kind})",
         zorder=1,
     )
     ax.axvline(
@@ -844,7 +847,7 @@ def _draw_scores(
         color=OKABE_ITO["vermillion"],
         linewidth=1.8,
         linestyle=KIND_LINESTYLES["estimate"],
-        label="mean of the recorded decks",
+        label=f"mean of the {sample_label}",
         zorder=1,
     )
     from matplotlib.ticker import MaxNLocator
@@ -867,6 +870,9 @@ def score_histogram_figure(
     count_name: str = "number of decks",
     name: str = "scores",
     caption: str | None = None,
+    sample_label: str = "recorded decks",
+    null_label: str = "a random deck",
+    null_kind: str = "exact",
 ) -> Figure:
     """Histogram of per-deck scores of a log against the exact null law of the score.
 
@@ -882,6 +888,11 @@ def score_histogram_figure(
         ``null_pmf[k]`` is the probability of score ``k`` under a random deck (sums to 1
         within 1e-9).
     score_name, count_name, name, caption : str
+    sample_label, null_label : str
+        How the bars and the reference law are named in the legend (``recorded shoes``,
+        ``a random shoe``).
+    null_kind : {"exact", "estimate"}
+        How the reference law was obtained (its line style follows).
 
     Returns
     -------
@@ -918,6 +929,9 @@ def score_histogram_figure(
             shown=shown,
             score_name=score_name,
             count_name=count_name,
+            sample_label=sample_label,
+            null_label=null_label,
+            null_kind=null_kind,
         )
         if caption is None:
             caption = (

@@ -9,7 +9,13 @@ import numpy as np
 
 from shufflecheck.audit.catalogue import catalogue, law_sources
 from shufflecheck.common.quantity import estimate, exact
-from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
+from shufflecheck.common.sources import (
+    BAYER_DIACONIS,
+    DIACONIS_GRAHAM,
+    HOLM,
+    RIORDAN_1958,
+    STANLEY,
+)
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
@@ -85,12 +91,18 @@ def audit_figures(audit, prefix: str = "") -> tuple:
         )
     ]
     guesses = [t for t in tests if t.name.startswith("guess-")]  # one per strategy
+    shoe = getattr(audit, "shoe", None)
     if guesses:
         best = min(guesses, key=lambda t: t.log10_p_value)
         hist = audit.histograms.get(best.name)
         if hist is not None and hist.sum() > 0:
             n = audit.deck.size
-            law = guessing_null(n)
+            if shoe is None:
+                law = guessing_null(n)
+            else:
+                from shufflecheck.audit.shoe_nulls import greedy_guessing_law
+
+                law = greedy_guessing_law(shoe.class_counts)
             pmf = np.zeros(max(n + 1, hist.size))
             pmf[law.offset : law.offset + len(law.counts)] = law.pmf
             scores = np.repeat(np.arange(hist.size), hist)
@@ -98,29 +110,42 @@ def audit_figures(audit, prefix: str = "") -> tuple:
                 score_histogram_figure(
                     scores.tolist(),
                     pmf[: max(hist.size, n + 1)].tolist(),
-                    score_name=f"correct guesses per deck ({best.title.split(', ')[-1]})",
+                    score_name=(
+                        f"correct guesses per {'deck' if shoe is None else 'shoe'} "
+                        f"({best.title.split(', ')[-1]})"
+                    ),
                     name=f"{prefix}guessing",
+                    sample_label="recorded decks" if shoe is None else "recorded shoes",
+                    null_label="a random deck" if shoe is None else "a random shoe",
                 )
             )
     counts = np.asarray(audit.positions, dtype=float)
     decks = counts.sum(axis=1, keepdims=True)
     n = counts.shape[0]
-    expected = decks / n
+    share = (
+        np.full(counts.shape[1], 1 / n)
+        if shoe is None
+        else np.asarray(shoe.class_counts, dtype=float) / n
+    )
+    expected = decks * share[None, :]
     with np.errstate(divide="ignore", invalid="ignore"):
         residuals = np.where(
-            expected > 0, (counts - expected) / np.sqrt(expected * (1 - 1 / n)), 0.0
+            expected > 0, (counts - expected) / np.sqrt(expected * (1 - share[None, :])), 0.0
         )
+    what = (
+        "Where each card of the reference order was found (standardised residuals of the "
+        "position-by-card counts"
+        if shoe is None
+        else f"Where each value ({shoe.feature}) was found (standardised residuals of the "
+        "position-by-value counts"
+    )
     figures.append(
         heatmap_figure(
             residuals,
             kind="residuals",
             value_name="standardised residual",
             name=f"{prefix}positions",
-            caption=(
-                "Where each card of the reference order was found (standardised residuals of "
-                "the position-by-card counts; orange = more often than a random deck, purple = "
-                "less often)."
-            ),
+            caption=f"{what}; orange = more often than random, purple = less often).",
         )
     )
     return tuple(figures)
@@ -136,6 +161,18 @@ def audit_section(audit, title: str, *, prefix: str = "", figures: bool = True) 
         f"{f', grouped by {audit.by}' if audit.by else ''}.",
         f"Verdict: {battery.verdict()}.",
     ]
+    shoe = getattr(audit, "shoe", None)
+    if shoe is not None:
+        start, length = shoe.segment
+        made = ", ".join(f"{n} x{c}" for n, c in zip(shoe.names, shoe.class_counts, strict=True))
+        paragraphs.insert(
+            1,
+            f"Shoe {audit.deck.name}: {shoe.cards} cards, {len(shoe.copies)} card codes, copies "
+            f"alike (counted in every row). Feature seen by the game: {shoe.feature} "
+            f"({made})."
+            f" Segment followed: reference positions {start + 1}-{start + length}, into zones of "
+            f"{', '.join(map(str, shoe.zones))} cards.",
+        )
     if battery.since_when is not None:
         where = audit.since_when_place()
         place = f" First deck of that stretch: {where}." if where else ""
@@ -204,7 +241,40 @@ def _groups_table(audit, fleet: dict[str, Any]) -> Table:
     )
 
 
-def audit_methods(alpha: float) -> tuple[MethodNote, ...]:
+def audit_methods(alpha: float, *, shoes: bool = False) -> tuple[MethodNote, ...]:
+    if shoes:
+        return (
+            MethodNote(
+                "p-values of the per-shoe statistics",
+                "exact",
+                "sum over the shoes compared with the exact convolution of each statistic's law "
+                "under a uniformly random arrangement of the shoe's multiset (every arrangement "
+                "of the copies equally likely): runs of a multiset, value successions, zone "
+                "maxima, the greedy guessing game by dynamic programming, matches between "
+                "shoes by rook polynomials",
+                (STANLEY, DIACONIS_GRAHAM, RIORDAN_1958),
+            ),
+            MethodNote(
+                "position-by-value test",
+                "estimate",
+                "chi-square x (n-1)/n with (n-1)(V-1) degrees of freedom (asymptotic; exact mean "
+                "n(V-1)), or a Monte Carlo null when expected counts are small",
+                (STANLEY,),
+            ),
+            MethodNote(
+                "family-wise error",
+                "exact",
+                f"Holm's step-down adjustment over the battery at level {alpha:g}",
+                (HOLM,),
+            ),
+            MethodNote(
+                "effects and 'since when'",
+                "estimate",
+                "observed per-shoe means against exact expectations; change point by a scan "
+                "of standardised excess over the null mean",
+                (DIACONIS_GRAHAM,),
+            ),
+        )
     return (
         MethodNote(
             "p-values of the per-deck statistics",
@@ -256,6 +326,6 @@ def audit_report(audit, *, payload: dict[str, Any], provenance: Provenance) -> R
         answer=tuple(answer),
         reproducibility=provenance,
         sections=(audit_section(audit, "Tests on the recorded decks"),),
-        methods=audit_methods(battery.alpha),
+        methods=audit_methods(battery.alpha, shoes=getattr(audit, "shoe", None) is not None),
         data=payload,
     )
