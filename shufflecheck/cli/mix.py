@@ -31,6 +31,22 @@ class Metric(str, Enum):
     kl = "kl"
 
 
+#: features a distance can be taken on (``distinct``: every card told apart)
+FeatureName = Enum(
+    "FeatureName",
+    {
+        name: name
+        for name in ("distinct", "cards", "rank", "blackjack", "baccarat", "colour", "suit")
+    },
+    type=str,
+)
+
+
+class Start(str, Enum):
+    reference = "reference"
+    blocks = "blocks"
+
+
 class ChainMethod(str, Enum):
     chain = "chain"
     fourier = "fourier"
@@ -70,6 +86,26 @@ def mix(
             "the upper bound lemma alone (bound, n <= 64)."
         ),
     ] = ChainMethod.chain,
+    deck: Annotated[
+        str | None,
+        typer.Option(
+            help="riffle on a feature: the deck or shoe, e.g. shoe(packs=6) (default standard-52)."
+        ),
+    ] = None,
+    feature: Annotated[
+        FeatureName,
+        typer.Option(
+            help="What the distance is taken on: distinct cards (default), or what a game sees: "
+            "cards (copies alike), rank, blackjack, baccarat, colour, suit (riffle only)."
+        ),
+    ] = FeatureName.distinct,
+    start: Annotated[
+        Start,
+        typer.Option(
+            help="With a feature: the order before the riffles, the deck's reference order or "
+            "blocks (the cards sorted by value: the most ordered start)."
+        ),
+    ] = Start.reference,
     plot: Annotated[
         Path | None, typer.Option(help="Draw distance against steps to this PNG file.")
     ] = None,
@@ -89,6 +125,23 @@ def mix(
     from shufflecheck.models import default_max_steps, distance_curve
 
     goal = check_target(target)
+    if feature is not FeatureName.distinct or deck is not None:
+        _mix_feature(
+            model.value,
+            deck,
+            feature.value,
+            start.value,
+            cards,
+            max_steps,
+            goal,
+            METRIC_NAMES[metric.value],
+            hands,
+            plot,
+            report,
+            force,
+            json_out,
+        )
+        return
     steps = max_steps if max_steps is not None else default_max_steps(model.value, max(cards, 2))
     long_work = "progress" in entry(model.value).curve_options and cards >= 30
     with progress(steps if long_work else 0, "lumped chain") as update:
@@ -135,6 +188,132 @@ def mix(
         echo(f"Wrote report {written}")
 
 
+def _mix_feature(
+    model,
+    deck,
+    feature,
+    start,
+    cards,
+    max_steps,
+    goal,
+    chosen,
+    hands,
+    plot,
+    report,
+    force,
+    json_out,
+) -> None:
+    """``mix riffle --feature F``: labelled distances of the word a game sees."""
+    from shufflecheck.common.errors import InputError
+    from shufflecheck.models import default_max_steps
+    from shufflecheck.models.features import feature_curve
+    from shufflecheck.records.cards import load_deck
+    from shufflecheck.records.shoes import load_shoe, shoe
+
+    if model != "riffle":
+        raise InputError(
+            "distances on a feature are offered for riffle; for other steps the distinct-card "
+            "distances of mix are upper bounds for every feature, and assess gives lower bounds",
+            argument="feature",
+        )
+    definition = load_shoe(deck) if deck is not None else None
+    if definition is None:
+        definition = shoe(1, load_deck(deck))
+    if cards != 52 and cards != definition.size:
+        raise InputError(f"the deck has {definition.size} cards, not {cards}", argument="cards")
+    classes = definition.feature_classes(feature)
+    words = sorted(classes.tolist()) if start == "blocks" else classes.tolist()
+    feat = definition.feature(feature)
+    steps = max_steps if max_steps is not None else default_max_steps("riffle", definition.size)
+    curve = feature_curve(
+        words, steps, hands=hands, feature=feature, start_name=start, names=feat.names
+    )
+    minimum = {m: curve.minimum(m, goal) for m in ("total_variation", "separation", "kl_bits")}
+    payload = {
+        "model": model,
+        "deck": definition.describe(),
+        "cards": definition.size,
+        "feature": feature,
+        "feature_description": feat.title,
+        "start": start,
+        "hands": hands,
+        "classes": list(feat.names),
+        "class_counts": list(definition.class_counts(feature)),
+        "target": goal,
+        "metric": chosen,
+        "rows": [row.as_json() for row in curve.rows],
+        "minimum_steps": minimum,
+        "caution": caution("the idealised model"),
+    }
+    if plot is not None or report is not None:
+        from shufflecheck.report.builders.mix import feature_mixing_report, feature_series
+        from shufflecheck.report.figures import distance_figure
+
+        figure = distance_figure(
+            feature_series(curve, chosen),
+            target=goal,
+            metric=_METRIC_AXIS[chosen],
+            steps_name=entry("riffle").steps_word,
+        )
+        if plot is not None:
+            from shufflecheck.common.files import atomic_write
+
+            atomic_write(plot, figure.png)
+        if report is not None:
+            from shufflecheck.report.provenance import collect_provenance
+
+            document = feature_mixing_report(
+                curve,
+                definition.describe(),
+                metric=chosen,
+                target=goal,
+                minimum=minimum,
+                payload=payload,
+                figure=figure,
+                provenance=collect_provenance(),
+            )
+            written = save_report(document, report, force=force)
+    if json_out:
+        emit_json(payload)
+        return
+    from shufflecheck.report.render.terminal import format_table
+
+    echo(
+        f"Distance to a uniformly random arrangement on feature '{feature}' ({feat.title}): "
+        f"riffle on {definition.describe()}, starting from the {start} order"
+    )
+    counts = definition.class_counts(feature)
+    made = ", ".join(f"{n} x{c}" for n, c in zip(feat.names, counts, strict=True))
+    echo(f"Classes: {made}.")
+    if goal is not None:
+        echo(f"Target: {_LABELS[chosen]} <= {goal:g}")
+    echo()
+    rows = []
+    for r in curve.rows:
+        rows.append([r.steps, r.total_variation.text(), r.separation.text(), r.kl_bits.text()])
+    echo(format_table(["riffles", "total variation", "separation", "KL (bits)"], rows))
+    echo()
+    for metric, label in _LABELS.items():
+        k = minimum[metric]
+        if goal is None:
+            break
+        if k is None:
+            echo(f"Minimum riffles for {label} <= {goal:g}: not certified within {steps}")
+        else:
+            q = curve.rows[k - 1].value(metric)
+            how = "exact" if q.kind == "exact" else "rigorous upper bound"
+            echo(f"Minimum riffles for {label} <= {goal:g}: {k} ({how})")
+    echo(
+        "Upper bounds come from the distinct-card distances (a feature is never farther); "
+        "exact values where the feature's law is known in closed form (docs/models.md)."
+    )
+    echo(caution("the idealised model"))
+    if plot is not None:
+        echo(f"Wrote {plot}")
+    if report is not None:
+        echo(f"Wrote report {written}")
+
+
 def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
     def row(r):
         return {
@@ -148,6 +327,7 @@ def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
     return {
         "model": curve.model,
         "cards": curve.cards,
+        "feature": "distinct",
         "parameters": curve.parameters,
         "target": goal,
         "metric": metric,
@@ -177,6 +357,7 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
     )
     title = f"{curve.model} on {curve.cards} cards" + (f" ({params})" if params else "")
     echo(f"Distance to a uniformly random deck: {title}")
+    echo("Feature: distinct cards (every card told apart; any feature a game sees is no farther).")
     echo(f"Method: {curve.source}.")
     if curve.bounds:
         echo(f"Extra column: {curve.bound_source}.")

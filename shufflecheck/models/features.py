@@ -74,8 +74,10 @@ from shufflecheck.models import riffle
 
 __all__ = [
     "ENUMERATION_CARDS",
+    "FeatureCurve",
     "FeatureDistances",
     "block_separation",
+    "feature_curve",
     "feature_distances",
     "in_blocks",
     "small_deck_law",
@@ -85,7 +87,10 @@ __all__ = [
 #: Largest deck whose word law is summed over all ``n!`` arrangements.
 ENUMERATION_CARDS = 9
 #: Unsettled partial words the two-valued dynamic programme may hold.
-TWO_VALUED_BUDGET = 2_000_000
+TWO_VALUED_BUDGET = 1_000_000
+#: Largest number of words C(n, p) for which the exact two-valued sum is attempted (about
+#: 3% of the words stay unsettled; beyond this the budget would be exceeded anyway).
+TWO_VALUED_WORDS = 10**9
 
 
 def in_blocks(start: Sequence[int]) -> bool:
@@ -204,6 +209,8 @@ def two_valued_block_tv(p: int, q: int, hands: int, *, budget: int = TWO_VALUED_
     unsettled partial words (see the module docstring)."""
     if p < 1 or q < 1:
         return Fraction(0) if hands else None
+    if math.comb(p + q, p) > TWO_VALUED_WORDS:
+        return None
     return _two_valued_tv(int(p), int(q), int(hands), int(budget))
 
 
@@ -321,3 +328,43 @@ def feature_distances(start: Sequence[int], steps: int, *, hands: int = 2) -> Fe
                     method="exact: two-valued deck in blocks, sum over all words (derived)",
                 )
     return FeatureDistances(steps, tv, sep, kl)
+
+
+@dataclass(frozen=True)
+class FeatureCurve:
+    """Feature distances after ``k = 1..K`` riffles, with what the start and feature are."""
+
+    feature: str
+    start: str
+    cards: int
+    hands: int
+    classes: tuple[str, ...]
+    class_counts: tuple[int, ...]
+    rows: tuple[FeatureDistances, ...]
+
+    def minimum(self, metric: str, target: float | None) -> int | None:
+        """First ``k`` whose exact value or rigorous upper bound meets ``target``."""
+        if target is None:
+            return None
+        for row in self.rows:
+            q = row.value(metric)
+            if q.kind == "exact" or (q.kind == "bound" and q.side == "upper"):
+                if q.value <= target:
+                    return row.steps
+        return None
+
+
+def feature_curve(
+    start: Sequence[int],
+    max_steps: int,
+    *,
+    hands: int = 2,
+    feature: str = "",
+    start_name: str = "",
+    names: Sequence[str] = (),
+) -> FeatureCurve:
+    """:func:`feature_distances` for ``k = 1..max_steps`` riffles."""
+    values = tuple(int(x) for x in start)
+    counts = _class_counts(values)
+    rows = tuple(feature_distances(values, k, hands=hands) for k in range(1, max_steps + 1))
+    return FeatureCurve(feature, start_name, len(values), hands, tuple(names), counts, rows)
