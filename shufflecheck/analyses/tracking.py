@@ -121,21 +121,30 @@ class TrackingExposure:
             who = f"who always follows positions {self.best_start}-{last}"
         return (
             f"A tracker {who} catches at least {self.at_least} of the slug's {self.slug[1]} "
-            f"cards in {chance_text(self.chance.value)} of shoes ({self.chance.label_text}), "
-            f"against {chance_text(self.chance_random.value)} in a randomly shuffled shoe "
+            f"cards in {_chance(self.chance)} of shoes ({self.chance.label_text}), "
+            f"against {_chance(self.chance_random)} in a randomly shuffled shoe "
             f"({self.chance_random.label_text}); {spread}."
         )
 
 
-def chance_text(p: float) -> str:
-    """A chance for people: ``37.4%``, ``0.31%``, ``1 in 12,000``, ``none seen``."""
+def chance_text(p: float, upper: float | None = None) -> str:
+    """A chance for people: ``37.4%``, ``0.31%``, ``1 in 12,000``; an estimate of 0 is said
+    through the upper end of its interval (``fewer than 1 in 1,350``)."""
     if p <= 0:
-        return "none"
+        if upper is None or upper <= 0:
+            return "none"
+        return f"fewer than {chance_text(upper)}"
     if p >= 0.01:
         return f"{p:.1%}"
     if p >= 0.001:
         return f"{p:.2%}"
-    return f"1 in {1 / p:,.3g}" if 1 / p < 1e6 else f"1 in {1 / p:.2g}"
+    odds = 1 / p
+    return f"1 in {round(odds):,}" if odds < 1e7 else f"1 in {odds:.2g}"
+
+
+def _chance(q: Quantity) -> str:
+    upper = q.interval[1] if q.interval is not None else None
+    return chance_text(float(q.value), upper)
 
 
 def _check_slug(cards: int, slug: tuple[int, int]) -> tuple[int, int]:

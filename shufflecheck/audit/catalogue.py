@@ -39,7 +39,8 @@ alternatives: an assessment picks one member on half of its simulated decks.
 Shoes (decks with repeated cards, ``DeckContext.shoe`` set; the permutation statistics
 above do not apply to them, since copies of a card cannot be told apart)::
 
-    value-runs  value-successions (ordered features)  value-positions
+    value-runs  value-successions (ordered features)  first-appearance-rising
+    first-appearance-successions (equal copies)  value-positions
     segment-zone  guess-most-frequent (when its exact law is within reach)
     shoe-repeat-positions
 
@@ -89,7 +90,7 @@ __all__ = [
 
 Alternative = Literal["two-sided", "greater", "less"]
 Shape = Literal["per-deck", "positions", "class-positions", "consecutive"]
-Need = Literal["colours", "suits", "multiset", "ordered", "guessing"]
+Need = Literal["colours", "suits", "multiset", "ordered", "guessing", "equal-copies"]
 
 
 def default_segment(cards: int) -> tuple[int, int]:
@@ -190,6 +191,8 @@ class ShoeContext:
         if need == "guessing":
             counts = self.class_counts
             return shoe_nulls.greedy_state_estimate(counts) <= self.guess_budget
+        if need == "equal-copies":
+            return len(set(self.copies)) == 1 and len(self.copies) > 1
         return False
 
 
@@ -236,7 +239,7 @@ class DeckContext:
         """Whether a statistic with this ``need`` applies to the decks of this context."""
         if self.shoe is not None:
             return self.shoe.provides(need)
-        if need in ("multiset", "ordered", "guessing"):
+        if need in ("multiset", "ordered", "guessing", "equal-copies"):
             return False
         return need is None or getattr(self, need) is not None
 
@@ -280,6 +283,18 @@ class DeckView:
     @cached_property
     def guesses(self) -> dict[str, np.ndarray]:
         return guess_scores_many(self.relative, self.context.strategies, check=False)
+
+    @cached_property
+    def first_appearances(self) -> tuple[np.ndarray, np.ndarray]:
+        """Shoes: (first-appearance order relative to the reference, its rising sequences)."""
+        shoe = self.context.shoe
+        assert shoe is not None
+        if self.reference is None:
+            raise InputError("first-appearance tests need the reference shoe of every row")
+        order = shoe_statistics.first_appearance_orders(
+            self.absolute, self.reference, len(shoe.copies)
+        )
+        return order, statistics.order_statistics(order, check=False)[1]
 
     @cached_property
     def zones(self) -> tuple[np.ndarray, np.ndarray]:
@@ -367,6 +382,7 @@ class Statistic:
     battery: bool = True
     law_keys: Callable[[DeckView], np.ndarray] | None = None
     keyed_law: Callable[[DeckContext, int], Law] | None = None
+    needs_reference: bool = False
 
     def describe_effect(self, observed: float, expected: float) -> str:
         """The effect in one sentence (means as shown, i.e. after ``shown_offset``)."""
@@ -641,7 +657,7 @@ def _shoe_repeat_sentence(stat: Statistic, observed: float, expected: float) -> 
 _SHOE: tuple[Statistic, ...] = (
     Statistic(
         "value-runs",
-        "runs of equal values",
+        "value runs",
         "two-sided",
         "runs of equal values",
         "runs per shoe",
@@ -654,7 +670,7 @@ _SHOE: tuple[Statistic, ...] = (
     ),
     Statistic(
         "value-successions",
-        "value successions (a card followed by one of the next value)",
+        "value successions (next value follows)",
         "two-sided",
         "value successions",
         "successions per shoe",
@@ -666,6 +682,34 @@ _SHOE: tuple[Statistic, ...] = (
         need="ordered",
         sentence=_per_shoe_sentence,
         lower_bound=True,
+    ),
+    Statistic(
+        "first-appearance-rising",
+        "first-appearance order: rising sequences",
+        "two-sided",
+        "rising sequences of the first-appearance order",
+        "rising sequences per shoe",
+        values=lambda v: v.first_appearances[1],
+        law=lambda c: nulls.rising_law(len(_shoe(c).copies)),
+        law_source="Eulerian numbers over the codes (OEIS A008292): with equal copies the "
+        "first-appearance order of a uniform shoe is a uniform permutation",
+        need="equal-copies",
+        sentence=_per_shoe_sentence,
+        needs_reference=True,
+        lower_bound=True,
+    ),
+    Statistic(
+        "first-appearance-successions",
+        "first-appearance order: successions",
+        "two-sided",
+        "successions of the first-appearance order",
+        "successions per shoe",
+        values=lambda v: statistics.successions(v.first_appearances[0], check=False),
+        law=lambda c: nulls.successions_law(len(_shoe(c).copies)),
+        law_source="C(K-1, k) a(K-1-k), a = OEIS A000255, over the K codes",
+        need="equal-copies",
+        sentence=_per_shoe_sentence,
+        needs_reference=True,
     ),
     Statistic(
         "value-positions",
@@ -680,7 +724,7 @@ _SHOE: tuple[Statistic, ...] = (
     ),
     Statistic(
         "segment-zone",
-        "cards of a reference segment in the busiest zone",
+        "reference segment: busiest zone",
         "greater",
         "cards of the reference segment's codes in the busiest zone",
         "cards per shoe",
@@ -696,7 +740,7 @@ _SHOE: tuple[Statistic, ...] = (
     ),
     Statistic(
         "guess-most-frequent",
-        "guessing game with feedback, naming a most frequent remaining value",
+        "guessing game, most frequent value",
         "greater",
         "correct guesses naming a most frequent remaining value",
         "extra correct guesses per shoe",
@@ -713,7 +757,7 @@ _SHOE: tuple[Statistic, ...] = (
 
 _SHOE_REPEAT = Statistic(
     "shoe-repeat-positions",
-    "same card code at the same position as in the previous shoe",
+    "same code as the previous shoe, same position",
     "greater",
     "positions holding the previous shoe's card code",
     "positions per shoe",

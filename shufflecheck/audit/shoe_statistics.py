@@ -14,6 +14,9 @@ loops only over positions, never over shoes.
   the reference shoe, and how many such cards the shoe holds;
 * :func:`greedy_scores` -- correct guesses when always naming a most frequent remaining
   class (lowest class on ties);
+* :func:`first_appearance_orders` -- the order in which the codes first appear, relative
+  to the reference shoe's (order kept from the previous shoe; a uniform permutation under
+  the null when every code has the same number of copies);
 * matches between consecutive shoes are :func:`shufflecheck.audit.statistics.repeat_positions`.
 
 References
@@ -31,6 +34,8 @@ from shufflecheck.common.errors import InputError
 __all__ = [
     "check_words",
     "class_position_counts",
+    "first_appearance_orders",
+    "first_appearance_ranks",
     "greedy_scores",
     "value_successions",
     "zone_counts",
@@ -162,4 +167,34 @@ def greedy_scores(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarr
             score += guess == card
             remaining[rows, card] -= 1
         out[start : start + _CHUNK] = score
+    return out
+
+
+def first_appearance_ranks(references: np.ndarray, kinds: int) -> np.ndarray:
+    """``(shoes, kinds)``: the rank of every kind in the order of its first appearance in
+    each reference shoe (0 = the code of the reference's top card)."""
+    count, n = references.shape
+    first = np.full((count, kinds), n, dtype=np.int64)
+    rows = np.repeat(np.arange(count), n)
+    positions = np.tile(np.arange(n, dtype=np.int64), count)
+    np.minimum.at(first, (rows, references.ravel().astype(np.int64)), positions)
+    return np.argsort(np.argsort(first, axis=1, kind="stable"), axis=1, kind="stable")
+
+
+def first_appearance_orders(words: np.ndarray, references: np.ndarray, kinds: int) -> np.ndarray:
+    """``(shoes, kinds)`` permutations: the codes in the order they first appear in each
+    shoe, written as their ranks of first appearance in its reference shoe.
+
+    With equal copies of every code, the order of first appearance of a uniformly random
+    shoe is a uniformly random order of the codes, independent of the reference, so this is
+    a uniform permutation under the null and the permutation statistics apply with their
+    exact laws.
+    """
+    count = words.shape[0]
+    out = np.zeros((count, kinds), dtype=np.int16)
+    for start in range(0, count, _CHUNK):
+        ranks = first_appearance_ranks(references[start : start + _CHUNK], kinds)
+        own = first_appearance_ranks(words[start : start + _CHUNK], kinds)
+        order = np.argsort(own, axis=1)  # the kinds in the order they first appear here
+        out[start : start + _CHUNK] = np.take_along_axis(ranks, order, axis=1)
     return out

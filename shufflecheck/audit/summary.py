@@ -337,9 +337,9 @@ class BatterySummary:
         for stat in self.statistics:
             if stat.shape != "per-deck" or stat.values is None:
                 continue
+            if (stat.law_keys is not None or stat.needs_reference) and references is None:
+                continue
             if stat.law_keys is not None:
-                if references is None:
-                    continue
                 values[stat.name] = (stat.values(view), stat.law_keys(view))
             else:
                 values[stat.name] = stat.values(view)

@@ -47,11 +47,27 @@ def demo(
         **policy_payload(result.policy),
         "audit_planning": planning_json(result.power, parse_procedure("riffle"), result.power_seed),
     }
+    if result.shoes is not None:
+        from shufflecheck.analyses.tracking import tracking_json
+
+        payload["shoe_game"] = {
+            "machine_audit": result.shoes.machine.as_json(),
+            "tracking_simulated": tracking_json(result.shoes.tracked),
+            "tracking_recorded": tracking_json(result.shoes.recorded),
+        }
     policy = result.policy.policy
     seeds = {f"simulation, {p.name}": policy.seed + i for i, p in enumerate(policy.procedures)}
     seeds["audit planning"] = result.power_seed
+    inputs = list(policy.inputs)
+    if result.shoes is not None:
+        from shufflecheck.analyses.demo import SHOE_HAND_LOG, SHOE_HAND_PROCEDURE, SHOE_MACHINE_LOG
+
+        seeds["shoe game tracking"] = result.shoes.seed
+        inputs += [
+            demo_folder() / f for f in (SHOE_MACHINE_LOG, SHOE_HAND_LOG, SHOE_HAND_PROCEDURE)
+        ]
     document = demo_report(
-        result, payload=payload, provenance=collect_provenance(policy.inputs, seeds=seeds)
+        result, payload=payload, provenance=collect_provenance(inputs, seeds=seeds)
     )
     written = save_report(document, out, force=force)
     if json_out:
@@ -73,5 +89,15 @@ def demo(
                 f"Audit planning: after {r} ideal riffles, about {decks} {verb} an audit flag "
                 f"the deck ({best.title}; estimate)."
             )
+    if result.shoes is not None:
+        game = result.shoes
+        echo()
+        echo("Harbour Twenty-One (Table 9, a six-pack shoe; blackjack values):")
+        echo(f"  batch machine: {game.machine.result.overall.verdict()}")
+        when = game.machine.result.overall.since_when
+        if when is not None:
+            echo(f"  since when (estimate): {when.text} ({game.machine.since_when_place()})")
+        echo(f"  hand grab shuffle: {game.tracked.sentence()}")
+        echo(f"  recorded hand shoes: {game.recorded.sentence()}")
     echo()
     echo(f"Report: {written}/report.html (also report.md, report.json, figures/)")

@@ -139,15 +139,29 @@ def audit_figures(audit, prefix: str = "") -> tuple:
         else f"Where each value ({shoe.feature}) was found (standardised residuals of the "
         "position-by-value counts"
     )
-    figures.append(
-        heatmap_figure(
-            residuals,
-            kind="residuals",
-            value_name="standardised residual",
-            name=f"{prefix}positions",
-            caption=f"{what}; orange = more often than random, purple = less often).",
+    if shoe is None:
+        figures.append(
+            heatmap_figure(
+                residuals,
+                kind="residuals",
+                value_name="standardised residual",
+                name=f"{prefix}positions",
+                caption=f"{what}; orange = more often than random, purple = less often).",
+            )
         )
-    )
+    else:
+        figures.append(
+            heatmap_figure(
+                residuals.T,
+                kind="residuals",
+                row_name=f"value ({shoe.feature})",
+                col_name="position in the shoe (1 = top)",
+                row_labels=list(shoe.names),
+                value_name="standardised residual",
+                name=f"{prefix}positions",
+                caption=f"{what}; orange = more often than random, purple = less often).",
+            )
+        )
     return tuple(figures)
 
 

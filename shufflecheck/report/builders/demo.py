@@ -18,6 +18,35 @@ def demo_report(demo, *, payload: dict[str, Any], provenance: Provenance) -> Rep
 
     figure = power_figure(power_curves(demo.power), x_name="ideal riffles", name="power")
     planning = power_section(demo.power, "riffle", figure=figure)
+    extra = [planning]
+    methods = list(power_methods())
+    if demo.shoes is not None:
+        from shufflecheck.report.builders.audit import audit_methods, audit_section
+        from shufflecheck.report.builders.track import tracking_section
+
+        game = demo.shoes
+        extra.append(
+            audit_section(
+                game.machine,
+                "Harbour Twenty-One (Table 9): the batch machine's shoes",
+                prefix="shoe-machine-",
+            )
+        )
+        extra.append(
+            tracking_section(
+                game.tracked,
+                "Harbour Twenty-One: tracking a slug through the hand grab shuffle (simulated)",
+                prefix="shoe-tracked-",
+            )
+        )
+        extra.append(
+            tracking_section(
+                game.recorded,
+                "Harbour Twenty-One: the slug in the recorded hand-shuffled shoes",
+                prefix="shoe-recorded-",
+            )
+        )
+        methods.extend(audit_methods(game.machine.result.overall.alpha, shoes=True))
     return policy_report(
         demo.policy,
         payload=payload,
@@ -26,9 +55,10 @@ def demo_report(demo, *, payload: dict[str, Any], provenance: Provenance) -> Rep
         question=(
             "How many repetitions of each house procedure bring the deck within total variation "
             "0.1 of random, do the house counts meet that, do the recorded decks of Tables 1, 2 "
-            "and 7 show bias (and since when), and how long must a table be logged before an "
-            "audit means anything?"
+            "and 7 show bias (and since when), how long must a table be logged before an "
+            "audit means anything, and for the shoe game at Table 9: does the batch machine "
+            "deal random shoes, and how far can a slug be tracked through the hand shuffle?"
         ),
-        extra_sections=(planning,),
-        extra_methods=power_methods(),
+        extra_sections=tuple(extra),
+        extra_methods=tuple(methods),
     )
