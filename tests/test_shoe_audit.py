@@ -87,6 +87,24 @@ class TestRecordsAgainstBruteForce:
             law = stat.keyed_law(ctx, int(keys[0]))
             assert frequencies(values) == law_probabilities(law)
 
+    def test_first_appearance_records_with_equal_copies(self):
+        # brute force: all 8!/2!^4 = 2,520 words of four codes x 2 copies, for several
+        # references; with equal copies the first-appearance order is a uniform permutation
+        copies = (2, 2, 2, 2)
+        ctx = DeckContext.checked(
+            8, shoe=ShoeContext(copies, (0, 1, 2, 3), tuple("abcd"), "cards", False, (0, 2), (2, 2))
+        )
+        stats = [s for s in battery_statistics(ctx) if s.name.startswith("first-appearance")]
+        assert {s.name for s in stats} == {
+            "first-appearance-rising",
+            "first-appearance-successions",
+        }
+        words = all_words(copies)
+        for ref in words[::523]:
+            view = DeckView(words, words, ctx, reference=np.repeat(ref[None, :], len(words), 0))
+            for stat in stats:
+                assert frequencies(stat.values(view)) == law_probabilities(stat.law(ctx))
+
     def test_matches_between_shoes(self):
         ctx = context((0, 1, 2, 3), ("a", "b", "c", "d"))
         stat = next(s for s in battery_statistics(ctx) if s.name == "shoe-repeat-positions")

@@ -535,7 +535,7 @@ def audit_frame(
     *,
     reference: str = "previous",
     labels: str = "codes",
-    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    deck: str | os.PathLike[str] | DeckDefinition | ShoeDefinition | None = None,
     cards: int | None = None,
     feature: str | None = None,
     segment: tuple[int, int] | None = None,

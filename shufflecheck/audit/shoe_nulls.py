@@ -55,8 +55,9 @@ __all__ = [
     "zone_maximum_law",
 ]
 
-#: Largest number of (sorted) count states the greedy-guessing DP visits before refusing.
-GREEDY_STATE_BUDGET = 3_000_000
+#: Largest number of (sorted) count states the greedy-guessing DP may need (estimated
+#: beforehand by :func:`greedy_state_estimate`; about 5 s of CPU per million states).
+GREEDY_STATE_BUDGET = 600_000
 
 
 def _counts(counts: Sequence[int], *, keep_zeros: bool = False) -> tuple[int, ...]:

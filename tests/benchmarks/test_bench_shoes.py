@@ -1,0 +1,113 @@
+"""Issue 10 (shoes) benchmarks, each beside an anchor measured in the same run:
+
+* the audit of 100,000 recorded six-pack shoes (reading, copy counts, the shoe battery):
+  target 60 s and 1 GB; anchor: reading and validating the same file alone;
+* the exact null law of the guessing game for a six-pack shoe read as blackjack values:
+  target 5 s; the largest shoe alphabets within the exact method's budget are timed, and
+  the six-pack blackjack law is reported with the size it would need;
+* a shoe policy with default settings: target 60 s; anchor: the simulation alone.
+
+CPU time (the machine is shared); nothing here is asserted against a time.
+"""
+
+from __future__ import annotations
+
+import time
+
+import pytest
+
+from ._memory import peak_rss_mb
+
+SHOES = 100_000
+
+
+def _cpu(function, *args, **kwargs) -> tuple[float, object]:
+    start = time.process_time()
+    out = function(*args, **kwargs)
+    return time.process_time() - start, out
+
+
+@pytest.fixture(scope="module")
+def shoe_log(tmp_path_factory):
+    from shufflecheck.models.procedures import parse_procedure, simulate_play
+    from shufflecheck.records.logs import write_log
+
+    path = tmp_path_factory.mktemp("shoes") / "machine.csv"
+    orders = simulate_play(parse_procedure("riffle x12, cut"), 312, SHOES, rng=2026)
+    write_log(path, orders, "shoe(packs=6)", {"shoe": list(range(SHOES + 1))})
+    return path
+
+
+def _read_only(path) -> int:
+    from shufflecheck.records.logs import read_log
+
+    rows = 0
+    for chunk in read_log(path, deck="shoe(packs=6)"):
+        rows += len(chunk)
+    return rows
+
+
+def _audit(path):
+    from shufflecheck.analyses.audit_log import audit_log
+
+    return audit_log(path, deck="shoe(packs=6)", feature="blackjack")
+
+
+def test_audit_100k_shoes(benchmark, figures, shoe_log):
+    def run():
+        anchor, rows = _cpu(_read_only, shoe_log)
+        measured, result = _cpu(_audit, shoe_log)
+        return anchor, rows, measured, result
+
+    anchor, rows, measured, result = benchmark.pedantic(run, rounds=1, iterations=1)
+    assert rows == SHOES + 1 and result.tested == SHOES
+    assert {t.method for t in result.result.overall.tests} <= {"exact", "asymptotic"}
+    figures(
+        "audit of 100,000 six-pack shoes (read, copies counted, shoe battery), CPU", measured, 60
+    )
+    figures(
+        f"  same shoes, reading and validation alone {anchor:.2f} s: audit / reading ratio",
+        measured / anchor,
+        60 / anchor,
+        "x",
+    )
+
+
+def test_audit_100k_shoes_memory(benchmark, figures, shoe_log):
+    setup = f"""
+    from shufflecheck.analyses.audit_log import audit_log
+    path = {str(shoe_log)!r}
+    """
+    body = """
+    audit_log(path, deck="shoe(packs=6)", feature="blackjack")
+    """
+    before, after = benchmark.pedantic(peak_rss_mb, args=(setup, body), rounds=1, iterations=1)
+    figures("audit of 100,000 six-pack shoes: peak RSS", after, 1024, "MB")
+    figures("  of which the interpreter and imports", before, 1024, "MB")
+
+
+def test_guessing_null_shoes(benchmark, figures):
+    from shufflecheck.audit import shoe_nulls
+
+    def run():
+        timed = {}
+        for name, counts in (
+            ("six-pack shoe, colours (156 + 156)", [156, 156]),
+            ("two-pack shoe, blackjack values (8 x 9 + 32)", [8] * 9 + [32]),
+            ("six-pack shoe, suits (4 x 78)", [78] * 4),
+        ):
+            shoe_nulls._greedy_rows.cache_clear()
+            timed[name] = _cpu(shoe_nulls.greedy_guessing_law, counts)[0]
+        return timed
+
+    timed = benchmark.pedantic(run, rounds=1, iterations=1)
+    for name, seconds in timed.items():
+        figures(f"exact guessing null, {name}, CPU", seconds, 5)
+    states = shoe_nulls.greedy_state_estimate([24] * 9 + [96])
+    # the six-pack blackjack law is refused up front: record it as not met
+    figures(
+        f"exact guessing null, six-pack shoe, blackjack values: not computed (about {states:,} "
+        "count states, beyond the exact method's budget)",
+        float("inf"),
+        5,
+    )
