@@ -7,10 +7,12 @@ the procedure) and uses the built-in deck's suits and colours for 52-card decks.
 
 from __future__ import annotations
 
+from typing import Any
+
 from shufflecheck.audit.power import PowerPlan
 from shufflecheck.models.procedures import Procedure
 
-__all__ = ["plan_power", "planning_json"]
+__all__ = ["plan_power", "plan_shoe_power", "planning_json"]
 
 
 def plan_power(
@@ -46,6 +48,43 @@ def plan_power(
             rng=seed + r,
         )
         plans.append((r, plan))
+    return plans
+
+
+def plan_shoe_power(
+    proc: Procedure,
+    shoe: Any,
+    counts: list[int],
+    *,
+    feature: str = "rank",
+    alpha: float = 0.01,
+    power: float = 0.9,
+    simulate: int = 2000,
+    seed: int = 1,
+) -> list[tuple[int, PowerPlan]]:
+    """``[(r, PowerPlan)]`` for a shoe (a :class:`~shufflecheck.records.shoes.ShoeDefinition`)
+    read through ``feature``: consecutive shoes simulated as a log records them."""
+    from shufflecheck.audit import plan_shoes
+    from shufflecheck.audit.catalogue import ShoeContext
+    from shufflecheck.models.procedures import simulate_play
+
+    proc.check_cards(shoe.size)
+    context = ShoeContext.of(shoe, feature)
+    kinds = shoe.physical_kinds()
+    plans = []
+    for r in counts:
+
+        def sample(count, rng, _r: int = r):
+            return kinds[simulate_play(proc, shoe.size, count, rng=rng, repeats=_r)]
+
+        plans.append(
+            (
+                r,
+                plan_shoes(
+                    sample, context, alpha=alpha, power=power, simulate=simulate, rng=seed + r
+                ),
+            )
+        )
     return plans
 
 

@@ -37,7 +37,7 @@ from shufflecheck.audit.guessing import (
 )
 from shufflecheck.audit.holm import holm
 from shufflecheck.audit.nulls import Law, sum_p_value, sum_tail_logs
-from shufflecheck.audit.power import PowerPlan, PowerRow, plan_decks
+from shufflecheck.audit.power import PowerPlan, PowerRow, plan_decks, plan_shoes
 from shufflecheck.audit.results import AuditResult, BatteryResult, Effect, SinceWhen, TestResult
 from shufflecheck.audit.summary import BatterySummary
 
@@ -63,6 +63,7 @@ __all__ = [
     "guessing_null",
     "holm",
     "plan_decks",
+    "plan_shoes",
     "sum_p_value",
     "sum_tail_logs",
 ]

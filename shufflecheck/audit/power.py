@@ -41,7 +41,13 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from shufflecheck.audit.catalogue import DeckContext, DeckView, Statistic, battery_statistics
+from shufflecheck.audit.catalogue import (
+    DeckContext,
+    DeckView,
+    ShoeContext,
+    Statistic,
+    battery_statistics,
+)
 from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
 from shufflecheck.audit.nulls import Law, sum_distribution
 from shufflecheck.audit.positions import position_counts
@@ -50,7 +56,14 @@ from shufflecheck.common.checks import check_cards, check_fraction, check_intege
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Kind
 
-__all__ = ["PowerPlan", "PowerRow", "detectable_shifts", "plan_decks", "sum_test_power"]
+__all__ = [
+    "PowerPlan",
+    "PowerRow",
+    "detectable_shifts",
+    "plan_decks",
+    "plan_shoes",
+    "sum_test_power",
+]
 
 Sampler = Callable[[int, np.random.Generator], np.ndarray]
 
@@ -414,3 +427,135 @@ def detectable_shifts(
         )
     rows.sort(key=lambda r: r[0])
     return tuple((name, title, q) for _, name, title, q in rows)
+
+
+def plan_shoes(
+    sample: Callable[[int, np.random.Generator], np.ndarray],
+    shoe: ShoeContext,
+    *,
+    alpha: float = 0.01,
+    power: float = 0.9,
+    simulate: int = 2000,
+    max_decks: int = 10_000_000,
+    rng: np.random.Generator | int | None = None,
+) -> PowerPlan:
+    """How many recorded shoes each test of the shoe battery needs to flag a procedure.
+
+    ``sample(count, rng)`` returns ``count + 1`` consecutive shoes as words of kind labels
+    (each shoe shuffled from the one before, as a log records them: row ``t`` is the
+    reference of row ``t + 1``). As :func:`plan_decks`, every number is an estimate: the
+    simulated law of each statistic against its exact null. For the zone test, whose exact
+    law depends on the reference, the null of one shoe is the mixture of the shoes' own laws
+    over the simulated references, and shoes are treated as independent draws from it (an
+    approximation). The position-by-value test uses the noncentral chi-square with
+    ``(n-1)(V-1)`` degrees of freedom.
+    """
+    n = shoe.cards
+    _check_plan(n, alpha, power, simulate, max_decks)
+    generator = np.random.default_rng(rng)
+    context = DeckContext.checked(n, shoe=shoe)
+    words = np.asarray(sample(simulate, generator))
+    if words.shape != (simulate + 1, n):
+        raise InputError(f"the sampler returned {words.shape}, expected {(simulate + 1, n)}")
+    view = DeckView(words[1:], words[1:], context, reference=words[:-1])
+    statistics = battery_statistics(context)
+    m = len(statistics)
+    level = alpha / m
+    rows = []
+    for stat in statistics:
+        if stat.shape == "class-positions":
+            rows.append(_class_position_row(stat, view.absolute, shoe, level, power, max_decks))
+            continue
+        if stat.shape == "consecutive":
+            assert stat.values is not None and stat.law is not None
+            x = stat.values(DeckView(words, words, context))
+            rows.append(_sum_row(stat, stat.law(context), x, level, power, max_decks))
+            continue
+        assert stat.values is not None
+        x = stat.values(view)
+        if stat.law_keys is not None:
+            assert stat.keyed_law is not None
+            keys = stat.law_keys(view)
+            law = _mixture_law(
+                [(stat.keyed_law(context, int(k)), int(c)) for k, c in _counted(keys)]
+            )
+        else:
+            assert stat.law is not None
+            law = stat.law(context)
+        rows.append(_sum_row(stat, law, x, level, power, max_decks))
+    return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows))
+
+
+def _counted(keys: np.ndarray) -> list[tuple[int, int]]:
+    values, counts = np.unique(keys, return_counts=True)
+    return list(zip(values.tolist(), counts.tolist(), strict=True))
+
+
+def _mixture_law(parts: list[tuple[Law, int]]) -> Law:
+    """The mixture of exact laws with integer weights, as one exact law."""
+    from math import lcm
+
+    low = min(law.low for law, _ in parts)
+    high = max(law.high for law, _ in parts)
+    scale = lcm(*(law.total for law, _ in parts))
+    counts = [0] * (high - low + 1)
+    weight = sum(w for _, w in parts)
+    for law, w in parts:
+        factor = w * (scale // law.total)
+        for k, c in enumerate(law.counts):
+            counts[law.offset - low + k] += c * factor
+    return Law.from_counts(counts, scale * weight, offset=low)
+
+
+def _class_position_row(
+    spec: Statistic, words: np.ndarray, shoe: ShoeContext, level: float, target: float, cap: int
+) -> PowerRow:
+    from shufflecheck.audit.shoe_statistics import class_position_counts
+
+    sims, n = words.shape
+    sizes = np.asarray(shoe.class_counts, dtype=float)
+    share = sizes / n
+    freq = class_position_counts(words, shoe.class_array(), sizes.size) / sims
+    df = (n - 1) * (sizes.size - 1)
+    # noncentrality per shoe: sum_(i,v) (f - share)^2 / share, debiased by the sampling
+    # variance f (1 - f) / sims of each cell
+    raw = float((((freq - share) ** 2) / share).sum())
+    noise = float(((freq * (1 - freq)) / share).sum()) / sims
+    delta2 = raw - noise
+    null_sd = math.sqrt(2 * df) / (sims * (n - 1))
+    base = (
+        f"noncentral chi-square ({df} df) with noncentrality (n-1)/n D sum (f - c/n)^2/(c/n), "
+        f"f the position-by-value frequencies of {sims} simulated shoes (debiased)"
+    )
+    if delta2 <= _RESOLUTION * null_sd:
+        return _not_detected(
+            spec,
+            delta2,
+            null_sd,
+            None,
+            base,
+            "no departure of position frequencies detectable in the simulation",
+        )
+    crit = float(stats.chi2.isf(level, df))
+
+    def power_at(d: int) -> float:
+        return float(stats.ncx2.sf(crit, df, (n - 1) / n * d * delta2))
+
+    lam = max(1.0, crit - df + 2.0 * math.sqrt(2.0 * df))
+    guess = max(1, math.ceil(lam / ((n - 1) / n * delta2)))
+    found = _smallest(power_at, target, guess, cap)
+    rel_se = null_sd / delta2
+    if found is None:
+        return _not_detected(spec, delta2, null_sd, rel_se, base, f"needs more than {cap} shoes")
+    return PowerRow(
+        spec.name,
+        spec.title,
+        found,
+        power_at(found),
+        delta2,
+        null_sd,
+        rel_se,
+        "estimate",
+        base,
+        "shift = sum of squared frequency departures over their shares",
+    )

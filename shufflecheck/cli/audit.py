@@ -375,6 +375,14 @@ def power(
     simulate: Annotated[
         int, typer.Option(help="Decks simulated to learn the procedure's laws.")
     ] = 4000,
+    deck: Annotated[
+        str | None,
+        typer.Option(help="Plan for shoes: shoe(packs=6) or a TOML file with copies."),
+    ] = None,
+    feature: Annotated[
+        Feature | None,
+        typer.Option(help="Shoes: what the game sees (rank by default; blackjack, baccarat, ...)."),
+    ] = None,
     seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
     plot: Annotated[
         Path | None, typer.Option(help="Draw decks needed against repetitions (PNG).")
@@ -393,12 +401,46 @@ def power(
     from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
-    n = cards if cards is not None else (proc.cards or 52)
     counts = _repeat_range(repeat)
-    plans = plan_power(
-        proc, n, counts, alpha=alpha, power=power_target, simulate=simulate, seed=seed
-    )
+    shoe = None
+    if deck is not None:
+        from shufflecheck.records.shoes import load_shoe
+
+        shoe = load_shoe(deck)
+    if shoe is not None:
+        from shufflecheck.analyses.plan import plan_shoe_power
+
+        if cards is not None and cards != shoe.size:
+            from shufflecheck.common.errors import InputError
+
+            raise InputError(f"the shoe has {shoe.size} cards, not {cards}", argument="cards")
+        n = shoe.size
+        plans = plan_shoe_power(
+            proc,
+            shoe,
+            counts,
+            feature="rank" if feature is None else feature.value,
+            alpha=alpha,
+            power=power_target,
+            simulate=min(simulate, 2000) if simulate == 4000 else simulate,
+            seed=seed,
+        )
+    else:
+        if feature is not None:
+            from shufflecheck.common.errors import InputError
+
+            raise InputError(
+                "a feature applies to shoes: give the shoe as the deck, e.g. shoe(packs=6)",
+                argument=("feature", "deck"),
+            )
+        n = cards if cards is not None else (proc.cards or 52)
+        plans = plan_power(
+            proc, n, counts, alpha=alpha, power=power_target, simulate=simulate, seed=seed
+        )
     payload = planning_json(plans, proc, seed)
+    if shoe is not None:
+        payload["shoe"] = shoe.describe()
+        payload["feature"] = "rank" if feature is None else feature.value
     figure = None
     if (plot or report) and len(plans) > 1:
         from shufflecheck.report.builders.power import power_curves
@@ -428,25 +470,26 @@ def power(
     if json_out:
         emit_json(payload)
         return
-    _print_power(plans, proc)
+    _print_power(plans, proc, shoe is not None)
     if plot is not None:
         echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")
 
 
-def _print_power(plans, proc) -> None:
+def _print_power(plans, proc, shoes: bool = False) -> None:
     from shufflecheck.report.render.terminal import format_table
 
     first = plans[0][1]
+    unit = "shoes" if shoes else "decks"
     echo(
-        f"Recorded decks needed to flag '{proc.describe()}' on {first.cards} cards with power "
+        f"Recorded {unit} needed to flag '{proc.describe()}' on {first.cards} cards with power "
         f"{first.power:g} at family-wise alpha {first.alpha:g} (each test at "
         f"{first.per_test_level:.2g}: Bonferroni over {first.tests_in_battery} tests, "
         "conservative for Holm)."
     )
     echo(
-        f"Estimates from {first.simulated_decks:,} simulated decks per repetition count; "
+        f"Estimates from {first.simulated_decks:,} simulated {unit} per repetition count; "
         "null laws exact."
     )
     echo()
@@ -465,16 +508,23 @@ def _print_power(plans, proc) -> None:
     )
     echo(format_table(headers, rows, align="l" + "r" * len(plans)))
     echo("'-': not detected within the search range.")
-    echo(
-        "Colour and suit runs are planned for decks that start in new-deck order; when each "
-        "deck starts from the previous one (reference previous), those two tests detect less."
-    )
+    if shoes:
+        echo(
+            "Shoes are simulated as a log records them, each from the one before (reference "
+            "previous); the zone test's null mixes the shoes' own laws (an approximation)."
+        )
+    else:
+        echo(
+            "Colour and suit runs are planned for decks that start in new-deck order; when each "
+            "deck starts from the previous one (reference previous), those two tests detect less."
+        )
     echo()
     for r, plan in plans:
         best = plan.best()
         if best is not None:
+            noun = unit[:-1] if best.decks == 1 else unit
             echo(
-                f"r = {r}: log at least {best.decks:,} deck{'s' if best.decks != 1 else ''} before "
+                f"r = {r}: log at least {best.decks:,} {noun} before "
                 f"an audit can be expected to flag it ({best.title})."
             )
         else:
