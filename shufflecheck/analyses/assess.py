@@ -137,7 +137,12 @@ class AssessmentRow:
 
 @dataclass(frozen=True)
 class Assessment:
-    """The assessment of one procedure on ``cards`` cards for ``r = 1..R`` repetitions."""
+    """The assessment of one procedure on ``cards`` cards for ``r = 1..R`` repetitions.
+
+    ``feature`` names what the distances are on: ``distinct`` (every card told apart) or,
+    for a shoe assessed by :func:`shufflecheck.analyses.feature_assess.assess_feature`,
+    the feature a game sees; ``deck`` then describes the shoe.
+    """
 
     procedure: str
     name: str | None
@@ -147,6 +152,8 @@ class Assessment:
     confidence: float
     rows: tuple[AssessmentRow, ...]
     notes: tuple[str, ...] = field(default_factory=tuple)
+    feature: str = "distinct"
+    deck: str | None = None
 
     def to_dict(self) -> dict:
         """The ``shufflecheck assess --json`` form (:func:`assessment_json`)."""
@@ -597,6 +604,8 @@ def assessment_json(result: Assessment) -> dict:
         "procedure": result.procedure,
         "name": result.name,
         "cards": result.cards,
+        "feature": result.feature,
+        "deck": result.deck,
         "decks": result.decks,
         "seed": result.seed,
         "confidence": result.confidence,

@@ -86,6 +86,8 @@ _PROCEDURE_KEYS = {
     "name",
     "cards",
     "decks",
+    "deck",
+    "feature",
     "steps",
     "file",
     "house",
@@ -120,6 +122,10 @@ class PolicyProcedure:
     max_repeats: int
     logs: tuple[LogSpec, ...] = ()
     source: Path | None = None  # the procedure file named by ``file``, if any
+    #: a shoe of repeated cards (``deck = "shoe(packs=6)"``) and the feature its game sees;
+    #: the procedure is then assessed on that feature and its logs with the shoe battery
+    shoe: Any = None
+    feature: str | None = None
 
 
 @dataclass(frozen=True)
@@ -245,7 +251,12 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
         _typed(doc, name, str, "name", table, index)
         procedure = _procedure_steps(doc, entry, index, name)
         step_key = "steps"
+    shoe, feature = _shoe_of(doc, entry, index)
     cards = deck_size(doc, entry, table, index) or procedure.cards or 52
+    if shoe is not None:
+        if ("cards" in entry or "decks" in entry) and cards != shoe.size:
+            raise doc.error(f"the shoe has {shoe.size} cards, not {cards}", "deck", table, index)
+        cards = shoe.size
     try:
         procedure.check_cards(cards)
     except InputError as exc:
@@ -265,7 +276,48 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
     if not isinstance(logs_raw, list):
         raise doc.error("must be an array of tables: write [[procedure.log]]", "log", table, index)
     logs = tuple(_log(doc, log, index, j) for j, log in enumerate(logs_raw))
-    return PolicyProcedure(name, procedure, cards, house, max_repeats, logs, source)
+    return PolicyProcedure(name, procedure, cards, house, max_repeats, logs, source, shoe, feature)
+
+
+def _shoe_of(doc: TomlFile, entry: dict, index: int) -> tuple[Any, str | None]:
+    """The shoe (``deck``) of a procedure table and its ``feature`` (``rank`` by default)."""
+    from shufflecheck.records.shoes import FEATURES, load_shoe
+
+    table = "procedure"
+    spec = entry.get("deck")
+    feature = entry.get("feature")
+    if spec is None:
+        if feature is not None:
+            raise doc.error(
+                'a feature needs a shoe: add deck = "shoe(packs=6)"', "feature", table, index
+            )
+        return None, None
+    _typed(doc, spec, str, "deck", table, index)
+    target = (
+        spec if spec.strip().lower().startswith("shoe") else str(_resolve(doc.path.parent, spec))
+    )
+    try:
+        shoe = load_shoe(target)
+    except InputError as exc:
+        raise doc.error(str(exc), "deck", table, index) from None
+    if shoe is None:
+        raise doc.error(
+            'not a shoe; write deck = "shoe(packs=6)" or a deck file with copies',
+            "deck",
+            table,
+            index,
+        )
+    if feature is None:
+        feature = "rank"
+    _typed(doc, feature, str, "feature", table, index)
+    if feature not in FEATURES:
+        raise doc.error(
+            f"unknown feature {feature!r}; features: {', '.join(FEATURES)}",
+            "feature",
+            table,
+            index,
+        )
+    return shoe, feature
 
 
 def _procedure_steps(doc: TomlFile, entry: dict, index: int, name: str) -> Procedure:
@@ -505,6 +557,8 @@ def policy_json(result: PolicyResult) -> dict[str, Any]:
                 "name": proc.name,
                 "procedure": proc.procedure.describe(),
                 "cards": proc.cards,
+                "feature": proc.feature or "distinct",
+                "shoe": proc.shoe.describe() if proc.shoe is not None else None,
                 "minimum": d.minimum,
                 "kind": d.kind if d.minimum is not None else "estimate",
                 "smallest_not_excluded": d.estimate_low,
@@ -613,15 +667,29 @@ def evaluate_policy(
             if progress is not None:
                 progress(_offset + done)
 
-        result = assess(
-            proc.procedure,
-            proc.cards,
-            repeats=proc.max_repeats,
-            decks=policy.decks,
-            rng=policy.seed + i,
-            confidence=policy.confidence,
-            progress=update,
-        )
+        if proc.shoe is not None and proc.feature != "distinct":
+            from shufflecheck.analyses.feature_assess import assess_feature
+
+            result = assess_feature(
+                proc.procedure,
+                proc.shoe,
+                proc.feature,
+                repeats=proc.max_repeats,
+                decks=policy.decks,
+                rng=policy.seed + i,
+                confidence=policy.confidence,
+                progress=update,
+            )
+        else:
+            result = assess(
+                proc.procedure,
+                proc.cards,
+                repeats=proc.max_repeats,
+                decks=policy.decks,
+                rng=policy.seed + i,
+                confidence=policy.confidence,
+                progress=update,
+            )
         offset += assessment_work(policy.decks, proc.max_repeats)
         decision = decide(result, policy.metric, policy.target, proc.house, proc)
         settlement = None
@@ -635,6 +703,8 @@ def evaluate_policy(
                 repeats=decision.open_repeats,
                 alpha=policy.alpha,
                 seed=policy.seed + i,
+                shoe=proc.shoe,
+                feature=proc.feature,
             )
         offset += SETTLE_WORK
         if progress is not None:
@@ -653,8 +723,9 @@ def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
             reference=log.reference,
             labels=log.labels,
             fmt=log.format,
-            deck=log.deck,
+            deck=log.deck if log.deck is not None else proc.shoe,
             cards=proc.cards,
+            feature=proc.feature if proc.shoe is not None else None,
             by=log.by,
             time=log.time,
             alpha=policy.alpha,

@@ -83,9 +83,12 @@ class AuditNeed:
     alpha: float
     relative_standard_error: float | None
     simulated: int
+    #: what the audit records: "decks", or "shoes" (the shoe battery)
+    unit: str = "decks"
 
     def as_json(self) -> dict[str, Any]:
         return {
+            "unit": self.unit,
             "repeats": self.repeats,
             "simulated_decks": self.simulated,
             "decks": self.decks,
@@ -150,15 +153,15 @@ class Settlement:
             a = self.audit
             if a.decks is not None:
                 out.append(
-                    f"an audit of about {a.decks:,} recorded decks detects the procedure at "
+                    f"an audit of about {a.decks:,} recorded {a.unit} detects the procedure at "
                     f"{a.repeats} repetition{'s' if a.repeats != 1 else ''} (estimate; power "
                     f"{a.power:g}, family-wise level {a.alpha:g}, {a.test})"
                 )
             else:
                 out.append(
-                    f"power planning on {a.simulated:,} simulated decks finds no test of the "
+                    f"power planning on {a.simulated:,} simulated {a.unit} finds no test of the "
                     f"audit battery with a measurable departure at {a.repeats} "
-                    f"repetition{'s' if a.repeats != 1 else ''}: an audit of recorded decks "
+                    f"repetition{'s' if a.repeats != 1 else ''}: an audit of recorded {a.unit} "
                     "is not expected to detect it (estimate)"
                 )
         return out
@@ -251,20 +254,39 @@ def _certifying_change(
 
 
 def _audit_need(
-    procedure: Procedure, cards: int, repeats: int, alpha: float, seed: int
+    procedure: Procedure,
+    cards: int,
+    repeats: int,
+    alpha: float,
+    seed: int,
+    shoe: Any = None,
+    feature: str | None = None,
 ) -> AuditNeed:
-    from shufflecheck.analyses.plan import plan_power
+    from shufflecheck.analyses.plan import plan_power, plan_shoe_power
 
     simulate = max(4000, min(PLAN_SIMULATE, PLAN_CELLS // cards))
-    ((_, plan),) = plan_power(
-        procedure,
-        cards,
-        [repeats],
-        alpha=alpha,
-        power=PLAN_POWER,
-        simulate=simulate,
-        seed=seed,
-    )
+    if shoe is not None:  # the shoe battery, on consecutive simulated shoes
+        simulate = max(1000, min(PLAN_SIMULATE, PLAN_CELLS // cards))
+        ((_, plan),) = plan_shoe_power(
+            procedure,
+            shoe,
+            [repeats],
+            feature=feature or "rank",
+            alpha=alpha,
+            power=PLAN_POWER,
+            simulate=simulate,
+            seed=seed,
+        )
+    else:
+        ((_, plan),) = plan_power(
+            procedure,
+            cards,
+            [repeats],
+            alpha=alpha,
+            power=PLAN_POWER,
+            simulate=simulate,
+            seed=seed,
+        )
     best = plan.best()
     return AuditNeed(
         repeats,
@@ -274,6 +296,7 @@ def _audit_need(
         alpha,
         None if best is None else best.relative_standard_error,
         simulate,
+        "decks" if shoe is None else "shoes",
     )
 
 
@@ -288,6 +311,8 @@ def settle(
     alpha: float,
     seed: int,
     plan_audit: bool = True,
+    shoe: Any = None,
+    feature: str | None = None,
 ) -> Settlement:
     """What would settle the decision about ``repeats`` repetitions (the house count, or
     the smallest count the lower bounds leave open)."""
@@ -309,7 +334,9 @@ def settle(
             if guess is not None and guess.value <= target:
                 conjectured_minimum = r
                 break
-    audit = _audit_need(procedure, cards, repeats, alpha, seed) if plan_audit else None
+    audit = (
+        _audit_need(procedure, cards, repeats, alpha, seed, shoe, feature) if plan_audit else None
+    )
     unanalysed = tuple(
         dict.fromkeys(
             item.step.describe()

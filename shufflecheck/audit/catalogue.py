@@ -737,6 +737,7 @@ _SHOE: tuple[Statistic, ...] = (
         "(exact integers, per shoe)",
         sentence=_zone_sentence,
         need="multiset",
+        lower_bound=True,
     ),
     Statistic(
         "guess-most-frequent",

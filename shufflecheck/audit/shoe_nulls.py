@@ -37,6 +37,7 @@ from __future__ import annotations
 import math
 from collections import defaultdict
 from collections.abc import Sequence
+from fractions import Fraction
 from functools import cache
 
 from shufflecheck.audit.nulls import Law
@@ -47,6 +48,7 @@ __all__ = [
     "GREEDY_STATE_BUDGET",
     "GuessingOutOfReach",
     "greedy_guessing_law",
+    "greedy_guessing_mean",
     "greedy_state_estimate",
     "matches_law",
     "multinomial",
@@ -398,3 +400,29 @@ def greedy_guessing_law(counts: Sequence[int], *, budget: int | None = None) -> 
         )
     offset, row = _greedy_rows(tuple(sorted(parts, reverse=True)))
     return Law.from_counts(row, multinomial(parts), offset=offset)
+
+
+@cache
+def _greedy_mean(parts: tuple[int, ...]) -> Fraction:
+    n = sum(parts)
+    # Q_m(y) = prod_v sum_{x < m} C(c_v, x) y^x: remaining compositions with every count < m
+    mean_max = [Fraction(0)] * (n + 1)  # E[largest remaining count | r cards remain]
+    for m in range(1, max(parts) + 1):
+        poly = [1]
+        for c in parts:
+            poly = poly_multiply(poly, [math.comb(c, x) for x in range(min(c, m - 1) + 1)])
+        for r in range(1, n + 1):
+            below = poly[r] if r < len(poly) else 0
+            mean_max[r] += 1 - Fraction(below, math.comb(n, r))
+    return sum((mean_max[r] / r for r in range(1, n + 1)), Fraction(0))
+
+
+def greedy_guessing_mean(counts: Sequence[int]) -> Fraction:
+    """Exact mean of the greedy guessing score, for any composition (even where the whole
+    law is out of reach): the guess is right with chance ``M / r`` (``M`` the largest
+    remaining count of ``r`` cards), so the mean is ``sum_r E[M_r] / r``; the remaining
+    counts are multivariate hypergeometric, and ``P(M_r < m)`` is the coefficient of
+    ``y^r`` in ``prod_v sum_{x < m} C(c_v, x) y^x`` over ``C(n, r)`` (the method of
+    Diaconis & Graham 1981 for the expected score).
+    """
+    return _greedy_mean(tuple(sorted(_counts(counts))))

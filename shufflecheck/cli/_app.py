@@ -57,12 +57,17 @@ def option_message(exc: InputError, command: Any) -> str:
     options: dict[str, str] = {}
     for argument in exc.arguments if command is not None else ():
         wanted = _words(argument)
+        exact = argument.replace("-", "_").strip("_")
+        candidates = []
         for param in getattr(command, "params", ()):
             opts = [o for o in getattr(param, "opts", ()) if o.startswith("--")]
             names = {param.name or ""} | {o.lstrip("-") for o in opts}
             if opts and any(_words(n) & wanted for n in names):
-                options[argument] = opts[0]
-                break
+                # an option of exactly the argument's name wins over a singular or plural
+                same = any(n.replace("-", "_").strip("_") == exact for n in names)
+                candidates.append((not same, opts[0]))
+        if candidates:
+            options[argument] = min(candidates, key=lambda c: c[0])[1]
     return exc.naming(options)
 
 

@@ -43,6 +43,17 @@ def assess(
     confidence: Annotated[
         float, typer.Option(help="Confidence of lower bounds and intervals.")
     ] = 0.99,
+    deck: Annotated[
+        str | None,
+        typer.Option(help="A shoe of repeated cards: shoe(packs=6) or a TOML file with copies."),
+    ] = None,
+    feature: Annotated[
+        str | None,
+        typer.Option(
+            help="With a shoe: what the game sees (rank by default; blackjack, baccarat, "
+            "cards, colour, suit, distinct)."
+        ),
+    ] = None,
     plot: Annotated[
         Path | None, typer.Option(help="Draw the bounds against r to this PNG.")
     ] = None,
@@ -64,14 +75,50 @@ def assess(
     from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
-    n = cards if cards is not None else (proc.cards or 52)
+    shoe = None
+    if deck is not None:
+        from shufflecheck.records.shoes import load_shoe
+
+        shoe = load_shoe(deck)
+    if feature is not None and shoe is None:
+        from shufflecheck.common.errors import InputError
+
+        raise InputError(
+            "a feature applies to shoes: give the shoe as the deck, e.g. shoe(packs=6)",
+            argument=("feature", "deck"),
+        )
+    n = shoe.size if shoe is not None else (cards if cards is not None else (proc.cards or 52))
+    if shoe is not None and cards is not None and cards != shoe.size:
+        from shufflecheck.common.errors import InputError
+
+        raise InputError(f"the shoe has {shoe.size} cards, not {cards}", argument="cards")
     units = assessment_work(decks, repeat)
     size = f"{decks:,} decks x {n} cards x {repeat} repetition{'s' if repeat != 1 else ''}"
     long_work = decks * n * repeat >= 10_000_000
     with progress(units if long_work else 0, "simulating", size) as update:
-        result = run_assessment(
-            proc, n, repeats=repeat, decks=decks, rng=seed, confidence=confidence, progress=update
-        )
+        if shoe is not None and (feature or "rank") != "distinct":
+            from shufflecheck.analyses.feature_assess import assess_feature
+
+            result = assess_feature(
+                proc,
+                shoe,
+                feature or "rank",
+                repeats=repeat,
+                decks=decks,
+                rng=seed,
+                confidence=confidence,
+                progress=update,
+            )
+        else:
+            result = run_assessment(
+                proc,
+                n,
+                repeats=repeat,
+                decks=decks,
+                rng=seed,
+                confidence=confidence,
+                progress=update,
+            )
     payload = assessment_json(result)
     figure = _figure(result) if plot or report else None
     if plot is not None:
@@ -126,16 +173,31 @@ def _print(result) -> None:
     from shufflecheck.report.render.terminal import format_table
 
     title = f"'{result.procedure}'" + (f" ({result.name})" if result.name else "")
+    shoe = result.feature != "distinct"
+    unit = "shoe" if shoe else "deck"
     echo(f"Assessment of {title} on {result.cards} cards")
+    if shoe:
+        echo(f"Feature: {result.feature} of {result.deck} (what the game sees).")
+    else:
+        echo(
+            "Feature: distinct cards (every card told apart; a feature a game sees is no farther)."
+        )
     echo(
-        f"{result.decks:,} simulated decks, seed {result.seed}; lower bounds hold at "
+        f"{result.decks:,} simulated {unit}s, seed {result.seed}; lower bounds hold at "
         f"{result.confidence:.0%} confidence."
     )
     for note in result.notes:
         echo(f"Note: {note}")
     echo()
     conjectures = any(row.conjectured for row in result.rows)
-    headers = ["r", "total variation", "how", "separation", "extra guesses/deck", "best strategy"]
+    headers = [
+        "r",
+        "total variation",
+        "how",
+        "separation",
+        f"extra guesses/{unit}",
+        "best strategy",
+    ]
     if conjectures:
         headers.insert(3, "conjectured TV")
     rows = []
@@ -168,10 +230,21 @@ def _print(result) -> None:
     if conjectures:
         echo("  conjectured NOT a bound: the unproven interleaving conjecture (steps between")
         echo("              ideal riffles never raise the separation); never used to certify")
-    echo(
-        f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per deck "
-        f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck (H_{result.cards})"
-    )
+    if shoe:
+        echo("  (shoes: upper bounds are the distinct cards' figures, or the feature's own")
+        echo("              exact figures for ideal riffles; lower bounds from the shoe")
+        echo("              statistics with exact laws, read from the shoe's reference order)")
+        echo(
+            f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per shoe "
+            f"naming a most frequent remaining value, beyond {first.uniform_guesses:.4f}, the "
+            "exact mean for a random shoe"
+        )
+    else:
+        echo(
+            f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per deck "
+            f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck "
+            f"(H_{result.cards})"
+        )
     echo()
     from shufflecheck.analyses.assess import CAUTION
 

@@ -95,14 +95,23 @@ def print_policy(result) -> None:
         else:
             minimum = f"> {proc.max_repeats}"
         standing = f"{d.standing} ({d.standing_how})" if d.standing else "-"
+        feature = getattr(proc, "feature", None) or "distinct"
         rows.append(
-            [proc.name, proc.procedure.describe(), proc.cards, minimum, proc.house or "-", standing]
+            [
+                proc.name,
+                proc.procedure.describe(),
+                proc.cards,
+                feature,
+                minimum,
+                proc.house or "-",
+                standing,
+            ]
         )
     echo(
         format_table(
-            ["procedure", "steps", "cards", "minimum", "house", "house standing"],
+            ["procedure", "steps", "cards", "distances on", "minimum", "house", "house standing"],
             rows,
-            align="llrlrl",
+            align="llrllrl",
         )
     )
     echo()

@@ -27,7 +27,17 @@ def _decision_cells(decision) -> tuple:
         f"{log.table or log.path.name}: {'FLAGGED' if audit.result.flagged else 'not flagged'}"
         for log, audit in decision.audits
     )
-    return (proc.name, proc.procedure.describe(), str(proc.cards), minimum, house, standing, audits)
+    feature = getattr(proc, "feature", None) or "distinct"
+    return (
+        proc.name,
+        proc.procedure.describe(),
+        str(proc.cards),
+        feature,
+        minimum,
+        house,
+        standing,
+        audits,
+    )
 
 
 def policy_payload(result) -> dict[str, Any]:
@@ -114,6 +124,7 @@ def policy_sections(result, *, figures: bool = True) -> list[Section]:
             "procedure",
             "steps",
             "cards",
+            "distances on",
             "minimum repetitions",
             "house count",
             "house standing",
