@@ -11,7 +11,19 @@ import pytest
 
 from ._cli import command_json, one_line_error, run
 
-TOP_KEYS = {"procedure", "name", "cards", "decks", "seed", "confidence", "rows", "notes", "caution"}
+TOP_KEYS = {
+    "procedure",
+    "name",
+    "cards",
+    "feature",  # what the distances are on: distinct cards here (shoes: docs/shoes.md)
+    "deck",
+    "decks",
+    "seed",
+    "confidence",
+    "rows",
+    "notes",
+    "caution",
+}
 ROW_KEYS = {
     "repeats",
     "exact",

@@ -14,7 +14,9 @@ numbers, and the procedures in use, optionally with recorded logs per table::
 
     [[procedure]]
     name = "Hand-dealt poker"
-    cards = 52                      # or: decks = 6 (a shoe of 6 x 52 distinct cards)
+    cards = 52                      # or: decks = 6 (a shoe of 6 x 52 distinct cards), or
+                                    # deck = "shoe(packs=6)" and feature = "blackjack" (a
+                                    # shoe of copies alike, assessed on what the game sees)
     steps = "riffle x3, strip(packets=5), riffle, cut"
     house = 2                       # repetitions the house performs now (optional)
 

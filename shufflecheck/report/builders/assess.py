@@ -152,6 +152,15 @@ def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Pr
             paragraphs=(
                 f"Procedure: {result.procedure} on {result.cards} cards; {result.decks:,} "
                 f"simulated decks (seed {result.seed}).",
+                (
+                    "Distances on: distinct cards (every card told apart; any feature a game "
+                    "sees is no farther from random)."
+                    if result.feature == "distinct"
+                    else f"Distances on the feature '{result.feature}' of {result.deck}: "
+                    "what the game sees, against a uniformly random arrangement of it; the "
+                    "guessing edge is that of a player who names a most frequent remaining "
+                    "value (docs/shoes.md)."
+                ),
                 "Total variation is the largest advantage a player can have on any yes/no "
                 "event about the deck. The guessing edge is what a player who sees each card "
                 "as it is dealt can gain by naming the next card: extra correct guesses per "
