@@ -63,6 +63,7 @@ else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
 __all__ = [
+    "BUILT_IN_DECKS",
     "COLOURS",
     "RANKS",
     "STANDARD_52",
@@ -72,6 +73,7 @@ __all__ = [
     "canonical_code",
     "integer_deck",
     "load_deck",
+    "with_file_dialect",
 ]
 
 #: Ranks in the canonical spelling, ace low (``T`` is ten).
@@ -561,6 +563,8 @@ STANDARD_52 = DeckDefinition.from_cards(
 )
 
 _BUILT_IN = {"standard": STANDARD_52, "standard-52": STANDARD_52}
+#: names of the built-in decks
+BUILT_IN_DECKS = tuple(_BUILT_IN)
 
 
 def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> DeckDefinition:
@@ -597,6 +601,11 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
     text = os.fspath(spec)
     if text in _BUILT_IN:
         return _BUILT_IN[text]
+    if text.strip().lower().startswith("shoe"):
+        raise InputError(
+            f"deck {text!r} is a shoe of repeated cards; this needs a deck of distinct cards "
+            "(shoes are read by audit, assess, policy, power, simulate, mix and track)"
+        )
     path = Path(text)
     if not path.is_file():
         raise InputError(
@@ -609,6 +618,12 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
         raise InputError(f"{text}: not a valid TOML deck definition ({exc})") from None
     except OSError as exc:
         raise InputError(f"{text}: cannot read deck definition ({exc.strerror})") from None
+    if "copies" in data:
+        raise InputError(
+            f"{text}: this deck definition has copies (a shoe of repeated cards); this needs "
+            "a deck of distinct cards (shoes are read by audit, assess, policy, power, "
+            "simulate, mix and track)"
+        )
     unknown = sorted(set(data) - {"name", "description", "cards", "codes", "spelling"})
     if unknown:
         raise InputError(
@@ -630,19 +645,27 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
     description = data.get("description", "")
     if not isinstance(description, str):
         raise InputError(f"{text}: 'description' must be text")
+    try:
+        deck = DeckDefinition.from_cards(name.strip(), cards, description=description, source=text)
+        return with_file_dialect(deck, data, text)
+    except InputError as exc:
+        raise InputError(f"{text}: {exc}") from None
+
+
+def with_file_dialect(
+    deck: DeckDefinition, data: Mapping[str, object], text: str
+) -> DeckDefinition:
+    """``deck`` with the ``[codes]`` and ``[spelling]`` tables of its TOML file ``data``
+    (the reader's own card codes; also used for the kinds of a shoe file)."""
     codes = _text_table(data, "codes", text)
     spelling = data.get("spelling", {})
     if not isinstance(spelling, dict) or set(spelling) - {"ranks", "suits"}:
         raise InputError(f"{text}: [spelling] may hold only the tables ranks and suits")
     ranks = _text_table(spelling, "ranks", text)
     suits = _text_table(spelling, "suits", text)
-    try:
-        deck = DeckDefinition.from_cards(name.strip(), cards, description=description, source=text)
-        if codes or ranks or suits:
-            deck = deck.with_dialect(codes, ranks=ranks, suits=suits, where=f"deck {deck.name!r}")
-        return deck
-    except InputError as exc:
-        raise InputError(f"{text}: {exc}") from None
+    if codes or ranks or suits:
+        deck = deck.with_dialect(codes, ranks=ranks, suits=suits, where=f"deck {deck.name!r}")
+    return deck
 
 
 def _text_table(data: Mapping[str, object], key: str, where: str) -> dict[str, str]:

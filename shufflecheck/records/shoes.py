@@ -50,7 +50,13 @@ from pathlib import Path
 import numpy as np
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.records.cards import RANKS, DeckDefinition, load_deck
+from shufflecheck.records.cards import (
+    BUILT_IN_DECKS,
+    RANKS,
+    DeckDefinition,
+    load_deck,
+    with_file_dialect,
+)
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -345,18 +351,24 @@ def load_shoe(spec: ShoeDefinition | str | os.PathLike[str]) -> ShoeDefinition |
 
 
 def _shoe_from_file(text: str, data: dict) -> ShoeDefinition:
-    unknown = sorted(set(data) - {"name", "description", "cards", "copies"})
+    unknown = sorted(set(data) - {"name", "description", "cards", "copies", "codes", "spelling"})
     if unknown:
         raise InputError(
             f"{text}: unknown key {unknown[0]!r}; a deck definition has name, description, "
-            "cards, copies"
+            "cards, copies, codes, spelling"
         )
     whole = data.get("copies", 1)
     if isinstance(whole, bool) or not isinstance(whole, int) or not 1 <= whole <= _MAX_COPIES:
         raise InputError(f"{text}: 'copies' must be a whole number from 1 to {_MAX_COPIES}")
     cards = data.get("cards")
+    if isinstance(cards, str):  # a built-in deck's cards, e.g. "standard-52"
+        if cards not in BUILT_IN_DECKS:
+            raise InputError(f"{text}: 'cards' = {cards!r} is not a built-in deck (standard-52)")
+        cards = list(load_deck(cards).cards)
     if not isinstance(cards, list) or not cards:
-        raise InputError(f"{text}: 'cards' must be a non-empty list of card codes")
+        raise InputError(
+            f"{text}: 'cards' must be a non-empty list of card codes or a built-in deck's name"
+        )
     plain: list[object] = []
     each: list[int] = []
     for number, entry in enumerate(cards, start=1):
@@ -380,6 +392,7 @@ def _shoe_from_file(text: str, data: dict) -> ShoeDefinition:
         raise InputError(f"{text}: 'description' must be text")
     try:
         base = DeckDefinition.from_cards(name.strip(), plain, description=description, source=text)
+        base = with_file_dialect(base, data, text)
     except InputError as exc:
         raise InputError(f"{text}: {exc}") from None
     if all(c == whole for c in each):
