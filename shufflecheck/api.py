@@ -77,9 +77,12 @@ def audit(
     time : str, sequence or None
         Time of each deck (a column name; with an array input, one value per deck); decks
         must be in time order (per group).
-    deck : str, path or DeckDefinition, optional
+    deck : str, path, DeckDefinition or ShoeDefinition, optional
         Deck definition (default: the built-in 52-card deck for 52 positions, otherwise a
-        deck of that many cards known by integer labels).
+        deck of that many cards known by integer labels). A shoe of repeated cards
+        (``"shoe(packs=6)"``) is tested with the shoe battery; an array then holds kind
+        labels (``0..K-1``, copies alike) and ``feature=`` / ``segment=`` pass on
+        (:func:`~shufflecheck.analyses.audit_log.audit_log`).
     labels : {"codes", "int", "int0", "int1"}, optional
         Default ``int0`` for arrays, ``codes`` otherwise.
     rng : Generator, int or None
@@ -140,7 +143,16 @@ def audit(
             argument="decks",
         )
     count, n = array.shape
-    frame = pd.DataFrame(array, columns=[f"p{k}" for k in range(1, n + 1)])
+    shoe = _shoe_of(deck)
+    if shoe is not None:  # words of kind labels: written out as codes, copies alike
+        if array.size and (array.min() < 0 or array.max() >= shoe.kind_count):
+            raise InputError(
+                f"decks: kind labels of {shoe.name} run from 0 to {shoe.kind_count - 1}",
+                argument="decks",
+            )
+        frame = pd.DataFrame({"order": [shoe.format_order(row) for row in array]})
+    else:
+        frame = pd.DataFrame(array, columns=[f"p{k}" for k in range(1, n + 1)])
     group = None
     if by is not None:
         frame["group"] = _per_deck(by, count, "by")
@@ -149,11 +161,13 @@ def audit(
     if time is not None:
         frame["time"] = [str(t) for t in _per_deck(time, count, "time")]
         stamp = "time"
-    labels = labels or "int0"
+    labels = labels or ("int0" if shoe is None else "codes")
     spec = reference
     if not isinstance(reference, str):
         ref = np.asarray(reference)
-        if ref.ndim == 1:
+        if ref.ndim == 1 and shoe is not None:
+            spec = shoe.format_order(ref)
+        elif ref.ndim == 1:
             spec = " ".join(str(int(x)) for x in ref)
         elif ref.ndim == 2 and ref.shape == array.shape:
             frame["starting order"] = list(ref)
@@ -177,6 +191,15 @@ def audit(
         name="decks",
         **reading,
     )
+
+
+def _shoe_of(deck: Any) -> Any:
+    """The shoe ``deck`` names, or None for a deck of distinct cards."""
+    if deck is None:
+        return None
+    from shufflecheck.records.shoes import load_shoe
+
+    return load_shoe(deck)
 
 
 def _per_deck(values: Any, count: int, name: str) -> list[Any]:
@@ -238,10 +261,16 @@ def assess(
     decks: int = 100_000,
     seed: int | None = 1,
     confidence: float = 0.99,
+    deck: Any = None,
+    feature: str | None = None,
 ) -> Assessment:
     """A house procedure (``"riffle x3, strip, riffle, cut"`` or a TOML file) repeated
     ``r = 1..repeats`` times: exact distances or rigorous bounds, Monte Carlo lower bounds
     and the guessing-game edge (``decks`` simulated decks, ``seed`` for reproducibility).
+
+    With a shoe (``deck="shoe(packs=6)"``) the distances are on ``feature``, what the game
+    sees (``rank`` by default; ``blackjack``, ``baccarat``, ``cards``, ``colour``, ``suit``;
+    ``distinct`` for every card told apart), each labelled (docs/shoes.md).
 
     Examples
     --------
@@ -253,9 +282,23 @@ def assess(
     from shufflecheck.analyses.assess import assess as run
     from shufflecheck.models.procedures import procedure_from_argument
 
+    proc = procedure_from_argument(procedure)
+    shoe = _shoe_for(deck, feature, cards)
+    if shoe is not None and (feature or "rank") != "distinct":
+        from shufflecheck.analyses.feature_assess import assess_feature
+
+        return assess_feature(
+            proc,
+            shoe,
+            feature or "rank",
+            repeats=repeats,
+            decks=decks,
+            rng=seed,
+            confidence=confidence,
+        )
     return run(
-        procedure_from_argument(procedure),
-        cards,
+        proc,
+        cards if shoe is None else shoe.size,
         repeats=repeats,
         decks=decks,
         rng=seed,
@@ -272,9 +315,13 @@ def power(
     power: float = 0.9,
     simulate: int = 4000,
     seed: int = 1,
+    deck: Any = None,
+    feature: str | None = None,
 ) -> PowerPlan:
     """Recorded decks each test of the audit battery needs to flag ``procedure`` (repeated
-    ``repeats`` times per deck) with the given power at family-wise ``alpha``.
+    ``repeats`` times per deck) with the given power at family-wise ``alpha``; with a shoe
+    (``deck="shoe(packs=6)"``, ``feature`` as in :func:`assess`), recorded shoes for the
+    shoe battery.
 
     Examples
     --------
@@ -287,10 +334,40 @@ def power(
     from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
+    shoe = _shoe_for(deck, feature, cards)
+    if shoe is not None:
+        from shufflecheck.analyses.plan import plan_shoe_power
+
+        plans = plan_shoe_power(
+            proc,
+            shoe,
+            [repeats],
+            feature=feature or "rank",
+            alpha=alpha,
+            power=power,
+            simulate=simulate,
+            seed=seed,
+        )
+        return plans[0][1]
     plans = plan_power(
         proc, cards, [repeats], alpha=alpha, power=power, simulate=simulate, seed=seed
     )
     return plans[0][1]
+
+
+def _shoe_for(deck: Any, feature: str | None, cards: int) -> Any:
+    """The shoe of an assessment or plan (None without one); a feature needs a shoe."""
+    from shufflecheck.common.errors import InputError
+
+    shoe = _shoe_of(deck)
+    if shoe is None and (feature is not None or deck is not None):
+        raise InputError(
+            "deck and feature are for shoes of repeated cards, e.g. deck='shoe(packs=6)'",
+            argument=("deck", "feature"),
+        )
+    if shoe is not None and cards not in (52, shoe.size):
+        raise InputError(f"the shoe has {shoe.size} cards, not {cards}", argument="cards")
+    return shoe
 
 
 def policy(path: str | os.PathLike[str]) -> PolicyResult:

@@ -254,3 +254,58 @@ class TestShoeLogs:
         write_log(log, np.tile(np.arange(52), (3, 1)), None)
         with pytest.raises(InputError, match="apply to shoes"):
             audit_log(log, feature="blackjack")
+
+    def test_shoe_file_in_a_dialect(self, tmp_path):
+        path = tmp_path / "rig.toml"
+        path.write_text(
+            'name = "rig-shoe"\ncopies = 2\ncards = "standard-52"\n'
+            '[spelling]\nranks = { "1" = "A", "B" = "J" }\n',
+            encoding="utf-8",
+        )
+        definition = load_shoe(path)
+        assert definition.size == 104 and definition.lookup("1S") == definition.lookup("AS")
+        codes = definition.format_order(definition.reference_kinds).split()
+        spelled = [c.replace("A", "1").replace("J", "B") for c in codes]
+        kinds, reason, _ = check_shoe_row(spelled, definition)
+        assert reason is None and (kinds == definition.physical_kinds()).all()
+        log = tmp_path / "rig.csv"
+        log.write_text("order\n" + " ".join(spelled) + "\n", encoding="utf-8")
+        assert (read_log(log, deck=path).read_all().decks[0] == definition.physical_kinds()).all()
+
+    def test_split_logs_equal_one_log(self, tmp_path):
+        # a shoe log split over three files audits exactly as one file (the first shoe of
+        # each file is tested against the last shoe of the file before)
+        orders = simulate_play(parse_procedure("grab"), 104, 90, rng=3)
+        whole = tmp_path / "whole.csv"
+        write_log(whole, orders, "shoe(packs=2)", {"shoe": list(range(91))})
+        lines = whole.read_text(encoding="utf-8").splitlines()
+        folder = tmp_path / "parts"
+        folder.mkdir()
+        for k, (lo, hi) in enumerate([(1, 30), (30, 61), (61, 92)]):
+            (folder / f"part{k}.csv").write_text(
+                "\n".join([lines[0], *lines[lo:hi]]) + "\n", encoding="utf-8"
+            )
+        one = audit_log(whole, deck="shoe(packs=2)", feature="blackjack")
+        parts = audit_log(folder, deck="shoe(packs=2)", feature="blackjack")
+        assert parts.tested == one.tested == 90
+        assert [(t.name, t.statistic, t.log10_p_value) for t in one.result.overall.tests] == [
+            (t.name, t.statistic, t.log10_p_value) for t in parts.result.overall.tests
+        ]
+
+    def test_pairs_reference_and_no_column_reference(self, tmp_path):
+        orders = simulate_play(parse_procedure("grab"), 104, 20, rng=5)
+        log = tmp_path / "pairs.csv"
+        write_log(log, orders, "shoe(packs=2)", {"shoe": list(range(21))})
+        result = audit_log(log, deck="shoe(packs=2)", feature="colour", reference="pairs")
+        assert result.tested == 10 and result.reference_only == 11  # the odd last row too
+        with pytest.raises(InputError, match="column:' is for decks of distinct cards"):
+            audit_log(log, deck="shoe(packs=2)", reference="column:before")
+
+    def test_summary_survives_pickling(self):
+        import pickle
+
+        ctx = ShoeContext.of(shoe(2), "blackjack")
+        summary = BatterySummary.empty(104, shoe=ctx)
+        again = pickle.loads(pickle.dumps(summary))
+        assert [s.name for s in again.statistics] == [s.name for s in summary.statistics]
+        assert again.shoe == ctx

@@ -264,6 +264,36 @@ class TestCommandLine:
         assert result.exit_code == 2 and "PROCEDURE" in result.stderr
 
 
+class TestPythonApi:
+    def test_audit_an_array_of_kind_labels(self):
+        import shufflecheck
+
+        two = shoe(2)
+        rng = np.random.default_rng(1)
+        words = two.physical_kinds()[np.argsort(rng.random((120, 104)), axis=1)]
+        result = shufflecheck.audit(words, deck="shoe(packs=2)", feature="colour")
+        assert result.tested == 119 and not result.result.flagged
+        assert result.to_dict()["log"]["shoe"]["feature"] == "colour"
+        fixed = shufflecheck.audit(
+            words, deck="shoe(packs=2)", feature="colour", reference=two.physical_kinds()
+        )
+        assert fixed.tested == 120
+        with pytest.raises(InputError, match="kind labels"):
+            shufflecheck.audit(words + 60, deck="shoe(packs=2)")
+
+    def test_assess_and_power_on_a_feature(self):
+        import shufflecheck
+
+        result = shufflecheck.assess(
+            "grab", deck="shoe(packs=2)", feature="blackjack", repeats=2, decks=2000
+        )
+        assert result.feature == "blackjack" and len(result.to_frame()) == 2
+        plan = shufflecheck.power("grab", deck="shoe(packs=2)", feature="colour", simulate=300)
+        assert plan.cards == 104 and plan.best().decks is not None
+        with pytest.raises(InputError, match="for shoes"):
+            shufflecheck.assess("riffle", feature="blackjack")
+
+
 def test_tracking_span_of_a_random_shoe():
     # the smallest span holding 47 of 52 random positions of 312: its Monte Carlo mean
     # (the baseline of every tracking figure) against a direct simulation by sorting

@@ -72,6 +72,7 @@ class SmallLog:
     needed: int
     power: float
     detectable: tuple[tuple[str, str, Any], ...]
+    items: str = "decks"
 
     def highlights(self) -> tuple[tuple[str, str, Any], ...]:
         """The best guessing strategy, then rising sequences, then the most sensitive rest."""
@@ -83,7 +84,7 @@ class SmallLog:
     def text(self) -> str:
         shown = "; ".join(f"{title} by {q.text()}" for _, title, q in self.highlights())
         return (
-            f"a small log: {self.decks:,} decks tested, fewer than the {self.needed:,} its "
+            f"a small log: {self.decks:,} {self.items} tested, fewer than the {self.needed:,} its "
             f"battery is built for; with power {self.power:g} it flags only large "
             f"departures, e.g. a shift of {shown}"
         )
@@ -313,13 +314,17 @@ def finish_audit(
     needed = int(MONTE_CARLO_BELOW * options.deck.size)
     if options.shoe is not None:  # the position-by-value test: 5 expected per cell
         needed = math.ceil(MONTE_CARLO_BELOW * options.deck.size / min(options.shoe.class_counts))
+    items = "decks" if options.shoe is None else "shoes"
     if summary.decks < needed:
         power = 0.9
         small = SmallLog(
             summary.decks,
             needed,
             power,
-            detectable_shifts(summary.statistics, summary.laws, summary.decks, alpha, power),
+            detectable_shifts(
+                summary.statistics, summary.laws, summary.decks, alpha, power, items=items
+            ),
+            items,
         )
     return LogAudit(
         path=Path(shown),

@@ -176,9 +176,9 @@ def run_battery(
     )
     flagged = any(t.flagged for t in tests)
     when = None
-    if flagged and since_when and tallies.series is not None:
-        when = _since_when(tallies.series, tests, statistics, laws)
     unit = "deck" if tallies.class_counts is None else "shoe"
+    if flagged and since_when and tallies.series is not None:
+        when = _since_when(tallies.series, tests, statistics, laws, unit)
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
@@ -187,6 +187,7 @@ def _since_when(
     tests: tuple[TestResult, ...],
     statistics: Sequence[Statistic],
     laws: Mapping[str, Law],
+    unit: str = "deck",
 ) -> SinceWhen | None:
     candidates = [t for t in tests if t.flagged and t.name in series]
     if not candidates:
@@ -211,5 +212,5 @@ def _since_when(
             "estimate: likelihood-ratio (CUSUM) scan for a lasting mean shift, Gaussian "
             "working model with the exact null mean and variance; no confidence interval"
         ),
-        text=describe(point, values.size, stat.what, mean0),
+        text=describe(point, values.size, stat.what, mean0, unit=unit),
     )

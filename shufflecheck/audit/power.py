@@ -364,8 +364,11 @@ def detectable_shifts(
     decks: int,
     alpha: float,
     power: float = 0.9,
+    *,
+    items: str = "decks",
 ) -> tuple[tuple[str, str, Any], ...]:
-    """Shifts of each test's per-deck mean that ``decks`` decks flag with power ``power``.
+    """Shifts of each test's per-deck mean that ``decks`` decks flag with power ``power``
+    (``items`` names what is counted in the methods' text: ``shoes`` for a shoe battery).
 
     With ``m`` tests in the battery, a test at level ``alpha / m`` (halved per tail when
     two-sided) flags the battery under Holm's method whatever the others do (Holm's first
@@ -393,8 +396,8 @@ def detectable_shifts(
     rows = []
     for stat in statistics:
         law = laws.get(stat.name)
-        if law is None or law.low == law.high:
-            continue
+        if not isinstance(law, Law) or law.low == law.high:
+            continue  # no law (position tests), a keyed law (the zone test), or no spread
         count = decks - 1 if stat.shape == "consecutive" else decks
         if count < 1:
             continue
@@ -419,7 +422,7 @@ def detectable_shifts(
                     unit=stat.unit,
                     digits=2,
                     method=(
-                        f"exact critical value of the sum over {count} decks at level "
+                        f"exact critical value of the sum over {count} {items} at level "
                         f"alpha/{m}, Cantelli's inequality for power {power:g}"
                     ),
                 ),

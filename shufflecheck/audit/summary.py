@@ -182,25 +182,7 @@ class BatterySummary:
         self.strategies = strategies
         self.keep_series = keep_series
         self.shoe = shoe
-        self.context = DeckContext.checked(
-            n, suits=suits, colours=colours, strategies=strategies, shoe=shoe
-        )
-        #: the statistics of the battery, in report order (from the catalogue)
-        self.statistics = battery_statistics(self.context)
-        #: exact null law of each statistic with one (all but the position tests); for a
-        #: statistic whose law depends on the deck, a mapping key -> law
-        self.laws: dict[str, Law | _KeyedLaws] = {}
-        self._lengths: dict[str, int | tuple[int, int]] = {}
-        for stat in self.statistics:
-            if stat.keyed_law is not None:
-                make = stat.keyed_law
-                self.laws[stat.name] = _KeyedLaws(lambda key, make=make: make(self.context, key))
-                assert shoe is not None and shoe.zones is not None
-                self._lengths[stat.name] = (n + 1, max(shoe.zones) + 1)
-            elif stat.law is not None:
-                law = stat.law(self.context)
-                self.laws[stat.name] = law
-                self._lengths[stat.name] = law.high + 1
+        self._catalogue()
         self._dtypes = {
             name: np.int16 if not isinstance(size, tuple) and size <= 32767 else np.int32
             for name, size in self._lengths.items()
@@ -220,11 +202,31 @@ class BatterySummary:
 
     def __setstate__(self, state: dict) -> None:
         self.__dict__.update(state)
+        self._catalogue()
+
+    def _catalogue(self) -> None:
+        """The context, the battery's records and their laws (from n, suits, colours,
+        strategies and shoe)."""
+        n, shoe = self.n, self.shoe
         self.context = DeckContext.checked(
-            self.n, suits=self.suits, colours=self.colours, strategies=self.strategies
+            n, suits=self.suits, colours=self.colours, strategies=self.strategies, shoe=shoe
         )
+        #: the statistics of the battery, in report order (from the catalogue)
         self.statistics = battery_statistics(self.context)
-        self.laws = {s.name: s.law(self.context) for s in self.statistics if s.law is not None}
+        #: exact null law of each statistic with one (all but the position tests); for a
+        #: statistic whose law depends on the deck, a mapping key -> law
+        self.laws: dict[str, Law | _KeyedLaws] = {}
+        self._lengths: dict[str, int | tuple[int, int]] = {}
+        for stat in self.statistics:
+            if stat.keyed_law is not None:
+                make = stat.keyed_law
+                self.laws[stat.name] = _KeyedLaws(lambda key, make=make: make(self.context, key))
+                assert shoe is not None and shoe.zones is not None
+                self._lengths[stat.name] = (n + 1, max(shoe.zones) + 1)
+            elif stat.law is not None:
+                law = stat.law(self.context)
+                self.laws[stat.name] = law
+                self._lengths[stat.name] = law.high + 1
 
     @classmethod
     def empty(

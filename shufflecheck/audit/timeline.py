@@ -72,17 +72,20 @@ def change_point(series: np.ndarray, mean0: float, var0: float, direction: int) 
     return ChangePoint(start, float(z[start]), before, float(x[start:].mean()))
 
 
-def describe(point: ChangePoint, decks: int, what: str, expected: float) -> str:
-    """One sentence for a report (``what``: the statistic, e.g. "rising sequences")."""
+def describe(
+    point: ChangePoint, decks: int, what: str, expected: float, *, unit: str = "deck"
+) -> str:
+    """One sentence for a report (``what``: the statistic, e.g. "rising sequences";
+    ``unit``: what is counted, ``deck`` or ``shoe``)."""
     if point.start == 0:
         return (
-            f"the departure in {what} is present from the first deck on "
-            f"({point.mean_after:.3g} per deck vs {expected:.3g} expected); estimate"
+            f"the departure in {what} is present from the first {unit} on "
+            f"({point.mean_after:.3g} per {unit} vs {expected:.3g} expected); estimate"
         )
     after = decks - point.start
     return (
-        f"the departure in {what} most likely began at deck {point.start + 1} of {decks} "
-        f"(the {after} decks from there average {point.mean_after:.3g} vs {expected:.3g} "
+        f"the departure in {what} most likely began at {unit} {point.start + 1} of {decks} "
+        f"(the {after} {unit}s from there average {point.mean_after:.3g} vs {expected:.3g} "
         f"expected, those before {point.mean_before:.3g}); estimate, scan Z = "
         f"{point.statistic:.1f}"
     )
