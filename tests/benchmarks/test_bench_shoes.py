@@ -95,7 +95,8 @@ def test_guessing_null_shoes(benchmark, figures):
         for name, counts in (
             ("six-pack shoe, colours (156 + 156)", [156, 156]),
             ("two-pack shoe, blackjack values (8 x 9 + 32)", [8] * 9 + [32]),
-            ("six-pack shoe, suits (4 x 78)", [78] * 4),
+            ("six-pack shoe, tens against the rest (96 + 216)", [96, 216]),
+            ("one pack, blackjack values (4 x 9 + 16)", [4] * 9 + [16]),
         ):
             shoe_nulls._greedy_rows.cache_clear()
             timed[name] = _cpu(shoe_nulls.greedy_guessing_law, counts)[0]
