@@ -101,8 +101,20 @@ class TestTranspositionSpectrum:
             rows.append((lam, value, dimension(lam) ** 2))
         assert transposition.spectrum(n, hold=hold) == group_eigenvalues(rows)
 
+    def test_hook_exponents_against_hook_lengths(self):
+        # prime exponents of prod(hooks), checked against the hook lengths cell by cell
+        from shufflecheck.core.partitions import hook_lengths, hook_product_exponents
+
+        for n in (1, 2, 6, 13, 21):
+            m = multiplicity_matrix(n)
+            primes, exponents = hook_product_exponents(m)
+            for row, e in zip(m, exponents, strict=True):
+                shape = _state(row)
+                product = math.prod(h for line in hook_lengths(shape) for h in line)
+                assert product == math.prod(p**k for p, k in zip(primes, e.tolist(), strict=True))
+
     def test_squared_dimensions_by_content_sum(self):
-        for n in (0, 1, 5, 17, 26):
+        for n in (0, 1, 2, 3, 5, 17, 26):
             expected: dict[int, int] = {}
             for lam in partitions(n):
                 c = content_sum(lam)
@@ -141,6 +153,108 @@ class TestTranspositionSpectrum:
         assert transposition.lumped_chain(9, None) is chain
         assert transposition.lumped_chain(9, Fraction(1, 9)) is chain
         assert transposition.lumped_chain(9, 1 / 9) is chain
+
+
+def _reference_chain(n: int, hold: float) -> dict[tuple[int, ...], dict[tuple[int, ...], float]]:
+    # the lumped chain written out cycle type by cycle type (Diaconis & Shahshahani 1981,
+    # Section 2): a transposition merges two cycles of lengths s, t (s t transpositions per
+    # pair of cycles) or splits an L-cycle into j and L - j (L transpositions for j < L/2,
+    # L/2 for j = L/2); each transposition has probability (1 - hold) / C(n, 2)
+    pairs = n * (n - 1) // 2
+    chain: dict[tuple[int, ...], dict[tuple[int, ...], float]] = {}
+    for mu in partitions(n):
+        counts: dict[tuple[int, ...], int] = {}
+        cycles = list(mu)
+        for i in range(len(cycles)):
+            for j in range(i + 1, len(cycles)):
+                rest = cycles[:i] + cycles[i + 1 : j] + cycles[j + 1 :] + [cycles[i] + cycles[j]]
+                nu = tuple(sorted(rest, reverse=True))
+                counts[nu] = counts.get(nu, 0) + cycles[i] * cycles[j]
+            length = cycles[i]
+            for part in range(1, length // 2 + 1):
+                rest = cycles[:i] + cycles[i + 1 :] + [part, length - part]
+                nu = tuple(sorted(rest, reverse=True))
+                counts[nu] = counts.get(nu, 0) + (length if 2 * part < length else part)
+        row = {nu: c * ((1.0 - hold) / pairs) for nu, c in counts.items()}
+        row[mu] = row.get(mu, 0.0) + hold
+        chain[mu] = row  # source mu -> destination nu
+    return chain
+
+
+def _state(row: np.ndarray) -> tuple[int, ...]:
+    return tuple(s for s in range(len(row) - 1, 0, -1) for _ in range(int(row[s])))
+
+
+def _previous_distances(law, uniform, z_values):
+    # the previous distance pass, written out (TV, separation, KL bits)
+    from scipy.special import xlogy
+
+    tv = 0.5 * float(np.abs(law - uniform).sum())
+    t = law * z_values
+    separation = float(max(0.0, 1.0 - t.min()))
+    kl = float(np.dot(law, np.log(np.maximum(t, 1e-300)))) / math.log(2)
+    if kl < 1e-3:
+        u = t - 1.0
+        if float(np.abs(u).max()) < 1e-3:
+            f = u * u * (0.5 + u * (-1.0 / 6.0 + u * (1.0 / 12.0 - u / 20.0)))
+        else:
+            f = xlogy(t, t) - u
+            near = np.abs(u) < 1e-3
+            un = u[near]
+            f[near] = un * un * (0.5 + un * (-1.0 / 6.0 + un * (1.0 / 12.0 - un / 20.0)))
+        kl = float(np.dot(uniform, f)) / math.log(2)
+    return tv, separation, kl
+
+
+class TestLumpedChain:
+    @pytest.mark.parametrize("n", [2, 3, 4, 7, 10, 13])
+    @pytest.mark.parametrize("hold", [None, 0.0, 0.3])
+    def test_transitions_equal_the_written_out_chain(self, n, hold):
+        # built without lookups (merges paired by row order): every transition probability
+        # must equal the cycle-type-by-cycle-type chain exactly
+        chain = transposition.lumped_chain(n, hold)
+        h = float(transposition.check_hold(n, hold))
+        reference = _reference_chain(n, h)
+        states = [_state(row) for row in chain.multiplicities]
+        assert sorted(states) == sorted(reference)
+        dense = chain.matrix.toarray()
+        for col, mu in enumerate(states):
+            got = {states[r]: dense[r, col] for r in np.flatnonzero(dense[:, col])}
+            expected = {nu: v for nu, v in reference[mu].items() if v != 0.0}
+            assert got == expected
+        # states run by rank n - (number of cycles), the identity first
+        ranks = [n - len(mu) for mu in states]
+        assert ranks == sorted(ranks) and chain.identity == 0
+        assert chain.rank_ends.tolist() == np.cumsum(np.bincount(ranks, minlength=n)).tolist()
+
+    def test_leading_rows_equal_whole_products(self):
+        # products restricted to the states a walk from the identity can reach are the
+        # whole products bit for bit
+        chain = transposition.lumped_chain(26)
+        whole = np.zeros(chain.matrix.shape[0])
+        whole[chain.identity] = 1.0
+        short = whole.copy()
+        for k in range(1, 40):
+            whole, short = chain.step(whole), chain.advance(short, k)
+            assert np.array_equal(whole, short)
+            reach = chain.rank_ends[min(k, 25)]
+            assert not whole[reach:].any()
+
+    @pytest.mark.parametrize(
+        ("n", "hold", "steps"), [(30, None, 200), (18, 0.0, 120), (22, 0.3, 90)]
+    )
+    def test_rows_equal_the_previous_distance_pass(self, n, hold, steps):
+        chain = transposition.lumped_chain(n, hold)
+        uniform, z_values = chain.uniform, np.exp(chain.log_z)
+        rows = transposition.distance_curve(n, steps, hold=hold, bound=False).rows
+        law = np.zeros(len(uniform))
+        law[chain.identity] = 1.0
+        for k, row in enumerate(rows, start=1):
+            law = chain.step(law)
+            np.putmask(law, law < 1e-300, 0.0)
+            expected = _previous_distances(law, uniform, z_values)
+            got = (row.total_variation, row.separation, row.kl_bits)
+            assert got == pytest.approx(expected, rel=1e-12, abs=1e-15), k
 
 
 class TestCharacters:

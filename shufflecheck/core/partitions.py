@@ -420,12 +420,11 @@ def _hook_powers(m: np.ndarray, width: int) -> np.ndarray:
     c2 = c1 - mult[a_index]
     s_b, s_b1 = size[b_index], nxt[b_index]
     who = owner[a_index] * width + 1
-    cells = count * width
-    powers = np.bincount(who + c1 - s_b1, minlength=cells)
-    powers += np.bincount(who + c2 - s_b, minlength=cells)
-    powers -= np.bincount(who + c1 - s_b, minlength=cells)
-    powers -= np.bincount(who + c2 - s_b1, minlength=cells)
-    return powers.reshape(count, width)
+    # one weighted count (+1, +1, -1, -1): integers, exact in float64
+    index = np.concatenate([who + c1 - s_b1, who + c2 - s_b, who + c1 - s_b, who + c2 - s_b1])
+    signs = np.ones(len(index))
+    signs[2 * len(who) :] = -1.0
+    return np.bincount(index, weights=signs, minlength=count * width).reshape(count, width)
 
 
 def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
@@ -445,18 +444,19 @@ def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
     primes = _primes_upto(n)
     if n == 0 or not primes:
         return primes, np.zeros((count, len(primes)), dtype=np.int64)
-    width = 2 * n + 2  # G index x + 1 for x = -1 .. 2n
-    # exponent of p in G(x) = sum_{y <= x} v_p(y!), for x = -1 .. 2n
-    table = np.zeros((width, len(primes)), dtype=np.float32)
+    # G index x + 1 for x = -1 .. n: every argument is a hook length (at most n) minus a
+    # column count, and at least -1
+    width = n + 2
+    # exponent of p in G(x) = sum_{y <= x} v_p(y!), for x = -1 .. n
+    table = np.zeros((width, len(primes)))
     for k, p in enumerate(primes):
         table[1:, k] = np.cumsum([_legendre(p, y) for y in range(width - 1)])
     exponents = np.empty((count, len(primes)), dtype=np.int64)
     chunk = 8192  # partitions at a time: the work arrays stay small and warm in cache
     for lo in range(0, count, chunk):
         hi = min(count, lo + chunk)
-        powers = _hook_powers(m[lo:hi], width)
-        # float32 products are exact: every partial sum is an integer far below 2^24
-        exponents[lo:hi] = np.rint(powers.astype(np.float32) @ table)
+        # float64 products are exact: every partial sum is an integer far below 2^53
+        exponents[lo:hi] = np.rint(_hook_powers(m[lo:hi], width) @ table)
     return primes, exponents
 
 
@@ -478,13 +478,24 @@ def squared_dimension_sums(n: int) -> dict[int, int]:
     primes below ``2^31`` to exceed ``n!``, and each sum is rebuilt by the Chinese
     remainder theorem. The sums are checked to add up to ``n!`` (``sum d^2 = n!``).
     """
+    if n <= 1:  # the one shape of 0 or 1 cell: d = 1, content sum 0
+        return {0: 1}
     m = multiplicity_matrix(n)
+    # A shape and its conjugate have the same dimension and opposite content sums, so only
+    # the shapes at least as wide as they are long (lambda_1 >= number of parts, about 52%)
+    # are computed; those strictly wider stand in for their conjugates as well.
+    length = m[:, 1:].sum(axis=1, dtype=np.int64)
+    largest = n - np.argmax(m[:, :0:-1] != 0, axis=1)
+    wide = largest >= length
+    m = m[wide]
+    mirrored = (largest > length)[wide]
     primes, exponents = hook_product_exponents(m)
     top = np.array([_legendre(p, n) for p in primes], dtype=np.int64)
     free = top - exponents  # exponents of d_lambda
     if (free < 0).any():  # pragma: no cover - would mean a wrong hook product
         raise AssertionError("hook product does not divide n!")
-    sums = content_sums(m)
+    own = content_sums(m)
+    sums = np.concatenate([own, -own[mirrored]])
     order = np.argsort(sums, kind="stable")
     keys, starts = np.unique(sums[order], return_index=True)
     fact = math.factorial(n)
@@ -513,6 +524,7 @@ def squared_dimension_sums(n: int) -> dict[int, int]:
                 table = (table[:, None] * powers[None, :] % q).ravel()
             d = d * table[index] % q
         square = d * d % q
+        square = np.concatenate([square, square[mirrored]])
         residues.append(np.add.reduceat(square[order], starts) % q)  # < 2^31 * p(n) < 2^63
         moduli.append(q)
     modulus = math.prod(moduli)

@@ -33,6 +33,7 @@ References
 from __future__ import annotations
 
 import dataclasses
+import itertools
 import math
 from collections.abc import Callable
 from fractions import Fraction
@@ -150,9 +151,13 @@ def check_spectrum_cards(cards: int) -> None:
 class LumpedChain:
     """The random-transposition walk lumped to cycle types.
 
-    ``step(p)`` maps a law on cycle types (a float vector over the rows of
-    ``multiplicities``) to the law one step later. ``log_z`` holds ``ln z_mu`` per state;
-    ``identity`` is the index of the cycle type ``(1^n)``.
+    States are ordered by rank ``n - (number of cycles)`` (the fewest transpositions whose
+    product has the cycle type), so ``multiplicities`` rows run from the identity ``(1^n)``
+    (``identity == 0``) to the ``n``-cycle; ``rank_ends[r]`` is the number of states of
+    rank ``<= r``. A step changes the rank by at most one, so after ``k`` steps from the
+    identity only the first ``rank_ends[k]`` states can hold mass. ``log_z`` holds
+    ``ln z_mu`` per state; ``matrix`` is the step (scipy CSR, rows = destination, columns
+    = source).
     """
 
     cards: int
@@ -162,6 +167,7 @@ class LumpedChain:
     identity: int
     matrix: object  # scipy.sparse CSR, rows = destination, columns = source
     transitions: int
+    rank_ends: np.ndarray
 
     @property
     def uniform(self) -> np.ndarray:
@@ -169,8 +175,34 @@ class LumpedChain:
         return np.exp(-self.log_z)
 
     def step(self, law: np.ndarray) -> np.ndarray:
-        """The law one step later (one sparse product, single-threaded)."""
+        """The law one step later (one sparse product over all states)."""
         return self.matrix @ law
+
+    def advance(self, law: np.ndarray, k: int) -> np.ndarray:
+        """Step ``k`` from the identity: the law after ``k - 1`` steps to the law after ``k``.
+
+        Only the rows of states of rank ``<= k`` are computed (the others are exactly zero);
+        the values equal :meth:`step`'s bit for bit, because the products skipped multiply
+        exact zeros.
+        """
+        reach = int(self.rank_ends[min(k, len(self.rank_ends) - 1)])
+        if reach >= len(law):
+            return self.matrix @ law
+        out = np.zeros_like(law)
+        out[:reach] = _leading_rows(self.matrix, reach) @ law
+        return out
+
+
+def _leading_rows(matrix, rows: int):
+    """The first ``rows`` rows of a CSR matrix as a CSR matrix sharing its arrays (no copy)."""
+    from scipy import sparse
+
+    head = sparse.csr_matrix((rows, matrix.shape[1]), dtype=matrix.dtype)
+    end = int(matrix.indptr[rows])
+    head.indptr = matrix.indptr[: rows + 1]
+    head.indices = matrix.indices[:end]
+    head.data = matrix.data[:end]
+    return head
 
 
 def _log_z(m: np.ndarray) -> np.ndarray:
@@ -188,8 +220,7 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
     """The lumped chain for ``cards`` cards, built once per (cards, hold) and cached.
 
     ``hold`` is normalised first (``None``, ``Fraction(1, n)`` and ``1/n`` are one chain).
-    Built vectorized; states are looked up by a 64-bit linear hash of the multiplicity
-    vector, checked to be collision-free on all states.
+    Built vectorized with no lookups (see :func:`_build_chain`), states ordered by rank.
     """
     if not 2 <= cards <= MAX_CHAIN_CARDS:
         raise InputError(
@@ -203,56 +234,49 @@ def lumped_chain(cards: int, hold: float | Fraction | None = None) -> LumpedChai
 
 @lru_cache(maxsize=2)
 def _build_chain(cards: int, h: float) -> LumpedChain:
-    import pandas as pd
     from scipy import sparse
 
     n = cards
     m = multiplicity_matrix(n)
     states = len(m)
-    weights = np.random.default_rng(0x5EED).integers(1, 2**63, size=n + 1, dtype=np.uint64)
-    weights |= np.uint64(1)
-    keys = np.zeros(states, dtype=np.uint64)
-    mf = np.asfortranarray(m)
-    with np.errstate(over="ignore"):
-        for s in range(1, n + 1):
-            keys += mf[:, s].astype(np.uint64) * weights[s]
-    index = pd.Index(keys)
-    if not index.is_unique:  # pragma: no cover - a 64-bit collision among p(n) states
-        raise RuntimeError("hash collision among cycle types; change the hash seed")
-    rows_with = [np.nonzero(mf[:, s])[0].astype(np.int32) if s else None for s in range(n + 1)]
-    # Every split is the reverse of exactly one merge: generate the merges mu -> nu (one hash
-    # lookup each) and read the reverse split nu -> mu off the same pair of states. Counts
-    # fit in int32 (at most n(n-1)/2); small dtypes keep the build's memory (and the cost of
-    # touching fresh pages) down.
+    by_size = np.ascontiguousarray(m.T)  # one row per cycle length: contiguous reads
+    rows_with = [np.flatnonzero(by_size[s]).astype(np.int32) for s in range(n + 1)]
+    # Merging an s-cycle and a t-cycle of mu gives nu = mu - e_s - e_t + e_(s+t). For fixed
+    # (s, t) this is a bijection from the states with such cycles onto the states with an
+    # (s + t)-cycle (both sides are the partitions of n - s - t with parts added), and it
+    # keeps the row order, which is lexicographic in the multiplicities and so unchanged by
+    # adding a fixed vector. The k-th state with an s- and a t-cycle therefore merges into
+    # the k-th state with an (s + t)-cycle: no lookups. Every split is the reverse of one
+    # merge and is read off the same pair. Counts fit in int32 (at most n(n-1)/2).
     merge_from: list[np.ndarray] = []
     merge_to: list[np.ndarray] = []
     merge_count: list[np.ndarray] = []
     split_count: list[np.ndarray] = []
     for t in range(1, n):
-        top = min(t, n - t)  # merge an s-cycle (s <= t, s + t <= n) with a different t-cycle
-        holders = rows_with[t]
+        holders = rows_with[t]  # merge an s-cycle (s <= t, s + t <= n) with another t-cycle
         if holders.size == 0:
             continue
-        mt = mf[holders, t].astype(np.int32)
-        s_sizes = np.arange(1, top + 1, dtype=np.int32)
-        ms = mf[holders, 1 : top + 1].astype(np.int32)
-        c = (s_sizes * t) * ms * mt[:, None]  # s t pairs per pair of cycles
-        if top == t:  # s == t: pairs of distinct t-cycles
-            c[:, t - 1] = t * t * mt * (mt - 1) // 2
-        which, s_index = np.nonzero(c)
-        s_values = s_index + 1
-        rows = holders[which]
-        merge_from.append(rows)
-        merge_count.append(c[which, s_index])
-        merge_to.append(keys[rows] + (weights[s_values + t] - weights[s_values] - weights[t]))
-        # the reverse: split one (s + t)-cycle of nu into s and t; s + t pairs per cycle
-        # (s pairs when s == t), times the number of (s + t)-cycles of nu
-        m_sum = mf[rows, s_values + t].astype(np.int32) + 1
-        split_count.append(np.where(s_values == t, t, s_values + t).astype(np.int32) * m_sum)
+        mt = by_size[t, holders].astype(np.int32)
+        for s in range(1, min(t, n - t) + 1):
+            if s < t:
+                ms = by_size[s, holders].astype(np.int32)
+                keep = np.flatnonzero(ms)
+                count = (s * t) * ms[keep] * mt[keep]  # s t pairs per pair of cycles
+            else:  # s == t: pairs of distinct t-cycles
+                keep = np.flatnonzero(mt >= 2)
+                count = (t * t) * (mt[keep] * (mt[keep] - 1) // 2)
+            source = holders[keep]
+            target = rows_with[s + t]
+            if len(source) != len(target):  # pragma: no cover - would mean a wrong order
+                raise RuntimeError("lumped chain: merges are not a bijection")
+            merge_from.append(source)
+            merge_to.append(target)
+            merge_count.append(count)
+            # the reverse: split one (s + t)-cycle of nu into s and t; s + t pairs per cycle
+            # (s pairs when s == t), times the number of (s + t)-cycles of nu
+            split_count.append((t if s == t else s + t) * by_size[s + t, target].astype(np.int32))
     source = np.concatenate(merge_from)
-    target = index.get_indexer(np.concatenate(merge_to)).astype(np.int32)
-    if (target < 0).any():  # pragma: no cover - would mean a wrong transition
-        raise RuntimeError("lumped chain: a transition left the state space")
+    target = np.concatenate(merge_to)
     pairs = n * (n - 1) // 2
     scale = (1.0 - h) / pairs
     data = np.empty(2 * len(source) + states)
@@ -270,8 +294,20 @@ def _build_chain(cards: int, h: float) -> LumpedChain:
         ),
         shape=(states, states),
     )
-    identity = int(np.nonzero(m[:, 1] == n)[0][0])
-    return LumpedChain(n, h, m, _log_z(m), identity, matrix, int(matrix.nnz))
+    # States by rank (stable), rows permuted with each row's entries kept in their order
+    # (ascending previous column), so every row sum adds the same terms in the same order.
+    rank = n - by_size[1:].sum(axis=0, dtype=np.int64)
+    order = np.argsort(rank, kind="stable")
+    position = np.empty(states, dtype=np.int32)
+    position[order] = np.arange(states, dtype=np.int32)
+    matrix = matrix[order]
+    matrix.indices = position[matrix.indices]
+    matrix.has_sorted_indices = False
+    rank_ends = np.cumsum(np.bincount(rank, minlength=n))
+    multiplicities = m[order]
+    multiplicities.flags.writeable = False
+    log_z = _log_z(m)[order]
+    return LumpedChain(n, h, multiplicities, log_z, 0, matrix, int(matrix.nnz), rank_ends)
 
 
 class _ClassLawDistances:
@@ -279,51 +315,78 @@ class _ClassLawDistances:
     calls (fresh multi-megabyte temporaries cost page faults on every step).
 
     With ``t = P(mu) z_mu = n! P(sigma)``: TV = 1/2 sum |P - U|, separation = 1 - min t,
-    KL = sum_mu P(mu) ln t_mu, and once KL is small (below 1e-3 bits) the cancellation-free
-    form sum_mu U(mu) f(t_mu), f(t) = t ln t - t + 1, by its series near t = 1.
+    KL = sum_mu P(mu) ln t_mu, and once every ``|t - 1| < 1e-3`` the cancellation-free form
+    sum_mu U(mu) f(t_mu), f(t) = t ln t - t + 1, by its series near t = 1 (no logarithms
+    then). A law that can only occupy the first ``support`` states (the others are exact
+    zeros) is measured on those, the zeros' share of TV being the uniform mass beyond.
     """
 
-    def __init__(self, uniform: np.ndarray, z_values: np.ndarray) -> None:
+    def __init__(
+        self, uniform: np.ndarray, z_values: np.ndarray, ends: np.ndarray | None = None
+    ) -> None:
         self.uniform = uniform
         self.z = z_values
         self.work = np.empty_like(uniform)
         self.t = np.empty_like(uniform)
+        self.u = np.empty_like(uniform)
+        # uniform mass of the states from ``end`` on, for the supports ``ends`` (block sums
+        # added pairwise, then exactly, so the tail is as accurate as a whole-array sum)
+        bounds = [0, *(int(e) for e in ([] if ends is None else ends)), len(uniform)]
+        blocks = [float(uniform[a:b].sum()) for a, b in itertools.pairwise(bounds)]
+        self.tail = {bounds[i]: math.fsum(blocks[i:]) for i in range(len(blocks))}
+        #: the smallest ``t`` of the last law measured (0 while some state is empty)
+        self.lowest = 0.0
 
-    def __call__(self, law: np.ndarray) -> tuple[float, float, float]:
-        w, t = self.work, self.t
-        np.subtract(law, self.uniform, out=w)
+    def __call__(self, law: np.ndarray, support: int | None = None) -> tuple[float, float, float]:
+        states = len(law)
+        s = states if support is None else min(int(support), states)
+        p, uniform = law[:s], self.uniform[:s]
+        w, t = self.work[:s], self.t[:s]
+        np.subtract(p, uniform, out=w)
         np.abs(w, out=w)
-        tv = 0.5 * float(w.sum())
-        np.multiply(law, self.z, out=t)
-        separation = float(max(0.0, 1.0 - t.min()))
-        np.maximum(t, 1e-300, out=w)
-        np.log(w, out=w)
-        kl_bits = float(np.dot(law, w)) / math.log(2)  # zero-probability classes add 0
-        if kl_bits < 1e-3:
-            kl_bits = self._small_kl(t) / math.log(2)
+        tv = 0.5 * (float(w.sum()) + (self.tail[s] if s < states else 0.0))
+        np.multiply(p, self.z[:s], out=t)
+        low = float(t.min()) if s == states else 0.0
+        self.lowest = low
+        separation = float(max(0.0, 1.0 - low))
+        if s == states and 1.0 - low < 1e-3 and float(t.max()) - 1.0 < 1e-3:
+            return tv, separation, self._series_kl(t) / math.log(2)
+        if low < 1e-300:
+            np.maximum(t, 1e-300, out=w)
+            np.log(w, out=w)
+        else:
+            np.log(t, out=w)
+        kl_bits = float(np.dot(p, w)) / math.log(2)  # zero-probability classes add 0
+        # A KL this small means a law near uniform on every state (the empty states of a
+        # shorter support alone give more than 1e-3 bits below 1,000 cards)
+        if kl_bits < 1e-3 and s == states:
+            kl_bits = self._mixed_kl(t, w) / math.log(2)
         return tv, separation, kl_bits
 
-    def _small_kl(self, t: np.ndarray) -> float:
+    def _series_kl(self, t: np.ndarray) -> float:
+        # every class is close to uniform: f(1 + u) by its series, in place
         u = self.work
         np.subtract(t, 1.0, out=u)
-        if float(np.abs(u).max()) < 1e-3:
-            # every class is close to uniform: f(1 + u) by its series, in place
-            f = np.multiply(u, -1.0 / 20.0)
-            f += 1.0 / 12.0
-            f *= u
-            f -= 1.0 / 6.0
-            f *= u
-            f += 0.5
-            f *= u
-            f *= u
-            return float(np.dot(self.uniform, f))
-        from scipy.special import xlogy
+        f = self.t  # t is not needed any more
+        np.multiply(u, -1.0 / 20.0, out=f)
+        f += 1.0 / 12.0
+        f *= u
+        f -= 1.0 / 6.0
+        f *= u
+        f += 0.5
+        f *= u
+        f *= u
+        return float(np.dot(self.uniform, f))
 
-        direct = xlogy(t, t) - u  # t ln t - t + 1
-        near = np.abs(u) < 1e-3
+    def _mixed_kl(self, t: np.ndarray, log_t: np.ndarray) -> float:
+        # t ln t - t + 1 where |t - 1| >= 1e-3, its series (no cancellation) elsewhere
+        u = np.subtract(t, 1.0, out=self.u)
+        f = np.multiply(t, log_t, out=log_t)
+        f -= u
+        near = np.flatnonzero(np.abs(u, out=self.t) < 1e-3)  # t is not needed any more
         un = u[near]
-        direct[near] = un * un * (0.5 + un * (-1.0 / 6.0 + un * (1.0 / 12.0 - un / 20.0)))
-        return float(np.dot(self.uniform, direct))
+        f[near] = un * un * (0.5 + un * (-1.0 / 6.0 + un * (1.0 / 12.0 - un / 20.0)))
+        return float(np.dot(self.uniform, f))
 
 
 def _chain_rows(
@@ -335,7 +398,8 @@ def _chain_rows(
     from threadpoolctl import threadpool_limits
 
     chain = lumped_chain(cards, hold)
-    distances = _ClassLawDistances(chain.uniform, np.exp(chain.log_z))
+    distances = _ClassLawDistances(chain.uniform, np.exp(chain.log_z), chain.rank_ends)
+    smallest_u = float(np.exp(-chain.log_z.max()))  # 1 / n!, the identity's uniform mass
     law = np.zeros(len(chain.log_z))
     law[chain.identity] = 1.0
     rows = []
@@ -343,13 +407,18 @@ def _chain_rows(
     # only spins against the sparse products on a small shared machine.
     with threadpool_limits(limits=1, user_api="blas"):
         for k in range(1, max_steps + 1):
-            law = chain.matrix @ law
+            law = chain.advance(law, k)
+            support = int(chain.rank_ends[min(k, len(chain.rank_ends) - 1)])
             # Probabilities below 1e-300 cannot move any distance at double precision;
             # zeroing them keeps the arithmetic out of subnormal numbers, which are very
-            # slow. Once every class holds more than that, the check is all it costs.
-            if law.min() < 1e-300:
-                np.putmask(law, law < 1e-300, 0.0)
-            tv, sep, kl = distances(law)
+            # slow. P(mu) >= min(n! P) / n!, and min(n! P) never decreases along the walk
+            # (each step averages n! P over neighbours), so once that bound clears 1e-300
+            # by a wide margin the check (which would find nothing) is skipped.
+            if distances.lowest * smallest_u < 1e-280:
+                head = law[:support]  # the states beyond are exact zeros
+                if head.min() < 1e-300:
+                    np.putmask(head, head < 1e-300, 0.0)
+            tv, sep, kl = distances(law, support)
             rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
             if progress is not None:
                 progress(k)
