@@ -279,6 +279,36 @@ class TestCharacters:
     def test_single_values_against_plain_recursion(self, shape, cycle_type):
         assert character(shape, cycle_type) == _plain_character(shape, cycle_type)
 
+    def test_every_value_of_small_groups(self):
+        # level-by-level rule, early exits and closed forms against the plain recursion
+        for n in range(0, 10):
+            for lam in partitions(n):
+                for mu in partitions(n):
+                    assert character(lam, mu) == _plain_character(lam, mu), (lam, mu)
+
+    @pytest.mark.parametrize("block", [(2,) * 12, (3,) * 8, (4,) * 6, (6,) * 4, (5,) * 4 + (4,)])
+    def test_closing_blocks_of_equal_parts(self, block):
+        # the closed form for r^k (r-quotient, sign from the beads' final order) on every
+        # shape of 24 cells, with and without parts before the block
+        for lam in partitions(24):
+            for mu in (block + (1,) * (24 - sum(block)), (24 - sum(block), *block)):
+                mu = tuple(p for p in mu if p)
+                assert character(lam, mu) == _plain_character(lam, mu), (lam, mu)
+
+    def test_arguments_in_any_form(self):
+        # the fast argument path and the checked one agree; bad input still names the part
+        assert character([4, 2, 1], [1, 2, 4]) == character((4, 2, 1), (4, 2, 1))
+        assert character((), ()) == 1
+        for shape, cycle_type, message in [
+            ((3, 1.5), (4.5,), "not an integer"),
+            ((2, 3), (5,), "weakly decreasing"),
+            ((3, 0), (3,), "positive"),
+            ((3,), (3, 0), "positive"),
+            ((3,), (2.5, 0.5), "not an integer"),
+        ]:
+            with pytest.raises(InputError, match=message):
+                character(shape, cycle_type)
+
 
 def _plain_character(shape, cycle_type) -> int:
     # Murnaghan-Nakayama on beta-sets (James & Kerber 1981, 2.4.7), parts largest first,

@@ -7,8 +7,9 @@ that rim hook is ``(-1)^(beads strictly between)`` ([1], 2.7.25; [2], I.1 Ex. 8)
 beta-set is *normalised* when position 0 is empty (no zero parts), which makes the
 encoding canonical: equal ints, equal partitions.
 
-* :func:`character` evaluates one value ``chi^lambda(mu)``: recursion on the parts of
-  ``mu`` (largest first) memoised on ``(beta-set, remaining parts)``; as soon as all the
+* :func:`character` evaluates one value ``chi^lambda(mu)``: the parts of ``mu`` (largest
+  first) are stripped level by level, each level holding the beta-sets reached with their
+  signed coefficients; as soon as all the
   remaining parts are equal to ``r`` it finishes in closed form through the ``r``-quotient
   ([1], 2.7.32): ``chi^lambda(r^k) = delta_r(lambda) * k!/prod |q_j|! * prod d(q_j)`` when
   the ``r``-core is empty and 0 otherwise (for ``r = 1`` this is the hook length formula).
@@ -38,6 +39,8 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from fractions import Fraction
+from itertools import repeat
+from operator import add, lshift
 
 import numpy as np
 
@@ -74,11 +77,21 @@ DEFAULT_TABLE_MEMORY = 2 * 1024**3
 
 
 def _beta_mask(shape: Sequence[int]) -> int:
-    """Normalised beta-set of a partition: bit ``lambda_i + (l - i)`` set for each part."""
+    """Normalised beta-set of a partition: bit ``lambda_i + (l - i)`` set for each part.
+
+    The positions are distinct, so the mask is the sum of their powers of two (one pass
+    in C); a run of ``c`` equal parts occupies ``c`` consecutive bits, so shapes with long
+    runs are built one distinct part at a time.
+    """
     length = len(shape)
+    if length <= 24 or 3 * len(distinct := set(shape)) >= length:
+        return sum(map(lshift, repeat(1), map(add, shape, range(length - 1, -1, -1))))
     mask = 0
-    for i, part in enumerate(shape):
-        mask |= 1 << (part + length - 1 - i)
+    start = 0  # index of the first part of the current run
+    for part in sorted(distinct, reverse=True):
+        count = shape.count(part)
+        mask |= ((1 << count) - 1) << (part + length - start - count)
+        start += count
     return mask
 
 
@@ -126,44 +139,60 @@ def _equal_parts_value(mask: int, r: int, k: int) -> int:
     Closed form through the ``r``-quotient ([1], 2.7.32): zero unless the ``r``-core is
     empty; otherwise the ``r``-sign times the number of ways to strip ``lambda`` by ``r``-rim
     hooks, ``k! / prod |q_j|! * prod d(q_j)``. The sign does not depend on the order in which
-    the hooks are stripped ([1], 2.7.26), so one greedy stripping computes it.
+    the hooks are stripped ([1], 2.7.26): stripping them all slides every bead down its
+    runner to the lowest free level, and each move changes the sign once per bead passed,
+    so the sign is the parity of the permutation from the beads' order to their final order.
     """
+    if not (mask >> r) & ~mask:  # no r-rim hook at all
+        return 0
+    # The r-weight (cells removable as r-hooks) is the sum of the bead levels b // r minus
+    # the levels the beads would fill from the bottom of their runners. With t beads the
+    # positions add up to r k + C(t, 2), so only the bead count of each runner is needed.
+    beads_total = mask.bit_count()
+    width = mask.bit_length() // r + 1
+    runner = ((1 << (r * width)) - 1) // ((1 << r) - 1)  # bits 0, r, 2r, ...
+    level_sum = r * k + beads_total * (beads_total - 1) // 2
+    bottom = 0  # levels the beads would fill from the bottom of their runners
+    for j in range(r):
+        c = (mask & runner).bit_count()
+        runner <<= 1
+        level_sum -= j * c
+        bottom += c * (c - 1) // 2
+    if level_sum // r - bottom != k:  # the r-core is not empty
+        return 0
     beads = _beads(mask)
     runners: list[list[int]] = [[] for _ in range(r)]
     for b in beads:
         runners[b % r].append(b // r)
-    total = 0
+    sizes = [sum(levels) - len(levels) * (len(levels) - 1) // 2 for levels in runners]
     count = math.factorial(k)
-    for levels in runners:
-        size, dim = _dimension_from_levels(levels)
-        total += size
-        count = count // math.factorial(size) * dim if size else count
-    if total != k:  # the r-core is not empty
-        return 0
-    # sign: strip r-hooks greedily
-    sign = 1
-    current = mask
-    for _ in range(k):
-        probe = current
-        while probe:
-            low = probe & -probe
-            b = low.bit_length() - 1
-            probe ^= low
-            if b >= r and not (current >> (b - r)) & 1:
-                between = ((current >> (b - r + 1)) & ((1 << (r - 1)) - 1)).bit_count()
-                if between % 2:
-                    sign = -sign
-                current ^= (1 << b) | (1 << (b - r))
-                break
-        else:  # pragma: no cover - impossible when the core is empty
-            raise AssertionError("r-core computation inconsistent")
-    return sign * count
+    for levels, size in zip(runners, sizes, strict=True):
+        if size:
+            count = count // math.factorial(size) * _dimension_from_levels(levels)[1]
+    final = []  # where each bead ends: runner j, next free level
+    filled = [0] * r
+    for b in beads:
+        j = b % r
+        final.append(j + r * filled[j])
+        filled[j] += 1
+    order = sorted(range(len(final)), key=final.__getitem__)
+    seen = [False] * len(order)
+    parity = 0
+    for start in range(len(order)):
+        if not seen[start]:
+            x, cycle = start, 0
+            while not seen[x]:
+                seen[x] = True
+                x = order[x]
+                cycle += 1
+            parity ^= (cycle - 1) & 1
+    return -count if parity else count
 
 
 def _removal_order(parts: Partition) -> Partition:
     """Order in which to strip the parts: the Murnaghan–Nakayama rule allows any order.
 
-    Largest first by default: few long rim hooks fit, so the recursion branches little
+    Largest first by default: few long rim hooks fit, so the rule branches little
     near the top, and the smallest parts form the closing block of equal parts. When one
     part size is repeated much more often than the smallest one and the other parts are
     few (at most a quarter of the cells of that block, and at most 8 parts), that size goes
@@ -173,58 +202,71 @@ def _removal_order(parts: Partition) -> Partition:
     """
     if not parts:
         return parts
-    counts: dict[int, int] = {}
-    for p in parts:
-        counts[p] = counts.get(p, 0) + 1
-    last = max(counts, key=lambda p: (counts[p], -p))
-    smallest = parts[-1]
-    if counts[last] <= 2 * counts[smallest] + 2:
+    distinct = set(parts)
+    smallest = parts.count(parts[-1])
+    # no size can be repeated more often than the repeats allow
+    if len(parts) - len(distinct) + 1 <= 2 * smallest + 2:
+        return parts
+    last, repeats = 0, 0
+    for part in distinct:  # the most repeated size, the smallest on ties
+        count = parts.count(part)
+        if count > repeats or (count == repeats and part < last):
+            last, repeats = part, count
+    if repeats <= 2 * smallest + 2:
         return parts
     head = tuple(p for p in parts if p != last)
-    if len(head) > 8 or 4 * sum(head) > last * counts[last]:
+    if len(head) > 8 or 4 * sum(head) > last * repeats:
         return parts
-    return head + (last,) * counts[last]
+    return head + (last,) * repeats
 
 
 def _character_value(mask: int, parts: Partition) -> int:
-    """Murnaghan–Nakayama recursion; ``parts`` a partition whose size matches ``mask``."""
+    """Murnaghan–Nakayama rule, one part at a time over all shapes reached so far.
+
+    ``parts`` is a partition whose size matches ``mask``. Each level maps the beta-sets
+    reached to their signed coefficients; removing an ``r``-rim hook moves a bead from
+    ``h + r`` to an empty ``h`` with sign ``(-1)^(beads strictly between)``. Shapes whose
+    coefficients cancel are dropped. The closing block of equal parts is evaluated by the
+    closed form (:func:`_equal_parts_value`) once per shape that reaches it.
+    """
     parts = _removal_order(parts)
     length = len(parts)
-    # first index from which all remaining parts are equal
-    equal_from = length
-    while equal_from > 0 and parts[equal_from - 1] == parts[-1]:
-        equal_from -= 1
-    memo: dict[tuple[int, int], int] = {}
-
-    def value(current: int, i: int) -> int:
-        if i == length:
-            return 1 if current == 0 else 0
-        # look the memo up first: the closed form for the equal tail is the costly leaf
-        key = (current, i)
-        cached = memo.get(key)
-        if cached is not None:
-            return cached
-        if i >= equal_from:
-            total = _equal_parts_value(current, parts[i], length - i)
-            memo[key] = total
-            return total
+    if not length:
+        return 1  # the empty shape at the empty class
+    # first index from which all remaining parts are equal: every copy of the last part
+    # sits at the end (decreasing order, or the one size moved last); a closing "block" of
+    # one part is a plain last step
+    equal_from = length - parts.count(parts[-1])
+    if equal_from == length - 1:
+        equal_from = length
+    level = {_normalise(mask): 1}
+    for i in range(equal_from):
         r = parts[i]
-        total = 0
-        probe = current >> r
-        offset = r
-        while probe:
-            low = probe & -probe
-            b = low.bit_length() - 1 + offset
-            probe ^= low
-            if not (current >> (b - r)) & 1:
-                between = ((current >> (b - r + 1)) & ((1 << (r - 1)) - 1)).bit_count()
-                moved = _normalise(current ^ (1 << b) ^ (1 << (b - r)))
-                term = value(moved, i + 1)
-                total += -term if between % 2 else term
-        memo[key] = total
-        return total
-
-    return value(_normalise(mask), 0)
+        window = (1 << (r - 1)) - 1  # the r - 1 positions strictly between h and h + r
+        reached: dict[int, int] = {}
+        get = reached.get
+        for current, coefficient in level.items():
+            holes = (current >> r) & ~current  # h empty with a bead at h + r
+            while holes:
+                low = holes & -holes
+                holes ^= low
+                h = low.bit_length() - 1
+                moved = current ^ (low | (low << r))
+                if not h:  # the bead landed at the bottom: drop the packed beads
+                    moved = _normalise(moved)
+                if ((current >> (h + 1)) & window).bit_count() & 1:
+                    reached[moved] = get(moved, 0) - coefficient
+                else:
+                    reached[moved] = get(moved, 0) + coefficient
+        if 0 in reached.values():  # drop the shapes whose terms cancelled
+            reached = {m: c for m, c in reached.items() if c}
+        if not reached:
+            return 0
+        level = reached
+    if equal_from == length:
+        return level.get(0, 0)  # the empty shape's beta-set is 0 once normalised
+    r, k = parts[equal_from], length - equal_from
+    return sum(c * _equal_parts_value(m, r, k) for m, c in level.items())
 
 
 def character(shape: Sequence[int], cycle_type: Sequence[int]) -> int:
@@ -249,13 +291,26 @@ def character(shape: Sequence[int], cycle_type: Sequence[int]) -> int:
     >>> character((2, 1), (3,))
     -1
     """
-    lam = check_shape(shape, "shape")
-    mu = check_partition(cycle_type, "class")
+    if (
+        type(shape) is tuple
+        and type(cycle_type) is tuple
+        and set(map(type, shape + cycle_type)) <= {int}
+        and tuple(sorted(shape, reverse=True)) == shape
+        and (not shape or shape[-1] > 0)
+    ):  # the common case, checked in C: a shape and a class given as tuples of ints
+        lam, mu = shape, tuple(sorted(cycle_type, reverse=True))
+        if mu and mu[-1] <= 0:
+            mu = check_partition(cycle_type, "class")  # raises, naming the part
+    else:
+        lam = check_shape(shape, "shape")
+        mu = check_partition(cycle_type, "class")
     if sum(lam) != sum(mu):
         raise InputError(
             f"shape {format_partition(lam)} has size {sum(lam)} but class "
             f"{format_partition(mu)} has size {sum(mu)}; both must partition the same n"
         )
+    if mu and mu[0] > lam[0] + len(lam) - 1:
+        return 0  # the longest cycle exceeds the longest hook: no rim hook to remove
     return _character_value(_beta_mask(lam), mu)
 
 

@@ -69,6 +69,14 @@ def check_partition(
         raw = list(parts)
     except TypeError as exc:
         raise InputError(f"{name} must be a sequence of positive integers, got {parts!r}") from exc
+    if set(map(type, raw)) <= {int}:  # plain ints (a bool's type is bool): checked in C
+        result = tuple(sorted(raw, reverse=True))
+        if not result or result[-1] > 0:
+            if size is not None and sum(result) != size:
+                raise InputError(
+                    f"{name} {format_partition(result)} has size {sum(result)}, expected {size}"
+                )
+            return result
     values: list[int] = []
     for p in raw:
         if isinstance(p, bool) or not isinstance(p, int):
@@ -93,6 +101,10 @@ def check_partition(
 
 def check_shape(parts: Iterable[int], name: str = "shape", size: int | None = None) -> Partition:
     """Like :func:`check_partition`, but a shape must be given in weakly decreasing order."""
+    if type(parts) is tuple and set(map(type, parts)) <= {int}:  # the common case, in C
+        if (not parts or parts[-1] > 0) and tuple(sorted(parts, reverse=True)) == parts:
+            if size is None or sum(parts) == size:
+                return parts
     raw = list(parts)
     shape = check_partition(raw, name, size)
     if tuple(raw) != shape:
