@@ -353,6 +353,42 @@ class TestSimulatedLogs:
             expected[t] = current
         assert (running_composition(relative) == expected).all()
 
+    @pytest.mark.parametrize("reference", ["previous", "first"])
+    @pytest.mark.parametrize(
+        ("decks", "change", "repeats"),
+        [(1, None, 1), (5, None, 2), (70_000, None, 1), (70_000, 1, 1), (70_000, 3, 1)],
+    )
+    def test_simulated_play_equals_whole_array_composition(self, reference, decks, change, repeats):
+        # the previous implementation: every relative permutation drawn first (one
+        # Procedure.sample per segment), then composed deck by deck onto the one before
+        from shufflecheck.models.procedures import parse_procedure, simulate_play
+
+        procedure, other = parse_procedure("riffle x2, cut"), parse_procedure("strip")
+        generator = np.random.default_rng(decks)
+        if change is None:
+            relative = procedure.sample(decks, 20, repeats, rng=generator)
+        else:
+            relative = np.concatenate(
+                [
+                    procedure.sample(change - 1, 20, repeats, rng=generator),
+                    other.sample(decks - change + 1, 20, repeats, rng=generator),
+                ]
+            )
+        expected = np.empty((decks + 1, 20), dtype=relative.dtype)
+        expected[0] = np.arange(20)
+        for t in range(decks):
+            expected[t + 1] = relative[t] if reference == "first" else expected[t][relative[t]]
+        got = simulate_play(
+            procedure,
+            20,
+            decks,
+            rng=decks,
+            reference=reference,
+            repeats=repeats,
+            change=None if change is None else (change, other),
+        )
+        assert got.dtype == expected.dtype and np.array_equal(got, expected)
+
     def test_arrangement_check_finds_every_bad_row(self):
         from shufflecheck.records.logs.writer import _arrangement_rows
 
@@ -362,6 +398,96 @@ class TestSimulatedLogs:
         decks[11, 0] = 52  # out of range
         decks[13, 5] = -1
         assert np.nonzero(~_arrangement_rows(decks, 52))[0].tolist() == [7, 11, 13]
+        wide = np.argsort(rng.random((50, 70)), axis=1).astype(np.int16)  # sorting above 64
+        wide[3, 1] = wide[3, 2]
+        assert np.nonzero(~_arrangement_rows(wide, 70))[0].tolist() == [3]
+        small = np.argsort(rng.random((50, 9)), axis=1).astype(np.uint8)
+        small[4, 0] = 60  # a label in 9..63 sets a bit above the mask
+        small[5, 0] = 200  # shifts of 64 and more add no bit
+        assert np.nonzero(~_arrangement_rows(small, 9))[0].tolist() == [4, 5]
+
+    @pytest.mark.parametrize(
+        "start", ["2026-11-02T18:00", "2026-11-02T18:00:07.900001", "1969-12-31T23:59:59.5"]
+    )
+    @pytest.mark.parametrize("every", [120, 1, -90])
+    def test_recorded_times_equal_python_datetimes(self, start, every):
+        import datetime as dt
+
+        from shufflecheck.analyses.simulate import _times
+
+        first = dt.datetime.fromisoformat(start)
+        expected = [
+            (first + dt.timedelta(seconds=every * i)).isoformat(timespec="seconds")
+            for i in range(500, 900)
+        ]
+        assert list(_times(first, every, 500, 400)) == expected
+
+    def test_recorded_times_out_of_the_calendar(self):
+        import datetime as dt
+
+        from shufflecheck.analyses.simulate import _times
+
+        with pytest.raises(InputError, match="leave the calendar"):
+            _times(dt.datetime(9999, 12, 31), 3600, 0, 100)
+
+    def test_block_writer_equals_whole_writer(self, tmp_path):
+        from shufflecheck.records.logs import write_log
+        from shufflecheck.records.logs.writer import LogWriter
+
+        rng = np.random.default_rng(11)
+        decks = np.argsort(rng.random((2500, 52)), axis=1).astype(np.int16)
+        columns = {"deck": list(range(2500)), "table": ["T1"] * 1000 + ['T "2"'] * 1500}
+        whole = write_log(tmp_path / "whole.csv", decks, None, columns)
+        with LogWriter(tmp_path / "blocks.csv", columns=["deck", "table"]) as log:
+            for lo in (0, 7, 999, 1000, 2500):
+                hi = {0: 7, 7: 999, 999: 1000, 1000: 2500, 2500: 2500}[lo]
+                log.write(decks[lo:hi], {"deck": range(lo, hi), "table": columns["table"][lo:hi]})
+            assert not (tmp_path / "blocks.csv").exists()  # appears on close
+        assert (tmp_path / "blocks.csv").read_bytes() == whole.read_bytes()
+        bad = decks[:3].copy()
+        bad[1, 0] = bad[1, 1]
+        with pytest.raises(InputError, match="deck 1"):
+            with LogWriter(tmp_path / "bad.csv", columns=["deck"]) as log:
+                log.write(bad, {"deck": [0, 1, 2]})
+        assert not (tmp_path / "bad.csv").exists()
+        with pytest.raises(InputError, match="do not match"):
+            with LogWriter(tmp_path / "bad.csv", columns=["deck"]) as log:
+                log.write(decks[:3], {"table": ["a", "b", "c"]})
+
+    @pytest.mark.parametrize("suffix", [".csv", ".tsv"])
+    def test_log_bytes_equal_a_plain_csv_writer(self, tmp_path, suffix):
+        # the byte matrices (integer digits, fixed-width cells, codes gathered as
+        # integers) against Python's csv module writing the same rows one by one
+        import csv
+        import io
+
+        from shufflecheck.records.cards import integer_deck, load_deck
+        from shufflecheck.records.logs import write_log
+
+        rng = np.random.default_rng(9)
+        rows = 3000
+        decks = np.argsort(rng.random((rows, 52)), axis=1).astype(np.int16)
+        columns = {
+            "deck": list(range(rows)),
+            "signed": (rng.integers(-(10**6), 10**6, rows)).tolist(),
+            "big": [10**15 + i for i in range(rows)],
+            "table": ['T "7", east'] * (rows // 2) + ["T\t8"] * (rows - rows // 2),
+            "clock": [f"2026-11-02T18:{i % 60:02d}:00" for i in range(rows)],
+            "gap": [1.5, None, "x"] * (rows // 3),
+        }
+        delimiter = "\t" if suffix == ".tsv" else ","
+        for deck, labels, words in [
+            (load_deck(), "codes", list(load_deck().cards)),
+            (integer_deck(52), "int1", [str(k + 1) for k in range(52)]),
+        ]:
+            path = write_log(tmp_path / f"log{suffix}", decks, deck, columns, labels=labels)
+            text = io.StringIO()
+            writer = csv.writer(text, delimiter=delimiter, lineterminator="\n")
+            writer.writerow([*columns, "order"])
+            for r in range(rows):
+                cells = ["" if columns[c][r] is None else str(columns[c][r]) for c in columns]
+                writer.writerow([*cells, " ".join(words[x] for x in decks[r])])
+            assert path.read_bytes() == text.getvalue().encode("utf-8"), labels
 
     def test_log_text_round_trips(self, tmp_path):
         from shufflecheck.records.logs import read_log, write_log

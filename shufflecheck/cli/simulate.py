@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 from enum import Enum
 from pathlib import Path
 from typing import Annotated
@@ -63,81 +64,48 @@ def simulate(
     The first row is the starting order (the reference); the rest follow the procedure. The
     log is read by `shufflecheck audit` exactly as a recorded one.
     """
-    import datetime as dt
-
+    from shufflecheck.analyses.simulate import simulate_log
     from shufflecheck.common.errors import InputError
-    from shufflecheck.models.procedures import procedure_from_argument, simulate_play
-    from shufflecheck.records.cards import load_deck
-    from shufflecheck.records.logs import write_log
+    from shufflecheck.models.procedures import procedure_from_argument
     from shufflecheck.records.shoes import load_shoe
 
     if out.exists() and not force:
         raise InputError(f"{out} exists; pass --force to replace it")
     proc = procedure_from_argument(procedure)
     shoe = load_shoe(deck) if deck is not None else None
-    default = shoe.size if shoe is not None else 52
-    n = cards if cards is not None else (proc.cards or default)
-    if shoe is not None:
-        definition = shoe
-    else:
-        definition = load_deck(deck) if deck is not None else (load_deck() if n == 52 else None)
-    if definition is not None and definition.size != n:
-        raise InputError(f"deck definition has {definition.size} cards but --cards is {n}")
-    change = None
     if (then is None) != (change_from is None):
         raise InputError("give --then and --from together")
-    if then is not None:
-        change = (change_from, procedure_from_argument(then))
-    orders = simulate_play(
-        proc, n, decks, rng=seed, reference=reference.value, repeats=repeat, change=change
+    change = None if then is None else (change_from, procedure_from_argument(then))
+    result = simulate_log(
+        out,
+        proc,
+        cards=cards,
+        decks=decks,
+        seed=seed,
+        repeats=repeat,
+        reference=reference.value,
+        change=change,
+        deck=deck,
+        table=table,
+        start=start,
+        every=every,
     )
-    columns: dict[str, list] = {"deck": list(range(decks + 1))}
-    if table is not None:
-        columns["table"] = [table] * (decks + 1)
-    if start is not None:
-        try:
-            first = dt.datetime.fromisoformat(start)
-        except ValueError:
-            raise InputError(
-                f"--start {start!r} is not an ISO time like 2026-11-02T18:00"
-            ) from None
-        columns["recorded_at"] = [
-            (first + dt.timedelta(seconds=every * i)).isoformat(timespec="seconds")
-            for i in range(decks + 1)
-        ]
-    if definition is not None:
-        write_log(out, orders, definition, columns)
-    else:
-        from shufflecheck.records.cards import integer_deck
-
-        write_log(out, orders, integer_deck(n), columns, labels="int1")
-    summary = {
-        "out": str(out),
-        "procedure": proc.describe(),
-        "cards": n,
-        "decks": decks,
-        "rows": decks + 1,
-        "seed": seed,
-        "reference": reference.value,
-        "change": None
-        if change is None
-        else {"from": change[0], "procedure": change[1].describe()},
-        "labels": "codes" if definition is not None else "int (1..n)",
-    }
+    summary = dataclasses.asdict(result)
     if json_out:
         if shoe is not None:
             summary["shoe"] = shoe.describe()
         emit_json(summary)
         return
+    n = result.cards
     how = f"--reference {reference.value}" + (
-        "" if definition is not None else f" --labels int --cards {n}"
+        "" if result.labels == "codes" else f" --labels int --cards {n}"
     )
     if shoe is not None:
         how += f' --deck "{deck}"'
         summary["shoe"] = shoe.describe()
     unit = "shoes" if shoe is not None else "decks"
     echo(
-        f"Wrote {out}: {decks:,} simulated {unit} of {n} cards after '{proc.describe()}' "
+        f"Wrote {out}: {decks:,} simulated {unit} of {n} cards after '{result.procedure}' "
         f"(seed {seed}; row 1 is the starting order; audit with {how})."
     )
     if change is not None:

@@ -28,6 +28,7 @@ import math
 import re
 import types
 import typing
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -36,7 +37,7 @@ import numpy as np
 from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.models.base import Step
-from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
+from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks
 from shufflecheck.models.registry import entry, step_types
 
 __all__ = [
@@ -48,6 +49,7 @@ __all__ = [
     "procedure_from_argument",
     "running_composition",
     "simulate_play",
+    "simulated_chunks",
 ]
 
 #: how simulated decks relate to each other: see :func:`simulate_play`
@@ -394,64 +396,135 @@ def simulate_play(
     ``--reference first``). The relative permutations are iid either way.
     ``change=(k, other)``: from the ``k``-th simulated deck on (1-based), ``other`` replaces
     the procedure (a fault that starts part-way through a log).
+    :func:`simulated_chunks` gives the same rows a block at a time.
     """
+    out = np.empty((decks + 1, cards), dtype=deck_dtype(cards))
+    out[0] = np.arange(cards)
+    for row, relative in _relative_chunks(procedure, cards, decks, rng, reference, repeats, change):
+        target = out[row : row + len(relative)]
+        if reference == "first":
+            target[...] = relative
+        else:  # deck_t[i] = deck_{t-1}[relative_t[i]]: a running composition
+            running_composition(relative, out=target, initial=out[row - 1])
+    return out
+
+
+def simulated_chunks(
+    procedure: Procedure,
+    cards: int,
+    decks: int,
+    *,
+    rng: np.random.Generator | int | None = None,
+    reference: str = "previous",
+    repeats: int = 1,
+    change: tuple[int, Procedure] | None = None,
+) -> Iterator[np.ndarray]:
+    """The rows of :func:`simulate_play` (same arguments, same rows) in consecutive blocks:
+    first the starting order alone, then up to ``CHUNK_DECKS`` decks at a time, so a log of
+    millions of decks is written without holding it (each block is a new array)."""
+    chunks = _relative_chunks(procedure, cards, decks, rng, reference, repeats, change)
+    return _composed_chunks(chunks, cards, reference)
+
+
+def _composed_chunks(
+    chunks: Iterator[tuple[int, np.ndarray]], cards: int, reference: str
+) -> Iterator[np.ndarray]:
+    previous = np.arange(cards, dtype=deck_dtype(cards))
+    yield previous[None, :].copy()
+    for _, relative in chunks:
+        if reference == "first":
+            yield relative
+            continue
+        block = running_composition(relative, initial=previous)
+        previous = block[-1]
+        yield block
+
+
+def _relative_chunks(
+    procedure: Procedure,
+    cards: int,
+    decks: int,
+    rng: np.random.Generator | int | None,
+    reference: str,
+    repeats: int,
+    change: tuple[int, Procedure] | None,
+) -> Iterator[tuple[int, np.ndarray]]:
+    """(first row, relative permutations) chunk by chunk, drawn as :meth:`Procedure.sample`
+    draws them (the same random stream); arguments checked before the first draw."""
     if reference not in SIMULATION_REFERENCES:
         raise InputError(f"reference must be previous or first, got {reference!r}")
     check_integer(decks, "decks", low=1)
     generator = np.random.default_rng(rng)
-    if change is None:
-        relative = procedure.sample(decks, cards, repeats, rng=generator)
-    else:
+    procedure.check_cards(cards)
+    segments = [(procedure, decks)]
+    if change is not None:
         start, other = change
         if not 1 <= start <= decks:
             raise InputError(f"the change must start at a deck from 1 to {decks}, got {start}")
         other.check_cards(cards)
-        relative = np.concatenate(
-            [
-                procedure.sample(start - 1, cards, repeats, rng=generator),
-                other.sample(decks - start + 1, cards, repeats, rng=generator),
-            ]
-        )
-    out = np.empty((decks + 1, cards), dtype=relative.dtype)
-    out[0] = np.arange(cards)
-    if reference == "first":
-        out[1:] = relative
-        return out
-    # deck_t[i] = deck_{t-1}[relative_t[i]]: a running composition
-    out[1:] = running_composition(relative)
-    return out
+        segments = [(procedure, start - 1), (other, decks - start + 1)]
+    return _draw_chunks(segments, cards, generator, repeats)
 
 
-def running_composition(relative: np.ndarray) -> np.ndarray:
-    """``C_t = relative_1 o ... o relative_t`` as arrays: ``C_t[i] = C_{t-1}[relative_t[i]]``.
+def _draw_chunks(
+    segments: list[tuple[Procedure, int]],
+    cards: int,
+    generator: np.random.Generator,
+    repeats: int,
+) -> Iterator[tuple[int, np.ndarray]]:
+    row = 1
+    for step, count in segments:
+        for lo in range(0, count, CHUNK_DECKS):
+            size = min(CHUNK_DECKS, count - lo)
+            yield row, step.apply(identity_decks(size, cards), generator, repeats)
+            row += size
 
-    Composition is associative, so the rows are cut into about ``sqrt(D)`` blocks: the
-    prefixes inside every block are built for all blocks at once (one vectorized gather per
-    position in a block), then each block's prefixes are moved onto the composition of
-    the blocks before it (one short sequential pass and one vectorized gather). Exact: the
-    same permutations as composing one deck at a time.
+
+def running_composition(
+    relative: np.ndarray, out: np.ndarray | None = None, initial: np.ndarray | None = None
+) -> np.ndarray:
+    """``C_t = C_0 o relative_1 o ... o relative_t`` as arrays: ``C_t[i] = C_{t-1}[relative_t[i]]``,
+    with ``C_0 = initial`` (default: the identity).
+
+    Composition is associative, so the rows are cut into about ``sqrt(D)`` blocks of
+    ``w`` rows: the prefixes inside every block are built for all blocks at once (one
+    vectorized gather per position in a block, laid out position by position so every
+    gather reads and writes contiguous memory), then each block's prefixes are moved onto
+    the composition of the blocks before it (one short sequential pass over the blocks and
+    one gather per position, written straight into ``out``). Exact: the same permutations
+    as composing one deck at a time.
     """
     count, cards = relative.shape
+    if out is None:
+        out = np.empty_like(relative)
     if count == 0:
-        return relative.copy()
+        return out
     width = max(1, math.isqrt(count))
     blocks = -(-count // width)
-    padded = np.empty((blocks * width, cards), dtype=relative.dtype)
-    padded[:count] = relative
-    padded[count:] = np.arange(cards, dtype=relative.dtype)  # identity rows at the end
-    grid = padded.reshape(blocks, width, cards)
-    offsets = (np.arange(blocks, dtype=np.intp) * cards)[:, None]  # row starts, flattened
-    prefix = np.empty_like(grid)
-    prefix[:, 0] = grid[:, 0]
+    whole = count // width  # blocks without padding
+    prefix = np.empty((width, blocks, cards), dtype=relative.dtype)  # [position, block]
+    by_block = prefix.transpose(1, 0, 2)
+    by_block[:whole] = relative[: whole * width].reshape(whole, width, cards)
+    if whole < blocks:  # the last block, padded with identity rows
+        rest = relative[whole * width :]
+        by_block[whole, : len(rest)] = rest
+        by_block[whole, len(rest) :] = np.arange(cards, dtype=relative.dtype)
+    offsets = (np.arange(blocks, dtype=np.intp) * cards)[:, None]  # block starts, flattened
+    index = np.empty((blocks, cards), dtype=np.intp)
+    # indices are in range by construction, so "clip" only skips the checks and buffering
     for j in range(1, width):
-        # prefix[b, j, i] = prefix[b, j - 1, grid[b, j, i]], as one flat gather
-        np.take(prefix[:, j - 1].ravel(), grid[:, j] + offsets, out=prefix[:, j])
+        # prefix[j, b, i] = prefix[j - 1, b, relative[b, j, i]], as one flat gather
+        np.add(prefix[j], offsets, out=index)
+        np.take(prefix[j - 1], index, out=prefix[j], mode="clip")
     start = np.empty((blocks, cards), dtype=relative.dtype)  # composition before each block
-    start[0] = np.arange(cards, dtype=relative.dtype)
+    start[0] = np.arange(cards, dtype=relative.dtype) if initial is None else initial
     for b in range(1, blocks):
-        start[b] = start[b - 1][prefix[b - 1, -1]]
-    composed = np.empty_like(prefix)
+        start[b] = start[b - 1][prefix[-1, b - 1]]
     flat = start.ravel()
-    for j in range(width):  # composed[b, j, i] = start[b, prefix[b, j, i]]
-        np.take(flat, prefix[:, j] + offsets, out=composed[:, j])
-    return composed.reshape(blocks * width, cards)[:count]
+    rows = out[: whole * width].reshape(whole, width, cards).transpose(1, 0, 2)
+    for j in range(width):  # out[b, j, i] = start[b, prefix[j, b, i]]
+        np.add(prefix[j], offsets, out=index)
+        np.take(flat, index[:whole], out=rows[j], mode="clip")
+    if whole < blocks:
+        out[whole * width :] = start[whole][prefix[: count - whole * width, whole]]
+    return out

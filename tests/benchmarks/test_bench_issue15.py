@@ -328,6 +328,11 @@ def test_table_s30_vs_previous(benchmark, figures):
 
 
 def test_simulate_million_vs_sampler(benchmark, figures, tmp_path):
+    # what `shufflecheck simulate "riffle x7" --decks 1000000 --out sim.csv` runs: the
+    # command is a thin layer over analyses.simulate.simulate_log (drawn, composed and
+    # written block by block); the file is byte-identical to simulate_play + write_log
+    # (tests/test_fast_paths.py), measured here too for comparison
+    from shufflecheck.analyses.simulate import simulate_log
     from shufflecheck.models import riffle
     from shufflecheck.models.procedures import parse_procedure, simulate_play
     from shufflecheck.records.cards import load_deck
@@ -336,18 +341,32 @@ def test_simulate_million_vs_sampler(benchmark, figures, tmp_path):
     procedure = parse_procedure("riffle x7")
     decks = 1_000_000
 
-    def whole():
+    def command():
+        simulate_log(tmp_path / "sim.csv", procedure, decks=decks, seed=1)
+
+    def two_steps():
         orders = simulate_play(procedure, 52, decks, rng=1)
-        write_log(tmp_path / "sim.csv", orders, load_deck(), {"deck": list(range(decks + 1))})
+        write_log(tmp_path / "two.csv", orders, load_deck(), {"deck": list(range(decks + 1))})
 
     def run():
-        return [(_cpu(whole), _cpu(riffle.sample, decks, 52, 7, rng=1)) for _ in range(REPEATS)]
+        return [
+            (_cpu(command), _cpu(riffle.sample, decks, 52, 7, rng=1), _cpu(two_steps))
+            for _ in range(REPEATS)
+        ]
 
-    for measured, anchor in benchmark.pedantic(run, rounds=1, iterations=1):
+    results = benchmark.pedantic(run, rounds=1, iterations=1)
+    assert (tmp_path / "sim.csv").read_bytes() == (tmp_path / "two.csv").read_bytes()
+    for measured, anchor, whole in results:
         _record_ratio(
             figures,
-            "simulate riffle x7, 1,000,000 decks to CSV vs the sampler",
+            "simulate riffle x7, 1,000,000 decks to CSV (the command) vs the sampler",
             measured,
             anchor,
             3.0,
+        )
+        figures(
+            f"  ... simulate_play + write_log of the whole array ({whole:.3f} s), ratio",
+            whole / anchor,
+            3.0,
+            "x",
         )

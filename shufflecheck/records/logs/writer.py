@@ -2,22 +2,27 @@
 
 from __future__ import annotations
 
+import contextlib
 import csv
+import functools
 import io
+import itertools
 import json
 import os
 import re
 from collections.abc import Mapping, Sequence
 from pathlib import Path
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
-import pandas as pd
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import atomic_open
 from shufflecheck.records.cards import DeckDefinition, load_deck
 from shufflecheck.records.shoes import ShoeDefinition, load_shoe
+
+if TYPE_CHECKING:  # pandas is imported where a column needs it
+    import pandas as pd
 
 # --------------------------------------------------------------------------------------
 # writing
@@ -38,17 +43,30 @@ def _checked_decks(decks: np.ndarray, deck: DeckDefinition | ShoeDefinition) -> 
 
 
 def _arrangement_rows(array: np.ndarray, n: int) -> np.ndarray:
-    """Rows holding every label 0..n-1 exactly once: a row's sorted labels are 0..n-1
-    (sorted in blocks of rows, so the copy stays small)."""
+    """Rows holding every label 0..n-1 exactly once, in blocks of rows (small copies).
+
+    Up to 64 cards: the OR of ``2^label`` over a row is ``2^n - 1`` exactly when all ``n``
+    labels occur among its ``n`` cells, i.e. each once (a negative label wraps to a shift
+    of 64 or more, which numpy defines as 0, so it adds no bit; one in n..63 adds a bit
+    above the mask). Beyond 64 cards: a row's sorted labels are 0..n-1.
+    """
     ok = np.empty(array.shape[0], dtype=bool)
-    labels = np.arange(n, dtype=array.dtype)
     step = max(1, (1 << 22) // max(n, 1))  # about 4M cells at a time
+    if 0 < n <= 64:
+        full, one = np.uint64((1 << n) - 1), np.uint64(1)
+        for lo in range(0, array.shape[0], step):
+            bits = np.left_shift(one, array[lo : lo + step], dtype=np.uint64, casting="unsafe")
+            ok[lo : lo + step] = np.bitwise_or.reduce(bits, axis=1) == full
+        return ok
+    labels = np.arange(n, dtype=array.dtype)
     for lo in range(0, array.shape[0], step):
         ok[lo : lo + step] = (np.sort(array[lo : lo + step], axis=1) == labels).all(axis=1)
     return ok
 
 
 def _columns_frame(columns: Any, rows: int) -> pd.DataFrame:
+    import pandas as pd
+
     if columns is None:
         return pd.DataFrame(index=range(rows))
     frame = (
@@ -109,22 +127,16 @@ def write_log(
     shoe = load_shoe(deck) if deck is not None else None
     definition: DeckDefinition | ShoeDefinition = shoe if shoe is not None else load_deck(deck)
     array = _checked_decks(decks, definition)
-    frame = _columns_frame(columns, array.shape[0])
     target = Path(path)
     suffix = target.suffix.lower()
-    if labels not in ("codes", "int0", "int1"):
-        raise InputError(f"labels {labels!r} is not one of codes, int0, int1")
-    if isinstance(definition, ShoeDefinition):
-        if labels != "codes":
-            raise InputError("a shoe log names its cards by code (labels='codes')")
-        words = [definition.kinds.cards[k] for k in definition.reference_kinds]
-    elif labels == "codes":
-        words = list(definition.cards)
+    json_lines = suffix in (".jsonl", ".ndjson")
+    if json_lines:
+        frame = _columns_frame(columns, array.shape[0])
     else:
-        base = 1 if labels == "int1" else 0
-        words = [str(k + base) for k in range(definition.size)]
+        kept = _kept_columns(columns, array.shape[0])
+    words = _label_words(definition, labels)
     block = 100_000
-    if suffix in (".jsonl", ".ndjson"):
+    if json_lines:
         with atomic_open(target, "w") as handle:
             for start in range(0, array.shape[0], block):
                 part = array[start : start + block]
@@ -141,28 +153,328 @@ def write_log(
         return target
     if suffix not in (".csv", ".tsv"):
         raise InputError(f"cannot write a log as {target.name}: use .csv, .tsv or .jsonl")
-    delimiter = "\t" if suffix == ".tsv" else ","
-    header = io.StringIO()
-    csv.writer(header, delimiter=delimiter, lineterminator="\n").writerow(
-        [*map(str, frame.columns), "order"]
-    )
-    separator = delimiter.encode()
-    with atomic_open(target, "wb") as handle:
-        handle.write(header.getvalue().encode("utf-8"))
+    names = [name for name, _ in kept]
+    with LogWriter(target, definition, names, labels=labels, check=False) as log:
         for start in range(0, array.shape[0], block):
-            orders = _order_lines(array[start : start + block], words)
-            columns_here = [
-                _csv_cell_bytes(frame[name].iloc[start : start + block], delimiter)
-                for name in frame.columns
-            ]
+            stop = start + block
+            log.write(array[start:stop], {n: _rows_of(v, start, stop) for n, v in kept})
+    return target
+
+
+def _label_words(definition: DeckDefinition | ShoeDefinition, labels: str) -> list[str]:
+    if labels not in ("codes", "int0", "int1"):
+        raise InputError(f"labels {labels!r} is not one of codes, int0, int1")
+    if isinstance(definition, ShoeDefinition):
+        if labels != "codes":
+            raise InputError("a shoe log names its cards by code (labels='codes')")
+        return [definition.kinds.cards[k] for k in definition.reference_kinds]
+    if labels == "codes":
+        return list(definition.cards)
+    base = 1 if labels == "int1" else 0
+    return [str(k + base) for k in range(definition.size)]
+
+
+class LogWriter:
+    """A CSV or TSV log written block by block, for logs too large to hold at once.
+
+    ``columns`` names the kept columns (written before ``order``); each :meth:`write`
+    gives a block of decks and one value per deck for every column. The file appears
+    (atomically, by rename) when the ``with`` block ends without an error; the bytes are
+    those :func:`write_log` writes for the same rows. ``check=False`` skips the check that
+    every row is an arrangement, for decks built as compositions of sampled permutations.
+
+    Examples
+    --------
+    >>> with LogWriter("log.csv", columns=["deck"]) as log:  # doctest: +SKIP
+    ...     log.write(decks, {"deck": range(len(decks))})
+    """
+
+    def __init__(
+        self,
+        path: str | os.PathLike[str],
+        deck: DeckDefinition | ShoeDefinition | str | os.PathLike[str] | None = None,
+        columns: Sequence[str] = (),
+        *,
+        labels: Literal["codes", "int0", "int1"] = "codes",
+        check: bool = True,
+    ) -> None:
+        self.path = Path(path)
+        suffix = self.path.suffix.lower()
+        if suffix not in (".csv", ".tsv"):
+            raise InputError(
+                f"cannot write a log block by block as {self.path.name}: use .csv or .tsv"
+            )
+        shoe = load_shoe(deck) if deck is not None else None
+        self.deck: DeckDefinition | ShoeDefinition = shoe if shoe is not None else load_deck(deck)
+        self.columns = [str(c) for c in columns]
+        if any(c.strip().lower() == "order" for c in self.columns):
+            raise InputError("a kept column may not be called 'order'")
+        self.words = _label_words(self.deck, labels)
+        self.codes = _fixed_codes(self.words)
+        self.delimiter = "\t" if suffix == ".tsv" else ","
+        self.check = check
+        self.rows = 0
+        self._stack: contextlib.ExitStack | None = None
+        self._handle: Any = None
+
+    def __enter__(self) -> LogWriter:
+        stack = contextlib.ExitStack()
+        self._handle = stack.enter_context(atomic_open(self.path, "wb"))
+        self._stack = stack
+        header = io.StringIO()
+        csv.writer(header, delimiter=self.delimiter, lineterminator="\n").writerow(
+            [*self.columns, "order"]
+        )
+        self._handle.write(header.getvalue().encode("utf-8"))
+        return self
+
+    def __exit__(self, *exc: Any) -> bool:
+        stack, self._stack, self._handle = self._stack, None, None
+        return bool(stack is not None and stack.__exit__(*exc))
+
+    def write(self, decks: np.ndarray, columns: Mapping[str, Sequence[Any]] | None = None) -> None:
+        """Append ``decks`` (shape ``(k, n)``) with one value per deck of each column."""
+        if self._handle is None:
+            raise RuntimeError("LogWriter.write outside its with block")
+        part = _checked_decks(decks, self.deck) if self.check else np.asarray(decks)
+        given = dict(columns or {})
+        if set(given) != set(self.columns):
+            raise InputError(
+                f"columns {sorted(given)} do not match the log's columns {self.columns}"
+            )
+        values = [_column_values(given[name]) for name in self.columns]
+        if any(len(v) != len(part) for v in values):
+            raise InputError(f"columns must have one value for each of the {len(part)} decks")
+        if not len(part):
+            return
+        fields = [_csv_field(v, self.delimiter) for v in values]
+        runs = _equal_width_runs(fields, len(part))
+        if self.codes is not None and runs is not None:
+            for lo, hi in runs:  # rows of one width: one byte matrix each
+                matrix = _csv_rows(
+                    part[lo:hi], [f.rows(lo, hi) for f in fields], self.codes, self.delimiter
+                )
+                self._handle.write(matrix)
+        else:
+            orders = _order_lines(part, self.words)
+            cells_here = [f.cells() for f in fields]
             # one flat list of pieces, joined once: cell, separator, ..., order line
-            pieces: list[bytes] = [separator] * (len(orders) * (2 * len(columns_here) + 1))
-            stride = 2 * len(columns_here) + 1
-            for k, cells in enumerate(columns_here):
+            stride = 2 * len(cells_here) + 1
+            pieces: list[bytes] = [self.delimiter.encode()] * (len(orders) * stride)
+            for k, cells in enumerate(cells_here):
                 pieces[2 * k :: stride] = cells
             pieces[stride - 1 :: stride] = orders
-            handle.write(b"".join(pieces))
-    return target
+            self._handle.write(b"".join(pieces))
+        self.rows += len(part)
+
+
+# --------------------------------------------------------------------------------------
+# CSV text as byte matrices: rows of equal width are filled column by column
+
+
+def _kept_columns(columns: Any, rows: int) -> list[tuple[str, Any]]:
+    """The kept columns as (name, values): integer columns as numpy arrays, others as
+    pandas Series (formatted as before); the same checks as :func:`_columns_frame`."""
+    if columns is None:
+        return []
+    if isinstance(columns, Mapping):
+        items = list(columns.items())
+    elif hasattr(columns, "reset_index") and hasattr(columns, "columns"):  # a DataFrame
+        frame = columns.reset_index(drop=True)
+        items = [(name, frame[name]) for name in frame.columns]
+    else:
+        items = list(dict(columns).items())
+    lengths = {len(values) for _, values in items}
+    if lengths and lengths != {rows}:
+        raise InputError(f"columns have {max(lengths - {rows})} rows, decks have {rows}")
+    if any(str(name).strip().lower() == "order" for name, _ in items):
+        raise InputError("a kept column may not be called 'order'")
+    kept: list[tuple[str, Any]] = []
+    for name, values in items:
+        kept.append((str(name), _column_values(values)))
+    return kept
+
+
+def _rows_of(values: Any, start: int, stop: int) -> Any:
+    return values[start:stop] if isinstance(values, np.ndarray) else values.iloc[start:stop]
+
+
+def _column_values(values: Any) -> Any:
+    """Integer columns (arrays, Series, lists of ints, ranges) and text arrays as numpy
+    arrays, everything else as a pandas Series (formatted as a DataFrame column is)."""
+    if isinstance(values, range):
+        return np.arange(values.start, values.stop, values.step)
+    dtype = getattr(values, "dtype", None)
+    if isinstance(dtype, np.dtype) and dtype.kind in "iu" and np.ndim(values) == 1:
+        return np.asarray(values)  # an integer array or Series
+    if isinstance(values, np.ndarray) and values.dtype.kind == "U" and values.ndim == 1:
+        return values
+    if isinstance(values, (list, tuple)) and set(map(type, values)) == {int}:
+        array = np.asarray(values)
+        if array.dtype.kind in "iu":  # else beyond 64 bits: formatted by pandas
+            return array
+    import pandas as pd
+
+    if isinstance(values, pd.Series):
+        return values.reset_index(drop=True)
+    return pd.Series(values)
+
+
+class _Field:
+    """One kept column of a block: ``cells()`` as bytes, or ``rows(lo, hi)`` as a byte
+    matrix for a run of rows of equal width; ``widths`` per row (None: not fixed)."""
+
+    def __init__(self, cells: list[bytes], matrix: np.ndarray | None) -> None:
+        self._cells = cells
+        self._matrix = matrix  # (rows, width) uint8 when every cell has one width
+        self.widths = None if matrix is None else np.full(len(cells), matrix.shape[1])
+
+    def cells(self) -> list[bytes]:
+        cells = self._cells
+        return cells.tolist() if isinstance(cells, _LazyCells) else cells
+
+    def rows(self, lo: int, hi: int) -> np.ndarray:
+        return self._matrix[lo:hi]
+
+
+class _IntField:
+    """An integer column: decimal digits computed in numpy, width per row."""
+
+    _POWERS = np.array([10**k for k in range(1, 20)], dtype=np.uint64)
+
+    def __init__(self, values: np.ndarray) -> None:
+        values = np.asarray(values)
+        self.negative = values < 0 if values.dtype.kind == "i" else None
+        if self.negative is not None and self.negative.any():
+            if values.min() == np.iinfo(values.dtype).min:  # |min| does not fit
+                self.magnitude = None
+            else:
+                self.magnitude = np.abs(values.astype(np.int64)).astype(np.uint64)
+        else:
+            self.negative = None
+            self.magnitude = values.astype(np.uint64)
+        self.values = values
+        if self.magnitude is None:
+            self.widths = None
+            return
+        digits = np.searchsorted(self._POWERS, self.magnitude, side="right") + 1
+        self.widths = digits if self.negative is None else digits + self.negative
+
+    def cells(self) -> list[bytes]:
+        return self.values.astype("S21").tolist()
+
+    def rows(self, lo: int, hi: int) -> np.ndarray:
+        width = int(self.widths[lo])
+        out = np.empty((hi - lo, width), dtype=np.uint8)
+        rest = self.magnitude[lo:hi].copy()
+        for k in range(width - 1, -1, -1):
+            out[:, k] = rest % 10 + 48
+            rest //= 10
+        if self.negative is not None:
+            out[self.negative[lo:hi], 0] = ord("-")
+        return out
+
+
+def _csv_field(values: Any, delimiter: str) -> _Field | _IntField:
+    if isinstance(values, np.ndarray) and values.dtype.kind in "iu":
+        return _IntField(values)
+    if isinstance(values, np.ndarray):  # text: fixed width without quoting, in numpy
+        field = _text_field(values, delimiter)
+        if field is not None:
+            return field
+        import pandas as pd
+
+        values = pd.Series(values, dtype=object)
+    cells = [cell.encode("utf-8") for cell in _csv_cells(values, delimiter).tolist()]
+    widths = set(map(len, cells))
+    if len(widths) == 1 and 0 not in widths:
+        matrix = np.frombuffer(b"".join(cells), dtype=np.uint8).reshape(len(cells), -1)
+        return _Field(cells, matrix)
+    return _Field(cells, None)
+
+
+def _text_field(values: np.ndarray, delimiter: str) -> _Field | None:
+    """ASCII text of one width that needs no quoting, as a byte matrix (None otherwise)."""
+    try:
+        encoded = values.astype("S")
+    except UnicodeEncodeError:
+        return None
+    width = encoded.dtype.itemsize
+    if len(encoded) == 0 or width == 0:
+        return None
+    if (np.strings.str_len(encoded) != width).any():
+        return None
+    for special in {'"', "\r", "\n", delimiter}:
+        if (np.strings.find(encoded, special.encode()) >= 0).any():
+            return None
+    matrix = encoded.view(np.uint8).reshape(len(encoded), width)
+    return _Field(_LazyCells(matrix), matrix)
+
+
+class _LazyCells:
+    """The cells of a byte matrix as bytes, built only if asked for."""
+
+    def __init__(self, matrix: np.ndarray) -> None:
+        self.matrix = matrix
+
+    def __len__(self) -> int:
+        return len(self.matrix)
+
+    def tolist(self) -> list[bytes]:
+        return self.matrix.view(f"S{self.matrix.shape[1]}").ravel().tolist()
+
+
+def _equal_width_runs(fields: list, rows: int) -> list[tuple[int, int]] | None:
+    """Maximal runs of rows whose every field has one width; None when a field has no
+    fixed form or the runs are too short to pay (then the rows are joined as bytes)."""
+    widths = [f.widths for f in fields]
+    if any(w is None for w in widths):
+        return None
+    cuts = np.zeros(max(rows - 1, 0), dtype=bool)
+    for w in widths:
+        cuts |= w[1:] != w[:-1]
+    edges = [0, *(np.flatnonzero(cuts) + 1).tolist(), rows]
+    if len(edges) - 1 > max(1, rows // 64):
+        return None
+    return [(lo, hi) for lo, hi in itertools.pairwise(edges) if hi > lo]
+
+
+def _fixed_codes(words: list[str]) -> np.ndarray | None:
+    """Card words followed by a space as one fixed-width byte code each (None when the
+    words differ in length)."""
+    encoded = [w.encode("utf-8") for w in words]
+    width = len(encoded[0])
+    if not all(len(e) == width for e in encoded):
+        return None
+    return np.array([e + b" " for e in encoded], dtype=f"S{width + 1}")
+
+
+def _csv_rows(
+    decks: np.ndarray, columns: list[np.ndarray], codes: np.ndarray, delimiter: str
+) -> np.ndarray:
+    """Rows of equal width as one byte matrix: the cells, separators, the order words and
+    a newline (the last word's space)."""
+    front = sum(c.shape[1] + 1 for c in columns)
+    out = np.empty((decks.shape[0], front + decks.shape[1] * codes.dtype.itemsize), np.uint8)
+    position = 0
+    for cells in columns:
+        out[:, position : position + cells.shape[1]] = cells
+        position += cells.shape[1]
+        out[:, position] = ord(delimiter)
+        position += 1
+    code_width = codes.dtype.itemsize - 1  # the word, then its space
+    if code_width in (1, 2, 4, 8):
+        # the words gathered as unsigned integers into a strided view (one step per card)
+        out[:, position + code_width :: code_width + 1] = ord(" ")
+        words = np.frombuffer(b"".join(c[:code_width] for c in codes.tolist()), f"u{code_width}")
+        target = np.ndarray(
+            decks.shape, words.dtype, out, position, (out.strides[0], code_width + 1)
+        )
+        target[...] = words[decks]
+    else:
+        out[:, position:].view(codes.dtype)[...] = codes[decks]
+    out[:, -1] = ord("\n")
+    return out
 
 
 def _order_lines(decks: np.ndarray, words: list[str]) -> list[bytes]:
@@ -178,13 +490,6 @@ def _order_lines(decks: np.ndarray, words: list[str]) -> list[bytes]:
     return [(text + "\n").encode("utf-8") for text in _order_texts(decks, words)]
 
 
-def _csv_cell_bytes(values: pd.Series, delimiter: str) -> list[bytes]:
-    """One column as UTF-8 CSV cells (integers without gaps formatted in one numpy pass)."""
-    if isinstance(values.dtype, np.dtype) and values.dtype.kind in "iu":
-        return values.to_numpy().astype("S21").tolist()
-    return [cell.encode("utf-8") for cell in _csv_cells(values, delimiter).tolist()]
-
-
 def _csv_cells(values: pd.Series, delimiter: str) -> np.ndarray:
     """One column as CSV cells: text, quoted where RFC 4180 [1] needs it; missing -> empty."""
     text = values.astype(object).where(values.notna(), "").map(str)
@@ -194,11 +499,18 @@ def _csv_cells(values: pd.Series, delimiter: str) -> np.ndarray:
     return text.to_numpy(dtype=object)
 
 
+@functools.cache
+def _timestamp_type() -> type:
+    import pandas as pd
+
+    return pd.Timestamp
+
+
 def _json_value(value: Any) -> Any:
     if hasattr(value, "item") and not isinstance(value, (list, dict, str)):
         value = value.item()
     if isinstance(value, float) and value != value:
         return None
-    if isinstance(value, pd.Timestamp):
+    if isinstance(value, _timestamp_type()):
         return value.isoformat()
     return value
