@@ -88,13 +88,17 @@ class TestStrategiesOnTheirProcedures:
 
 
 class TestPaths:
-    @pytest.mark.parametrize("n", [5, 30, 63])
+    @pytest.mark.parametrize("n", [2, 5, 30, 52, 63, 64])
     def test_bitmask_and_generic_agree(self, n):
+        # the bit tricks against the boolean-array path, up to 64 cards; sorted and
+        # reversed decks reach the ends of the runs
         rng = np.random.default_rng(n)
         decks = np.concatenate(
             [
                 rng.permuted(np.tile(np.arange(n), (200, 1)), axis=1),
                 riffle.sample(200, n, 2, rng=rng).astype(np.int64),
+                np.tile(np.arange(n), (3, 1)),
+                np.tile(np.arange(n)[::-1], (3, 1)),
             ]
         )
         names = tuple(STRATEGIES)

@@ -171,6 +171,33 @@ class TestPolicyLogs:
         assert "log Table B: no test flags" in result.stdout
 
 
+class TestReportProgress:
+    def test_one_unit_per_figure_drawn(self, policy_with_logs, tmp_path):
+        # the report's progress bar counts the figures before drawing them: the count
+        # must equal the figures drawn (and written), each reported once as it is drawn
+        from shufflecheck.analyses.policy import evaluate_policy, load_policy
+        from shufflecheck.report.builders.policy import policy_figure_count, policy_report
+        from shufflecheck.report.figures import figure_progress
+        from shufflecheck.report.provenance import collect_provenance
+
+        loaded = load_policy(policy_with_logs)
+        result = evaluate_policy(loaded)
+        drawn = []
+        with figure_progress(lambda: drawn.append(1)):
+            document = policy_report(
+                result, payload={}, provenance=collect_provenance(loaded.inputs)
+            )
+        figures = [f for _, _, f in document.numbered_figures()]
+        assert policy_figure_count(result) == len(figures) == len(drawn) == 7
+        assert policy_figure_count(result, figures=False) == 0
+
+    def test_bar_outside_a_terminal_is_silent(self, policy_with_logs, tmp_path):
+        result = run("policy", policy_with_logs, "--report", tmp_path / "r")
+        assert result.exit_code == 0, result.output
+        assert "drawing the report" not in result.output
+        assert len(list((tmp_path / "r" / "figures").iterdir())) == 7
+
+
 #: (policy text, line number, dotted key, text in the message)
 BAD_POLICIES = [
     pytest.param(

@@ -183,6 +183,24 @@ def progress(total: int, label: str, size: str | None = None) -> Iterator[Callab
         yield update
 
 
+@contextlib.contextmanager
+def report_progress(figures: int, label: str) -> Iterator[Callable[[], None]]:
+    """A progress bar over building and saving a report: one unit per figure drawn (they
+    are most of the work), one for writing the files. Yields ``saved()``, to call once the
+    report is written."""
+    from shufflecheck.report.figures import figure_progress
+
+    with progress(figures + 1, label) as update:
+        drawn = [0]
+
+        def one_more() -> None:
+            drawn[0] += 1
+            update(min(drawn[0], figures))
+
+        with figure_progress(one_more):
+            yield lambda: update(figures + 1)
+
+
 def check_report_folder(folder: Path | None, *, force: bool) -> None:
     """Refuse an existing report folder before any work is done (the writer checks again)."""
     if folder is None:

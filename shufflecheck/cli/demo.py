@@ -14,6 +14,7 @@ from shufflecheck.cli._app import (
     echo,
     emit_json,
     progress,
+    report_progress,
     save_report,
 )
 
@@ -33,7 +34,7 @@ def demo(
     from shufflecheck.analyses.demo import demo_folder, demo_work, run_demo
     from shufflecheck.analyses.plan import planning_json
     from shufflecheck.models.procedures import parse_procedure
-    from shufflecheck.report.builders.demo import demo_report
+    from shufflecheck.report.builders.demo import demo_figure_count, demo_report
     from shufflecheck.report.builders.policy import policy_payload
     from shufflecheck.report.provenance import collect_provenance
 
@@ -66,10 +67,12 @@ def demo(
         inputs += [
             demo_folder() / f for f in (SHOE_MACHINE_LOG, SHOE_HAND_LOG, SHOE_HAND_PROCEDURE)
         ]
-    document = demo_report(
-        result, payload=payload, provenance=collect_provenance(inputs, seeds=seeds)
-    )
-    written = save_report(document, out, force=force)
+    with report_progress(demo_figure_count(result), "demo: drawing the report") as saved:
+        document = demo_report(
+            result, payload=payload, provenance=collect_provenance(inputs, seeds=seeds)
+        )
+        written = save_report(document, out, force=force)
+        saved()
     if json_out:
         emit_json(payload)
         return

@@ -15,6 +15,7 @@ from shufflecheck.cli._app import (
     echo,
     emit_json,
     progress,
+    report_progress,
     save_report,
 )
 
@@ -48,21 +49,23 @@ def policy(
         result = evaluate_policy(loaded, progress=update)
     payload = policy_payload(result)
     if report is not None:
-        from shufflecheck.report.builders.policy import policy_report
+        from shufflecheck.report.builders.policy import policy_figure_count, policy_report
         from shufflecheck.report.provenance import collect_provenance
 
-        document = policy_report(
-            result,
-            payload=payload,
-            provenance=collect_provenance(
-                loaded.inputs,
-                seeds={
-                    f"simulation, {p.name}": loaded.seed + i
-                    for i, p in enumerate(loaded.procedures)
-                },
-            ),
-        )
-        written = save_report(document, report, force=force)
+        with report_progress(policy_figure_count(result), "drawing the report") as saved:
+            document = policy_report(
+                result,
+                payload=payload,
+                provenance=collect_provenance(
+                    loaded.inputs,
+                    seeds={
+                        f"simulation, {p.name}": loaded.seed + i
+                        for i, p in enumerate(loaded.procedures)
+                    },
+                ),
+            )
+            written = save_report(document, report, force=force)
+            saved()
     if json_out:
         emit_json(payload)
         return

@@ -33,7 +33,9 @@ from __future__ import annotations
 
 import io
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from typing import Any
 
 import numpy as np
@@ -50,6 +52,7 @@ __all__ = [
     "SERIES_MARKERS",
     "distance_figure",
     "expectation_figure",
+    "figure_progress",
     "heatmap_figure",
     "power_figure",
     "pvalue_figure",
@@ -150,8 +153,27 @@ def _style() -> Any:
     return matplotlib.rc_context(_STYLE)
 
 
+#: called after each figure is rendered, inside :func:`figure_progress`
+_RENDERED: ContextVar[Callable[[], None] | None] = ContextVar("figure_rendered", default=None)
+
+
+@contextmanager
+def figure_progress(callback: Callable[[], None]) -> Iterator[None]:
+    """Call ``callback()`` after each figure drawn inside the ``with`` block (for progress
+    bars over report building, where the figures are most of the work)."""
+    token = _RENDERED.set(callback)
+    try:
+        yield
+    finally:
+        _RENDERED.reset(token)
+
+
 def _finish(fig: Any, name: str, caption: str, alt: str, data: dict[str, Any]) -> Figure:
-    return Figure(name=name, caption=caption, png=render_png(fig), alt=alt, data=data)
+    figure = Figure(name=name, caption=caption, png=render_png(fig), alt=alt, data=data)
+    rendered = _RENDERED.get()
+    if rendered is not None:
+        rendered()
+    return figure
 
 
 def _plain_log_ticks(axis: Any) -> None:

@@ -19,7 +19,13 @@ from shufflecheck.common.sources import (
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
-__all__ = ["audit_figures", "audit_methods", "audit_report", "audit_section"]
+__all__ = [
+    "audit_figure_count",
+    "audit_figures",
+    "audit_methods",
+    "audit_report",
+    "audit_section",
+]
 
 #: how a p-value was obtained, in the report's three labels
 _P_LABEL = {"exact": "exact", "asymptotic": "estimate", "monte-carlo": "estimate"}
@@ -67,6 +73,22 @@ def _tests_table(battery, caption: str) -> Table:
     )
 
 
+def _guessing_histogram(audit):
+    """(test, histogram) of the strongest guessing strategy when it has scores, else None."""
+    tests = audit.result.overall.by_adjusted_p()
+    guesses = [t for t in tests if t.name.startswith("guess-")]  # one per strategy
+    if not guesses:
+        return None
+    best = min(guesses, key=lambda t: t.log10_p_value)
+    hist = audit.histograms.get(best.name)
+    return (best, hist) if hist is not None and hist.sum() > 0 else None
+
+
+def audit_figure_count(audit) -> int:
+    """How many figures :func:`audit_figures` draws for ``audit`` (for progress bars)."""
+    return 2 + (_guessing_histogram(audit) is not None)
+
+
 def audit_figures(audit, prefix: str = "") -> tuple:
     """p-values, guessing scores against the exact null, and the position heat map."""
     from shufflecheck.audit.guessing import guessing_null
@@ -90,35 +112,33 @@ def audit_figures(audit, prefix: str = "") -> tuple:
             name=f"{prefix}pvalues",
         )
     ]
-    guesses = [t for t in tests if t.name.startswith("guess-")]  # one per strategy
+    shown = _guessing_histogram(audit)
     shoe = getattr(audit, "shoe", None)
-    if guesses:
-        best = min(guesses, key=lambda t: t.log10_p_value)
-        hist = audit.histograms.get(best.name)
-        if hist is not None and hist.sum() > 0:
-            n = audit.deck.size
-            if shoe is None:
-                law = guessing_null(n)
-            else:
-                from shufflecheck.audit.shoe_nulls import greedy_guessing_law
+    if shown is not None:
+        best, hist = shown
+        n = audit.deck.size
+        if shoe is None:
+            law = guessing_null(n)
+        else:
+            from shufflecheck.audit.shoe_nulls import greedy_guessing_law
 
-                law = greedy_guessing_law(shoe.class_counts)
-            pmf = np.zeros(max(n + 1, hist.size))
-            pmf[law.offset : law.offset + len(law.counts)] = law.pmf
-            scores = np.repeat(np.arange(hist.size), hist)
-            figures.append(
-                score_histogram_figure(
-                    scores.tolist(),
-                    pmf[: max(hist.size, n + 1)].tolist(),
-                    score_name=(
-                        f"correct guesses per {'deck' if shoe is None else 'shoe'} "
-                        f"({best.title.split(', ')[-1]})"
-                    ),
-                    name=f"{prefix}guessing",
-                    sample_label="recorded decks" if shoe is None else "recorded shoes",
-                    null_label="a random deck" if shoe is None else "a random shoe",
-                )
+            law = greedy_guessing_law(shoe.class_counts)
+        pmf = np.zeros(max(n + 1, hist.size))
+        pmf[law.offset : law.offset + len(law.counts)] = law.pmf
+        scores = np.repeat(np.arange(hist.size), hist)
+        figures.append(
+            score_histogram_figure(
+                scores.tolist(),
+                pmf[: max(hist.size, n + 1)].tolist(),
+                score_name=(
+                    f"correct guesses per {'deck' if shoe is None else 'shoe'} "
+                    f"({best.title.split(', ')[-1]})"
+                ),
+                name=f"{prefix}guessing",
+                sample_label="recorded decks" if shoe is None else "recorded shoes",
+                null_label="a random deck" if shoe is None else "a random shoe",
             )
+        )
     counts = np.asarray(audit.positions, dtype=float)
     decks = counts.sum(axis=1, keepdims=True)
     n = counts.shape[0]

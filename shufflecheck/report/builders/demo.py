@@ -9,7 +9,21 @@ from shufflecheck.report.builders.power import power_curves, power_methods, powe
 from shufflecheck.report.document import Report
 from shufflecheck.report.provenance import Provenance
 
-__all__ = ["demo_report"]
+__all__ = ["demo_figure_count", "demo_report"]
+
+
+def demo_figure_count(demo) -> int:
+    """How many figures :func:`demo_report` draws (for progress bars)."""
+    from shufflecheck.report.builders.audit import audit_figure_count
+    from shufflecheck.report.builders.policy import policy_figure_count
+    from shufflecheck.report.builders.track import tracking_figure_count
+
+    count = 1 + policy_figure_count(demo.policy)  # the power figure, then the policy's
+    if demo.shoes is not None:
+        game = demo.shoes
+        count += audit_figure_count(game.machine)
+        count += tracking_figure_count(game.tracked) + tracking_figure_count(game.recorded)
+    return count
 
 
 def demo_report(demo, *, payload: dict[str, Any], provenance: Provenance) -> Report:

@@ -183,6 +183,15 @@ def _settle_paragraph(decision, label: str) -> str:
     )
 
 
+def policy_figure_count(result, *, figures: bool = True) -> int:
+    """How many figures :func:`policy_sections` draws (for progress bars)."""
+    from shufflecheck.report.builders.audit import audit_figure_count
+
+    if not figures:
+        return 0
+    return 1 + sum(audit_figure_count(audit) for d in result.decisions for _, audit in d.audits)
+
+
 def _slug(log) -> str:
     """A file-name stem for a log's figures: its table name, else its file name."""
     import re

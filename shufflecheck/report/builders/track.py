@@ -8,7 +8,7 @@ from shufflecheck.common.sources import BAYER_DIACONIS, CLOPPER_PEARSON, TRADE_P
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
-__all__ = ["tracking_report", "tracking_section", "tracking_table"]
+__all__ = ["tracking_figure_count", "tracking_report", "tracking_section", "tracking_table"]
 
 
 def tracking_table(result) -> Table:
@@ -45,12 +45,21 @@ def tracking_table(result) -> Table:
     )
 
 
+def _has_histogram(result) -> bool:
+    return bool(result.caught.size and result.random_pmf.size)
+
+
+def tracking_figure_count(result, *, figures: bool = True) -> int:
+    """How many figures :func:`tracking_section` draws (for progress bars)."""
+    return int(figures and _has_histogram(result))
+
+
 def tracking_section(result, title: str, *, prefix: str = "", figures: bool = True) -> Section:
     """One tracking analysis as a report section."""
     from shufflecheck.report.figures import score_histogram_figure
 
     figs = ()
-    if figures and result.caught.size and result.random_pmf.size:
+    if figures and _has_histogram(result):
         figs = (
             score_histogram_figure(
                 result.caught.tolist(),
