@@ -317,7 +317,7 @@ class TestMixBadInput:
         ("args", "serves"),
         [
             (["riffle", "--max-steps", 100000], "shufflecheck assess"),
-            (["top-to-random", "--cards", 52, "--max-steps", 100000], "shufflecheck assess"),
+            (["top-to-random", "--cards", 52, "--max-steps", 300000], "shufflecheck assess"),
             (["shelf", "--cards", 52, "--max-steps", 100000], "shufflecheck assess"),
             (["transposition", "--cards", 6, "--max-steps", 100000], "upper bound lemma"),
             (["transposition", "--cards", 500, "--max-steps", 5], "upper bound lemma"),

@@ -257,6 +257,44 @@ class TestLumpedChain:
             assert got == pytest.approx(expected, rel=1e-12, abs=1e-15), k
 
 
+class TestTopToRandomChain:
+    @pytest.mark.parametrize(
+        ("n", "k"), [(2, 8), (3, 12), (7, 300), (13, 200), (52, 600), (180, 400)]
+    )
+    def test_chain_equals_exact_integers(self, n, k):
+        # the double-precision chain on the number of distinct cards drawn against the
+        # exact Stirling-number rows: within the stated bound, and near 1e-14 relative
+        from shufflecheck.models import top_to_random as ttr
+
+        exact, exact_bounds = ttr._integer_rows(n, k, None)
+        chain, chain_bounds = ttr._chain_rows(n, k, None)
+        bound = ttr.chain_error(n, k)
+        for a, b, ab, bb in zip(exact, chain, exact_bounds, chain_bounds, strict=True):
+            for x, y in ((a.total_variation, b.total_variation), (a.separation, b.separation)):
+                assert abs(x - y) <= bound
+                assert y == pytest.approx(x, rel=1e-12, abs=1e-300)
+            assert abs(a.kl_bits - b.kl_bits) <= bound * (1 + a.kl_bits)
+            assert b.kl_bits == pytest.approx(a.kl_bits, rel=2e-11, abs=1e-300)
+            assert bb.total_variation == pytest.approx(ab.total_variation, rel=1e-12, abs=1e-300)
+            assert b.kind == "exact" and "double precision" in b.note
+
+    def test_method_by_work_and_the_defaults_fit(self):
+        from shufflecheck.models import default_max_steps
+        from shufflecheck.models import top_to_random as ttr
+
+        assert ttr.curve_method(52, default_max_steps("top-to-random", 52)) == "integers"
+        assert ttr.curve_method(52, 20_000) == "chain"
+        steps = default_max_steps("top-to-random", 2000)  # within the limits
+        assert steps == 22_803 <= ttr.MAX_CHAIN_STEPS  # ceil(1.5 n ln n)
+        calls = []
+        curve = ttr.distance_curve(2000, steps, progress=calls.append)
+        assert calls == list(range(1, steps + 1))
+        assert curve.rows[-1].total_variation < 2e-4 < curve.rows[steps // 2].total_variation
+        assert "double precision" in curve.source
+        with pytest.raises(InputError, match="200,000 steps"):
+            ttr.distance_curve(52, ttr.MAX_CHAIN_STEPS + 1)
+
+
 class TestCharacters:
     def test_table_equals_single_values(self):
         # two independent algorithms: the table's sparse rim-hook matrices and the

@@ -162,21 +162,41 @@ def warn(text: str) -> None:
 
 
 @contextlib.contextmanager
-def progress(total: int, label: str, size: str | None = None) -> Iterator[Callable[[int], None]]:
+def progress(
+    total: int, label: str, size: str | None = None, *, after: float = 0.0
+) -> Iterator[Callable[[int], None]]:
     """A progress bar on stderr for long work (shown only when stderr is a terminal).
 
     ``size`` states the expected size of the work; it is printed before the bar starts.
-    Yields ``update(done)`` taking the number of units finished so far.
+    Yields ``update(done)`` taking the number of units finished so far. With ``after``
+    (seconds), the bar (and the size line) appear only once the work has run that long,
+    so quick runs of work that can be long print nothing.
     """
     if total <= 0 or not sys.stderr.isatty():
         yield lambda done: None
         return
-    if size:
-        typer.echo(f"{label}: {size}", err=True)
-    with typer.progressbar(length=total, label=label, file=sys.stderr) as bar:
-        state = {"done": 0}
+    import time
+
+    start = time.monotonic()
+    with contextlib.ExitStack() as stack:
+        state: dict[str, Any] = {"done": 0, "bar": None}
+
+        def open_bar() -> Any:
+            if size:
+                typer.echo(f"{label}: {size}", err=True)
+            bar = stack.enter_context(typer.progressbar(length=total, label=label, file=sys.stderr))
+            state["bar"] = bar
+            return bar
+
+        if after <= 0:
+            open_bar()
 
         def update(done: int) -> None:
+            bar = state["bar"]
+            if bar is None:
+                if time.monotonic() - start < after:
+                    return
+                bar = open_bar()
             bar.update(done - state["done"])
             state["done"] = done
 

@@ -8,7 +8,7 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import app, echo, emit_json
+from shufflecheck.cli._app import app, echo, emit_json, progress
 from shufflecheck.common.errors import InputError
 from shufflecheck.models.registry import spectrum_models
 
@@ -136,10 +136,12 @@ def spectrum(
     transposition the shapes giving each eigenvalue are listed (the block of the irreducible
     lambda has eigenvalue hold + (1 - hold) chi(tau)/d, multiplicity d^2).
     """
+    from shufflecheck.models import SPECTRUM_UNITS
     from shufflecheck.models import spectrum as model_spectrum
     from shufflecheck.report.render.terminal import format_table
 
-    rows = model_spectrum(model.value, cards, hold=hold, hands=hands)
+    with progress(SPECTRUM_UNITS, f"{model.value} spectrum", after=0.5) as update:
+        rows = model_spectrum(model.value, cards, hold=hold, hands=hands, progress=update)
     if json_out:
         emit_json(
             {

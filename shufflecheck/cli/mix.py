@@ -143,8 +143,8 @@ def mix(
         )
         return
     steps = max_steps if max_steps is not None else default_max_steps(model.value, max(cards, 2))
-    long_work = "progress" in entry(model.value).curve_options and cards >= 30
-    with progress(steps if long_work else 0, "lumped chain") as update:
+    reports = "progress" in entry(model.value).curve_options
+    with progress(steps if reports else 0, f"{model.value}: k = 1..{steps}", after=0.5) as update:
         curve = distance_curve(
             model.value,
             cards,

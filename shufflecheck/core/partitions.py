@@ -23,7 +23,7 @@ from __future__ import annotations
 import math
 import re
 from collections import Counter
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from functools import cache
 
 import numpy as np
@@ -439,7 +439,9 @@ def _hook_powers(m: np.ndarray, width: int) -> np.ndarray:
     return np.bincount(index, weights=signs, minlength=count * width).reshape(count, width)
 
 
-def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
+def hook_product_exponents(
+    m: np.ndarray, progress: Callable[[float], None] | None = None
+) -> tuple[list[int], np.ndarray]:
     """(primes up to n, E) with ``E[i, k]`` the exponent of ``primes[k]`` in the product of
     the hook lengths of partition ``i`` of a multiplicity matrix (exact, vectorized).
 
@@ -449,7 +451,8 @@ def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
     consecutive integers, so its hook product is ``prod_j (c_1 - j)! / (c_2 - j)!`` with
     ``c_1 = s_a + M_b - M_{a-1} - 1`` and ``c_2 = c_1 - m_a``, i.e. a ratio of four values
     of ``G(x) = prod_{y <= x} y!``. Every hook product is thus a product of powers of
-    ``G``, whose prime exponents are tabulated once.
+    ``G``, whose prime exponents are tabulated once. ``progress(f)``, when given, is
+    called with the fraction of partitions done.
     """
     n = m.shape[1] - 1
     count = len(m)
@@ -469,6 +472,8 @@ def hook_product_exponents(m: np.ndarray) -> tuple[list[int], np.ndarray]:
         hi = min(count, lo + chunk)
         # float64 products are exact: every partial sum is an integer far below 2^53
         exponents[lo:hi] = np.rint(_hook_powers(m[lo:hi], width) @ table)
+        if progress is not None:
+            progress(hi / count)
     return primes, exponents
 
 
@@ -481,7 +486,9 @@ def _combined_index(free: np.ndarray, top: np.ndarray, members: list[int]) -> np
     return index
 
 
-def squared_dimension_sums(n: int) -> dict[int, int]:
+def squared_dimension_sums(
+    n: int, progress: Callable[[float], None] | None = None
+) -> dict[int, int]:
     """``sum d_lambda^2`` over the shapes of each content sum: content sum -> exact int.
 
     Vectorized over all ``p(n)`` shapes: the prime exponents of ``d_lambda = n! / prod
@@ -489,6 +496,7 @@ def squared_dimension_sums(n: int) -> dict[int, int]:
     :func:`hook_product_exponents`; ``d_lambda^2`` is summed per content sum modulo enough
     primes below ``2^31`` to exceed ``n!``, and each sum is rebuilt by the Chinese
     remainder theorem. The sums are checked to add up to ``n!`` (``sum d^2 = n!``).
+    ``progress(f)``, when given, is called with the fraction of the work done.
     """
     if n <= 1:  # the one shape of 0 or 1 cell: d = 1, content sum 0
         return {0: 1}
@@ -501,7 +509,8 @@ def squared_dimension_sums(n: int) -> dict[int, int]:
     wide = largest >= length
     m = m[wide]
     mirrored = (largest > length)[wide]
-    primes, exponents = hook_product_exponents(m)
+    hooks_done = None if progress is None else (lambda f: progress(0.8 * f))
+    primes, exponents = hook_product_exponents(m, hooks_done)
     top = np.array([_legendre(p, n) for p in primes], dtype=np.int64)
     free = top - exponents  # exponents of d_lambda
     if (free < 0).any():  # pragma: no cover - would mean a wrong hook product
@@ -539,6 +548,8 @@ def squared_dimension_sums(n: int) -> dict[int, int]:
         square = np.concatenate([square, square[mirrored]])
         residues.append(np.add.reduceat(square[order], starts) % q)  # < 2^31 * p(n) < 2^63
         moduli.append(q)
+        if progress is not None:
+            progress(min(1.0, 0.8 + 0.2 * math.log(math.prod(moduli)) / math.log(fact)))
     modulus = math.prod(moduli)
     if modulus <= fact:  # pragma: no cover - n far beyond any table
         raise InputError(f"squared dimensions of S_{n} exceed the residue arithmetic")

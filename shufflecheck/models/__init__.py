@@ -18,8 +18,9 @@ from typing import Any
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.distances import MixingCurve
+from shufflecheck.models.registry import SPECTRUM_UNITS
 
-__all__ = ["default_max_steps", "distance_curve", "spectrum"]
+__all__ = ["SPECTRUM_UNITS", "default_max_steps", "distance_curve", "spectrum"]
 
 
 def default_max_steps(model: str, cards: int) -> int:
@@ -55,7 +56,8 @@ def distance_curve(
 
 def spectrum(model: str, cards: int, **options: Any) -> list[Eigenvalue]:
     """Distinct eigenvalues (largest first) of one step of ``model`` on ``cards`` cards;
-    ``options`` as for :func:`distance_curve` (``hands``, ``hold``)."""
+    ``options`` as for :func:`distance_curve` (``hands``, ``hold``, and ``progress``,
+    called with the units done out of :data:`SPECTRUM_UNITS`)."""
     from shufflecheck.models.registry import entry
 
     check_cards(cards)

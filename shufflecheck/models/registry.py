@@ -42,6 +42,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.models.base import Step
 
 __all__ = [
+    "SPECTRUM_UNITS",
     "ModelEntry",
     "Parameter",
     "curve_models",
@@ -82,6 +83,10 @@ def _type_words(annotation: object) -> str:
         annotation,  # type: ignore[call-overload]
         str(annotation),
     )
+
+
+#: a spectrum taking ``progress`` calls ``progress(done)`` with ``done`` out of this
+SPECTRUM_UNITS = 100
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,13 @@ arrangement whose longest increasing bottom run has length ``L`` has probability
 ``sum_{d >= n - L} S(k, d) / n^k``, and ``n!/L!`` arrangements have such a run of length at
 least ``L``.
 
+The exact integers grow like ``k log2 n`` bits, so beyond a small work budget the curve
+follows instead the chain on the number ``D`` of distinct cards drawn (``D -> D + 1`` with
+probability ``(n - D)/n``) in double precision: given ``D = d`` the deck is uniform on the
+``n!/(n-d)!`` arrangements whose bottom ``n - d`` cards are increasing. Those rows are
+labelled exact with the note "double precision" and a rigorous rounding-error bound
+(:func:`chain_error`).
+
 Strong uniform time ([1], Section 2): once the card originally at the bottom has come to
 the top and been inserted, the deck is uniform; that time has the law of the coupon
 collector's time for ``n`` coupons, so ``separation(k) <= P(T > k) = 1 - n! S(k, n) / n^k``.
@@ -30,6 +37,7 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
+from collections.abc import Callable
 from fractions import Fraction
 
 import numpy as np
@@ -50,12 +58,15 @@ from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks,
 from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = [
+    "MAX_CHAIN_STEPS",
     "MAX_EXACT_CARDS",
     "MAX_EXACT_STEPS",
     "RandomToTop",
     "TopToRandom",
     "bottom_run_law",
+    "chain_error",
     "chi_square",
+    "curve_method",
     "distance_curve",
     "sample",
     "sample_random_to_top",
@@ -65,6 +76,10 @@ __all__ = [
 SOURCE = (
     "exact: random-to-top law through Stirling numbers of the second kind "
     "(Aldous & Diaconis 1986; same distances for top-to-random)"
+)
+CHAIN_SOURCE = (
+    "exact: chain on the number of distinct cards drawn, double precision (Aldous & "
+    "Diaconis 1986; same distances for top-to-random)"
 )
 BOUND_SOURCE = (
     "bound: strong uniform time, P(T > k) = 1 - n! S(k, n) / n^k (Aldous & Diaconis 1986)"
@@ -111,41 +126,87 @@ def _numerators(row: tuple[int, ...], cards: int) -> list[int]:
     return [suffix[cards - length] for length in range(1, cards + 1)]
 
 
-#: exact big-integer work allowed for one curve (``exact_work`` units; 2e9 is about 80 s
-#: on one core: 52 cards x 20,000 steps fits, 2,000 cards up to about 2,300 steps)
-MAX_EXACT_WORK = 2 * 10**9
+#: exact big-integer work done by the integer method (``exact_work`` units, about a second
+#: of one core at 52 cards; slower per unit for wide decks, hence also FAST_EXACT_CARDS)
+FAST_EXACT_WORK = 10**7
+FAST_EXACT_CARDS = 250
+#: the double-precision chain is offered up to this many steps (it costs O(n) per step)
+MAX_CHAIN_STEPS = 200_000
+CHAIN_METHOD = "chain on the number of distinct cards drawn, double precision"
 
 
 def exact_work(cards: int, steps: int) -> int:
-    """Work of the exact curve: each step updates ``cards`` Stirling numbers of about
+    """Work of the integer method: each step updates ``cards`` Stirling numbers of about
     ``k log2(cards)`` bits and sums them per group, so ``~cards * steps^2 * log2(cards) /
     60`` 30-bit digit operations over ``k = 1..steps``."""
     return int(cards * steps * steps * math.log2(cards) / 60) + cards * steps
 
 
-def check_work(cards: int, steps: int) -> None:
-    """Refuse, before any work, a curve whose exact integers would take too long."""
-    if exact_work(cards, steps) > MAX_EXACT_WORK:
-        # the largest step count within the budget at this deck size
-        most = int(math.sqrt(MAX_EXACT_WORK * 60 / (cards * math.log2(cards))))
-        raise InputError(
-            f"the exact top-to-random law after k steps needs integers of about "
-            f"k log2(n) bits for each of the n cards; {cards} cards x {steps} steps is beyond "
-            f"the exact range (at {cards} cards up to about {most} steps); use fewer "
-            "steps ({max_steps}) or Monte Carlo assessment (shufflecheck assess)",
-            argument="max_steps",
-        )
+def curve_method(cards: int, steps: int) -> str:
+    """``"integers"`` (Stirling numbers, exact) while that is cheap, else ``"chain"``."""
+    if cards <= FAST_EXACT_CARDS and exact_work(cards, steps) <= FAST_EXACT_WORK:
+        return "integers"
+    return "chain"
 
 
-def distance_curve(cards: int, max_steps: int, *, inverse: bool = False) -> MixingCurve:
+def chain_error(cards: int, steps: int) -> float:
+    """Bound on the error of every distance of the double-precision chain after ``steps``.
+
+    The law of the number ``D`` of distinct cards drawn follows ``D -> D`` with
+    probability ``D/n`` and ``D -> D + 1`` otherwise: sums of products of positive numbers,
+    so each probability carries a relative rounding error of at most ``3k`` units of
+    ``u = 2^-53`` (one for each coefficient, product and sum per step). The per-group
+    probabilities add at most ``n + 4`` more, and their logarithms (magnitudes up to
+    ``ln n!``) one unit of that size each; probabilities below 1e-300 are set to 0 (at
+    most ``1e-290`` in all). Each distance is a sum of group probabilities or uniform
+    masses times their relative error, so it is within the returned bound of its exact
+    value (KL in bits: within the bound times ``1 + KL``).
+    """
+    u = 2.0**-53
+    log_fact = math.lgamma(cards + 1)
+    return (3 * steps + 2 * cards + 4 * log_fact + 64) * u + 1e-290
+
+
+def distance_curve(
+    cards: int,
+    max_steps: int,
+    *,
+    inverse: bool = False,
+    progress: Callable[[int], None] | None = None,
+) -> MixingCurve:
     """Exact distances for ``k = 1..max_steps`` and the strong-uniform-time bound.
 
-    ``inverse=True`` names the curve random-to-top; the values are identical. The Stirling
-    numbers ``S(k, d)`` are kept for one ``k`` at a time, so memory stays ``O(cards)``
-    integers however many steps are asked for.
+    While it is cheap (:func:`curve_method`) the law is computed in exact integers (the
+    Stirling numbers ``S(k, d)`` kept for one ``k`` at a time, so memory stays ``O(cards)``);
+    beyond, by the chain on the number of distinct cards drawn in double precision, whose
+    rows are labelled exact with the note "double precision" and an error bound
+    (:func:`chain_error`). ``inverse=True`` names the curve random-to-top; the values are
+    identical. ``progress(k)`` is called after each step.
     """
-    _check(cards, max_steps)
-    check_work(cards, max_steps)
+    check_cards(cards)
+    check_integer(max_steps, "max_steps", low=1)
+    if cards > MAX_EXACT_CARDS or max_steps > MAX_CHAIN_STEPS:
+        raise InputError(
+            f"the exact top-to-random curve is offered for up to {MAX_EXACT_CARDS:,} cards and "
+            f"{MAX_CHAIN_STEPS:,} steps ({{max_steps}}); beyond, use Monte Carlo assessment "
+            "(shufflecheck assess)",
+            argument="max_steps",
+        )
+    if curve_method(cards, max_steps) == "integers":
+        rows, bounds = _integer_rows(cards, max_steps, progress)
+        source = SOURCE
+    else:
+        rows, bounds = _chain_rows(cards, max_steps, progress)
+        source = CHAIN_SOURCE
+    name = "random-to-top" if inverse else "top-to-random"
+    return MixingCurve(
+        name, cards, {}, tuple(rows), source, tuple(bounds), BOUND_SOURCE, "strong uniform time"
+    )
+
+
+def _integer_rows(
+    cards: int, max_steps: int, progress: Callable[[int], None] | None
+) -> tuple[list[DistanceRow], list[DistanceRow]]:
     counts = _run_counts(cards)
     fact = math.factorial(cards)
     rows, bounds = [], []
@@ -159,10 +220,138 @@ def distance_curve(cards: int, max_steps: int, *, inverse: bool = False) -> Mixi
         rows.append(DistanceRow(k, tv, sep, kl, "exact"))
         tail = float(Fraction(den - fact * stirling[cards], den))
         bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
-    name = "random-to-top" if inverse else "top-to-random"
-    return MixingCurve(
-        name, cards, {}, tuple(rows), SOURCE, tuple(bounds), BOUND_SOURCE, "strong uniform time"
-    )
+        if progress is not None:
+            progress(k)
+    return rows, bounds
+
+
+def _series_g(x: np.ndarray) -> np.ndarray:
+    """``g(x) = x e^x - e^x + 1`` (``f(t) = t ln t - t + 1`` at ``t = e^x``) by its series,
+    for ``|x| < 0.01`` (coefficients ``(j - 1)/j!``; the first left out is below 1e-21
+    relative)."""
+    c = (1 / 2, 1 / 3, 1 / 8, 1 / 30, 1 / 144, 1 / 840, 1 / 5760, 1 / 45360)
+    out = np.full_like(x, c[-1])
+    for coefficient in c[-2::-1]:
+        out = out * x + coefficient
+    return out * x * x
+
+
+def _chain_rows(
+    cards: int, max_steps: int, progress: Callable[[int], None] | None
+) -> tuple[list[DistanceRow], list[DistanceRow]]:
+    """Distances from the law of ``D``, the number of distinct cards drawn (``P(D = d) =
+    n!/(n-d)! S(k, d) / n^k``). Given ``D = d`` the deck is uniform on the ``n!/(n-d)!``
+    arrangements whose bottom ``n - d`` cards are increasing, so with ``r_m = P(D = n - m)``
+    an arrangement of group ``L`` (bottom increasing run of length ``L``) has ``n! P =
+    t_L = sum_{m <= L} r_m m!``: one cumulative sum (of logarithms) per step over the
+    support of ``r``; beyond it ``t_L`` is 0 (below) or constant (above), and those groups'
+    uniform masses ``1 - 1/m!`` and ``1/m!`` enter whole.
+    """
+    from scipy.special import gammaln
+
+    n = cards
+    error = chain_error(cards, max_steps)
+    note = f"{CHAIN_METHOD} (each distance within {error:.0e})"
+    q = np.zeros(n + 1)
+    q[0] = 1.0  # law of D, the number of distinct cards drawn
+    d = np.arange(n + 1, dtype=np.float64)
+    stay, grow = d / n, (n - d) / n  # P(D -> D), P(D -> D + 1)
+    log_fact = gammaln(np.arange(n + 2, dtype=np.float64) + 1.0)  # ln m!
+    groups = np.arange(1, n + 1)
+    ratio = np.ones(n)
+    ratio[:-1] = groups[:-1] / (groups[:-1] + 1.0)
+    log_uniform = np.log(ratio) - log_fact[1 : n + 1]  # uniform mass of group L = 1..n
+    uniform = np.exp(log_uniform)  # 0 beyond about L = 170: no mass at double precision
+    lo = hi = 0  # support of q
+    rows, bounds = [], []
+    with np.errstate(divide="ignore", under="ignore"):
+        for k in range(1, max_steps + 1):
+            top = min(hi + 1, n)
+            previous = q[lo:top].copy()
+            q[lo : top + 1] *= stay[lo : top + 1]
+            q[lo + 1 : top + 1] += previous * grow[lo:top]
+            hi = top
+            while q[lo] < 1e-300 and lo < hi:  # flushed: no subnormal arithmetic
+                q[lo] = 0.0
+                lo += 1
+            while q[hi] < 1e-300 and hi > lo:
+                q[hi] = 0.0
+                hi -= 1
+            # r_m = q[n - m] for m in m_lo..m_hi; x_L = ln t_L
+            m_lo, m_hi = n - hi, n - lo
+            terms = np.log(q[hi : lo - 1 if lo else None : -1]) + log_fact[m_lo : m_hi + 1]
+            x = np.logaddexp.accumulate(terms)
+            first = max(1, m_lo)  # group L >= 1
+            xs = x[first - m_lo :]
+            us = uniform[first - 1 : m_hi]
+            below = -math.expm1(-log_fact[m_lo]) if m_lo >= 2 else 0.0  # groups 1..m_lo-1
+            above = math.exp(-log_fact[m_hi + 1]) if m_hi < n else 0.0  # groups m_hi+1..n
+            if m_lo <= 1 and float(np.abs(xs).max()) < 0.5:
+                # near uniform: t_L - 1 from the small probabilities themselves (relative
+                # accuracy for tiny distances), t_L - 1 = sum_{2 <= m <= L} r_m (m! - 1)
+                # - sum_{m > L} r_m
+                r = q[hi : lo - 1 if lo else None : -1]
+                excess = np.exp(np.log(r) + log_fact[m_lo : m_hi + 1]) - r
+                excess[: max(0, 2 - m_lo)] = 0.0  # m = 0, 1: m! - 1 = 0
+                rest = np.r_[np.cumsum(r[::-1])[::-1][1:], 0.0]  # sum_{m > L} r_m
+                delta = (np.cumsum(excess) - rest)[first - m_lo :]
+                tv, sep, kl = _near_uniform(delta, us, above)
+            else:
+                x_top = float(xs[-1])
+                # only the groups below uniform (t < 1) count: TV = sum U (1 - t)
+                tv = below + float(us @ -np.expm1(np.minimum(xs, 0.0)))
+                tv += above * -math.expm1(min(x_top, 0.0))
+                lowest = min(float(xs.min()), x_top)
+                sep = 1.0 if below > 0 else -math.expm1(min(lowest, 0.0))
+                kl = below + _kl_terms(xs, us, log_uniform[first - 1 : m_hi])
+                if m_hi < n:  # in logs: 1/(m_hi + 1)! may underflow while its P does not
+                    kl += _kl_terms(
+                        np.array([x_top]), np.array([above]), np.array([-log_fact[m_hi + 1]])
+                    )
+            rows.append(DistanceRow(k, tv, sep, kl / math.log(2), "exact", note))
+            tail = float(q[lo : min(hi, n - 1) + 1].sum()) if lo < n else 0.0  # P(D < n)
+            bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
+            if progress is not None:
+                progress(k)
+    return rows, bounds
+
+
+def _near_uniform(
+    delta: np.ndarray, uniform: np.ndarray, above: float
+) -> tuple[float, float, float]:
+    """(TV, separation, KL nats) from ``t_L - 1`` per group (the last value also holds for
+    the groups above, of uniform mass ``above``); ``f(1 + u) = (1 + u) ln(1 + u) - u`` by its
+    series for ``|u| < 0.01`` (coefficients ``(-1)^j / (j (j - 1))``)."""
+    last = float(delta[-1])
+    tv = float(uniform @ np.maximum(0.0, -delta)) + above * max(0.0, -last)
+    sep = max(0.0, -float(delta.min()))
+    every = np.r_[delta, last]
+    weights = np.r_[uniform, above]
+    near = np.abs(every) < 0.01
+    f = np.empty_like(every)
+    u = every[near]
+    series = np.full_like(u, 1 / 90)  # j = 10
+    for j in range(9, 1, -1):
+        series = series * u + (-1) ** j / (j * (j - 1))
+    f[near] = series * u * u
+    w = every[~near]
+    f[~near] = (1 + w) * np.log1p(w) - w
+    return tv, sep, float(weights @ f)
+
+
+def _kl_terms(x: np.ndarray, uniform: np.ndarray, log_uniform: np.ndarray) -> float:
+    """``sum U f(t)`` with ``t = e^x``, ``f(t) = t ln t - t + 1 >= 0`` (no cancellation):
+    by the series near ``t = 1``, as ``P ln t - P + U`` (``P = U t``) elsewhere."""
+    near = np.abs(x) < 0.01
+    total = float(uniform[near] @ _series_g(x[near])) if near.any() else 0.0
+    far = ~near
+    if far.any():
+        xf, uf = x[far], uniform[far]
+        p = np.exp(log_uniform[far] + xf)  # 0 where t = 0 (x = -inf)
+        with np.errstate(invalid="ignore"):
+            terms = np.where(p > 0, p * xf - p, 0.0) + uf
+        total += float(terms.sum())
+    return total
 
 
 def exact_distances(cards: int, steps: int) -> DistanceRow:
@@ -299,6 +488,7 @@ class RandomToTop(Step):
 
 
 def _default_steps(cards: int) -> int:
+    # past the cutoff n ln n; at most 22,803 steps (2,000 cards), within MAX_CHAIN_STEPS
     return math.ceil(1.5 * cards * math.log(cards))
 
 
@@ -308,10 +498,11 @@ register_model(
         steps_word="top-to-random moves",
         sources=(ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN),
         curve=distance_curve,
+        curve_options=("progress",),
         spectrum=spectrum,
         default_steps=_default_steps,
-        exact=f"any number of steps (Stirling numbers): k <= {MAX_EXACT_STEPS:,}, "
-        f"n <= {MAX_EXACT_CARDS:,}",
+        exact=f"Stirling numbers while cheap, else a double-precision chain with an error "
+        f"bound: k <= {MAX_CHAIN_STEPS:,}, n <= {MAX_EXACT_CARDS:,}",
     )
 )
 register_model(
@@ -320,6 +511,7 @@ register_model(
         steps_word="random-to-top moves",
         sources=(ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN),
         curve=functools.partial(distance_curve, inverse=True),
+        curve_options=("progress",),
         spectrum=spectrum,
         default_steps=_default_steps,
         exact="as top-to-random (its inverse: the same distances)",

@@ -58,7 +58,7 @@ from shufflecheck.core.partitions import (
     z,
 )
 from shufflecheck.models.base import Step, sample_step
-from shufflecheck.models.registry import ModelEntry, register_model
+from shufflecheck.models.registry import SPECTRUM_UNITS, ModelEntry, register_model
 
 __all__ = [
     "MAX_BOUND_CARDS",
@@ -102,20 +102,34 @@ def check_hold(cards: int, hold: float | Fraction | None) -> Fraction | float:
     return hold
 
 
-def spectrum(cards: int, *, hold: float | Fraction | None = None) -> list[Eigenvalue]:
+def spectrum(
+    cards: int,
+    *,
+    hold: float | Fraction | None = None,
+    progress: Callable[[int], None] | None = None,
+) -> list[Eigenvalue]:
     """Distinct eigenvalues of one step: ``hold + (1 - hold) chi^lambda(tau)/d_lambda``.
 
     Multiplicity ``d_lambda^2`` summed over the shapes giving the same value ([1], Lemma 5;
     the content formula gives the ratio), as exact integers. The shapes of each eigenvalue
     are listed in reverse lexicographic order. All ``p(n)`` shapes are handled at once
     (:func:`shufflecheck.core.partitions.squared_dimension_sums`); offered up to
-    ``MAX_SPECTRUM_CARDS`` cards.
+    ``MAX_SPECTRUM_CARDS`` cards (64 cards take a few seconds). ``progress(done)`` is
+    called with the units done out of ``SPECTRUM_UNITS``.
     """
     h = check_hold(cards, hold)
     check_spectrum_cards(cards)
+
+    def report(fraction: float) -> None:
+        if progress is not None:
+            progress(round(SPECTRUM_UNITS * fraction))
+
+    m = multiplicity_matrix(cards)
+    sums = content_sums(m)[::-1]  # aligned with partitions(cards)
+    report(0.15)
+    weights = squared_dimension_sums(cards, lambda f: report(0.15 + 0.6 * f))
     shapes = partitions(cards)
-    sums = content_sums(multiplicity_matrix(cards))[::-1]  # aligned with ``shapes``
-    weights = squared_dimension_sums(cards)
+    report(0.95)
     order = np.argsort(-sums, kind="stable")  # largest content sum (eigenvalue) first
     keys, starts = np.unique(-sums[order], return_index=True)
     bounds = [*starts.tolist(), len(order)]
@@ -129,6 +143,7 @@ def spectrum(cards: int, *, hold: float | Fraction | None = None) -> list[Eigenv
         )
         members = tuple(shapes[i] for i in order[bounds[g] : bounds[g + 1]].tolist())
         out.append(Eigenvalue(value=value, multiplicity=weights[c], shapes=members))
+    report(1.0)
     return out
 
 
@@ -651,7 +666,7 @@ register_model(
         curve=distance_curve,
         curve_options=("hold", "method", "progress"),
         spectrum=spectrum,
-        spectrum_options=("hold",),
+        spectrum_options=("hold", "progress"),
         default_steps=lambda cards: math.ceil(cards * math.log(cards)),
         exact=f"lumped chain on cycle types: n <= {MAX_CHAIN_CARDS}, k <= {MAX_CHAIN_STEPS:,}; "
         f"upper bound lemma: n <= {MAX_BOUND_CARDS}",
