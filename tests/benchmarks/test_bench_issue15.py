@@ -370,3 +370,70 @@ def test_simulate_million_vs_sampler(benchmark, figures, tmp_path):
             3.0,
             "x",
         )
+
+
+# ---------------------------------------------------------------------------------------
+# demo: CPU and wall time of the command, in a fresh interpreter (imports included)
+
+
+def test_demo_command(benchmark, figures, tmp_path):
+    import resource
+    import subprocess
+    import sys
+
+    def once(k):
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
+        start = time.perf_counter()
+        subprocess.run(
+            [sys.executable, "-m", "shufflecheck", "demo", "--out", str(tmp_path / f"d{k}")],
+            check=True,
+            capture_output=True,
+        )
+        wall = time.perf_counter() - start
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+        return cpu, wall
+
+    for cpu, wall in benchmark.pedantic(
+        lambda: [once(k) for k in range(REPEATS)], rounds=1, iterations=1
+    ):
+        figures("demo command, CPU (user + system, fresh interpreter)", cpu, 8.0)
+        figures("  ... wall clock on the shared machine", wall, 8.0)
+
+
+# ---------------------------------------------------------------------------------------
+# mix top-to-random: long curves (the exact integers took about 80 s for 52 x 20,000)
+
+
+@pytest.mark.parametrize(("n", "k", "target"), [(52, 20_000, 2.0), (2000, None, 5.0)])
+def test_top_to_random_long_curves(benchmark, figures, n, k, target):
+    from shufflecheck.models import default_max_steps, top_to_random
+
+    steps = k or default_max_steps("top-to-random", n)
+
+    def run():
+        return [_cpu(top_to_random.distance_curve, n, steps) for _ in range(REPEATS)]
+
+    for seconds in benchmark.pedantic(run, rounds=1, iterations=1):
+        figures(
+            f"mix top-to-random --cards {n} -k {steps:,} (double-precision chain)", seconds, target
+        )
+
+
+# ---------------------------------------------------------------------------------------
+# spectrum transposition --cards 64: long enough for its progress bar
+
+
+def test_transposition_spectrum_64(benchmark, figures):
+    from shufflecheck.core import partitions
+    from shufflecheck.models import transposition
+
+    def cold():
+        partitions.partitions.cache_clear()
+        partitions._multiplicity_matrix.cache_clear()
+        return transposition.spectrum(64)
+
+    for seconds in benchmark.pedantic(
+        lambda: [_cpu(cold) for _ in range(REPEATS)], rounds=1, iterations=1
+    ):
+        figures("spectrum transposition, 64 cards (1,741,630 shapes), cold", seconds, 10.0)
