@@ -151,6 +151,31 @@ class TestPng:
         with pytest.raises(InputError, match="dpi"):
             F.render_png(fig, dpi=0)
 
+    @pytest.mark.parametrize("layout", [None, "constrained"])
+    def test_same_pixels_as_matplotlib_savefig(self, layout):
+        # one Agg draw and Pillow's encoder give the pixels of matplotlib's own PNG
+        # writer; opaque figures are stored as RGB, a transparent one keeps its alpha
+        import io
+
+        from matplotlib.figure import Figure as MplFigure
+        from PIL import Image
+
+        for transparent in (False, True):
+            fig = MplFigure(figsize=(3, 2), layout=layout)
+            if transparent:
+                fig.patch.set_alpha(0.0)
+            ax = fig.add_subplot()
+            ax.plot([0, 1, 2], [1, 0, 2], label="a line")
+            ax.set_title("Title")
+            ax.legend()
+            reference = io.BytesIO()
+            fig.savefig(reference, format="png", dpi=120)
+            ours = Image.open(io.BytesIO(F.render_png(fig, dpi=120)))
+            theirs = Image.open(reference)
+            assert ours.mode == ("RGBA" if transparent else "RGB")
+            assert ours.size == theirs.size
+            assert np.array_equal(np.asarray(ours.convert("RGBA")), np.asarray(theirs))
+
     def test_matplotlib_imported_lazily(self):
         code = (
             "import sys, shufflecheck.report.figures, shufflecheck.report.writer; "

@@ -33,6 +33,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -150,19 +151,28 @@ def sum_test_power(
 ) -> float:
     """Power of the exact sum test at ``decks`` decks when each deck follows
     ``alternative_pmf`` (on the values ``0..len-1``), rejecting at p-value <= ``level``."""
-    null_sum = sum_distribution(null.pmf, decks, offset=null.offset)
+    c_hi, c_lo = _critical_values(null, decks, level, alternative)
     alt_sum = sum_distribution(alternative_pmf, decks)
     out = 0.0
-    side = level / 2 if alternative == "two-sided" else level
-    if alternative in ("greater", "two-sided"):
-        c_hi = null_sum.upper_critical(side)
-        if c_hi is not None:
-            out += float(alt_sum.sf(c_hi))
-    if alternative in ("less", "two-sided"):
-        c_lo = null_sum.lower_critical(side)
-        if c_lo is not None:
-            out += float(alt_sum.cdf(c_lo))
+    if c_hi is not None:
+        out += float(alt_sum.sf(c_hi))
+    if c_lo is not None:
+        out += float(alt_sum.cdf(c_lo))
     return min(out, 1.0)
+
+
+@functools.lru_cache(maxsize=4096)
+def _critical_values(
+    null: Law, decks: int, level: float, alternative: str
+) -> tuple[int | None, int | None]:
+    """(upper, lower) critical sums of the exact test at ``decks`` decks (None when that
+    side is not tested or cannot reject); the searches for the fewest decks ask for the
+    same null sums again and again, so they are kept."""
+    null_sum = sum_distribution(null.pmf, decks, offset=null.offset)
+    side = level / 2 if alternative == "two-sided" else level
+    upper = null_sum.upper_critical(side) if alternative in ("greater", "two-sided") else None
+    lower = null_sum.lower_critical(side) if alternative in ("less", "two-sided") else None
+    return upper, lower
 
 
 def _smallest(power_at: Callable[[int], float], target: float, start: int, cap: int) -> int | None:

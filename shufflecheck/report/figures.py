@@ -15,8 +15,9 @@ Visual grammar, the same on every chart:
   scheme, rated colour-blind safe [2]_, for residuals, and cividis [3]_ for counts.
 
 Figures are built on :class:`matplotlib.figure.Figure` directly (no pyplot state), laid out
-with the constrained layout engine and rendered by :func:`render_png` at a fixed dpi without
-a ``Software`` tag, so the same data and matplotlib version give the same bytes.
+with the constrained layout engine and rendered by :func:`render_png` (one Agg draw at a
+fixed dpi, encoded by Pillow: RGB when opaque, no text chunks), so the same data and
+library versions give the same bytes.
 
 References
 ----------
@@ -133,8 +134,25 @@ def render_png(figure: Any, *, dpi: int = DPI) -> bytes:
     """
     if isinstance(dpi, bool) or not isinstance(dpi, int) or not 30 <= dpi <= 1200:
         raise InputError(f"dpi must be an integer from 30 to 1200, got {dpi!r}")
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from PIL import Image
+
+    # Drawn once by Agg at the output resolution (laying the figure out on the way), then
+    # encoded by Pillow: an opaque image (every figure here has a white background) is
+    # stored as RGB, a quarter less to compress than RGBA, at zlib level 3 (about twice as
+    # fast as the default 6, within a few per cent of its size). No text chunks.
+    canvas, native = figure.canvas, figure.dpi
+    try:
+        figure.dpi = dpi
+        raw, size = FigureCanvasAgg(figure).print_to_buffer()
+    finally:
+        figure.dpi = native
+        figure.set_canvas(canvas)
+    image = Image.frombuffer("RGBA", size, raw, "raw", "RGBA", 0, 1)
+    if image.getextrema()[3] == (255, 255):
+        image = image.convert("RGB")
     buffer = io.BytesIO()
-    figure.savefig(buffer, format="png", dpi=dpi, metadata={"Software": None})
+    image.save(buffer, format="png", compress_level=3)
     return buffer.getvalue()
 
 
