@@ -90,6 +90,27 @@ class TestDemoRuns:
         )
 
 
+class TestDemoProgress:
+    @pytest.mark.slow
+    def test_bar_counts_every_figure(self, report):
+        # the report bar has one unit per figure: the count made before drawing must equal
+        # the figures drawn, here and in the report the command wrote
+        from shufflecheck.analyses.demo import run_demo
+        from shufflecheck.report.builders.demo import demo_figure_count, demo_report
+        from shufflecheck.report.figures import figure_progress
+        from shufflecheck.report.provenance import collect_provenance
+
+        result = run_demo()
+        drawn = []
+        with figure_progress(lambda: drawn.append(1)):
+            document = demo_report(
+                result, payload={}, provenance=collect_provenance(result.policy.policy.inputs)
+            )
+        written = [f for section in report["sections"] for f in section["figures"]]
+        assert demo_figure_count(result) == len(drawn) == len(document.numbered_figures())
+        assert len(drawn) == len(written)
+
+
 class TestDemoDeterministic:
     def test_second_run_same_report(self, first, report, tmp_path):
         out, _ = first
