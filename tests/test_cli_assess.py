@@ -242,7 +242,7 @@ class TestAssessParseErrors:
         [
             (["riffle", "--repeat", 0], "--repeat"),
             (["riffle", "--decks", 0], "--decks"),
-            (["riffle", "--cards", 1], "--cards must be at least 2"),
+            (["riffle", "--cards", 1], "--cards must be an integer from 2 to 2,000"),
             (["riffle", "--confidence", 1.5], "confidence"),
         ],
     )

@@ -222,7 +222,8 @@ class TestFittedFileInOtherCommands:
                 """
             )
         )
-        data = command_json("policy", policy)
+        # the fitted file lies outside the policy's folder (issue 16: allowed on request)
+        data = command_json("policy", policy, "--allow-outside")
         (procedure,) = data["procedures"]
         assert procedure["procedure"].startswith("hand-riffle(spread=")
         assert procedure["name"] == load_procedure(fitted).name

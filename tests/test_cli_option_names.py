@@ -28,7 +28,10 @@ class TestCommandLineNamesOptions:
         "args, expected",
         [
             (("mix", "riffle", "--cards", 1), "error: --cards must be at least 2, got 1"),
-            (("mix", "riffle", "--max-steps", 0), "error: --max-steps must be at least 1, got 0"),
+            (
+                ("mix", "riffle", "--max-steps", 0),
+                "error: --max-steps must be an integer from 1 to 100,000, got 0",
+            ),
             (("assess", "riffle", "--repeat", 0), "error: --repeat must be an integer from 1 to"),
             (("assess", "riffle", "--decks", 1), "error: --decks must be an integer from 2 to"),
         ],

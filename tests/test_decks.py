@@ -149,7 +149,7 @@ class TestDeckFiles:
     @pytest.mark.parametrize(
         ("content", "message"),
         [
-            ('name = "x"\ncards = [', "not a valid TOML deck definition"),
+            ('name = "x"\ncards = [', "(deck definition): invalid TOML"),
             ('name = "x"\ncards = ["AS"]\ncolour = "red"', "unknown key 'colour'"),
             ('cards = ["AS"]', "'name' must be non-empty text"),
             ('name = "x"\ncards = "AS KS"', "is not a built-in deck (standard-52)"),

@@ -637,7 +637,9 @@ class TestShelf:
         assert tvs == sorted(tvs, reverse=True)
 
     def test_bad_input(self):
-        with pytest.raises(InputError, match="shelf: shelves must be an integer >= 1, got 0"):
+        with pytest.raises(
+            InputError, match="shelf: shelves must be an integer from 1 to 524,288, got 0"
+        ):
             shelf.Shelf(shelves=0)
         with pytest.raises(InputError, match="shelf: stack must be 'fixed' or 'random'"):
             shelf.Shelf(stack="shuffled")

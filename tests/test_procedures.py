@@ -68,7 +68,7 @@ class TestParseErrors:
             ("riffle,, cut", "empty step (two commas in a row?) at column 8"),
             ("riffle, cut,", "the procedure ends with a comma; a step is missing at column 13"),
             ("riffle cut", "expected ',' between steps, found 'c' at column 8"),
-            ("riffle x0", "the repeat count must be at least 1, got 0 at column 8"),
+            ("riffle x0", "the repeat count must be from 1 to 10,000, got 0 at column 8"),
             ("riffle(hands=two)", "riffle: hands must be an integer, got 'two' at column 14"),
             ("strip(packet=5)", "strip: unknown parameter 'packet'"),
             ("riffle(hands=3", "riffle: expected ',' or ')' after hands=3"),
@@ -85,7 +85,7 @@ class TestParseErrors:
 
     def test_parameter_validation_names_the_step(self):
         with pytest.raises(
-            InputError, match=r"must be an integer >= 2, got 1 \(step at column 9\)"
+            InputError, match=r"must be an integer from 2 to 1,048,576, got 1 \(step at column 9\)"
         ):
             parse_procedure("cut x2, riffle(hands=1)")
 
@@ -107,7 +107,7 @@ class TestTomlFiles:
             ('name = "x"\nstep = "riffle"\n', "line 2: key 'step': unknown key"),
             (
                 'name = "x"\ncards = 1\nsteps = "riffle"\n',
-                "line 2: key 'cards': must be an integer >= 2",
+                "line 2: key 'cards': the number of cards must be an integer from 2 to 32,767",
             ),
             (
                 'cards = 52\ndecks = 6\nsteps = "riffle"\n',

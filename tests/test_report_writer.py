@@ -148,7 +148,8 @@ class TestAtomic:
             real(path, content)
 
         monkeypatch.setattr(writer, "_write_file", failing)
-        with pytest.raises(OSError, match="No space"):
+        # one line naming the folder and the cause (issue 16), no traceback
+        with pytest.raises(InputError, match=r"cannot write .*audit: no space left on the device"):
             write_report(report, tmp_path / "audit")
         assert len(calls) == 3  # two files were written before the failure
         assert list(tmp_path.iterdir()) == []  # no partial folder, no temporary folder
@@ -167,7 +168,7 @@ class TestAtomic:
             real(path, content)
 
         monkeypatch.setattr(writer, "_write_file", failing)
-        with pytest.raises(OSError):
+        with pytest.raises(InputError, match="input/output error"):
             write_report(other_report, target, force=True)
         assert _snapshot(target) == before
         assert _siblings(target) == ["audit"]
@@ -181,12 +182,12 @@ class TestAtomic:
         real_rename = os.rename
 
         def rename(src, dst):
-            if str(src).endswith(".tmp") and str(dst) == str(target):
+            if str(src).endswith(".incomplete") and str(dst) == str(target):
                 raise OSError(16, "Device or resource busy")
             real_rename(src, dst)
 
         monkeypatch.setattr(writer.os, "rename", rename)
-        with pytest.raises(OSError, match="busy"):
+        with pytest.raises(InputError, match="busy"):
             write_report(other_report, target, force=True)
         monkeypatch.undo()
         assert _snapshot(target) == before

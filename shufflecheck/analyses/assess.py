@@ -59,13 +59,16 @@ from shufflecheck.audit.catalogue import (
     DeckContext,
     DeckView,
     Statistic,
+    deck_bytes,
     lower_bound_statistics,
 )
 from shufflecheck.audit.ranks import RankScore, fit_rank_score, rank_bin_counts
 from shufflecheck.common.cautions import caution
-from shufflecheck.common.checks import check_cards, check_integer
+from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
 from shufflecheck.common.quantity import Quantity
+from shufflecheck.common.resources import check_memory
 from shufflecheck.core.block_bounds import block_bounds
 from shufflecheck.core.distances import DistanceRow
 from shufflecheck.models.blocks import ProcedureBlocks, procedure_blocks
@@ -88,8 +91,10 @@ __all__ = [
 
 CAUTION = caution("the modelled procedure")
 
-MAX_REPEATS = 100
-MAX_DECKS = 50_000_000
+MAX_REPEATS = limit("repeats").high
+MAX_DECKS = limit("assess_decks").high
+#: memory a chunk of assessed decks may use while its statistics are computed (bytes)
+CHUNK_BYTES = 1 << 31
 #: name of the fitted likelihood-ratio score among the lower-bound statistics
 RANK_SCORE = "rank-likelihood"
 _RANK_TITLE = "likelihood-ratio score of the sequential ranks (fitted on the first half)"
@@ -242,10 +247,18 @@ def _halves(decks: int) -> tuple[int, int]:
     return first, decks - first
 
 
-def assessment_work(decks: int, repeats: int) -> int:
+def assessment_chunk(cards: int) -> int:
+    """Decks simulated at once: :data:`CHUNK_DECKS`, fewer for long decks so that a chunk
+    stays within :data:`CHUNK_BYTES` (a function of ``cards`` only, so results stay
+    reproducible from the seed on any machine)."""
+    return max(1, min(CHUNK_DECKS, CHUNK_BYTES // deck_bytes(max(cards, 2))))
+
+
+def assessment_work(decks: int, repeats: int, cards: int = 52) -> int:
     """Progress units :func:`assess` reports: one per (chunk of decks, repetition count),
     the two halves chunked separately."""
-    return sum(-(-half // CHUNK_DECKS) for half in _halves(decks)) * repeats
+    chunk = assessment_chunk(cards)
+    return sum(-(-half // chunk) for half in _halves(decks)) * repeats
 
 
 @dataclass
@@ -373,13 +386,21 @@ def assess(
     """
     from shufflecheck.audit.guessing import STRATEGIES, check_strategies
 
-    check_integer(repeats, "repeats", low=1, high=MAX_REPEATS)
-    check_integer(decks, "decks", low=2, high=MAX_DECKS)
+    limit("repeats").check(repeats)
+    limit("assess_decks").check(decks)
+    limit("assess_cards").check(cards)
     if not 0.5 <= confidence < 1:
         raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
     check_cards(cards)
     procedure.check_cards(cards)
     names = check_strategies(strategies if strategies is not None else tuple(STRATEGIES))
+    chunk = assessment_chunk(cards)
+    check_memory(
+        min(decks, chunk) * deck_bytes(cards),
+        f"{min(decks, chunk):,} decks of {cards} cards assessed at once",
+        argument="decks",
+        advice="free some memory, or use fewer {decks} or fewer cards",
+    )
     generator = np.random.default_rng(rng)
 
     tally = _Tally.empty(repeats, cards, names)
@@ -387,8 +408,8 @@ def assess(
     for half, size in enumerate(_halves(decks)):
         if half == 1:
             tally.fit()
-        for start in range(0, size, CHUNK_DECKS):
-            count = min(size, start + CHUNK_DECKS) - start
+        for start in range(0, size, chunk):
+            count = min(size, start + chunk) - start
             tally.halves[half] += count
             current = identity_decks(count, cards)
             for r in range(repeats):

@@ -391,6 +391,7 @@ def audit_log(
     time_format: str | None = None,
     alpha: float = 0.01,
     quarantine: str | os.PathLike[str] | None = None,
+    force: bool = True,
     strategies: tuple[str, ...] = DEFAULT_STRATEGIES,
     chunk_rows: int = 50_000,
     rng: np.random.Generator | int | None = 0,
@@ -451,6 +452,8 @@ def audit_log(
     quarantine : path or None
         Write bad rows here with their reasons and audit the rest (a folder, one file per
         log, when there are several logs); without it the first bad row is an error.
+    force : bool
+        Replace existing quarantine files (default); False refuses them.
     rng : Generator, int or None
         Randomness of Monte Carlo nulls (the position test when counts are small).
     progress : callable, optional
@@ -482,6 +485,7 @@ def audit_log(
         time=time,
         time_format=time_format,
         quarantine=None if quarantine is None else Path(quarantine),
+        force=force,
         strategies=tuple(strategies),
         chunk_rows=chunk_rows,
         order_column=order_column,

@@ -24,7 +24,11 @@ import pandas as pd
 
 from shufflecheck.audit import DEFAULT_STRATEGIES, BatterySummary
 from shufflecheck.audit.catalogue import ShoeContext
+from shufflecheck.audit.nulls import law_bytes
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import write_failure
+from shufflecheck.common.limits import limit
+from shufflecheck.common.resources import check_memory
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
 from shufflecheck.records.logs import LogChunk, LogSummary, Reference, read_frame, read_log
 from shufflecheck.records.logs.sources import Source
@@ -75,6 +79,7 @@ class AuditOptions:
     time: str | None = None
     time_format: str | None = None
     quarantine: Path | None = None
+    force: bool = True  # replace existing quarantine files
     strategies: tuple[str, ...] = DEFAULT_STRATEGIES
     chunk_rows: int = 50_000
     order_column: str | None = None
@@ -137,6 +142,10 @@ class Part:
 
 
 def deck_for(deck: Any, cards: int | None, labels: str, where: str) -> DeckDefinition:
+    """The deck of an audit, within the audit's range of deck sizes and the memory its
+    exact laws need (checked before any reading)."""
+    if cards is not None:
+        limit("audit_cards").check(cards)
     if deck is None and cards is not None and cards != 52:
         if not labels.startswith("int"):
             raise InputError(
@@ -152,18 +161,36 @@ def deck_for(deck: Any, cards: int | None, labels: str, where: str) -> DeckDefin
             f"{where}: the deck definition {definition.name!r} has {definition.size} cards, "
             f"but {cards} were expected"
         )
+    if cards is None:
+        limit("audit_cards").check(
+            definition.size, name=f"deck {definition.name!r}: its number of cards"
+        )
+    check_memory(
+        law_bytes(definition.size),
+        f"the exact laws of the tests for decks of {definition.size} cards",
+        advice="audit decks of fewer cards",
+    )
     return definition
+
+
+def quarantine_path(quarantine: Path, source: Source, several: bool) -> Path:
+    """Where the rows set aside from ``source`` go: ``quarantine`` itself for one log, a
+    file ``KEY=VALUE__NAME.set-aside.csv`` inside the folder ``quarantine`` for several."""
+    if not several:
+        return quarantine
+    name = "__".join([f"{k}={v}" for k, v in source.constants] + [source.path.name])
+    return quarantine / f"{name}.set-aside.csv"
 
 
 def _quarantine_for(options: AuditOptions, source: Source, several: bool) -> Path | None:
     if options.quarantine is None:
         return None
-    if not several:
-        return options.quarantine
-    folder = options.quarantine
-    folder.mkdir(parents=True, exist_ok=True)
-    name = "__".join([f"{k}={v}" for k, v in source.constants] + [source.path.name])
-    return folder / f"{name}.set-aside.csv"
+    if several:
+        try:
+            options.quarantine.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise write_failure(options.quarantine, exc) from None
+    return quarantine_path(options.quarantine, source, several)
 
 
 def _with_constants(chunk: LogChunk, source: Source, index: int) -> LogChunk:
@@ -217,6 +244,7 @@ def scan_sources(
                 fmt=options.fmt,  # type: ignore[arg-type]
                 chunk_rows=options.chunk_rows,
                 quarantine=_quarantine_for(options, source, several),
+                force=options.force,
                 order_column=options.order_column,
                 position_columns=options.position_columns,
                 before_column=reference.column if reference.kind == "column" else None,

@@ -57,6 +57,8 @@ from pathlib import Path
 from typing import Any
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import names_file
+from shufflecheck.common.limits import limit
 from shufflecheck.common.tomlfiles import TomlFile, load_toml
 from shufflecheck.core.distances import METRIC_NAMES, check_target
 from shufflecheck.models.procedures import Procedure, deck_size, load_procedure, parse_procedure
@@ -167,8 +169,24 @@ def _typed(
     return value
 
 
-def load_policy(path: str | Path) -> Policy:
-    """Read and check a policy file; errors name the file, line and key (exit code 2)."""
+def _ranged(
+    doc: TomlFile, value: Any, key: str, name: str, table: str | None, index: int = 0
+) -> int:
+    """``value`` checked against the limit ``key``; errors name the file, line and key."""
+    try:
+        return limit(key).check(value, name="the value")
+    except InputError as exc:
+        raise doc.error(str(exc), name, table, index) from None
+
+
+def load_policy(path: str | Path, *, allow_outside: bool = False) -> Policy:
+    """Read and check a policy file; errors name the file, line and key (exit code 2).
+
+    Policy files may come from other people, so the logs, deck definitions and reference
+    files they name must lie inside the policy file's own folder (after following symbolic
+    links) unless ``allow_outside`` is given; and errors met while auditing an attached log
+    never quote the content of a file that failed to parse.
+    """
     doc = load_toml(path)
     data = doc.data
     for key in data:
@@ -200,12 +218,8 @@ def load_policy(path: str | Path) -> Policy:
     confidence = float(settings.get("confidence", 0.99))
     if not 0.5 <= confidence < 1:
         raise doc.error(f"must be in [0.5, 1), got {confidence}", "confidence", "policy")
-    decks = settings.get("decks", 20000)
-    if not 100 <= decks <= 10_000_000:
-        raise doc.error(f"must be from 100 to 10,000,000, got {decks}", "decks", "policy")
-    max_repeats = settings.get("max_repeats", 12)
-    if not 1 <= max_repeats <= 100:
-        raise doc.error(f"must be from 1 to 100, got {max_repeats}", "max_repeats", "policy")
+    decks = _ranged(doc, settings.get("decks", 20000), "policy_decks", "decks", "policy")
+    max_repeats = _ranged(doc, settings.get("max_repeats", 12), "repeats", "max_repeats", "policy")
     seed = settings.get("seed", 1)
     if seed < 0:
         raise doc.error(f"must be an integer >= 0, got {seed}", "seed", "policy")
@@ -217,7 +231,9 @@ def load_policy(path: str | Path) -> Policy:
         raise doc.error("no procedures: add at least one [[procedure]] table")
     if not isinstance(raw, list):
         raise doc.error("must be an array of tables: write [[procedure]]", "procedure")
-    procedures = tuple(_procedure(doc, entry, i, max_repeats) for i, entry in enumerate(raw))
+    procedures = tuple(
+        _procedure(doc, entry, i, max_repeats, allow_outside) for i, entry in enumerate(raw)
+    )
     names = [p.name for p in procedures]
     for i, name in enumerate(names):
         if name in names[:i]:
@@ -235,7 +251,9 @@ def load_policy(path: str | Path) -> Policy:
     )
 
 
-def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> PolicyProcedure:
+def _procedure(
+    doc: TomlFile, entry: dict, index: int, default_repeats: int, allow_outside: bool = False
+) -> PolicyProcedure:
     table = "procedure"
     for key in entry:
         if key not in _PROCEDURE_KEYS:
@@ -243,7 +261,7 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
             raise doc.error(f"unknown key (allowed: {allowed})", key, table, index)
     source = None
     if "file" in entry:
-        procedure, source = _procedure_file(doc, entry, index)
+        procedure, source = _procedure_file(doc, entry, index, allow_outside)
         name = entry.get("name", procedure.name or f"procedure {index + 1}")
         _typed(doc, name, str, "name", table, index)
         procedure = dataclasses.replace(procedure, name=name)
@@ -253,12 +271,18 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
         _typed(doc, name, str, "name", table, index)
         procedure = _procedure_steps(doc, entry, index, name)
         step_key = "steps"
-    shoe, feature = _shoe_of(doc, entry, index)
+    shoe, feature = _shoe_of(doc, entry, index, allow_outside)
     cards = deck_size(doc, entry, table, index) or procedure.cards or 52
     if shoe is not None:
         if ("cards" in entry or "decks" in entry) and cards != shoe.size:
             raise doc.error(f"the shoe has {shoe.size} cards, not {cards}", "deck", table, index)
         cards = shoe.size
+    size_key = "decks" if "decks" in entry and "cards" not in entry else "cards"
+    if shoe is None:  # shoes are assessed on their features, with their own ranges
+        try:
+            limit("assess_cards").check(cards, name="the number of cards")
+        except InputError as exc:
+            raise doc.error(str(exc), size_key, table, index) from None
     try:
         procedure.check_cards(cards)
     except InputError as exc:
@@ -266,22 +290,27 @@ def _procedure(doc: TomlFile, entry: dict, index: int, default_repeats: int) -> 
     house = entry.get("house")
     if house is not None:
         _typed(doc, house, int, "house", table, index)
-        if house < 1:
-            raise doc.error(f"must be a repetition count >= 1, got {house}", "house", table, index)
+        house = _ranged(doc, house, "repeats", "house", table, index)
     max_repeats = entry.get("max_repeats", default_repeats)
     _typed(doc, max_repeats, int, "max_repeats", table, index)
-    if not 1 <= max_repeats <= 100:
-        raise doc.error(f"must be from 1 to 100, got {max_repeats}", "max_repeats", table, index)
+    max_repeats = _ranged(doc, max_repeats, "repeats", "max_repeats", table, index)
     if house is not None and house > max_repeats:
         max_repeats = house
     logs_raw = entry.get("log", [])
     if not isinstance(logs_raw, list):
         raise doc.error("must be an array of tables: write [[procedure.log]]", "log", table, index)
-    logs = tuple(_log(doc, log, index, j) for j, log in enumerate(logs_raw))
+    if logs_raw and shoe is None:  # attached logs are audited: the audit's range applies
+        try:
+            limit("audit_cards").check(cards, name="with logs attached, the number of cards")
+        except InputError as exc:
+            raise doc.error(str(exc), size_key, table, index) from None
+    logs = tuple(_log(doc, log, index, j, allow_outside) for j, log in enumerate(logs_raw))
     return PolicyProcedure(name, procedure, cards, house, max_repeats, logs, source, shoe, feature)
 
 
-def _shoe_of(doc: TomlFile, entry: dict, index: int) -> tuple[Any, str | None]:
+def _shoe_of(
+    doc: TomlFile, entry: dict, index: int, allow_outside: bool = False
+) -> tuple[Any, str | None]:
     """The shoe (``deck``) of a procedure table and its ``feature`` (``rank`` by default)."""
     from shufflecheck.records.shoes import FEATURES, load_shoe
 
@@ -295,9 +324,11 @@ def _shoe_of(doc: TomlFile, entry: dict, index: int) -> tuple[Any, str | None]:
             )
         return None, None
     _typed(doc, spec, str, "deck", table, index)
-    target = (
-        spec if spec.strip().lower().startswith("shoe") else str(_resolve(doc.path.parent, spec))
-    )
+    if spec.strip().lower().startswith("shoe"):
+        target = spec
+    else:
+        found = _resolve(doc.path.parent, spec)
+        target = str(_confined(doc, found, spec, "deck", table, index, allow_outside))
     try:
         shoe = load_shoe(target)
     except InputError as exc:
@@ -343,7 +374,9 @@ def _procedure_steps(doc: TomlFile, entry: dict, index: int, name: str) -> Proce
         raise doc.error(str(exc), "steps", table, index) from None
 
 
-def _procedure_file(doc: TomlFile, entry: dict, index: int) -> tuple[Procedure, Path]:
+def _procedure_file(
+    doc: TomlFile, entry: dict, index: int, allow_outside: bool = False
+) -> tuple[Procedure, Path]:
     """The procedure of a procedure file named by ``file`` (e.g. one written by
     ``shufflecheck fit-riffle``), relative to the policy file's folder."""
     table = "procedure"
@@ -351,6 +384,7 @@ def _procedure_file(doc: TomlFile, entry: dict, index: int) -> tuple[Procedure, 
         raise doc.error("give steps or file, not both", "file", table, index)
     _typed(doc, entry["file"], str, "file", table, index)
     path = _resolve(doc.path.parent, entry["file"])
+    path = _confined(doc, path, entry["file"], "file", table, index, allow_outside)
     if not path.is_file():
         raise doc.error(
             f"procedure file {entry['file']!r} not found (looked in {doc.path.parent})",
@@ -364,7 +398,28 @@ def _procedure_file(doc: TomlFile, entry: dict, index: int) -> tuple[Procedure, 
         raise doc.error(str(exc), "file", table, index) from None
 
 
-def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:
+def _confined(
+    doc: TomlFile, path: Path, given: str, key: str, table: str, index: int, allow_outside: bool
+) -> Path:
+    """``path`` unless it lies outside the policy file's folder and that is not allowed."""
+    if allow_outside:
+        return path
+    base = doc.path.parent.resolve()
+    if path == base or base in path.parents:
+        return path
+    raise doc.error(
+        f"{given!r} is outside the policy file's folder {base}; a policy file may only name "
+        "files in its own folder (pass {allow_outside} for a policy file you trust)",
+        key,
+        table,
+        index,
+        argument="allow_outside",
+    )
+
+
+def _log(
+    doc: TomlFile, entry: dict, proc_index: int, index: int, allow_outside: bool = False
+) -> LogSpec:
     table = "procedure.log"
     # [[procedure.log]] headers are counted across all procedures by the line finder
     occurrence = sum(len(p.get("log", [])) for p in doc.data["procedure"][:proc_index]) + index
@@ -380,6 +435,7 @@ def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:
             _typed(doc, entry[key], str, key, table, occurrence)
     base = doc.path.parent
     path = _resolve(base, entry["path"])
+    path = _confined(doc, path, entry["path"], "path", table, occurrence, allow_outside)
     if not path.exists():
         raise doc.error(
             f"log file {entry['path']!r} not found (looked in {base})", "path", table, occurrence
@@ -393,14 +449,31 @@ def _log(doc: TomlFile, entry: dict, proc_index: int, index: int) -> LogSpec:
         )
     deck = entry.get("deck")
     if deck is not None and deck not in _BUILT_IN_DECKS:
-        deck = _resolve(base, deck)
+        deck = _confined(
+            doc, _resolve(base, deck), entry["deck"], "deck", table, occurrence, allow_outside
+        )
         if not deck.exists():
             raise doc.error(
                 f"deck definition {entry['deck']!r} not found", "deck", table, occurrence
             )
     reference = entry.get("reference", "previous")
-    if reference not in ("previous", "first", "deck") and (base / reference).exists():
-        reference = str(_resolve(base, reference))  # a reference order file, like path
+    keyword = reference.strip().lower()
+    written_out = any(ch.isspace() for ch in reference.strip())
+    if keyword not in ("previous", "first", "deck") and (
+        names_file(base / reference) or not written_out
+    ):
+        # a reference order file, like path (an order written out has spaces in it)
+        found = _confined(
+            doc, _resolve(base, reference), reference, "reference", table, occurrence, allow_outside
+        )
+        if not names_file(found):
+            raise doc.error(
+                f"reference file {reference!r} not found (looked in {base})",
+                "reference",
+                table,
+                occurrence,
+            )
+        reference = str(found)
     line = doc.line_of("path", table, occurrence)
     return LogSpec(
         path=path,
@@ -421,7 +494,10 @@ _BUILT_IN_DECKS = ("standard", "standard-52")
 def _resolve(base: Path, name: str) -> Path:
     """A path from a policy file, relative to the policy file's folder."""
     path = Path(name)
-    return path if path.is_absolute() else (base / path).resolve()
+    try:
+        return path.resolve() if path.is_absolute() else (base / path).resolve()
+    except (OSError, RuntimeError, ValueError):
+        return base / path
 
 
 # ---------------------------------------------------------------------------------------
@@ -634,7 +710,8 @@ def policy_work(policy: Policy) -> int:
     from shufflecheck.analyses.assess import assessment_work
 
     return sum(
-        assessment_work(policy.decks, proc.max_repeats) + SETTLE_WORK for proc in policy.procedures
+        assessment_work(policy.decks, proc.max_repeats, proc.cards) + SETTLE_WORK
+        for proc in policy.procedures
     )
 
 
@@ -692,7 +769,7 @@ def evaluate_policy(
                 confidence=policy.confidence,
                 progress=update,
             )
-        offset += assessment_work(policy.decks, proc.max_repeats)
+        offset += assessment_work(policy.decks, proc.max_repeats, proc.cards)
         decision = decide(result, policy.metric, policy.target, proc.house, proc)
         settlement = None
         if decision.open:
@@ -733,4 +810,5 @@ def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
             alpha=policy.alpha,
         )
     except InputError as exc:
-        raise InputError(f"{exc} (log attached at {log.where})") from None
+        # the file may not be a log at all: never quote the content of what failed to parse
+        raise InputError(f"{exc.without_content} (log attached at {log.where})") from None

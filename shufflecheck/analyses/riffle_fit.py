@@ -350,6 +350,7 @@ def fit_riffle_log(
     cards: int | None = None,
     by: str | None = None,
     quarantine: str | os.PathLike[str] | None = None,
+    force: bool = True,
     confidence: float = 0.95,
     alpha: float = 0.01,
     samples: int = 999,
@@ -367,7 +368,7 @@ def fit_riffle_log(
     reference : str
         ``previous`` (default: the deck before it in the log, of the same group with
         ``by``), ``first``, or a fixed order (text of codes or a file holding one).
-    labels, fmt, deck, cards, by, quarantine
+    labels, fmt, deck, cards, by, quarantine, force
         As for :func:`shufflecheck.analyses.audit_log.audit_log`.
     confidence : float
         Level of the parameters' intervals (default 0.95).
@@ -399,6 +400,7 @@ def fit_riffle_log(
         fmt=fmt or "auto",
         chunk_rows=chunk_rows,
         quarantine=quarantine,
+        force=force,
     )
     stream = Reference.parse(reference, definition, labels=labels).stream(by=by)
     counts = RiffleCounts.empty(definition.size)

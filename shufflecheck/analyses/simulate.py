@@ -17,6 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.files import check_output
 from shufflecheck.models.procedures import Procedure, simulate_play, simulated_chunks
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
 from shufflecheck.records.logs.writer import LogWriter, write_log
@@ -54,6 +55,7 @@ def simulate_log(
     table: str | None = None,
     start: str | None = None,
     every: int = 120,
+    force: bool = True,
 ) -> SimulatedLog:
     """Simulate ``decks`` recorded decks after ``procedure`` and write them to ``out``.
 
@@ -74,6 +76,9 @@ def simulate_log(
         A ``table`` column with this value on every row.
     start : str, optional
         ISO time of the first row: adds ``recorded_at``, ``every`` seconds apart.
+    force : bool
+        Replace an existing ``out`` (default); False refuses it, checked before any work
+        and again, exclusively, when the file is put in place.
 
     Returns
     -------
@@ -81,6 +86,7 @@ def simulate_log(
     """
     shoe = load_shoe(deck) if deck is not None else None
     n = cards if cards is not None else (procedure.cards or (shoe.size if shoe else 52))
+    procedure.check_cards(n)
     definition: DeckDefinition | ShoeDefinition | None
     if shoe is not None:
         definition = shoe
@@ -98,14 +104,25 @@ def simulate_log(
             raise InputError(
                 f"start {start!r} is not an ISO time like 2026-11-02T18:00", argument="start"
             ) from None
+        try:
+            first + dt.timedelta(seconds=every * decks)
+        except OverflowError:
+            raise InputError(
+                f"{{start}} {start} with {decks:,} decks every {every:,} seconds runs past the "
+                "end of the calendar (year 9999); choose an earlier {start} or a smaller {every}",
+                argument=("start", "every"),
+            ) from None
     labels = "codes" if definition is not None else "int1"
+    check_output(
+        out, force=force, size=_estimated_bytes(definition, n, decks, table, first is not None)
+    )
     log_deck = definition if definition is not None else integer_deck(n)
     options = dict(rng=seed, reference=reference, repeats=repeats, change=change)
     target = Path(out)
     names = ["deck", *(["table"] if table is not None else []), *(["recorded_at"] * bool(first))]
     if target.suffix.lower() in (".csv", ".tsv"):
         chunks = simulated_chunks(procedure, n, decks, **options)
-        with LogWriter(target, log_deck, names, labels=labels, check=False) as log:
+        with LogWriter(target, log_deck, names, labels=labels, check=False, force=force) as log:
             row = 0
             for block in chunks:
                 log.write(block, _columns(row, len(block), table, first, every))
@@ -113,7 +130,12 @@ def simulate_log(
     else:
         orders = simulate_play(procedure, n, decks, **options)
         write_log(
-            target, orders, log_deck, _columns(0, decks + 1, table, first, every), labels=labels
+            target,
+            orders,
+            log_deck,
+            _columns(0, decks + 1, table, first, every),
+            labels=labels,
+            force=force,
         )
     return SimulatedLog(
         out=str(out),
@@ -126,6 +148,25 @@ def simulate_log(
         change=None if change is None else {"from": change[0], "procedure": change[1].describe()},
         labels="codes" if definition is not None else "int (1..n)",
     )
+
+
+def _estimated_bytes(
+    definition: DeckDefinition | ShoeDefinition | None,
+    cards: int,
+    decks: int,
+    table: str | None,
+    timed: bool,
+) -> int:
+    """About how many bytes the log takes on disk (checked against the free space)."""
+    if isinstance(definition, ShoeDefinition):
+        words = list(definition.kinds.cards)
+    elif definition is not None:
+        words = list(definition.cards)
+    else:
+        words = [str(cards)]
+    width = max(len(w.encode("utf-8")) for w in words) + 1
+    extra = len(str(decks)) + 1 + (len(table) + 1 if table else 0) + (26 if timed else 0)
+    return (decks + 1) * (cards * width + extra)
 
 
 def _columns(

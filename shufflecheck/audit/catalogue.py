@@ -81,12 +81,25 @@ __all__ = [
     "Statistic",
     "battery_statistics",
     "catalogue",
+    "deck_bytes",
     "deck_values",
     "guess_statistic",
     "law_sources",
     "lower_bound_statistics",
     "statistic",
 ]
+
+
+def deck_bytes(cards: int) -> int:
+    """Memory one deck of ``cards`` cards needs while the battery's statistics and guessing
+    scores are computed on it, in bytes: ``cards * (8 + cards / 8)``.
+
+    Measured from peak resident sizes (chunks of 16,384 to 65,536 simulated decks): about
+    13 bytes per card at 52 cards, 46 at 416 and 30 at 2,000; the estimate stays above.
+    """
+    cards = max(int(cards), 2)
+    return cards * (8 + cards // 8)
+
 
 Alternative = Literal["two-sided", "greater", "less"]
 Shape = Literal["per-deck", "positions", "class-positions", "consecutive"]

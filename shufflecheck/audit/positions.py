@@ -181,7 +181,8 @@ def position_test(
 
 def _simulate(n: int, decks: int, resamples: int, rng: np.random.Generator, stat_fn) -> np.ndarray:
     out = np.empty(resamples)
-    per = max(1, _SIM_ELEMENTS // max(1, decks * n))
+    # each simulated audit needs its decks (decks x n) and its counts (n x n) at once
+    per = max(1, _SIM_ELEMENTS // max(1, decks * n, n * n))
     base = np.arange(n, dtype=np.int64) * n
     for start in range(0, resamples, per):
         m = min(per, resamples - start)

@@ -48,14 +48,17 @@ from shufflecheck.audit.catalogue import (
     ShoeContext,
     Statistic,
     battery_statistics,
+    deck_bytes,
 )
 from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
-from shufflecheck.audit.nulls import Law, sum_distribution
+from shufflecheck.audit.nulls import Law, law_bytes, sum_distribution
 from shufflecheck.audit.positions import position_counts
 from shufflecheck.audit.statistics import as_decks
-from shufflecheck.common.checks import check_cards, check_fraction, check_integer
+from shufflecheck.common.checks import check_fraction, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
 from shufflecheck.common.quantity import Kind
+from shufflecheck.common.resources import check_memory
 
 __all__ = [
     "PowerPlan",
@@ -195,11 +198,27 @@ def _smallest(power_at: Callable[[int], float], target: float, start: int, cap: 
     return hi
 
 
-def _check_plan(cards: int, alpha: float, power: float, simulate: int, max_decks: int) -> None:
-    check_cards(cards)
+def _check_plan(
+    cards: int, alpha: float, power: float, simulate: int, max_decks: int, shoe: bool = False
+) -> None:
+    if not shoe:  # decks of distinct cards: the battery's exact laws bound the deck size
+        limit("audit_cards").check(cards)
     check_fraction(alpha, "alpha")
     check_fraction(power, "power")
-    check_integer(simulate, "simulate", low=100, why="simulated decks behind the estimate")
+    limit("power_simulate").check(simulate)
+    if not shoe:
+        check_memory(
+            law_bytes(cards),
+            f"the exact laws of the tests for decks of {cards} cards",
+            argument="cards",
+            advice="plan for decks of fewer {cards}",
+        )
+    check_memory(
+        simulate * (deck_bytes(cards) + 2 * cards),
+        f"{simulate:,} simulated decks of {cards} cards",
+        argument="simulate",
+        advice="use a smaller {simulate}: the simulated decks are held in memory at once",
+    )
     check_integer(max_decks, "max_decks", low=1)
 
 
@@ -464,7 +483,7 @@ def plan_shoes(
     ``(n-1)(V-1)`` degrees of freedom.
     """
     n = shoe.cards
-    _check_plan(n, alpha, power, simulate, max_decks)
+    _check_plan(n, alpha, power, simulate, max_decks, shoe=True)
     generator = np.random.default_rng(rng)
     context = DeckContext.checked(n, shoe=shoe)
     words = np.asarray(sample(simulate, generator))

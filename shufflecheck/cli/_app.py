@@ -3,14 +3,28 @@
 Commands live in one small module each (``shufflecheck/cli/<command>.py``) and only call
 the library: no mathematics lives in the CLI. Bad input raised anywhere as
 :class:`shufflecheck.common.errors.InputError` becomes one line on stderr and exit code 2.
+
+The last line of defence: any other exception (a bug, or memory exhausted despite the
+checks) prints ``error: internal error: <one line>`` and the path of a file holding the
+traceback, and exits with code 3; a raw traceback is never shown. SIGTERM and SIGHUP end
+a command like an error (exit 143 / 129) so that temporary files are removed on the way
+out. Warnings raised while a command runs are held back and printed as ``warning: ...``
+lines after it succeeds (never in front of an ``error:`` line).
 """
 
 from __future__ import annotations
 
 import contextlib
+import datetime as dt
 import json
 import math
+import os
+import signal
 import sys
+import tempfile
+import threading
+import traceback
+import warnings
 from collections.abc import Callable, Iterator
 from fractions import Fraction
 from pathlib import Path
@@ -19,27 +33,106 @@ from typing import Annotated, Any
 import typer
 from typer.core import TyperGroup
 
-from shufflecheck.common.errors import EXIT_BAD_INPUT, InputError
+from shufflecheck.common.errors import EXIT_BAD_INPUT, InputError, clip
 
 #: the command-line parser's usage error (typer ships its own copy of click)
 _UsageError = typer.BadParameter.__mro__[1]
+#: exceptions the command-line framework handles itself (exit codes, --help, aborts)
+_FRAMEWORK = (typer.Exit, typer.Abort, typer.exceptions.TyperException, BrokenPipeError)
+
+#: exit code of an unexpected failure (a bug): distinct from bad input (2)
+EXIT_INTERNAL = 3
+
+
+class _Terminated(BaseException):
+    """Raised in the main thread by SIGTERM / SIGHUP, so clean-up code runs."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+@contextlib.contextmanager
+def _signals_as_exceptions() -> Iterator[None]:
+    """While a command runs, SIGTERM and SIGHUP raise :class:`_Terminated` (main thread)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+
+    def handler(signum: int, frame: Any) -> None:
+        raise _Terminated(signum)
+
+    previous = {}
+    for name in ("SIGTERM", "SIGHUP"):
+        number = getattr(signal, name, None)
+        if number is not None:
+            with contextlib.suppress(ValueError, OSError):
+                previous[number] = signal.signal(number, handler)
+    try:
+        yield
+    finally:
+        for number, old in previous.items():
+            with contextlib.suppress(ValueError, OSError, TypeError):
+                signal.signal(number, old)
+
+
+def _save_traceback(exc: BaseException) -> str:
+    """Write the traceback of ``exc`` to a private file in the temporary folder; its path."""
+    from shufflecheck.common.version import __version__
+
+    stamp = dt.datetime.now().strftime("%Y%m%d-%H%M%S")
+    fd, name = tempfile.mkstemp(prefix=f"shufflecheck-traceback-{stamp}-", suffix=".txt")
+    with os.fdopen(fd, "w", encoding="utf-8", errors="backslashreplace") as handle:
+        handle.write(f"shufflecheck {__version__}, Python {sys.version.split()[0]}\n")
+        handle.write("command: " + " ".join(sys.argv) + "\n\n")
+        handle.write("".join(traceback.format_exception(type(exc), exc, exc.__traceback__)))
+    return name
+
+
+def internal_error_line(exc: BaseException) -> str:
+    """``error: internal error: ...`` for an unexpected exception, with its traceback file."""
+    if isinstance(exc, MemoryError):
+        what = "out of memory (MemoryError); try a smaller input or fewer decks"
+    else:
+        text = " ".join(str(exc).split())
+        what = f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+    try:
+        where = f"traceback in {_save_traceback(exc)}"
+    except Exception as failure:  # the file cannot be written: say so, still one line
+        where = f"the traceback could not be saved ({type(failure).__name__})"
+    return f"error: internal error: {clip(what, 300)} ({where}; please report it)"
 
 
 class _Group(TyperGroup):
     """Turns :class:`InputError` from any command, and the parser's usage errors, into one
-    line ``error: ...`` on stderr and exit code 2."""
+    line ``error: ...`` on stderr and exit code 2; anything unexpected into one line
+    ``error: internal error: ...`` and exit code 3 (see the module notes)."""
 
     def invoke(self, ctx: Any) -> Any:
-        try:
-            return super().invoke(ctx)
-        except InputError as exc:
-            typer.echo(f"error: {option_message(exc, self._subcommand(ctx))}", err=True)
-            raise typer.Exit(code=EXIT_BAD_INPUT) from None
-        except _UsageError as exc:
-            where = exc.ctx.command_path if getattr(exc, "ctx", None) else "shufflecheck"
-            message = " ".join(exc.format_message().split())
-            typer.echo(f"error: {message} (see '{where} --help')", err=True)
-            raise typer.Exit(code=EXIT_BAD_INPUT) from None
+        with warnings.catch_warnings(record=True) as caught, _signals_as_exceptions():
+            try:
+                result = super().invoke(ctx)
+            except InputError as exc:
+                typer.echo(f"error: {option_message(exc, self._subcommand(ctx))}", err=True)
+                raise typer.Exit(code=EXIT_BAD_INPUT) from None
+            except _UsageError as exc:
+                where = exc.ctx.command_path if getattr(exc, "ctx", None) else "shufflecheck"
+                message = clip(" ".join(exc.format_message().split()), 1000)
+                typer.echo(f"error: {message} (see '{where} --help')", err=True)
+                raise typer.Exit(code=EXIT_BAD_INPUT) from None
+            except _Terminated as exc:
+                name = signal.Signals(exc.signum).name
+                typer.echo(f"error: stopped by {name}; no partial output was left", err=True)
+                raise typer.Exit(code=128 + exc.signum) from None
+            except _FRAMEWORK:
+                raise
+            except Exception as exc:
+                typer.echo(internal_error_line(exc), err=True)
+                raise typer.Exit(code=EXIT_INTERNAL) from None
+        for item in caught:
+            text = " ".join(str(item.message).split())
+            typer.echo(f"warning: {clip(text, 300)}", err=True)
+        return result
 
     def _subcommand(self, ctx: Any) -> Any:
         name = ctx.invoked_subcommand or (ctx.protected_args or [None])[0]
@@ -107,7 +200,12 @@ ReportOption = Annotated[
     Path | None,
     typer.Option(help="Write a report folder here: report.md, report.html, report.json, figures/."),
 ]
-ForceOption = Annotated[bool, typer.Option(help="Replace an existing report folder.")]
+ForceOption = Annotated[
+    bool,
+    typer.Option(
+        help="Replace existing output files and report folders (never the command's inputs)."
+    ),
+]
 
 
 def _json_default(value: Any) -> Any:
@@ -221,14 +319,51 @@ def report_progress(figures: int, label: str) -> Iterator[Callable[[], None]]:
             yield lambda: update(figures + 1)
 
 
-def check_report_folder(folder: Path | None, *, force: bool) -> None:
-    """Refuse an existing report folder before any work is done (the writer checks again)."""
-    if folder is None:
-        return
-    if folder.exists() and not force:
-        raise InputError(f"report folder {folder} exists; pass --force to replace it")
-    if not folder.parent.exists():
-        raise InputError(f"cannot write report {folder}: folder {folder.parent} does not exist")
+def check_outputs(
+    *,
+    force: bool,
+    inputs: dict[Any, str] | tuple[Any, ...] | list[Any] = (),
+    files: tuple[Any, ...] | list[Any] = (),
+    folders: tuple[Any, ...] | list[Any] = (),
+    sizes: dict[Any, int] | None = None,
+) -> None:
+    """Refuse bad output paths before any work is done (the writers check again).
+
+    ``files`` and ``folders`` are output paths (None entries are ignored): each must not be
+    one of ``inputs`` (paths, or path -> what it is, e.g. ``"the log itself"``), must not
+    exist unless ``force``, and its folder must be writable; ``sizes`` maps an output to
+    the bytes it will need on disk, when known.
+    """
+    from shufflecheck.common.files import check_output
+
+    if isinstance(inputs, dict):
+        sources: dict[Path, str] = {Path(p): w for p, w in inputs.items() if p is not None}
+    else:
+        sources = {Path(p): "one of the files this command reads" for p in inputs if p is not None}
+    for path in files:
+        if path is not None:
+            size = (sizes or {}).get(path)
+            check_output(path, force=force, inputs=sources, size=size)
+    for path in folders:
+        if path is not None:
+            check_output(path, force=force, inputs=sources, folder=True)
+            from shufflecheck.report.writer import check_report_target
+
+            check_report_target(path, force=force)
+
+
+def check_report_folder(folder: Path | None, *, force: bool, inputs: Any = ()) -> None:
+    """Refuse an unusable report folder before any work is done (the writer checks again)."""
+    check_outputs(force=force, inputs=tuple(inputs), folders=(folder,))
+
+
+def procedure_inputs(*arguments: str | None) -> dict[Path, str]:
+    """The files among procedure arguments (text that names a ``.toml`` file)."""
+    return {
+        Path(a): "the procedure file itself"
+        for a in arguments
+        if a is not None and a.lower().endswith(".toml")
+    }
 
 
 def save_report(document: Any, folder: Any, *, force: bool) -> str:

@@ -11,9 +11,10 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
+    procedure_inputs,
     progress,
     save_report,
 )
@@ -69,7 +70,7 @@ def assess(
     lower bound at the stated confidence from simulated decks, or an estimate with its
     interval (the guessing game).
     """
-    check_report_folder(report, force=force)
+    check_outputs(force=force, inputs=procedure_inputs(procedure), files=(plot,), folders=(report,))
     from shufflecheck.analyses.assess import assess as run_assessment
     from shufflecheck.analyses.assess import assessment_json, assessment_work
     from shufflecheck.models.procedures import procedure_from_argument
@@ -92,7 +93,7 @@ def assess(
         from shufflecheck.common.errors import InputError
 
         raise InputError(f"the shoe has {shoe.size} cards, not {cards}", argument="cards")
-    units = assessment_work(decks, repeat)
+    units = assessment_work(decks, repeat, n)
     size = f"{decks:,} decks x {n} cards x {repeat} repetition{'s' if repeat != 1 else ''}"
     long_work = decks * n * repeat >= 10_000_000
     with progress(units if long_work else 0, "simulating", size) as update:
@@ -124,7 +125,7 @@ def assess(
     if plot is not None:
         from shufflecheck.common.files import atomic_write
 
-        atomic_write(plot, figure.png)
+        atomic_write(plot, figure.png, force=force)
     if report is not None:
         from shufflecheck.report.builders.assess import assessment_report
         from shufflecheck.report.provenance import collect_provenance

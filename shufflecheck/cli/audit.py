@@ -12,9 +12,10 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
+    procedure_inputs,
     progress,
     save_report,
 )
@@ -184,7 +185,7 @@ def audit(
 
     Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
     """
-    check_report_folder(report, force=force)
+    _check_audit_outputs(log, deck, reference, quarantine, report, force)
     from shufflecheck.analyses.audit_log import audit_log, choose_engine, total_bytes
 
     chosen = choose_engine(log, engine.value, scheduler)
@@ -203,6 +204,7 @@ def audit(
             time_format=time_format,
             alpha=alpha,
             quarantine=quarantine,
+            force=force,
             progress=update,
             order_column=order_column,
             position_columns=position_columns,
@@ -231,6 +233,39 @@ def audit(
     print_audit(result)
     if report is not None:
         echo(f"Wrote report {written}")
+
+
+def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool) -> None:
+    """Refuse unusable --quarantine and --report paths before any reading: never one of
+    the logs, the deck definition or the reference file; never an existing file without
+    --force (with several logs, --quarantine is a folder of one file per log)."""
+    from shufflecheck.analyses.log_parts import quarantine_path
+    from shufflecheck.common.errors import InputError
+    from shufflecheck.common.files import check_output, names_file
+    from shufflecheck.records.logs.sources import log_sources
+
+    sources = log_sources(log)
+    inputs: dict[Path, str] = {s.path: "one of the logs" for s in sources}
+    if len(sources) == 1:
+        inputs[sources[0].path] = "the log itself"
+    if deck is not None:
+        inputs[Path(deck)] = "the deck definition itself"
+    if names_file(reference):
+        inputs[Path(reference)] = "the reference order file itself"
+    files = []
+    if quarantine is not None and len(sources) > 1:
+        if quarantine.exists() and not quarantine.is_dir():
+            raise InputError(
+                f"cannot write {quarantine}: with several logs --quarantine is a folder "
+                "(one file per log), and this is a file"
+            )
+        if not quarantine.exists():
+            check_output(quarantine, force=force, folder=True)
+        else:
+            files = [quarantine_path(quarantine, s, True) for s in sources]
+    elif quarantine is not None:
+        files = [quarantine]
+    check_outputs(force=force, inputs=inputs, files=files, folders=(report,))
 
 
 def print_audit(result) -> None:
@@ -339,8 +374,10 @@ def _print_fleet(result, fleet) -> None:
 
 def _repeat_range(text: str) -> list[int]:
     """``"5"`` -> [5]; ``"4-8"`` or ``"4..8"`` -> [4, ..., 8]."""
-    from shufflecheck.common.errors import InputError
+    from shufflecheck.common.errors import InputError, clip
+    from shufflecheck.common.limits import limit
 
+    most = limit("power_repeats").high
     cleaned = text.replace("..", "-").strip()
     try:
         if "-" in cleaned:
@@ -349,10 +386,13 @@ def _repeat_range(text: str) -> list[int]:
             low = high = int(cleaned)
     except ValueError:
         raise InputError(
-            f"--repeat must be a count like 5 or a range like 4-8, got {text!r}"
+            f"--repeat must be a count like 5 or a range like 4-8, got {clip(text, 40)!r}"
         ) from None
-    if not 1 <= low <= high <= 50:
-        raise InputError(f"--repeat must lie within 1..50 with low <= high, got {text!r}")
+    if not 1 <= low <= high <= most:
+        raise InputError(
+            f"--repeat must lie within 1..{most} with low <= high, got {clip(text, 40)!r} "
+            f"({limit('power_repeats').why})"
+        )
     return list(range(low, high + 1))
 
 
@@ -396,7 +436,7 @@ def power(
     Simulates the procedure (estimate), uses each test's exact null for its critical value,
     and searches the smallest number of decks with the requested power.
     """
-    check_report_folder(report, force=force)
+    check_outputs(force=force, inputs=procedure_inputs(procedure), files=(plot,), folders=(report,))
     from shufflecheck.analyses.plan import plan_power, planning_json
     from shufflecheck.models.procedures import procedure_from_argument
 
@@ -453,7 +493,7 @@ def power(
 
         if figure is None:
             raise InputError("--plot needs a range of repetitions, e.g. --repeat 4-8")
-        atomic_write(plot, figure.png)
+        atomic_write(plot, figure.png, force=force)
     if report is not None:
         from shufflecheck.report.builders.power import power_report
         from shufflecheck.report.provenance import collect_provenance

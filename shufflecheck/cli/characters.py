@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+import contextlib
+import sys
 from enum import Enum
 from pathlib import Path
 from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import app, echo, emit_json, progress
+from shufflecheck.cli._app import ForceOption, app, check_outputs, echo, emit_json, progress
 from shufflecheck.common.errors import InputError
 from shufflecheck.models.registry import spectrum_models
 
@@ -31,6 +33,7 @@ def characters(
     csv: Annotated[
         Path | None, typer.Option("--csv", help="Write the whole table to this CSV file.")
     ] = None,
+    force: ForceOption = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
 ) -> None:
     """Exact irreducible characters of S_n (Murnaghan-Nakayama rule on beta-sets).
@@ -38,6 +41,7 @@ def characters(
     With --shape and --class: one value. Otherwise the whole table, rows = shapes and
     columns = classes, both in reverse lexicographic order; a large table goes to --csv.
     """
+    from shufflecheck.common.limits import limit
     from shufflecheck.core.characters import character, character_table
     from shufflecheck.core.partitions import (
         check_partition,
@@ -46,13 +50,13 @@ def characters(
         parse_partition,
     )
 
-    if n < 0:
-        raise InputError(f"n must be >= 0, got {n}")
+    limit("characters_n").check(n)
+    check_outputs(force=force, files=(csv,))
     if (shape is None) != (cycle_class is None):
         raise InputError("give both --shape and --class for one value, or neither for the table")
     if shape is not None and cycle_class is not None:
-        lam = check_shape(parse_partition(shape, "shape"), "shape", n)
-        mu = check_partition(parse_partition(cycle_class, "class"), "class", n)
+        lam = check_shape(parse_partition(shape, "shape", most=n), "shape", n)
+        mu = check_partition(parse_partition(cycle_class, "class", most=n), "class", n)
         value = character(lam, mu)
         if json_out:
             emit_json({"n": n, "shape": list(lam), "class": list(mu), "value": value})
@@ -65,7 +69,7 @@ def characters(
 
     table = character_table(n)
     if csv is not None:
-        _write_csv(csv, table)
+        _write_csv(csv, table, force=force)
     if json_out:
         emit_json(
             {
@@ -98,11 +102,11 @@ def characters(
         echo(f"Wrote {csv}")
 
 
-def _write_csv(path: Path, table) -> None:
+def _write_csv(path: Path, table, *, force: bool) -> None:
     from shufflecheck.common.files import atomic_open
     from shufflecheck.core.partitions import format_partition
 
-    with atomic_open(path) as handle:
+    with atomic_open(path, force=force) as handle:
         handle.write("shape," + ",".join(f'"{format_partition(c)}"' for c in table.classes) + "\n")
         for shape, row in zip(table.shapes, table.values, strict=True):
             handle.write(
@@ -138,14 +142,20 @@ def spectrum(
     """
     from shufflecheck.models import SPECTRUM_UNITS
     from shufflecheck.models import spectrum as model_spectrum
-    from shufflecheck.report.render.terminal import format_table
 
     with progress(SPECTRUM_UNITS, f"{model.value} spectrum", after=0.5) as update:
         rows = model_spectrum(model.value, cards, hold=hold, hands=hands, progress=update)
+    with _exact_digits():
+        _show_spectrum(model.value, cards, rows, shapes_shown, json_out)
+
+
+def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bool) -> None:
+    from shufflecheck.report.render.terminal import format_table
+
     if json_out:
         emit_json(
             {
-                "model": model.value,
+                "model": model,
                 "cards": cards,
                 "rows": [
                     {
@@ -167,8 +177,25 @@ def spectrum(
         if len(r.shapes) > shapes_shown:
             shown += f", ... ({len(r.shapes)} shapes)"
         table_rows.append([f"{float(r.value):.6f}", str(r.value), _big(r.multiplicity), shown])
-    echo(f"Spectrum of {model.value} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
+    echo(f"Spectrum of {model} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
     echo(format_table(["eigenvalue", "exact", "multiplicity", "shapes"], table_rows, align="rlrl"))
+
+
+@contextlib.contextmanager
+def _exact_digits():
+    """Let exact multiplicities of thousands of digits be written out (Python limits the
+    conversion of long integers to text by default, against untrusted input; these are
+    the tool's own results)."""
+    getter = getattr(sys, "get_int_max_str_digits", None)
+    if getter is None:  # pragma: no cover - Python without the limit
+        yield
+        return
+    before = getter()
+    sys.set_int_max_str_digits(0)
+    try:
+        yield
+    finally:
+        sys.set_int_max_str_digits(before)
 
 
 def _big(value: int) -> str:

@@ -39,7 +39,12 @@ def demo(
     from shufflecheck.report.provenance import collect_provenance
 
     if not out.parent.exists() and out.parent == Path("reports"):
-        out.parent.mkdir()
+        from shufflecheck.common.files import write_failure
+
+        try:
+            out.parent.mkdir()
+        except OSError as exc:
+            raise write_failure(out.parent, exc) from None
     check_report_folder(out, force=force)
     with progress(demo_work(), "demo: assessing procedures") as update:
         result = run_demo(progress=update)

@@ -10,7 +10,7 @@ import typer
 from shufflecheck.cli._app import (
     ReportOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
     progress,
@@ -82,7 +82,11 @@ def fit_riffle(
     ] = None,
     report: ReportOption = None,
     force: Annotated[
-        bool, typer.Option(help="Replace an existing procedure file, CSV, plot or report folder.")
+        bool,
+        typer.Option(
+            help="Replace an existing procedure file, CSV, plot or report folder (never the "
+            "command's inputs)."
+        ),
     ] = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
 ) -> None:
@@ -95,11 +99,14 @@ def fit_riffle(
     fitted step is written as a procedure file for assess, power, simulate and policy files.
     """
     from shufflecheck.common.errors import InputError
+    from shufflecheck.common.files import names_file
 
-    check_report_folder(report, force=force)
-    for target in (out, not_riffles, plot):
-        if target is not None and target.exists() and not force:
-            raise InputError(f"{target} exists; pass --force to replace it")
+    inputs = {log: "the log itself", deck: "the deck definition itself"}
+    if names_file(reference):
+        inputs[Path(reference)] = "the reference order file itself"
+    check_outputs(
+        force=force, inputs=inputs, files=(out, not_riffles, plot, quarantine), folders=(report,)
+    )
     if out is not None and out.suffix.lower() != ".toml":
         raise InputError(f"--out {out} must end in .toml (commands read procedure files by that)")
     from shufflecheck.analyses.riffle_fit import (
@@ -123,6 +130,7 @@ def fit_riffle(
             cards=cards,
             by=by,
             quarantine=quarantine,
+            force=force,
             confidence=confidence,
             alpha=alpha,
             samples=samples,
@@ -148,7 +156,7 @@ def fit_riffle(
     if plot is not None:
         from shufflecheck.common.files import atomic_write
 
-        written["plot"] = str(atomic_write(plot, figures[0].png))
+        written["plot"] = str(atomic_write(plot, figures[0].png, force=force))
     if report is not None:
         from shufflecheck.report.builders.riffle_fit import fit_report
         from shufflecheck.report.provenance import collect_provenance

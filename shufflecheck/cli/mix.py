@@ -12,7 +12,7 @@ from shufflecheck.cli._app import (
     ForceOption,
     ReportOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
     progress,
@@ -120,7 +120,12 @@ def mix(
     and the smallest k that meets --target. These describe the idealised model, not a
     particular dealer or machine; the output is statistical evidence, not certification.
     """
-    check_report_folder(report, force=force)
+    check_outputs(
+        force=force,
+        inputs={deck: "the deck definition itself"} if deck is not None else (),
+        files=(plot,),
+        folders=(report,),
+    )
     from shufflecheck.core.distances import METRIC_NAMES, check_target, minimum_steps
     from shufflecheck.models import default_max_steps, distance_curve
 
@@ -148,7 +153,7 @@ def mix(
         curve = distance_curve(
             model.value,
             cards,
-            steps,
+            max_steps,
             hands=hands,
             hold=hold,
             shelves=shelves,
@@ -163,7 +168,7 @@ def mix(
     if plot is not None:
         from shufflecheck.common.files import atomic_write
 
-        atomic_write(plot, figure.png)
+        atomic_write(plot, figure.png, force=force)
     if report is not None:
         from shufflecheck.report.builders.mix import mixing_report
         from shufflecheck.report.provenance import collect_provenance
@@ -258,7 +263,7 @@ def _mix_feature(
         if plot is not None:
             from shufflecheck.common.files import atomic_write
 
-            atomic_write(plot, figure.png)
+            atomic_write(plot, figure.png, force=force)
         if report is not None:
             from shufflecheck.report.provenance import collect_provenance
 

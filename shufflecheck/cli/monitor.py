@@ -148,22 +148,33 @@ def status(store: StoreArgument, json_out: JsonOption = False) -> None:
 def dashboard(
     store: StoreArgument,
     out: Annotated[Path, typer.Option(help="Folder for dashboard.html and dashboard.json.")],
+    force: Annotated[
+        bool, typer.Option(help="Replace an existing dashboard.html and dashboard.json.")
+    ] = False,
     json_out: JsonOption = False,
 ) -> None:
     """Write the fleet dashboard: one self-contained HTML page and the same as JSON."""
     from shufflecheck.analyses.monitor import fleet_status
     from shufflecheck.cli._app import to_json
     from shufflecheck.common.errors import InputError
-    from shufflecheck.common.files import atomic_write
+    from shufflecheck.common.files import atomic_write, check_output, write_failure
     from shufflecheck.report.dashboard import dashboard_html
 
+    if out.exists() and not out.is_dir():
+        raise InputError(f"cannot write {out}: it is a file, not a folder")
     if not out.exists():
         if not out.parent.exists():
             raise InputError(f"cannot write {out}: folder {out.parent} does not exist")
-        out.mkdir()
+        try:
+            out.mkdir()
+        except OSError as exc:
+            raise write_failure(out, exc) from None
+    files = (out / "dashboard.json", out / "dashboard.html")
+    for path in files:
+        check_output(path, force=force, inputs={store: "the store itself"})
     payload = fleet_status(store).as_json()
-    atomic_write(out / "dashboard.json", to_json(payload) + "\n")
-    atomic_write(out / "dashboard.html", dashboard_html(payload))
+    atomic_write(files[0], to_json(payload) + "\n", force=force)
+    atomic_write(files[1], dashboard_html(payload), force=force)
     if json_out:
         emit_json(payload)
         return

@@ -27,6 +27,13 @@ def policy(
     ],
     report: ReportOption = None,
     force: ForceOption = False,
+    allow_outside: Annotated[
+        bool,
+        typer.Option(
+            help="Let the policy file name logs, decks and reference files outside its own "
+            "folder (only for policy files you trust)."
+        ),
+    ] = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
 ) -> None:
     """The fewest repetitions of each house procedure that meet the policy's target.
@@ -35,7 +42,6 @@ def policy(
     an estimate (never reported as certified). Attached logs are audited. Exit code 0 when
     computed, whatever the findings; 2 for a bad policy file (with file, line and key).
     """
-    check_report_folder(report, force=force)
     from shufflecheck.analyses.policy import (
         evaluate_policy,
         load_policy,
@@ -44,7 +50,10 @@ def policy(
     )
     from shufflecheck.report.builders.policy import policy_payload
 
-    loaded = load_policy(file)
+    loaded = load_policy(file, allow_outside=allow_outside)
+    check_report_folder(
+        report, force=force, inputs={path: "a file the policy reads" for path in loaded.inputs}
+    )
     with progress(policy_work(loaded), "assessing procedures", policy_size(loaded)) as update:
         result = evaluate_policy(loaded, progress=update)
     payload = policy_payload(result)

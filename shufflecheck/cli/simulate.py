@@ -24,10 +24,12 @@ def simulate(
     cards: Annotated[
         int | None, typer.Option("--cards", "-n", help="Cards per deck (default 52).")
     ] = None,
-    decks: Annotated[int, typer.Option(help="Recorded decks to simulate.")] = 1000,
+    decks: Annotated[
+        int, typer.Option(help="Recorded decks to simulate (1 to 100,000,000).")
+    ] = 1000,
     seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
     repeat: Annotated[
-        int, typer.Option("--repeat", "-r", help="Run the procedure r times per deck.")
+        int, typer.Option("--repeat", "-r", help="Run the procedure r times per deck (1 to 100).")
     ] = 1,
     reference: Annotated[
         SimulatedReference,
@@ -55,7 +57,9 @@ def simulate(
         str | None,
         typer.Option(help="Add 'recorded_at' times from this ISO time (e.g. 2026-11-02T18:00)."),
     ] = None,
-    every: Annotated[int, typer.Option(help="Seconds between decks for recorded_at.")] = 120,
+    every: Annotated[
+        int, typer.Option(help="Seconds between decks for recorded_at (1 to a year).")
+    ] = 120,
     force: Annotated[bool, typer.Option(help="Replace --out if it exists.")] = False,
     json_out: Annotated[bool, typer.Option("--json", help="Machine-readable summary.")] = False,
 ) -> None:
@@ -65,12 +69,17 @@ def simulate(
     log is read by `shufflecheck audit` exactly as a recorded one.
     """
     from shufflecheck.analyses.simulate import simulate_log
+    from shufflecheck.cli._app import check_outputs, procedure_inputs
     from shufflecheck.common.errors import InputError
+    from shufflecheck.common.limits import limit
     from shufflecheck.models.procedures import procedure_from_argument
     from shufflecheck.records.shoes import load_shoe
 
-    if out.exists() and not force:
-        raise InputError(f"{out} exists; pass --force to replace it")
+    inputs = {**procedure_inputs(procedure, then), deck: "the deck definition itself"}
+    check_outputs(force=force, inputs=inputs, files=(out,))
+    limit("simulate_decks").check(decks)
+    limit("repeats").check(repeat, name="repeat")
+    limit("every").check(every)
     proc = procedure_from_argument(procedure)
     shoe = load_shoe(deck) if deck is not None else None
     if (then is None) != (change_from is None):
@@ -89,6 +98,7 @@ def simulate(
         table=table,
         start=start,
         every=every,
+        force=force,
     )
     summary = dataclasses.asdict(result)
     if json_out:

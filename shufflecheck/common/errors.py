@@ -6,6 +6,10 @@ library argument at fault (``cards``), so the command-line layer can say which o
 was (``--cards``); library messages never name command-line options themselves. The
 command-line layer prints the message to stderr and exits with code 2; nothing else in the
 package decides exit codes.
+
+A message stays one readable line whatever the input: :func:`clip` shortens a value
+quoted from the input (a token of a million characters), and a message longer than
+:data:`MAX_MESSAGE` characters keeps its start and end around a note of what was cut.
 """
 
 from __future__ import annotations
@@ -13,6 +17,23 @@ from __future__ import annotations
 import re
 
 EXIT_BAD_INPUT = 2
+
+#: the longest message kept whole (characters); longer ones are cut in the middle
+MAX_MESSAGE = 1000
+
+
+def clip(text: object, width: int = 60) -> str:
+    """``text`` (made a one-line ``str``) cut to about ``width`` characters, with the number
+    of characters left out: ``'AS 2S 3S ... [5,199,930 more characters] ... QC KC'``."""
+    value = text if isinstance(text, str) else str(text)
+    if "\n" in value or "\r" in value:
+        value = " ".join(value.split())
+    if len(value) <= width:
+        return value
+    head = max(1, width * 2 // 3)
+    tail = max(1, width - head)
+    cut = len(value) - head - tail
+    return f"{value[:head]} ... [{cut:,} more characters] ... {value[-tail:]}"
 
 
 class InputError(ValueError):
@@ -26,11 +47,23 @@ class InputError(ValueError):
         The library argument(s) the message names, by their Python names. Where a name
         could be mistaken for an ordinary word, the message marks the spot as ``{name}``
         (shown as the bare name); otherwise its first appearance is the argument.
+    without_content : str or None
+        The same message without the text it quotes from the file that failed to parse
+        (e.g. the header of a file that is not a log). Callers reading files on behalf of
+        someone else (a policy file naming logs) show this one; default: the message.
     """
 
-    def __init__(self, message: str, *, argument: str | tuple[str, ...] | None = None) -> None:
-        if "\n" in message:
+    def __init__(
+        self,
+        message: str,
+        *,
+        argument: str | tuple[str, ...] | None = None,
+        without_content: str | None = None,
+    ) -> None:
+        if "\n" in message or "\r" in message:
             message = " ".join(part.strip() for part in message.splitlines() if part.strip())
+        if len(message) > MAX_MESSAGE:
+            message = clip(message, MAX_MESSAGE)
         self.arguments: tuple[str, ...] = (
             () if argument is None else (argument,) if isinstance(argument, str) else argument
         )
@@ -38,6 +71,7 @@ class InputError(ValueError):
         for name in self.arguments:
             message = message.replace("{" + name + "}", name)
         super().__init__(message)
+        self.without_content = message if without_content is None else without_content
 
     def naming(self, names: dict[str, str]) -> str:
         """The message with each argument written as ``names[argument]`` (an option)."""

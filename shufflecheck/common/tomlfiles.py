@@ -14,14 +14,14 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import InputError, clip
 
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover - Python 3.10
     import tomli as tomllib
 
-__all__ = ["TomlFile", "load_toml"]
+__all__ = ["MAX_DEPTH", "TomlFile", "load_toml", "parse_toml"]
 
 _TABLE = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
 
@@ -55,19 +55,25 @@ class TomlFile:
         return None
 
     def error(
-        self, message: str, key: str | None = None, table: str | None = None, index: int = 0
+        self,
+        message: str,
+        key: str | None = None,
+        table: str | None = None,
+        index: int = 0,
+        *,
+        argument: str | tuple[str, ...] | None = None,
     ) -> InputError:
         """An :class:`InputError` ``file line N: key 'k': message`` (line of the key, or of
-        its section when the key is missing)."""
+        its section when the key is missing); ``argument`` as for InputError."""
         where = str(self.path)
         if key is None and table is None:
-            return InputError(f"{where}: {message}")
+            return InputError(f"{where}: {message}", argument=argument)
         line = self.line_of(key, table, index) if key else None
         if line is None and table is not None:
             line = self.line_of(None, table, index)
         where += f" line {line}" if line is not None else ""
         dotted = ".".join(part for part in (table, key) if part)
-        return InputError(f"{where}: key '{dotted}': {message}")
+        return InputError(f"{where}: key '{dotted}': {message}", argument=argument)
 
 
 def load_toml(path: str | Path) -> TomlFile:
@@ -84,8 +90,62 @@ def load_toml(path: str | Path) -> TomlFile:
         raise InputError(f"{file}: cannot read ({exc.strerror})") from None
     if not text.strip():
         raise InputError(f"{file}: the file is empty")
+    return TomlFile(file, text, parse_toml(text, str(file)))
+
+
+#: deepest nesting of arrays and inline tables accepted in an input TOML file
+MAX_DEPTH = 32
+
+
+def parse_toml(text: str, where: str) -> dict[str, Any]:
+    """Parse TOML text, raising :class:`InputError` (with the position of a syntax error).
+
+    Nesting deeper than :data:`MAX_DEPTH` arrays or inline tables is refused before parsing
+    (no input of this tool nests more than a few levels; the parser would recurse).
+    """
+    depth = _nesting(text)
+    if depth > MAX_DEPTH:
+        raise InputError(
+            f"{where}: arrays or tables nested {depth} deep; at most {MAX_DEPTH} levels are read"
+        )
     try:
-        data = tomllib.loads(text)
+        return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{file}: invalid TOML: {exc}") from None
-    return TomlFile(file, text, data)
+        raise InputError(f"{where}: invalid TOML: {clip(str(exc), 200)}") from None
+    except RecursionError:  # guarded by the nesting check; kept as a second line
+        raise InputError(f"{where}: invalid TOML: nested too deeply") from None
+
+
+def _nesting(text: str) -> int:
+    """Deepest nesting of ``[``/``{`` outside strings and comments (an upper bound is
+    enough: table headers count one level)."""
+    if text.count("[") + text.count("{") <= MAX_DEPTH:
+        return 0
+    depth = deepest = 0
+    quote = ""
+    comment = False
+    i = 0
+    while i < len(text):
+        ch = text[i]
+        if comment:
+            comment = ch != "\n"
+        elif quote:
+            if ch == "\\" and quote in ('"', '"""'):
+                i += 1
+            elif text.startswith(quote, i):
+                i += len(quote) - 1
+                quote = ""
+        elif ch == "#":
+            comment = True
+        elif text.startswith('"""', i) or text.startswith("'''", i):
+            quote = text[i : i + 3]
+            i += 2
+        elif ch in "\"'":
+            quote = ch
+        elif ch in "[{":
+            depth += 1
+            deepest = max(deepest, depth)
+        elif ch in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+    return deepest

@@ -28,7 +28,8 @@ from functools import cache
 
 import numpy as np
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import InputError, clip
+from shufflecheck.common.limits import limit
 
 Partition = tuple[int, ...]
 
@@ -118,26 +119,37 @@ def check_shape(parts: Iterable[int], name: str = "shape", size: int | None = No
 _TOKEN = re.compile(r"^\s*(\d+)\s*(?:\^\s*(\d+))?\s*$")
 
 
-def parse_partition(text: str, name: str = "partition") -> Partition:
+def parse_partition(text: str, name: str = "partition", most: int | None = None) -> Partition:
     """Parse ``"4,2,1"`` (or ``"3^2,1"`` for repeated parts, or ``"4 2 1"``) into a partition.
 
     The parts are returned in the order given, sorted only by :func:`check_partition` or
-    :func:`check_shape`, so a caller can still see whether a shape was decreasing.
+    :func:`check_shape`, so a caller can still see whether a shape was decreasing. ``most``
+    bounds the sum of the parts (the ``n`` a caller expects; at most the largest ``n`` of
+    :data:`~shufflecheck.common.limits.LIMITS` ``"characters_n"`` in any case): text adding
+    up to more is refused before the parts are written out, so ``3^999999999999`` costs
+    nothing.
     """
+    ceiling = limit("characters_n").high
+    most = ceiling if most is None else min(most, ceiling)
     stripped = text.strip().strip("()[]")
     if not stripped:
         raise InputError(f"{name} is empty; give parts like 4,2,1")
     parts: list[int] = []
+    total = 0
     for token in re.split(r"[,\s]+", stripped):
         if not token:
             continue
-        match = _TOKEN.match(token)
+        match = _TOKEN.match(token) if len(token) <= 40 else None
         if match is None:
             raise InputError(
-                f"{name} {text!r}: cannot read part {token!r}; give parts like 4,2,1 or 3^2,1"
+                f"{name} {clip(text, 40)!r}: cannot read part {clip(token, 20)!r}; give parts "
+                "like 4,2,1 or 3^2,1"
             )
         value = int(match.group(1))
         repeat = int(match.group(2)) if match.group(2) is not None else 1
+        total += value * repeat
+        if total > most:
+            raise InputError(f"{name} {clip(text, 40)!r}: its parts add up to more than {most:,}")
         parts.extend([value] * repeat)
     return tuple(parts)
 

@@ -15,7 +15,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from shufflecheck.common.checks import check_cards, check_integer
+from shufflecheck.common.checks import check_cards
+from shufflecheck.common.limits import limit
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.distances import MixingCurve
 from shufflecheck.models.registry import SPECTRUM_UNITS
@@ -49,8 +50,9 @@ def distance_curve(
     check_cards(cards)
     found = entry(model, need="curve")
     assert found.curve is not None and found.default_steps is not None
-    steps = found.default_steps(cards) if max_steps is None else max_steps
-    check_integer(steps, "max_steps", low=1)
+    # a step count the user gave is checked against the documented range; the model's own
+    # checks judge its default (the number of cards decides it)
+    steps = found.default_steps(cards) if max_steps is None else limit("max_steps").check(max_steps)
     return found.curve(cards, steps, **_options(found.curve_options, options))
 
 

@@ -23,8 +23,8 @@ from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
 
-from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
 
 if TYPE_CHECKING:
     from shufflecheck.core.distances import DistanceRow
@@ -54,8 +54,10 @@ class Step(ABC):
         return decks
 
     def check_cards(self, cards: int) -> None:
-        """Raise :class:`InputError` when the step cannot act on a deck of ``cards`` cards."""
-        check_cards(cards, prefix=f"{self.keyword}: ")
+        """Raise :class:`InputError` when the step cannot act on a deck of ``cards`` cards
+        (the range of simulated decks, :data:`~shufflecheck.common.limits.LIMITS`
+        ``"cards"``, and whatever the step itself needs)."""
+        limit("cards").check(cards, prefix=f"{self.keyword}: ")
 
     def exact_distances(self, cards: int, times: int) -> DistanceRow | None:
         """Exact distances to uniform after ``times`` consecutive steps, or None when this

@@ -173,7 +173,13 @@ def _label(group: _Group) -> tuple[str, int | None]:
     if group.kind == "riffle":
         packets = math.prod(ideal_packets(step) ** times for step, times in group.steps)
         total = group.count
-        label = f"riffle x{total}" if packets == 2**total else f"{packets}-shuffle"
+        if packets == 2**total:
+            label = f"riffle x{total}"
+        elif packets.bit_length() <= 64:
+            label = f"{packets}-shuffle"
+        else:  # as powers: the number itself can have more digits than Python will print
+            powers = " x ".join(f"{ideal_packets(s)}^{t}" for s, t in group.steps)
+            label = f"({powers})-shuffle"
         label = "riffle" if label == "riffle x1" else label
         return label, packets
     if group.kind == "shelf" and len(group.steps) > 1:

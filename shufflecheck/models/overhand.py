@@ -146,7 +146,10 @@ def _strip_block(decks: np.ndarray, p: float, rng: np.random.Generator) -> np.nd
     key <<= dtype.type(2 * bits)
     base = ((cards - 1) << (2 * bits)) | (np.arange(cards) << bits)  # packet 0, position i
     np.subtract(base.astype(dtype), key, out=key)
-    np.bitwise_or(key, decks, out=key, casting="unsafe")
+    if dtype == np.uint64:  # int16 and uint64 have no common integer type
+        key |= decks.astype(dtype)
+    else:
+        np.bitwise_or(key, decks, out=key, casting="unsafe")
     key.sort(axis=1)
     key &= dtype.type((1 << bits) - 1)
     return key.astype(decks.dtype)

@@ -35,7 +35,9 @@ from pathlib import Path
 import numpy as np
 
 from shufflecheck.common.checks import check_integer
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import InputError, clip
+from shufflecheck.common.limits import limit
+from shufflecheck.common.resources import check_memory, memory_room
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks
 from shufflecheck.models.registry import entry, step_types
@@ -57,6 +59,11 @@ SIMULATION_REFERENCES = ("previous", "first")
 
 #: cards in one standard pack; a shoe of d decks has d * 52 distinct cards here
 PACK = 52
+
+#: memory per card of a simulated log while it is built and written, in bytes (measured:
+#: about 8 at 52 cards and 14 at 416, peak resident size of simulate runs of 10^5 to 10^6
+#: decks, the decks, their running composition and the text blocks being written)
+PLAY_BYTES = 16
 
 
 @dataclass(frozen=True)
@@ -91,14 +98,21 @@ class Procedure:
         return one * repeats
 
     def runs(self, repeats: int = 1) -> list[tuple[Step, int]]:
-        """The steps of ``repeats`` runs as maximal runs of equal consecutive steps."""
+        """The steps of ``repeats`` runs as maximal runs of equal consecutive steps (built
+        from the items and their counts, never step by step)."""
         out: list[tuple[Step, int]] = []
-        for step in self.expanded(repeats):
-            if out and out[-1][0] == step:
-                out[-1] = (step, out[-1][1] + 1)
-            else:
-                out.append((step, 1))
+        for _ in range(repeats):
+            for item in self.items:
+                if out and out[-1][0] == item.step:
+                    out[-1] = (item.step, out[-1][1] + item.times)
+                else:
+                    out.append((item.step, item.times))
         return out
+
+    @property
+    def steps(self) -> int:
+        """Steps in one run of the procedure (repeat counts included)."""
+        return sum(item.times for item in self.items)
 
     @property
     def deterministic(self) -> bool:
@@ -106,6 +120,8 @@ class Procedure:
         return all(item.step.deterministic for item in self.items)
 
     def check_cards(self, cards: int) -> None:
+        """Raise :class:`InputError` unless every step can act on ``cards`` cards."""
+        limit("cards").check(cards)
         for item in self.items:
             item.step.check_cards(cards)
 
@@ -126,6 +142,8 @@ class Procedure:
     ) -> np.ndarray:
         """``decks`` decks after ``repeats`` runs of the procedure from the reference order."""
         self.check_cards(cards)
+        check_integer(decks, "decks", low=0)
+        limit("repeats").check(repeats)
         generator = np.random.default_rng(rng)
         out = identity_decks(decks, cards)
         for start in range(0, decks, CHUNK_DECKS):
@@ -191,7 +209,7 @@ def parse_procedure(text: str, *, name: str | None = None, cards: int | None = N
             close = difflib.get_close_matches(keyword, list(types_by_name), n=1, cutoff=0.6)
             known = ", ".join(sorted(types_by_name))
             hint = f"; did you mean '{close[0]}'?" if close else f"; steps: {known}"
-            raise InputError(f"unknown step '{word}' at column {start}{hint}")
+            raise InputError(f"unknown step '{clip(word, 40)}' at column {start}{hint}")
         cursor.pos = match.end()
         cursor.skip_space()
         params: dict[str, object] = {}
@@ -201,10 +219,15 @@ def parse_procedure(text: str, *, name: str | None = None, cards: int | None = N
         times = 1
         count = _COUNT.match(text, cursor.pos)
         if count is not None:
-            times = int(count.group(1))
-            if times < 1:
+            digits = count.group(1)
+            times = int(digits) if len(digits) <= 18 else 10**18
+            steps = limit("step_times")
+            if not steps.low <= times <= steps.high:
                 raise _fail(
-                    f"{keyword}: the repeat count must be at least 1, got {times}", cursor.column
+                    f"{keyword}: the repeat count must be from {steps.low:,} to "
+                    f"{steps.high:,}, got {clip(digits, 30)}"
+                    + (f" ({steps.why})" if times > steps.high else ""),
+                    cursor.column,
                 )
             cursor.pos = count.end()
             cursor.skip_space()
@@ -244,7 +267,9 @@ def _parse_params(cursor: _Cursor, cls: type[Step], keyword: str) -> dict[str, o
         if key not in fields:
             allowed = ", ".join(fields) if fields else "none"
             raise _fail(
-                f"{keyword}: unknown parameter '{match.group(0)}' (parameters: {allowed})", column
+                f"{keyword}: unknown parameter '{clip(match.group(0), 40)}' "
+                f"(parameters: {allowed})",
+                column,
             )
         cursor.pos = match.end()
         cursor.skip_space()
@@ -265,7 +290,8 @@ def _parse_params(cursor: _Cursor, cls: type[Step], keyword: str) -> dict[str, o
             cursor.pos += 1
         elif cursor.peek() != ")":
             raise _fail(
-                f"{keyword}: expected ',' or ')' after {key}={value.group(0)}", cursor.column
+                f"{keyword}: expected ',' or ')' after {key}={clip(value.group(0), 40)}",
+                cursor.column,
             )
 
 
@@ -287,16 +313,26 @@ def _convert(raw: str, annotation: object, keyword: str, key: str, column: int) 
                 return False
         elif kind is int:
             if re.fullmatch(r"[+-]?\d+", raw):
+                if len(raw.lstrip("+-")) > 30:  # no parameter is that large; int() would be slow
+                    raise _fail(
+                        f"{keyword}: {key} must be a reasonable integer, got a number of "
+                        f"{len(raw.lstrip('+-')):,} digits",
+                        column,
+                    )
                 return int(raw)
         elif kind is float:
             try:
-                return float(raw)
+                number = float(raw)
             except ValueError:
                 pass
+            else:
+                if not math.isfinite(number):
+                    raise _fail(f"{keyword}: {key} must be a finite number, got '{raw}'", column)
+                return number
         elif kind is str:
             return raw
     wanted = " or ".join(getattr(k, "__name__", str(k)) for k in candidates)
-    raise _fail(f"{keyword}: {key} must be {_article(wanted)}, got '{raw}'", column)
+    raise _fail(f"{keyword}: {key} must be {_article(wanted)}, got '{clip(raw, 40)}'", column)
 
 
 def _article(kind: str) -> str:
@@ -355,9 +391,10 @@ def deck_size(doc, data: dict, table: str | None, index: int = 0) -> int | None:
     if cards is not None and decks is not None:
         raise doc.error("give cards or decks, not both", "decks", table, index)
     if cards is not None:
-        if isinstance(cards, bool) or not isinstance(cards, int) or cards < 2:
-            raise doc.error(f"must be an integer >= 2, got {cards!r}", "cards", table, index)
-        return cards
+        try:
+            return limit("cards").check(cards, name="the number of cards")
+        except InputError as exc:
+            raise doc.error(str(exc), "cards", table, index) from None
     if decks is not None:
         if isinstance(decks, bool) or not isinstance(decks, int) or not 1 <= decks <= 16:
             raise doc.error(
@@ -453,7 +490,17 @@ def _relative_chunks(
     draws them (the same random stream); arguments checked before the first draw."""
     if reference not in SIMULATION_REFERENCES:
         raise InputError(f"reference must be previous or first, got {reference!r}")
-    check_integer(decks, "decks", low=1)
+    limit("simulate_decks").check(decks)
+    limit("repeats").check(repeats)
+    procedure.check_cards(cards)
+    room = memory_room()
+    most = "" if room is None else f" (at most about {room // (cards * PLAY_BYTES):,} fit)"
+    check_memory(
+        (decks + 1) * cards * PLAY_BYTES,
+        f"{decks:,} simulated decks of {cards} cards",
+        argument="decks",
+        advice=f"use a smaller {{decks}}{most}, or simulate in several runs",
+    )
     generator = np.random.default_rng(rng)
     procedure.check_cards(cards)
     segments = [(procedure, decks)]

@@ -37,6 +37,7 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
 from shufflecheck.common.sources import BAYER_DIACONIS, GILBERT_REEDS
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
@@ -71,10 +72,17 @@ MAX_EXACT_STEPS = 200
 
 
 def check_hands(hands: int) -> int:
-    """Number of packets ``a`` of an a-shuffle: an integer >= 2."""
+    """Number of packets ``a`` of an a-shuffle: an integer >= 2 (any size: consecutive
+    riffles merge into one a-shuffle with the product of their packet counts)."""
     if isinstance(hands, bool) or not isinstance(hands, int) or hands < 2:
         raise InputError(f"hands (packets of an a-shuffle) must be an integer >= 2, got {hands!r}")
     return hands
+
+
+def _given_hands(hands: int) -> int:
+    """Packets a user gives (``riffle(hands=a)``, ``--hands``): 2 to 2^20, see
+    :data:`~shufflecheck.common.limits.LIMITS`."""
+    return limit("hands").check(hands)
 
 
 def _check_cards_steps(cards: int, steps: int) -> None:
@@ -87,7 +95,8 @@ def spectrum(cards: int, *, hands: int = 2) -> list[Eigenvalue]:
 
     ``c`` are the unsigned Stirling numbers of the first kind (permutations by cycles).
     """
-    a = check_hands(hands)
+    a = _given_hands(hands)
+    check_cards(cards, most=MAX_EXACT_CARDS, why="the multiplicities are exact integers")
     row = stirling1_row(cards)
     return [
         Eigenvalue(value=Fraction(1, a**i), multiplicity=row[cards - i], shapes=())
@@ -215,7 +224,7 @@ def _ratio_or_inf(value: int) -> float:
 
 def distance_curve(cards: int, max_steps: int, *, hands: int = 2) -> MixingCurve:
     """Exact distances after ``k = 1..max_steps`` a-shuffles (see :func:`exact_distances`)."""
-    a = check_hands(hands)
+    a = _given_hands(hands)
     _check_cards_steps(cards, max_steps)
     _check_exact_range(cards, max_steps)
     rows = tuple(_exact_row(cards, k, a) for k in range(1, max_steps + 1))
@@ -315,7 +324,7 @@ class Riffle(Step):
     hands: int = 2
 
     def __post_init__(self) -> None:
-        check_hands(self.hands)
+        _given_hands(self.hands)
 
     def apply(self, decks: np.ndarray, rng: np.random.Generator) -> np.ndarray:
         return apply_in_blocks(riffle_decks, decks, 1, rng, self.hands)

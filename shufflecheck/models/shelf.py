@@ -70,6 +70,7 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_FULMAN_HOLMES
 from shufflecheck.core.distances import (
     DistanceRow,
@@ -108,9 +109,14 @@ MAX_EXACT_PASSES = 200
 
 
 def _check_shelves(shelves: int) -> int:
-    if isinstance(shelves, bool) or not isinstance(shelves, int) or shelves < 1:
-        raise InputError(f"shelf: shelves must be an integer >= 1, got {shelves!r}")
-    return shelves
+    """Shelves of the machine: 1 to 2^19 (see :data:`~shufflecheck.common.limits.LIMITS`)."""
+    return limit("shelves").check(shelves, prefix="shelf: ")
+
+
+def _check_count(shelves: int) -> int:
+    """A shelf count met inside the computations (equivalent shelves of several passes may
+    exceed the user's limit): any integer >= 1."""
+    return check_integer(shelves, "shelves", low=1, prefix="shelf: ")
 
 
 def _check_stack(stack: str) -> str:
@@ -127,7 +133,7 @@ def _check_sizes(cards: int, passes: int) -> None:
 
 def equivalent_shelves(shelves: int, passes: int) -> int:
     """Shelves of the single pass equal in law to ``passes`` passes: ``2^(k-1) m^k``."""
-    _check_shelves(shelves)
+    _check_count(shelves)
     if passes < 1:
         raise InputError(f"shelf: passes must be >= 1, got {passes}")
     return 2 ** (passes - 1) * shelves**passes
@@ -164,7 +170,7 @@ def valley_numerators(cards: int, shelves: int) -> tuple[int, ...]:
 
     Formula (2) of the module docstring, in exact integers.
     """
-    _check_shelves(shelves)
+    _check_count(shelves)
     n = cards
     # weight[i] = C(m, i + 1) 2^(i + 1), i = 0..n-1 (zero once i + 1 > m)
     weight, binom = [], shelves  # C(m, 1)
@@ -221,7 +227,7 @@ def valley_law(cards: int, passes: int = 1, *, shelves: int = 10) -> tuple[Fract
 def exact_distances(cards: int, passes: int, *, shelves: int = 10) -> DistanceRow:
     """Exact TV, separation and KL (bits) after ``passes`` passes through ``shelves``
     shelves (either stacking order)."""
-    _check_shelves(shelves)
+    _check_count(shelves)
     _check_sizes(cards, passes)
     if cards > MAX_EXACT_CARDS or passes > MAX_EXACT_PASSES:
         raise InputError(
@@ -240,7 +246,7 @@ def exact_distances(cards: int, passes: int, *, shelves: int = 10) -> DistanceRo
 def chi_square(cards: int, passes: int, *, shelves: int = 10) -> tuple[float, float]:
     """Exact ``(chi-square distance, largest likelihood ratio)`` after ``passes`` passes,
     from the valley law (2) and A008303 in exact integers (``inf`` beyond doubles)."""
-    _check_shelves(shelves)
+    _check_count(shelves)
     _check_sizes(cards, passes)
     if cards > MAX_EXACT_CARDS or passes > MAX_EXACT_PASSES:
         raise InputError(
@@ -258,6 +264,7 @@ def chi_square(cards: int, passes: int, *, shelves: int = 10) -> tuple[float, fl
 
 def distance_curve(cards: int, max_passes: int, *, shelves: int = 10) -> MixingCurve:
     """Exact distances after ``1..max_passes`` passes (see :func:`exact_distances`)."""
+    _check_shelves(shelves)
     _check_sizes(cards, max_passes)
     if max_passes < 1:
         raise InputError(f"shelf: passes must be >= 1, got {max_passes}")
@@ -284,7 +291,7 @@ def shelf_decks(
     decks: np.ndarray, shelves: int, rng: np.random.Generator, *, stack: str = "fixed"
 ) -> np.ndarray:
     """One pass of every row through the machine (returns a new array)."""
-    _check_shelves(shelves)
+    _check_count(shelves)
     return apply_in_blocks(_shelf_block, decks, shelves, rng, _check_stack(stack))
 
 
@@ -315,7 +322,10 @@ def _shelf_block(
     key <<= dtype.type(bits)
     key |= flip
     key <<= dtype.type(bits)
-    np.bitwise_or(key, decks, out=key, casting="unsafe")
+    if dtype == np.uint64:  # int16 and uint64 have no common integer type
+        key |= decks.astype(dtype)
+    else:
+        np.bitwise_or(key, decks, out=key, casting="unsafe")
     key.sort(axis=1)
     key &= dtype.type((1 << bits) - 1)
     return key.astype(decks.dtype)

@@ -91,8 +91,10 @@ MAX_EXACT_STEPS = 20000
 def spectrum(cards: int) -> list[Eigenvalue]:
     """Eigenvalues ``j/n`` with multiplicity the number of permutations with ``j`` fixed points.
 
-    ``j = n-1`` never occurs (multiplicity 0) and is omitted ([2], Thm. 4.1).
+    ``j = n-1`` never occurs (multiplicity 0) and is omitted ([2], Thm. 4.1). Offered up to
+    :data:`MAX_EXACT_CARDS` cards.
     """
+    check_cards(cards, most=MAX_EXACT_CARDS, why="the multiplicities are exact integers")
     row = rencontres_row(cards)
     return [
         Eigenvalue(value=Fraction(j, cards), multiplicity=row[j], shapes=())

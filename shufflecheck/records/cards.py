@@ -45,7 +45,6 @@ References
 from __future__ import annotations
 
 import os
-import sys
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from functools import cached_property
@@ -56,11 +55,8 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - exercised on Python 3.10 only
-    import tomli as tomllib
+from shufflecheck.common.limits import limit
+from shufflecheck.common.tomlfiles import parse_toml
 
 __all__ = [
     "BUILT_IN_DECKS",
@@ -107,7 +103,7 @@ _TRANSLATE = {
     0xFE0F: None,
 }
 _EXPECTED = "expected rank A,2-9,T/10,J,Q,K and suit S,H,D,C"
-_MAX_CARDS = 32767  # labels are int16
+_MAX_CARDS = limit("deck_cards").high  # labels are int16
 
 #: English rank words and suit names (singular and plural) of spelled-out cards
 _RANK_WORDS = {
@@ -612,12 +608,16 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
             f"deck {text!r} is neither a built-in deck (standard-52) nor an existing file"
         )
     try:
-        with open(path, "rb") as handle:
-            data = tomllib.load(handle)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"{text}: not a valid TOML deck definition ({exc})") from None
+        raw = path.read_bytes()
     except OSError as exc:
         raise InputError(f"{text}: cannot read deck definition ({exc.strerror})") from None
+    try:
+        content = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"{text}: a deck definition must be UTF-8 text (byte {exc.start + 1} is not)"
+        ) from None
+    data = parse_toml(content.removeprefix("\ufeff"), f"{text} (deck definition)")
     if "copies" in data:
         raise InputError(
             f"{text}: this deck definition has copies (a shoe of repeated cards); this needs "

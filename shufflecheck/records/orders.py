@@ -77,6 +77,8 @@ def _times(k: int) -> str:
 
 
 def _positions(where: list[int]) -> str:
+    if len(where) > 6:  # a row of millions of cards still gets a one-line message
+        return ", ".join(str(p + 1) for p in where[:5]) + f" and {len(where) - 5:,} more"
     text = [str(p + 1) for p in where]
     return text[0] if len(text) == 1 else ", ".join(text[:-1]) + " and " + text[-1]
 

@@ -341,8 +341,8 @@ def load_shoe(spec: ShoeDefinition | str | os.PathLike[str]) -> ShoeDefinition |
     try:
         with open(path, "rb") as handle:
             data = tomllib.load(handle)
-    except (OSError, tomllib.TOMLDecodeError):
-        return None  # load_deck reports the problem
+    except (OSError, tomllib.TOMLDecodeError, UnicodeDecodeError, RecursionError):
+        return None  # load_deck reports the problem (nesting too deep, not UTF-8, ...)
     cards = data.get("cards")
     per_card = isinstance(cards, list) and any(isinstance(c, dict) and "copies" in c for c in cards)
     if "copies" not in data and not per_card:

@@ -1,13 +1,19 @@
 """Write a report folder atomically: ``report.md``, ``report.html``, ``report.json``, figures.
 
 Everything is rendered in memory first, then written into a temporary sibling folder
-(``.<name>.<random>.tmp`` beside the target) and renamed into place in one step, so a reader
-never sees a half-written report and a failure leaves no partial folder behind.
+(``.<name>.<pid>-<random>.incomplete`` beside the target) and renamed into place in one
+step, so a reader never sees a half-written report and a failure leaves no partial folder
+behind. A temporary folder left by a run that was killed is removed by the next write into
+the same parent folder (see :func:`shufflecheck.common.files.clean_temporaries`). File
+system failures (permission denied, no space left, read-only file system) become one
+:class:`InputError` line naming the folder and the cause.
 
 An existing report folder is replaced only with ``force=True``: the old folder is first
 renamed aside, the new one renamed in, and only then is the old one deleted; if the second
 rename fails the old folder is put back. Between those two renames (a few microseconds)
-the path is briefly absent, but it never holds a mix of old and new files.
+the path is briefly absent, but it never holds a mix of old and new files. Without
+``force`` the final rename cannot replace a report another run put there meanwhile (a
+rename onto a folder that is not empty fails), so two runs cannot both win.
 
 Replacing is refused unless the existing folder holds nothing but what a report writes
 (``report.md``, ``report.html``, ``report.json`` naming the report format, and
@@ -21,17 +27,21 @@ import contextlib
 import json
 import os
 import shutil
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.common.files import default_mode
+from shufflecheck.common.files import (
+    clean_temporaries,
+    default_mode,
+    temporary_path,
+    write_failure,
+)
 from shufflecheck.report.document import FORMAT_NAME, Report, render_json
 from shufflecheck.report.render.html import render_html
 from shufflecheck.report.render.markdown import render_markdown
 
-__all__ = ["REPORT_FILES", "WrittenReport", "render_files", "write_report"]
+__all__ = ["REPORT_FILES", "WrittenReport", "check_report_target", "render_files", "write_report"]
 
 #: The files at the top of a report folder (figures go in ``figures/``).
 REPORT_FILES = ("report.md", "report.html", "report.json")
@@ -61,6 +71,31 @@ def render_files(report: Report) -> dict[str, bytes]:
     return files
 
 
+def check_report_target(folder: str | os.PathLike[str], *, force: bool = False) -> Path:
+    """Check that a report can be written at ``folder`` (before any work); return it.
+
+    Refused: a name that is not a new folder; a missing parent; an existing file; an
+    existing folder without ``force``; with ``force``, a folder that holds anything a
+    report does not write (see the module notes).
+    """
+    target = Path(folder)
+    if target.name in ("", ".", ".."):
+        raise InputError(f"report folder {str(folder)!r} must name a new folder")
+    parent = target.parent if str(target.parent) else Path(".")
+    if not parent.is_dir():
+        raise InputError(f"cannot write report to {target}: folder {parent} does not exist")
+    if target.exists() or target.is_symlink():
+        if not target.is_dir() or target.is_symlink():
+            raise InputError(f"cannot write report to {target}: it exists and is not a folder")
+        if not force:
+            raise InputError(
+                f"report folder {target} exists; pass force to replace it", argument="force"
+            )
+        _check_replaceable(target)
+
+    return target
+
+
 def write_report(
     report: Report, folder: str | os.PathLike[str], *, force: bool = False
 ) -> WrittenReport:
@@ -85,25 +120,17 @@ def write_report(
         The parent folder does not exist; ``folder`` exists and ``force`` is not given;
         ``folder`` is a file; or ``folder`` holds files a report does not write.
     """
-    target = Path(folder)
-    if target.name in ("", ".", ".."):
-        raise InputError(f"report folder {str(folder)!r} must name a new folder")
+    target = check_report_target(folder, force=force)
     parent = target.parent
-    if not parent.is_dir():
-        raise InputError(f"cannot write report to {target}: folder {parent} does not exist")
-    if target.exists() or target.is_symlink():
-        if not target.is_dir() or target.is_symlink():
-            raise InputError(f"cannot write report to {target}: it exists and is not a folder")
-        if not force:
-            raise InputError(
-                f"report folder {target} exists; pass force to replace it", argument="force"
-            )
-        _check_replaceable(target)
-
     files = render_files(report)  # render everything before touching the disk
-    staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".tmp", dir=parent))
-    os.chmod(staging, default_mode(directory=True))
+    clean_temporaries(parent)
+    staging = temporary_path(target)
     try:
+        os.mkdir(staging, 0o700)
+    except OSError as exc:
+        raise write_failure(target, exc) from None
+    try:
+        os.chmod(staging, default_mode(directory=True))
         for relative, content in files.items():
             path = staging / relative
             path.parent.mkdir(exist_ok=True)
@@ -121,6 +148,9 @@ def write_report(
                     f"report folder {target} appeared while the report was written; "
                     "nothing was changed"
                 ) from exc
+    except OSError as exc:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise write_failure(target, exc) from None
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
@@ -147,7 +177,8 @@ def _fsync_dir(path: Path) -> None:
 
 def _swap_in(staging: Path, target: Path) -> None:
     """Rename ``target`` aside, ``staging`` into its place, then delete the old folder."""
-    trash = Path(tempfile.mkdtemp(prefix=f".{target.name}.", suffix=".old", dir=target.parent))
+    trash = temporary_path(target, suffix=".replaced")
+    os.mkdir(trash, 0o700)
     old = trash / target.name
     os.rename(target, old)
     try:

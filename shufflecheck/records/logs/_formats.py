@@ -12,6 +12,7 @@ References
 from __future__ import annotations
 
 import csv
+import functools
 import gzip
 import io
 import itertools
@@ -26,7 +27,7 @@ from typing import IO, Any
 import numpy as np
 import pandas as pd
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import InputError, clip
 from shufflecheck.records.cards import DeckDefinition
 from shufflecheck.records.logs._common import POSITION_COLUMN, ColumnMap
 
@@ -198,11 +199,14 @@ def _layout(
     wanted = "position columns p1..pN" if fmt == "wide" else "an 'order' column"
     if _looks_like_data(names, deck):
         raise headerless
+    advice = (
+        "name the order column with {order_column} or the position columns with "
+        "{position_columns} (see docs/formats-logs.md)"
+    )
     raise InputError(
-        f"{where}: missing {wanted} (columns are: {_shown(names)}); name the order column "
-        "with {order_column} or the position columns with {position_columns} "
-        "(see docs/formats-logs.md)",
+        f"{where}: missing {wanted} (columns are: {_shown(names)}); {advice}",
         argument=("order_column", "position_columns"),
+        without_content=f"{where}: missing {wanted}; {advice}",
     )
 
 
@@ -266,14 +270,19 @@ def _csv_records(lines: list[bytes], delimiter: str) -> tuple[list[bytes], bool]
 
         reader = csv.reader(feed(), delimiter=delimiter)
         restart = None
-        for _ in reader:
-            end = start + reader.line_num
-            begin = state["start"]
-            if end - begin >= _SPAN and end < len(lines):
-                restart = begin
-                break
-            records.append(b"".join(lines[begin:end]))
-            state["start"] = end
+        try:
+            for _ in reader:
+                end = start + reader.line_num
+                begin = state["start"]
+                if end - begin >= _SPAN and end < len(lines):
+                    restart = begin
+                    break
+                records.append(b"".join(lines[begin:end]))
+                state["start"] = end
+        except csv.Error:
+            # e.g. a carriage return alone inside an unquoted field: the record that
+            # starts here cannot be read; its first line becomes a malformed row
+            restart = state["start"]
         if restart is None:
             break
         records.append(lines[restart])  # an unclosed quote: this line alone, malformed
@@ -351,7 +360,10 @@ def csv_chunks(
                 raise InputError(f"{where}: column {k + 1} of the header has no name")
         repeated = [n for n, c in Counter(names).items() if c > 1]
         if repeated:
-            raise InputError(f"{where}: column {repeated[0]!r} appears twice in the header")
+            raise InputError(
+                f"{where}: column {clip(repeated[0], 40)!r} appears twice in the header",
+                without_content=f"{where}: a column name appears twice in the header",
+            )
         layout, used, before = _layout(names, fmt, deck, where, columns)
         yield layout, used, before, names
         taken = [*used] + ([before] if before is not None else [])
@@ -652,13 +664,32 @@ def _split_fields(texts: str | list[str], count: int, width: int, delimiter: str
     return pd.DataFrame(fields, columns=list(range(width)), dtype=object)
 
 
+#: integers beyond this size are never labels; they are range-checked before any
+#: conversion to a machine integer (a JSON number may have any number of digits)
+_LARGEST_LABEL = 1 << 31
+
+
+def _token(value: object) -> object:
+    """A token as the fast path sees it: text, or an int that fits 32 bits; anything else
+    (bool, float, null, a list, an enormous int) becomes an impossible code, so the row is
+    checked (and explained) one token at a time."""
+    if type(value) is str:
+        return value
+    if type(value) is int and -_LARGEST_LABEL < value < _LARGEST_LABEL:
+        return value
+    return "\x00" + type(value).__name__
+
+
 def _flatten(lists: list[list[object]]) -> tuple[np.ndarray, np.ndarray]:
     counts = np.fromiter(map(len, lists), dtype=np.int64, count=len(lists))
     tokens = list(itertools.chain.from_iterable(lists))
     kinds = set(map(type, tokens))
-    if not kinds <= {str, int}:
+    if not kinds <= {str, int} or (
+        int in kinds
+        and any(type(t) is int and not -_LARGEST_LABEL < t < _LARGEST_LABEL for t in tokens)
+    ):
         # bool and float compare equal to ints; make every other value an impossible code
-        tokens = [t if type(t) in (str, int) else "\x00" + repr(t) for t in tokens]
+        tokens = [_token(t) for t in tokens]
     flat = np.empty(len(tokens), dtype=object)
     flat[:] = tokens
     return flat, counts
@@ -666,17 +697,79 @@ def _flatten(lists: list[list[object]]) -> tuple[np.ndarray, np.ndarray]:
 
 _JSON_KIND = {"list": "array", "str": "text", "int": "number", "float": "number"}
 
+#: deepest nesting of arrays and objects read from one JSON line (an order needs two)
+MAX_JSON_DEPTH = 32
+
+
+class _DuplicateKey(Exception):
+    def __init__(self, key: str) -> None:
+        super().__init__(key)
+        self.key = key
+
+
+def _unique_keys(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    value = dict(pairs)
+    if len(value) != len(pairs):
+        seen: set[str] = set()
+        for key, _ in pairs:
+            if key in seen:
+                raise _DuplicateKey(key)
+            seen.add(key)
+    return value
+
+
+def _json_depth(line: bytes) -> int:
+    """Deepest nesting of arrays and objects in a JSON text (outside strings); cheap for
+    ordinary lines, which hold far fewer brackets than the limit."""
+    if line.count(b"[") + line.count(b"{") <= MAX_JSON_DEPTH:
+        return 0
+    depth = deepest = 0
+    inside = escaped = False
+    for byte in line:
+        if inside:
+            if escaped:
+                escaped = False
+            elif byte == 0x5C:  # backslash
+                escaped = True
+            elif byte == 0x22:  # quote
+                inside = False
+        elif byte == 0x22:
+            inside = True
+        elif byte in (0x5B, 0x7B):  # [ {
+            depth += 1
+            deepest = max(deepest, depth)
+        elif byte in (0x5D, 0x7D):
+            depth -= 1
+    return deepest
+
 
 def _json_record(
     line: bytes, order_key: str = "order"
 ) -> tuple[list[object] | str, dict[str, Any] | None, tuple[str, str] | None]:
-    """(order, other keys, None) of one JSON line, or (None, keys or None, (reason, problem))."""
+    """(order, other keys, None) of one JSON line, or (None, keys or None, (reason, problem)).
+
+    Refused as malformed before or while parsing: nesting deeper than
+    :data:`MAX_JSON_DEPTH` arrays and objects, a key given twice in one object (JSON [2]
+    leaves duplicates undefined; the last would win silently), a number too long to read.
+    """
+    depth = _json_depth(line)
+    if depth > MAX_JSON_DEPTH:
+        return [], None, ("malformed-json", f"nested {depth} deep; at most {MAX_JSON_DEPTH} levels")
     try:
-        value = json.loads(line)
+        value = json.loads(line, object_pairs_hook=_unique_keys)
     except UnicodeDecodeError:
         return [], None, ("malformed-json", "not UTF-8 text")
     except json.JSONDecodeError as exc:
         return [], None, ("malformed-json", f"not valid JSON ({exc.msg} at column {exc.colno})")
+    except _DuplicateKey as exc:
+        return (
+            [],
+            None,
+            ("malformed-json", f"key {clip(exc.key, 40)!r} appears twice in one object"),
+        )
+    except (ValueError, RecursionError) as exc:  # a number of more than 4,300 digits
+        what = "a number too long to read" if "digits" in str(exc) else "a value too deep to read"
+        return [], None, ("malformed-json", what)
     if not isinstance(value, dict):
         kind = _JSON_KIND.get(type(value).__name__, "true/false/null")
         return [], None, ("malformed-json", f"a line must be a JSON object, got {kind}")
@@ -769,6 +862,32 @@ def jsonl_chunks(
 def parquet_chunks(
     path: Path, shown: str, deck: DeckDefinition, chunk_rows: int, columns: ColumnMap
 ) -> Iterator[RawChunk | tuple[str, list[int], int | None, list[str]]]:
+    """The layout, then one RawChunk per row batch. A file pyarrow cannot decode (a
+    corrupted page, a name that is not UTF-8) is an InputError wherever it shows."""
+    inner = _parquet_chunks(path, shown, deck, chunk_rows, columns)
+    while True:
+        try:
+            item = next(inner)
+        except StopIteration:
+            return
+        except _unreadable() as exc:
+            raise InputError(f"{shown}: not a readable Parquet file ({clip(exc, 200)})") from None
+        yield item
+
+
+@functools.cache
+def _unreadable() -> tuple[type[BaseException], ...]:
+    """What pyarrow raises for a file it cannot decode (imported only when Parquet is read)."""
+    try:
+        import pyarrow as pa
+    except ImportError:  # pragma: no cover - the reader says pyarrow is needed
+        return (OSError, UnicodeDecodeError)
+    return (pa.ArrowException, OSError, UnicodeDecodeError)
+
+
+def _parquet_chunks(
+    path: Path, shown: str, deck: DeckDefinition, chunk_rows: int, columns: ColumnMap
+) -> Iterator[RawChunk | tuple[str, list[int], int | None, list[str]]]:
     try:
         import pyarrow as pa
         import pyarrow.compute as pc
@@ -788,21 +907,37 @@ def parquet_chunks(
     taken = [*used] + ([before_index] if before_index is not None else [])
     kept_names = [n for i, n in enumerate(names) if i not in taken]
     offset = 1
-    for batch in parquet.iter_batches(batch_size=chunk_rows):
+    batches = parquet.iter_batches(batch_size=chunk_rows)
+    while True:
+        try:
+            batch = next(batches, None)
+        except (OSError, pa.ArrowException) as exc:
+            raise InputError(f"{shown}: not a readable Parquet file ({clip(exc, 200)})") from None
+        if batch is None:
+            return
         m = batch.num_rows
         rows = np.arange(offset, offset + m, dtype=np.int64)
         offset += m
-        kept = batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
+        try:
+            kept = (
+                batch.select(kept_names).to_pandas() if kept_names else pd.DataFrame(index=range(m))
+            )
+        except (pa.ArrowException, ValueError, TypeError) as exc:
+            raise InputError(f"{shown}: a column cannot be read ({clip(exc, 200)})") from None
         kept = kept.reset_index(drop=True)
         before = None
         if before_index is not None:
             before = batch.column(before_index).to_pylist()
 
         def raw_of(i: int, batch: Any = batch) -> str:
-            return json.dumps(batch.slice(i, 1).to_pylist()[0], default=str, ensure_ascii=False)
+            try:
+                row = batch.slice(i, 1).to_pylist()[0]
+            except _unreadable():
+                return "(a row pyarrow cannot decode)"
+            return json.dumps(row, default=str, ensure_ascii=False)
 
         if layout == "csv":
-            order = batch.column(used[0])
+            order = _plain_arrow(batch.column(used[0]))
             kind = order.type
             if pa.types.is_string(kind) or pa.types.is_large_string(kind):
                 texts = [t or "" for t in order.to_pylist()]
@@ -824,13 +959,15 @@ def parquet_chunks(
             counts = pc.fill_null(pc.list_value_length(order), 0).to_numpy().astype(np.int64)
             values = pc.list_flatten(order)
             if pa.types.is_integer(values.type):
-                flat = pc.fill_null(values, -1).to_numpy().astype(np.int64)
-            else:
+                flat = _label_integers(values)
+            elif pa.types.is_string(values.type) or pa.types.is_large_string(values.type):
                 flat = np.asarray(values.to_numpy(zero_copy_only=False), dtype=object)
+            else:
+                flat = _tokens(values.to_pylist())
             yield RawChunk(
                 rows,
                 kept,
-                tokens_of=lambda i, o=order: o[i].as_py() or [],
+                tokens_of=lambda i, o=order: _arrow_tokens(lambda: o[i].as_py() or []),
                 raw_of=raw_of,
                 flat=flat,
                 counts=counts,
@@ -838,23 +975,66 @@ def parquet_chunks(
                 done=(offset - 1) / max(1, parquet.metadata.num_rows),
             )
             continue
-        cells = [batch.column(i) for i in used]
+        cells = [_plain_arrow(batch.column(i)) for i in used]
         if all(pa.types.is_integer(c.type) for c in cells):
-            grid = np.stack(
-                [pc.fill_null(c, -1).to_numpy().astype(np.int64) for c in cells], axis=1
-            )
+            grid = np.stack([_label_integers(c) for c in cells], axis=1)
         else:
-            grid = np.stack([np.asarray(c.to_pylist(), dtype=object) for c in cells], axis=1)
+            grid = np.stack([_tokens(c.to_pylist()) for c in cells], axis=1)
         yield RawChunk(
             rows,
             kept,
-            tokens_of=lambda i, c=cells: [x[i].as_py() for x in c],
+            tokens_of=lambda i, c=cells: _arrow_tokens(lambda: [x[i].as_py() for x in c]),
             raw_of=raw_of,
             flat=grid.ravel(),
             counts=np.full(m, len(used), dtype=np.int64),
             before=before,
             done=(offset - 1) / max(1, parquet.metadata.num_rows),
         )
+
+
+def _arrow_tokens(read: Callable[[], list[object]]) -> list[object]:
+    """The tokens of one Parquet row, or one impossible token when pyarrow cannot decode
+    them (the row is then reported as bad, never as a crash)."""
+    try:
+        return read()
+    except _unreadable():
+        return ["\x00undecodable"]
+
+
+def _plain_arrow(array: Any) -> Any:
+    """A Parquet column with dictionary encoding or fixed-size lists as plain values."""
+    import pyarrow as pa
+
+    if pa.types.is_dictionary(array.type):
+        array = array.dictionary_decode()
+    if pa.types.is_fixed_size_list(array.type):
+        array = array.cast(pa.list_(array.type.value_type))
+    return array
+
+
+def _label_integers(array: Any) -> np.ndarray:
+    """Integer cells as int64 labels, range-checked before any conversion: nulls and
+    values outside 32 bits become -1 (the row is then checked and explained token by
+    token, with the original values)."""
+    import pyarrow.compute as pc
+
+    valid = np.asarray(pc.is_valid(array).to_numpy(zero_copy_only=False), dtype=bool)
+    values = pc.fill_null(array, 0).to_numpy(zero_copy_only=False)
+    if values.dtype.kind == "u":
+        inside = values < _LARGEST_LABEL
+    else:
+        inside = (values > -_LARGEST_LABEL) & (values < _LARGEST_LABEL)
+    out = np.full(values.shape, -1, dtype=np.int64)
+    keep = valid & inside
+    out[keep] = values[keep].astype(np.int64)
+    return out
+
+
+def _tokens(values: list[object]) -> np.ndarray:
+    """A one-dimensional object array of tokens (see :func:`_token`)."""
+    out = np.empty(len(values), dtype=object)
+    out[:] = [_token(v) for v in values]
+    return out
 
 
 def frame_chunks(

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.common.files import atomic_open
+from shufflecheck.common.files import atomic_open, same_file
 from shufflecheck.records.cards import LABEL_MODES, DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import (
     DEFAULT_CHUNK_ROWS,
@@ -92,9 +92,11 @@ class LogReader:
         columns: ColumnMap | None = None,
         separator: str | None = None,
         frame: pd.DataFrame | None = None,
+        force: bool = True,
     ) -> None:
         self.path = path
         self._frame = frame
+        self._force = force
         self.deck = deck
         # a shoe (repeated cards): rows are words of its kinds, checked by counting copies
         self._shoe = deck if isinstance(deck, ShoeDefinition) else None
@@ -224,7 +226,7 @@ class LogReader:
         with contextlib.ExitStack() as stack:
             writer = None
             if self._quarantine is not None:
-                handle = stack.enter_context(atomic_open(self._quarantine, "w"))
+                handle = stack.enter_context(atomic_open(self._quarantine, "w", force=self._force))
                 writer = csv.writer(handle, lineterminator="\n")
                 writer.writerow(QUARANTINE_HEADER)
             seen = 0
@@ -439,6 +441,7 @@ def read_log(
     before_column: str | None = None,
     columns: str | Sequence[str] | None = None,
     separator: str | None = None,
+    force: bool = True,
 ) -> LogReader:
     """Open a log of recorded deck orders for reading in chunks.
 
@@ -482,6 +485,9 @@ def read_log(
         Default: detected from the first rows (none of ``, ; |``: spaces; two of them: an
         error asking for this argument).
         Spelled-out names (``Ace of Spades``) need one other than spaces.
+    force : bool
+        Replace an existing quarantine file (default); with False an existing one is an
+        error, checked again when the file is put in place (two runs cannot both write it).
 
     Returns
     -------
@@ -510,8 +516,10 @@ def read_log(
     target = None
     if quarantine is not None:
         target = Path(quarantine)
-        if target.exists() and target.resolve() == source.resolve():
+        if target.exists() and same_file(target, source):
             raise InputError(f"quarantine file {target} is the log itself; choose another path")
+        if target.is_dir():
+            raise InputError(f"cannot write quarantine file {target}: it is a folder")
     if separator is not None and separator not in SEPARATORS:
         raise InputError(
             f"separator {separator!r} is not one of {', '.join(SEPARATORS)}", argument="separator"
@@ -531,7 +539,16 @@ def read_log(
             argument="columns",
         )
     return LogReader(
-        source, shown, _definition(deck), labels, kind, chunk_rows, target, mapping, separator
+        source,
+        shown,
+        _definition(deck),
+        labels,
+        kind,
+        chunk_rows,
+        target,
+        mapping,
+        separator,
+        force=force,
     )
 
 

@@ -10,7 +10,7 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import InputError, clip
 from shufflecheck.records.cards import DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import LogChunk
 from shufflecheck.records.orders import parse_order, relative_to
@@ -84,7 +84,7 @@ class Reference:
         path = Path(text)
         try:
             is_file = path.is_file()
-        except OSError:  # e.g. a written-out order too long to be a file name
+        except (OSError, ValueError):  # an order too long to be a file name, a NUL byte
             is_file = False
         if is_file:
             try:
@@ -99,8 +99,8 @@ class Reference:
             order = parse_order(text, definition, labels=labels, where="reference order")
             return cls("order", order, "given order")
         raise InputError(
-            f"reference {text!r} is not previous, first, deck, column:NAME, pairs, an existing "
-            f"file or an order of {definition.size} card codes separated by spaces",
+            f"reference {clip(text, 60)!r} is not previous, first, deck, column:NAME, pairs, an "
+            f"existing file or an order of {definition.size} card codes separated by spaces",
             argument="reference",
         )
 

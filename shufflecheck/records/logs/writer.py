@@ -103,6 +103,7 @@ def write_log(
     columns: pd.DataFrame | Mapping[str, Sequence[Any]] | None = None,
     *,
     labels: Literal["codes", "int0", "int1"] = "codes",
+    force: bool = True,
 ) -> Path:
     """Write decks as a log that :func:`read_log` reads back exactly (atomically).
 
@@ -123,6 +124,9 @@ def write_log(
     columns : DataFrame or mapping of column -> values, optional
         Other columns, one value per deck (no column may be called ``order``).
     labels : {"codes", "int0", "int1"}
+    force : bool
+        Replace an existing file (default); False refuses it, checked again (exclusively)
+        when the file is put in place, so two runs cannot both write it.
     """
     shoe = load_shoe(deck) if deck is not None else None
     definition: DeckDefinition | ShoeDefinition = shoe if shoe is not None else load_deck(deck)
@@ -137,7 +141,7 @@ def write_log(
     words = _label_words(definition, labels)
     block = 100_000
     if json_lines:
-        with atomic_open(target, "w") as handle:
+        with atomic_open(target, "w", force=force) as handle:
             for start in range(0, array.shape[0], block):
                 part = array[start : start + block]
                 records = frame.iloc[start : start + block].to_dict("records")
@@ -154,7 +158,7 @@ def write_log(
     if suffix not in (".csv", ".tsv"):
         raise InputError(f"cannot write a log as {target.name}: use .csv, .tsv or .jsonl")
     names = [name for name, _ in kept]
-    with LogWriter(target, definition, names, labels=labels, check=False) as log:
+    with LogWriter(target, definition, names, labels=labels, check=False, force=force) as log:
         for start in range(0, array.shape[0], block):
             stop = start + block
             log.write(array[start:stop], {n: _rows_of(v, start, stop) for n, v in kept})
@@ -181,7 +185,8 @@ class LogWriter:
     gives a block of decks and one value per deck for every column. The file appears
     (atomically, by rename) when the ``with`` block ends without an error; the bytes are
     those :func:`write_log` writes for the same rows. ``check=False`` skips the check that
-    every row is an arrangement, for decks built as compositions of sampled permutations.
+    every row is an arrangement, for decks built as compositions of sampled permutations;
+    ``force=False`` refuses an existing file (checked again, exclusively, at the rename).
 
     Examples
     --------
@@ -197,8 +202,10 @@ class LogWriter:
         *,
         labels: Literal["codes", "int0", "int1"] = "codes",
         check: bool = True,
+        force: bool = True,
     ) -> None:
         self.path = Path(path)
+        self.force = force
         suffix = self.path.suffix.lower()
         if suffix not in (".csv", ".tsv"):
             raise InputError(
@@ -219,7 +226,7 @@ class LogWriter:
 
     def __enter__(self) -> LogWriter:
         stack = contextlib.ExitStack()
-        self._handle = stack.enter_context(atomic_open(self.path, "wb"))
+        self._handle = stack.enter_context(atomic_open(self.path, "wb", force=self.force))
         self._stack = stack
         header = io.StringIO()
         csv.writer(header, delimiter=self.delimiter, lineterminator="\n").writerow(
