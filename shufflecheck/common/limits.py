@@ -192,10 +192,10 @@ _ENTRIES = (
         "max_steps",
         "max_steps",
         1,
-        100_000,
+        200_000,
         "steps shown",
         "mix --max-steps (each model's exact range is in docs/models.md)",
-        "one row is computed per step",
+        "one row is computed per step; beyond, use Monte Carlo assessment (shufflecheck assess)",
     ),
     Limit(
         "every",
