@@ -18,37 +18,33 @@ Results are statistical evidence, not certification; approval of shuffling devic
 dealing rules belongs to the local gaming regulator and accredited test laboratories.
 """
 
-import sys
-import types
+from pathlib import Path
+from typing import TYPE_CHECKING
 
-from shufflecheck import api
-from shufflecheck.api import assess, audit, mix, policy, power
 from shufflecheck.common.version import __version__
 
 __all__ = ["__version__", "api", "assess", "audit", "mix", "policy", "power"]
 
-
-class AuditLayer(types.ModuleType):
-    """The ``shufflecheck.audit`` layer package, which is also callable as
-    :func:`shufflecheck.api.audit`.
-
-    The package's attribute ``audit`` is the API function until the layer package
-    :mod:`shufflecheck.audit` is first imported, when Python binds the package there; the
-    package is then given this class, so ``shufflecheck.audit(decks, ...)`` keeps working
-    and ``shufflecheck.audit.BatterySummary`` (the layer) too.
-    """
-
-    def __call__(self, *args, **kwargs):
-        return api.audit(*args, **kwargs)
+if TYPE_CHECKING:  # the API is imported on first use, so `shufflecheck --help` stays quick
+    from shufflecheck import api
+    from shufflecheck.api import assess, audit, mix, policy, power
 
 
-class _Package(types.ModuleType):
-    def __setattr__(self, name: str, value: object) -> None:
-        if name == "audit" and isinstance(value, types.ModuleType):
-            value.__class__ = AuditLayer
-        super().__setattr__(name, value)
+_HERE = Path(__file__).parent
 
 
-sys.modules[__name__].__class__ = _Package
-if "shufflecheck.audit" in sys.modules:  # imported while this package was loading
-    audit = sys.modules["shufflecheck.audit"]  # type: ignore[assignment]
+def __getattr__(name: str) -> object:
+    """The Python API and the layer packages (``shufflecheck.stats``, ...), imported on
+    first use (:pep:`562`)."""
+    import importlib
+
+    if name in ("assess", "audit", "mix", "policy", "power"):
+        value = getattr(importlib.import_module("shufflecheck.api"), name)
+    elif not name.startswith("_") and (
+        (_HERE / name).is_dir() or (_HERE / f"{name}.py").is_file()
+    ):
+        value = importlib.import_module(f"shufflecheck.{name}")
+    else:
+        raise AttributeError(f"module 'shufflecheck' has no attribute {name!r}")
+    globals()[name] = value
+    return value

@@ -9,7 +9,7 @@ line prints.
 * :func:`assess`: a house procedure repeated ``r = 1..R`` times, exact value or bounds and
   the guessing edge -- :class:`~shufflecheck.analyses.assess.Assessment`;
 * :func:`power`: decks each test needs before an audit flags a procedure --
-  :class:`~shufflecheck.audit.power.PowerPlan`;
+  :class:`~shufflecheck.stats.power.PowerPlan`;
 * :func:`policy`: the fewest repetitions that meet a policy's target --
   :class:`~shufflecheck.analyses.policy.PolicyResult`.
 
@@ -34,8 +34,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from shufflecheck.analyses.assess import Assessment
     from shufflecheck.analyses.audit_log import LogAudit
     from shufflecheck.analyses.policy import PolicyResult
-    from shufflecheck.audit.power import PowerPlan
     from shufflecheck.core.distances import MixingCurve
+    from shufflecheck.stats.power import PowerPlan
 
 __all__ = ["assess", "audit", "mix", "policy", "power"]
 

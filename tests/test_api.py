@@ -168,10 +168,10 @@ class TestResults:
         assert ideal == [9]  # Bayer & Diaconis 1992: 9 riffles for TV <= 0.1
         assert mine.keys() == cli.keys()
 
-    def test_audit_is_callable_beside_the_layer(self):
-        import shufflecheck.audit.summary as summary
+    def test_audit_is_the_api_function_and_stats_the_layer(self):
+        import shufflecheck.stats.summary as summary
 
-        assert callable(shufflecheck.audit)
-        assert shufflecheck.audit.BatterySummary is summary.BatterySummary
+        assert shufflecheck.audit is shufflecheck.api.audit
+        assert shufflecheck.stats.BatterySummary is summary.BatterySummary
         decks = np.random.default_rng(1).permuted(np.tile(np.arange(52), (30, 1)), axis=1)
         assert shufflecheck.audit(decks).tested == 29

@@ -1,6 +1,6 @@
 """The layout keeps its shape: imports point one way, no private imports, no cycles.
 
-Layers, lowest first (DEVELOPERS.md, "Layout"): common < core < models < records < audit
+Layers, lowest first (DEVELOPERS.md, "Layout"): common < core < models < records < stats
 < analyses < report < cli. Stores and engines sit beside records and are reached only from
 analyses. A module may import its own layer and the layers below it, never above; every
 import counts, at module level or inside a function.
@@ -22,7 +22,7 @@ RANK = {
     "records": 3,
     "stores": 3,
     "engines": 3,
-    "audit": 4,
+    "stats": 4,
     "analyses": 5,
     "report": 6,
     "cli": 7,

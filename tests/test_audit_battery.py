@@ -12,11 +12,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.audit import BatterySummary, holm
-from shufflecheck.audit.holm import holm_log
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import riffle
 from shufflecheck.records.cards import STANDARD_52
+from shufflecheck.stats import BatterySummary, holm
+from shufflecheck.stats.holm import holm_log
 
 
 def _uniform(rng, decks, n=52):

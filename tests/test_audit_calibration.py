@@ -24,9 +24,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from shufflecheck.audit import BatterySummary
-from shufflecheck.audit.nulls import sum_tail_logs
 from shufflecheck.records.cards import STANDARD_52
+from shufflecheck.stats import BatterySummary
+from shufflecheck.stats.nulls import sum_tail_logs
 
 
 def _randomized(test, law, count, u):

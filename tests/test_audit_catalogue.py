@@ -13,8 +13,9 @@ import math
 import numpy as np
 import pytest
 
-from shufflecheck.audit import power
-from shufflecheck.audit.catalogue import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.stats import power
+from shufflecheck.stats.catalogue import (
     DeckContext,
     DeckView,
     battery_statistics,
@@ -22,9 +23,8 @@ from shufflecheck.audit.catalogue import (
     guess_statistic,
     statistic,
 )
-from shufflecheck.audit.guessing import STRATEGIES
-from shufflecheck.audit.summary import BatterySummary
-from shufflecheck.common.errors import InputError
+from shufflecheck.stats.guessing import STRATEGIES
+from shufflecheck.stats.summary import BatterySummary
 
 N = 6
 COLOURS = np.array([0, 0, 1, 1, 0, 1])  # invented two-colour deck of 6 cards

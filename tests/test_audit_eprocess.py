@@ -1,4 +1,4 @@
-"""E-processes, change detectors and the monitoring state (audit/eprocess.py, detector.py,
+"""E-processes, change detectors and the monitoring state (stats/eprocess.py, detector.py,
 monitoring.py).
 
 The guarantee rests on one fact: every bet has null mean exactly 1 given the past. It is
@@ -18,19 +18,19 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.audit import nulls
-from shufflecheck.audit.catalogue import DeckContext
-from shufflecheck.audit.detector import change_set, cusum, detector_grid, detector_threshold
-from shufflecheck.audit.eprocess import (
+from shufflecheck.common.errors import InputError
+from shufflecheck.records.cards import DeckDefinition
+from shufflecheck.stats import nulls
+from shufflecheck.stats.catalogue import DeckContext
+from shufflecheck.stats.detector import change_set, cusum, detector_grid, detector_threshold
+from shufflecheck.stats.eprocess import (
     PRIOR_DECKS,
     PositionBet,
     family_log_e,
     plugin_log_e,
     tilt_grid,
 )
-from shufflecheck.audit.monitoring import POSITION, Monitor, MonitorPlan
-from shufflecheck.common.errors import InputError
-from shufflecheck.records.cards import DeckDefinition
+from shufflecheck.stats.monitoring import POSITION, Monitor, MonitorPlan
 
 
 def _small_deck(n: int) -> DeckDefinition:

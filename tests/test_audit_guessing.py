@@ -14,11 +14,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from shufflecheck.audit import guessing
-from shufflecheck.audit.guessing import STRATEGIES, _play
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.counting import harmonic
 from shufflecheck.models import riffle
+from shufflecheck.stats import guessing
+from shufflecheck.stats.guessing import STRATEGIES, _play
 
 
 class TestExactLaw:
@@ -112,8 +112,8 @@ class TestPaths:
     def test_linear_and_generic_agree(self, n):
         # the linear-time path (blocks of seen and unseen cards) names the same cards as
         # the straightforward generic path, on uniform, riffled and stripped-and-cut decks
-        from shufflecheck.audit.guessing import _play_blocks
         from shufflecheck.models.procedures import parse_procedure
+        from shufflecheck.stats.guessing import _play_blocks
 
         rng = np.random.default_rng(100 + n)
         decks = np.concatenate(

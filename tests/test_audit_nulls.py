@@ -12,8 +12,8 @@ import numpy as np
 import pytest
 from scipy import special, stats
 
-from shufflecheck.audit import nulls
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats import nulls
 from tests._brute import cycle_count
 
 

@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from shufflecheck.audit import positions
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats import positions
 
 
 def _uniform(rng, decks, n):

@@ -7,11 +7,11 @@ import math
 import numpy as np
 import pytest
 
-from shufflecheck.audit import nulls, plan_decks
-from shufflecheck.audit.power import sum_test_power
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import riffle
 from shufflecheck.records.cards import STANDARD_52
+from shufflecheck.stats import nulls, plan_decks
+from shufflecheck.stats.power import sum_test_power
 
 
 class TestSumTestPower:

@@ -11,9 +11,9 @@ import math
 import numpy as np
 import pytest
 
-from shufflecheck.audit import ranks
-from shufflecheck.audit.statistics import card_positions, cyclic_rising_sequences, rising_only
 from shufflecheck.models.procedures import parse_procedure
+from shufflecheck.stats import ranks
+from shufflecheck.stats.statistics import card_positions, cyclic_rising_sequences, rising_only
 
 
 def all_arrangements(n: int) -> np.ndarray:

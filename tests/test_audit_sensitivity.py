@@ -13,8 +13,8 @@ import math
 import numpy as np
 import pytest
 
-from shufflecheck.audit import BatterySummary, plan_decks
 from shufflecheck.models import riffle
+from shufflecheck.stats import BatterySummary, plan_decks
 
 # measured with flag_rate(k, decks, audits=500, seed=2026) -- see docs/audit.md
 MEASURED = {5: 2, 6: 8, 7: 32}

@@ -10,9 +10,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.audit import nulls, statistics
-from shufflecheck.audit.catalogue import deck_values
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats import nulls, statistics
+from shufflecheck.stats.catalogue import deck_values
 from tests import _brute
 
 

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from shufflecheck.audit.timeline import change_point, describe
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats.timeline import change_point, describe
 
 
 def test_finds_a_planted_shift():

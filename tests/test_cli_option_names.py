@@ -30,7 +30,7 @@ class TestCommandLineNamesOptions:
             (("mix", "riffle", "--cards", 1), "error: --cards must be at least 2, got 1"),
             (
                 ("mix", "riffle", "--max-steps", 0),
-                "error: --max-steps must be an integer from 1 to 100,000, got 0",
+                "error: --max-steps must be an integer from 1 to 200,000, got 0",
             ),
             (("assess", "riffle", "--repeat", 0), "error: --repeat must be an integer from 1 to"),
             (("assess", "riffle", "--decks", 1), "error: --decks must be an integer from 2 to"),

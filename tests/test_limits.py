@@ -29,10 +29,10 @@ def _library(key: str, value: int, tmp_path: Path) -> None:
     from shufflecheck.analyses.assess import assess
     from shufflecheck.analyses.log_parts import deck_for
     from shufflecheck.analyses.policy import load_policy
-    from shufflecheck.audit.power import plan_decks
     from shufflecheck.models import distance_curve
     from shufflecheck.models.procedures import parse_procedure, simulate_play
     from shufflecheck.records.cards import integer_deck
+    from shufflecheck.stats.power import plan_decks
 
     riffle = parse_procedure("riffle")
     calls = {

@@ -23,11 +23,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from shufflecheck.audit import BatterySummary
-from shufflecheck.audit.catalogue import DeckContext
-from shufflecheck.audit.monitoring import Monitor, MonitorPlan
 from shufflecheck.models.procedures import parse_procedure
 from shufflecheck.records.cards import STANDARD_52
+from shufflecheck.stats import BatterySummary
+from shufflecheck.stats.catalogue import DeckContext
+from shufflecheck.stats.monitoring import Monitor, MonitorPlan
 
 CONTEXT = DeckContext.checked(
     52, suits=STANDARD_52.suit_codes(), colours=STANDARD_52.colour_codes()

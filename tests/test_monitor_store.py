@@ -16,9 +16,9 @@ import pandas as pd
 import pytest
 
 from shufflecheck.analyses.monitor import deck_digests, fleet_status, ingest_log
-from shufflecheck.audit.monitoring import MonitorPlan
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import sha256_file
+from shufflecheck.stats.monitoring import MonitorPlan
 from shufflecheck.stores import SCHEMA_VERSION, MonitorStore
 
 from ._monitor_data import frame, table_decks, write_frame

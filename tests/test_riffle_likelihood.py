@@ -5,7 +5,7 @@ mechanics of the hand riffle enumerated independently in tests/test_models_steps
 Bayer & Diaconis (1992), Thm. 1 (a riffle of the ideal kind gives an arrangement with r
 rising sequences with probability C(n + 2 - r, n) / 2^n); OEIS A000295 (Eulerian numbers
 2^n - n - 1: arrangements with exactly two rising sequences); the inclusion-exclusion
-count of runs in audit/nulls.py (an independent algorithm) and brute force over drop words
+count of runs in stats/nulls.py (an independent algorithm) and brute force over drop words
 for the runs of two kinds (Wald & Wolfowitz 1940).
 """
 
@@ -21,7 +21,6 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from shufflecheck.audit.nulls import runs_row
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import hand_riffle
 from shufflecheck.models.riffle_likelihood import (
@@ -38,6 +37,7 @@ from shufflecheck.models.riffle_likelihood import (
     tally_riffles,
     unchanged_log_probability,
 )
+from shufflecheck.stats.nulls import runs_row
 from tests._fit import chisquare_p
 from tests.test_models_steps import hand_riffle_mechanics
 
@@ -207,7 +207,7 @@ class TestIdealLawsOfWhatIsReadOff:
         counts = Counter(len(_runs(w)) for w in words if w != unchanged)
         row = packet_count_row(cut, n)
         assert {r: k for r, k in enumerate(row) if k} == dict(counts)
-        # the inclusion-exclusion count of runs (audit/nulls.py), less the unchanged word
+        # the inclusion-exclusion count of runs (stats/nulls.py), less the unchanged word
         other = list(runs_row((cut, n - cut)))
         other[2] -= 1
         assert list(row) == other + [0] * (len(row) - len(other))

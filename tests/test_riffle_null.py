@@ -24,7 +24,6 @@ from shufflecheck.analyses.riffle_null import (
     ideal_riffle_tests,
     packet_size_statistic,
 )
-from shufflecheck.audit.nulls import Law, mixed_sum_tail_logs, sum_tail_logs
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import hand_riffle
 from shufflecheck.models.riffle_likelihood import (
@@ -32,6 +31,7 @@ from shufflecheck.models.riffle_likelihood import (
     packet_count_row,
     tally_riffles,
 )
+from shufflecheck.stats.nulls import Law, mixed_sum_tail_logs, sum_tail_logs
 
 
 def _counts(rows):

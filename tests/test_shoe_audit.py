@@ -13,13 +13,13 @@ import pytest
 from sympy.utilities.iterables import multiset_permutations
 
 from shufflecheck.analyses.audit_log import audit_log
-from shufflecheck.audit.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
-from shufflecheck.audit.shoe_statistics import check_words, class_position_counts, zone_counts
-from shufflecheck.audit.summary import BatterySummary
 from shufflecheck.common.errors import InputError
 from shufflecheck.models.procedures import parse_procedure, simulate_play
 from shufflecheck.records.logs import read_log, write_log
 from shufflecheck.records.shoes import check_shoe_row, load_shoe, shoe
+from shufflecheck.stats.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
+from shufflecheck.stats.shoe_statistics import check_words, class_position_counts, zone_counts
+from shufflecheck.stats.summary import BatterySummary
 
 COPIES = (2, 2, 1, 2)  # a small invented shoe: four kinds, seven cards
 

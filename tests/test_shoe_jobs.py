@@ -12,11 +12,11 @@ import pytest
 
 from shufflecheck.analyses.feature_assess import assess_feature
 from shufflecheck.analyses.policy import evaluate_policy, load_policy
-from shufflecheck.audit import shoe_nulls
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import features
 from shufflecheck.models.procedures import parse_procedure
 from shufflecheck.records.shoes import load_shoe, shoe
+from shufflecheck.stats import shoe_nulls
 
 from ._cli import run
 

@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 from sympy.utilities.iterables import multiset_permutations
 
-from shufflecheck.audit import shoe_nulls
-from shufflecheck.audit.nulls import Law, mixed_sum_tail_logs, sum_tail_logs
-from shufflecheck.audit.shoe_statistics import greedy_scores, value_successions
 from shufflecheck.core.counting import rencontres_row
+from shufflecheck.stats import shoe_nulls
+from shufflecheck.stats.nulls import Law, mixed_sum_tail_logs, sum_tail_logs
+from shufflecheck.stats.shoe_statistics import greedy_scores, value_successions
 
 COMPOSITIONS = [(2, 2), (3, 1, 2), (2, 2, 2), (3, 3, 1), (4, 1, 1, 2), (2, 3, 2, 1), (5, 2, 2)]
 
@@ -56,7 +56,7 @@ class TestGreedyGuessing:
         # every class once: the greedy guess is any unseen card, so the law is the Stirling
         # row of the distinct-card guessing game (sum of Bernoulli(1/j))
         law = shoe_nulls.greedy_guessing_law([1] * 7)
-        from shufflecheck.audit.nulls import guessing_law
+        from shufflecheck.stats.nulls import guessing_law
 
         assert law_counts(law) == law_counts(guessing_law(7))
 

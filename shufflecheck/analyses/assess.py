@@ -21,7 +21,7 @@ For every repetition count the assessment gives, each number labelled:
   statistic's event is chosen (values the statistic takes more often than under uniform),
   one member of each family of alternatives is picked (guessing strategies, short-rise
   widths), and a likelihood-ratio score of the sequential ranks is fitted
-  (:mod:`shufflecheck.audit.ranks`); on the second, each event's probability is bounded
+  (:mod:`shufflecheck.stats.ranks`); on the second, each event's probability is bounded
   below with the exact Clopper–Pearson bound, Bonferroni-corrected over the statistics, so
   the bound is valid at the stated confidence ([2]). The event's uniform probability is
   exact (or, for the fitted score, a rigorous upper bound). Separation is at least TV, and
@@ -55,14 +55,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from shufflecheck.audit.catalogue import (
-    DeckContext,
-    DeckView,
-    Statistic,
-    deck_bytes,
-    lower_bound_statistics,
-)
-from shufflecheck.audit.ranks import RankScore, fit_rank_score, rank_bin_counts
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
@@ -75,6 +67,14 @@ from shufflecheck.models.blocks import ProcedureBlocks, procedure_blocks
 from shufflecheck.models.interleaving import conjectured_bounds
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
 from shufflecheck.models.procedures import Procedure
+from shufflecheck.stats.catalogue import (
+    DeckContext,
+    DeckView,
+    Statistic,
+    deck_bytes,
+    lower_bound_statistics,
+)
+from shufflecheck.stats.ranks import RankScore, fit_rank_score, rank_bin_counts
 
 __all__ = [
     "CAUTION",
@@ -376,7 +376,7 @@ def assess(
     confidence : float
         Confidence level of the lower bounds and of the guessing-score intervals.
     strategies : tuple of str, optional
-        Guessing strategies (default: all of :data:`shufflecheck.audit.STRATEGIES`).
+        Guessing strategies (default: all of :data:`shufflecheck.stats.STRATEGIES`).
     progress : callable, optional
         Called with the number of (chunk, repetition) units done; there are
         :func:`assessment_work` of them.
@@ -384,7 +384,7 @@ def assess(
     The cost is linear in ``decks x cards x repeats`` (every statistic is computed in
     a bounded number of passes over each deck).
     """
-    from shufflecheck.audit.guessing import STRATEGIES, check_strategies
+    from shufflecheck.stats.guessing import STRATEGIES, check_strategies
 
     limit("repeats").check(repeats)
     limit("assess_decks").check(decks)

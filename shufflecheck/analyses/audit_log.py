@@ -1,6 +1,6 @@
 """Audit recorded logs: read and validate them, relate every deck to its reference, and run
 the battery of tests (the glue between :mod:`shufflecheck.records.logs` and
-:mod:`shufflecheck.audit`).
+:mod:`shufflecheck.stats`).
 
 Logs are streamed in chunks; every test is built from mergeable summaries, so memory stays
 bounded for logs of millions of decks, and a log split into parts (files of a folder, a
@@ -35,15 +35,15 @@ from shufflecheck.analyses.log_parts import (
     scan_sources,
     split_place,
 )
-from shufflecheck.audit import DEFAULT_STRATEGIES, AuditResult
-from shufflecheck.audit.catalogue import ShoeContext
-from shufflecheck.audit.positions import MONTE_CARLO_BELOW
-from shufflecheck.audit.power import detectable_shifts
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.cards import DeckDefinition
 from shufflecheck.records.logs import LogSummary
 from shufflecheck.records.logs.sources import log_sources
 from shufflecheck.records.shoes import ShoeDefinition, load_shoe
+from shufflecheck.stats import DEFAULT_STRATEGIES, AuditResult
+from shufflecheck.stats.catalogue import ShoeContext
+from shufflecheck.stats.positions import MONTE_CARLO_BELOW
+from shufflecheck.stats.power import detectable_shifts
 
 __all__ = [
     "DASK_FROM_BYTES",

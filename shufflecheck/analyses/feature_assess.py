@@ -20,7 +20,7 @@ the uniform law of the feature's multiset (every arrangement of the values equal
   ``2 TV^2 / ln 2`` bits (Pinsker, [2]);
 * **exploitability** (an estimate): correct guesses per shoe of a player who names a most
   frequent remaining value, against the exact mean for a random shoe
-  (:func:`~shufflecheck.audit.shoe_nulls.greedy_guessing_mean`, [3]).
+  (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_mean`, [3]).
 
 References
 ----------
@@ -48,9 +48,6 @@ from shufflecheck.analyses.assess import (
     StatisticBound,
     rigorous_upper_bounds,
 )
-from shufflecheck.audit.catalogue import DeckContext, DeckView, ShoeContext, lower_bound_statistics
-from shufflecheck.audit.shoe_nulls import greedy_guessing_mean
-from shufflecheck.audit.shoe_statistics import greedy_scores
 from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
@@ -61,6 +58,9 @@ from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
 from shufflecheck.models.procedures import Procedure
 from shufflecheck.models.riffle import Riffle
 from shufflecheck.records.shoes import ShoeDefinition
+from shufflecheck.stats.catalogue import DeckContext, DeckView, ShoeContext, lower_bound_statistics
+from shufflecheck.stats.shoe_nulls import greedy_guessing_mean
+from shufflecheck.stats.shoe_statistics import greedy_scores
 
 __all__ = ["GREEDY", "assess_feature", "feature_work"]
 

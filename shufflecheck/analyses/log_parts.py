@@ -22,9 +22,6 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from shufflecheck.audit import DEFAULT_STRATEGIES, BatterySummary
-from shufflecheck.audit.catalogue import ShoeContext
-from shufflecheck.audit.nulls import law_bytes
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import write_failure
 from shufflecheck.common.limits import limit
@@ -35,6 +32,9 @@ from shufflecheck.records.logs.sources import Source
 from shufflecheck.records.logs.times import TimeReader, first_backwards
 from shufflecheck.records.orders import relative_to
 from shufflecheck.records.shoes import ShoeDefinition
+from shufflecheck.stats import DEFAULT_STRATEGIES, BatterySummary
+from shufflecheck.stats.catalogue import ShoeContext
+from shufflecheck.stats.nulls import law_bytes
 
 __all__ = [
     "ALL",

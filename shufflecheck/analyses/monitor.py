@@ -2,7 +2,7 @@
 evidence and change detectors per table, and report the fleet.
 
 The glue between the log reader (:mod:`shufflecheck.records.logs`), the monitoring
-mathematics (:mod:`shufflecheck.audit.monitoring`) and the store
+mathematics (:mod:`shufflecheck.stats.monitoring`) and the store
 (:mod:`shufflecheck.stores.monitor_store`):
 
 * :func:`ingest_log` reads one log (never modifying it) and adds its new decks to their
@@ -31,16 +31,16 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from shufflecheck.audit.battery import Tallies, run_battery
-from shufflecheck.audit.catalogue import DeckContext, battery_statistics
-from shufflecheck.audit.detector import ChangeSet
-from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
-from shufflecheck.audit.monitoring import Monitor, MonitorPlan
-from shufflecheck.audit.results import BatteryResult
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import sha256_file
 from shufflecheck.records.cards import DeckDefinition, load_deck
 from shufflecheck.records.logs import read_log
+from shufflecheck.stats.battery import Tallies, run_battery
+from shufflecheck.stats.catalogue import DeckContext, battery_statistics
+from shufflecheck.stats.detector import ChangeSet
+from shufflecheck.stats.guessing import DEFAULT_STRATEGIES
+from shufflecheck.stats.monitoring import Monitor, MonitorPlan
+from shufflecheck.stats.results import BatteryResult
 from shufflecheck.stores.monitor_store import MonitorStore, TableRow
 
 __all__ = [

@@ -1,6 +1,6 @@
 """Audit planning for procedures: how many recorded decks each test needs, per repetition count.
 
-A thin layer over :func:`shufflecheck.audit.power.plan_decks`: it turns a dealing procedure
+A thin layer over :func:`shufflecheck.stats.power.plan_decks`: it turns a dealing procedure
 into the sampler the planner needs (decks relative to their reference, after ``r`` runs of
 the procedure) and uses the built-in deck's suits and colours for 52-card decks.
 """
@@ -9,8 +9,8 @@ from __future__ import annotations
 
 from typing import Any
 
-from shufflecheck.audit.power import PowerPlan
 from shufflecheck.models.procedures import Procedure
+from shufflecheck.stats.power import PowerPlan
 
 __all__ = ["plan_power", "plan_shoe_power", "planning_json"]
 
@@ -26,8 +26,8 @@ def plan_power(
     seed: int = 1,
 ) -> list[tuple[int, PowerPlan]]:
     """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
-    from shufflecheck.audit import plan_decks
     from shufflecheck.records.cards import load_deck
+    from shufflecheck.stats import plan_decks
 
     proc.check_cards(cards)
     deck = load_deck() if cards == 52 else None
@@ -64,9 +64,9 @@ def plan_shoe_power(
 ) -> list[tuple[int, PowerPlan]]:
     """``[(r, PowerPlan)]`` for a shoe (a :class:`~shufflecheck.records.shoes.ShoeDefinition`)
     read through ``feature``: consecutive shoes simulated as a log records them."""
-    from shufflecheck.audit import plan_shoes
-    from shufflecheck.audit.catalogue import ShoeContext
     from shufflecheck.models.procedures import simulate_play
+    from shufflecheck.stats import plan_shoes
+    from shufflecheck.stats.catalogue import ShoeContext
 
     proc.check_cards(shoe.size)
     context = ShoeContext.of(shoe, feature)

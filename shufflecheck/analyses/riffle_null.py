@@ -11,14 +11,14 @@ cuts and drops are still independent of each other across riffles, with the laws
 * **cut centre** (exact): the sum of the cuts. Given a change, a cut has law
   ``(C(n,c) - 1)/(2^n - n - 1)`` under the null, so the sum over ``D`` riffles has the
   ``D``-fold convolution of it as its exact law (evaluated by exponential tilting,
-  :func:`shufflecheck.audit.nulls.sum_tail_logs`); two-sided.
+  :func:`shufflecheck.stats.nulls.sum_tail_logs`); two-sided.
 * **cut spread** (exact): the sum of the squared distances of the cuts from the middle,
   ``(c - n/2)^2``, with the same exact law; two-sided (cuts too tight or too loose).
 * **packets** (exact, given the cuts): the number of packets (maximal runs of cards from
   one hand). Given its cut, every drop word but the unchanged deck's is equally likely, so a
   riffle's packets follow the law of runs of two kinds ([3]) with that word taken out; the
   sum over the riffles has the convolution of those laws as its exact law
-  (:func:`shufflecheck.audit.nulls.mixed_sum_tail_logs`); two-sided. This is the direction
+  (:func:`shufflecheck.stats.nulls.mixed_sum_tail_logs`); two-sided. This is the direction
   in which a clump other than 1 moves the drops.
 * **packet sizes** (Monte Carlo): how the packets are shared out between lengths, given
   their number: the likelihood-ratio (G) statistic of the packet-length counts against the
@@ -62,8 +62,6 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.analyses.riffle_estimates import maximum_likelihood
-from shufflecheck.audit.holm import holm_log
-from shufflecheck.audit.nulls import Law, mixed_sum_tail_logs, sum_p_value
 from shufflecheck.common.checks import check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity, estimate
@@ -77,6 +75,8 @@ from shufflecheck.models.riffle_likelihood import (
     packet_length_totals,
     tally_riffles,
 )
+from shufflecheck.stats.holm import holm_log
+from shufflecheck.stats.nulls import Law, mixed_sum_tail_logs, sum_p_value
 
 __all__ = [
     "TEST_TITLES",

@@ -270,8 +270,8 @@ def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool) 
 
 def print_audit(result) -> None:
     """Terminal view: verdict line, then the tests sorted by adjusted p-value."""
-    from shufflecheck.audit.results import format_p
     from shufflecheck.report.render.terminal import format_table
+    from shufflecheck.stats.results import format_p
 
     overall = result.result.overall
     echo(f"{result.path}: {overall.verdict()}")
@@ -340,8 +340,8 @@ def print_audit(result) -> None:
 
 
 def _print_fleet(result, fleet) -> None:
-    from shufflecheck.audit.results import format_p
     from shufflecheck.report.render.terminal import format_table
+    from shufflecheck.stats.results import format_p
 
     echo()
     echo(

@@ -212,7 +212,7 @@ def _print(fit, procedure_text: str | None, written: dict) -> None:
     if fit.step is not None:
         echo(f"Fitted step: {fit.step.describe()}")
     echo()
-    from shufflecheck.audit.results import format_p
+    from shufflecheck.stats.results import format_p
 
     tests = fit.tests
     echo(f"The ideal riffle: {tests.verdict()}.")

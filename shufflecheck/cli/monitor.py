@@ -59,7 +59,7 @@ def ingest(
     not an alarm is raised; 2 for bad input (the store is then left as it was).
     """
     from shufflecheck.analyses.monitor import ingest_log
-    from shufflecheck.audit.monitoring import MonitorPlan
+    from shufflecheck.stats.monitoring import MonitorPlan
 
     plan = None
     if alpha is not None or arl is not None or confidence is not None:

@@ -9,10 +9,10 @@ import time
 
 import numpy as np
 
-from shufflecheck.audit import BatterySummary, plan_decks
-from shufflecheck.audit.nulls import inversions_law, sum_tail_logs
 from shufflecheck.models import riffle
 from shufflecheck.records.cards import STANDARD_52
+from shufflecheck.stats import BatterySummary, plan_decks
+from shufflecheck.stats.nulls import inversions_law, sum_tail_logs
 
 from ._memory import peak_rss_mb
 
@@ -50,7 +50,7 @@ def test_battery_one_million_decks(benchmark, figures):
 def test_battery_memory(benchmark, figures):
     setup = """
     import numpy as np
-    from shufflecheck.audit import BatterySummary
+    from shufflecheck.stats import BatterySummary
     from shufflecheck.records.cards import STANDARD_52
     rng = np.random.default_rng(1)
     base = np.tile(np.arange(52, dtype=np.int16), (100_000, 1))

@@ -88,7 +88,7 @@ def test_audit_100k_shoes_memory(benchmark, figures, shoe_log):
 
 
 def test_guessing_null_shoes(benchmark, figures):
-    from shufflecheck.audit import shoe_nulls
+    from shufflecheck.stats import shoe_nulls
 
     def run():
         timed = {}

@@ -7,7 +7,6 @@ from typing import Any
 
 import numpy as np
 
-from shufflecheck.audit.catalogue import catalogue, law_sources
 from shufflecheck.common.quantity import estimate, exact
 from shufflecheck.common.sources import (
     BAYER_DIACONIS,
@@ -18,6 +17,7 @@ from shufflecheck.common.sources import (
 )
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
+from shufflecheck.stats.catalogue import catalogue, law_sources
 
 __all__ = [
     "audit_figure_count",
@@ -37,7 +37,7 @@ def _p_cell(log10_p: float, method: str):
     Asymptotic and Monte Carlo p-values are approximations without a stated standard
     error, so they are written as text that names their method.
     """
-    from shufflecheck.audit.results import format_p
+    from shufflecheck.stats.results import format_p
 
     if method == "exact" and log10_p > -300:
         return exact(10.0**log10_p, digits=2)
@@ -91,13 +91,13 @@ def audit_figure_count(audit) -> int:
 
 def audit_figures(audit, prefix: str = "") -> tuple:
     """p-values, guessing scores against the exact null, and the position heat map."""
-    from shufflecheck.audit.guessing import guessing_null
-    from shufflecheck.audit.results import format_p
     from shufflecheck.report.figures import (
         heatmap_figure,
         pvalue_figure,
         score_histogram_figure,
     )
+    from shufflecheck.stats.guessing import guessing_null
+    from shufflecheck.stats.results import format_p
 
     battery = audit.result.overall
     tests = battery.by_adjusted_p()
@@ -120,7 +120,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
         if shoe is None:
             law = guessing_null(n)
         else:
-            from shufflecheck.audit.shoe_nulls import greedy_guessing_law
+            from shufflecheck.stats.shoe_nulls import greedy_guessing_law
 
             law = greedy_guessing_law(shoe.class_counts)
         pmf = np.zeros(max(n + 1, hist.size))

@@ -4,7 +4,7 @@ A shoe of ``k`` packs, or any deck with repeated cards, is a *multiset*: ``count
 cards of class ``v`` (a card code, a value, a suit). Under the null hypothesis every
 arrangement of the multiset (a *word* with ``counts[v]`` letters ``v``) is equally likely;
 there are ``multinomial(n; counts)`` of them. Each law here counts words in exact Python
-integers and returns a :class:`~shufflecheck.audit.nulls.Law` over that total:
+integers and returns a :class:`~shufflecheck.stats.nulls.Law` over that total:
 
 * :func:`value_successions_law` -- positions ``i`` with ``class(i+1) = class(i) + 1``
   (a card followed by one of the next value), by inclusion-exclusion over marked
@@ -19,7 +19,7 @@ integers and returns a :class:`~shufflecheck.audit.nulls.Law` over that total:
 * :func:`greedy_guessing_law` -- correct guesses in the guessing game with complete
   feedback when the player always names a most frequent remaining class (the optimal
   strategy under the null, [1]_), by dynamic programming over the remaining counts;
-* runs of equal classes are :func:`shufflecheck.audit.nulls.runs_law`.
+* runs of equal classes are :func:`shufflecheck.stats.nulls.runs_law`.
 
 References
 ----------
@@ -40,9 +40,9 @@ from collections.abc import Sequence
 from fractions import Fraction
 from functools import cache
 
-from shufflecheck.audit.nulls import Law
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.counting import poly_multiply
+from shufflecheck.stats.nulls import Law
 
 __all__ = [
     "GREEDY_STATE_BUDGET",

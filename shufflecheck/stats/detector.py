@@ -3,7 +3,7 @@ set for the change point.
 
 Each per-deck statistic gets a few fixed alternatives: exact laws tilted by
 ``DETECTOR_UNITS`` null standard deviations (both sides for two-sided statistics,
-:func:`shufflecheck.audit.eprocess.tilt_grid`). For one alternative with per-deck log
+:func:`shufflecheck.stats.eprocess.tilt_grid`). For one alternative with per-deck log
 likelihood ratio ``l_t``, Page's CUSUM is
 
     W_t = max(0, W_{t-1} + l_t) = log max_{j <= t} prod_{s=j..t} e_s,    # Page (1954), [1]
@@ -46,9 +46,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from shufflecheck.audit.eprocess import TiltGrid, tilt_grid
-from shufflecheck.audit.nulls import Law
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats.eprocess import TiltGrid, tilt_grid
+from shufflecheck.stats.nulls import Law
 
 __all__ = [
     "DETECTOR_UNITS",

@@ -14,11 +14,11 @@ the first and last deck (for the sequential test across chunks), and, for "since
 each per-deck statistic in time order (two bytes per deck and statistic). Chunks and
 groups therefore combine exactly: ``a.merge(b)`` (``b`` recorded after ``a``) equals the
 summary of the concatenated decks. :meth:`BatterySummary.finish` runs the battery
-(:func:`shufflecheck.audit.battery.run_battery`) on each.
+(:func:`shufflecheck.stats.battery.run_battery`) on each.
 
 Shoes (decks with repeated cards) use the same summary with a
-:class:`~shufflecheck.audit.catalogue.ShoeContext`: chunks are recorded words (kind labels,
-copies counted by :func:`~shufflecheck.audit.shoe_statistics.check_words`) with the
+:class:`~shufflecheck.stats.catalogue.ShoeContext`: chunks are recorded words (kind labels,
+copies counted by :func:`~shufflecheck.stats.shoe_statistics.check_words`) with the
 reference shoe of every row, the position counts are by value, and a statistic whose law
 depends on the shoe keeps a histogram per law key::
 
@@ -34,16 +34,16 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from shufflecheck.audit.battery import Tallies, run_battery
-from shufflecheck.audit.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
-from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies
-from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.positions import position_counts
-from shufflecheck.audit.results import AuditResult
-from shufflecheck.audit.shoe_statistics import check_words, class_position_counts
-from shufflecheck.audit.statistics import as_decks
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats.battery import Tallies, run_battery
+from shufflecheck.stats.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
+from shufflecheck.stats.guessing import DEFAULT_STRATEGIES, check_strategies
+from shufflecheck.stats.nulls import Law
+from shufflecheck.stats.positions import position_counts
+from shufflecheck.stats.results import AuditResult
+from shufflecheck.stats.shoe_statistics import check_words, class_position_counts
+from shufflecheck.stats.statistics import as_decks
 
 __all__ = ["MAX_GROUPS", "BatterySummary"]
 
@@ -250,7 +250,7 @@ class BatterySummary:
             as from a deck definition; None when the deck has none (those tests are left
             out).
         strategies : sequence of str
-            Guessing strategies to play (:data:`shufflecheck.audit.guessing.STRATEGIES`).
+            Guessing strategies to play (:data:`shufflecheck.stats.guessing.STRATEGIES`).
         keep_series : bool
             Keep per-deck values in time order for "since when" (2 bytes/deck/statistic).
         shoe : ShoeContext or None
@@ -543,7 +543,7 @@ class BatterySummary:
         if not self.shoe.provides("ordered"):
             out.append(("value-successions", f"the classes of {self.shoe.feature} have no order"))
         if not self.shoe.provides("guessing"):
-            from shufflecheck.audit.shoe_nulls import greedy_state_estimate
+            from shufflecheck.stats.shoe_nulls import greedy_state_estimate
 
             states = greedy_state_estimate(self.shoe.class_counts)
             out.append(

@@ -227,7 +227,7 @@ def successions_law(n: int) -> Law:
 
 @cache
 def cyclic_rising_law(n: int) -> Law:
-    """Cyclic rising sequences (:func:`~shufflecheck.audit.statistics.cyclic_rising_sequences`)
+    """Cyclic rising sequences (:func:`~shufflecheck.stats.statistics.cyclic_rising_sequences`)
     of a uniform deck: ``n A(n-1, k-1)`` arrangements have ``k`` of them, ``k = 1..n-1``.
 
     They are the cyclic descents of the inverse arrangement; turning its cyclic word so
@@ -243,7 +243,7 @@ def cyclic_rising_law(n: int) -> Law:
 
 @cache
 def cyclic_valleys_law(n: int) -> Law:
-    """Cyclic valleys (:func:`~shufflecheck.audit.statistics.cyclic_valleys`) of a uniform
+    """Cyclic valleys (:func:`~shufflecheck.stats.statistics.cyclic_valleys`) of a uniform
     deck: ``n V(n-1, k-1)`` arrangements have ``k``, with ``V`` the arrangements of
     ``n - 1`` cards by valleys (OEIS A008303, by turning every label ``x`` into
     ``n - 2 - x``). Turning the circle so that the lowest card comes last, it is a valley

@@ -59,10 +59,10 @@ from fractions import Fraction
 
 import numpy as np
 
-from shufflecheck.audit.nulls import Law, guessing_law
-from shufflecheck.audit.statistics import as_decks, bitmask_ok
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.counting import harmonic
+from shufflecheck.stats.nulls import Law, guessing_law
+from shufflecheck.stats.statistics import as_decks, bitmask_ok
 
 __all__ = [
     "DEFAULT_STRATEGIES",

@@ -1,14 +1,14 @@
 """Monitoring state of one table: every statistic's e-process and change detector, deck by deck.
 
 :class:`Monitor` runs, for every statistic of the battery (the catalogue,
-:func:`shufflecheck.audit.catalogue.battery_statistics`):
+:func:`shufflecheck.stats.catalogue.battery_statistics`):
 
 * a plug-in betting e-process against the statistic's exact law
-  (:mod:`shufflecheck.audit.eprocess`), plus the position-by-card bet; the **family
+  (:mod:`shufflecheck.stats.eprocess`), plus the position-by-card bet; the **family
   evidence** is their average, and the family **alarms** the first time it reaches
   ``1/alpha``: on a uniformly random machine the chance of ever alarming is at most
   ``alpha``, however often the evidence is read (Ville's inequality);
-* CUSUM e-detectors on fixed tilted alternatives (:mod:`shufflecheck.audit.detector`),
+* CUSUM e-detectors on fixed tilted alternatives (:mod:`shufflecheck.stats.detector`),
   alarming when any reaches ``log(arl * N)``: the mean number of decks to a false alarm on a
   uniformly random machine is at least ``arl``.
 
@@ -26,17 +26,17 @@ from typing import Any
 
 import numpy as np
 
-from shufflecheck.audit.catalogue import DeckContext, DeckView, Statistic, battery_statistics
-from shufflecheck.audit.detector import (
+from shufflecheck.common.checks import check_fraction
+from shufflecheck.common.errors import InputError
+from shufflecheck.stats.catalogue import DeckContext, DeckView, Statistic, battery_statistics
+from shufflecheck.stats.detector import (
     ChangeSet,
     change_set,
     cusum,
     detector_grid,
     detector_threshold,
 )
-from shufflecheck.audit.eprocess import PositionBet, TiltGrid, plugin_log_e, tilt_grid
-from shufflecheck.common.checks import check_fraction
-from shufflecheck.common.errors import InputError
+from shufflecheck.stats.eprocess import PositionBet, TiltGrid, plugin_log_e, tilt_grid
 
 __all__ = ["POSITION", "DeckTrace", "Monitor", "MonitorPlan"]
 

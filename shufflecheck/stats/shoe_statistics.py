@@ -8,7 +8,7 @@ classes of the cards top to bottom. Every function returns one ``int64`` value p
 loops only over positions, never over shoes.
 
 * :func:`value_successions` -- positions where a card is followed by one of the next class;
-* runs of equal classes are :func:`shufflecheck.audit.statistics.runs`;
+* runs of equal classes are :func:`shufflecheck.stats.statistics.runs`;
 * :func:`class_position_counts` -- the ``(n, V)`` position-by-class count matrix;
 * :func:`zone_counts` -- per shoe, the cards in each zone whose kind occurs in a segment of
   the reference shoe, and how many such cards the shoe holds;
@@ -17,7 +17,7 @@ loops only over positions, never over shoes.
 * :func:`first_appearance_orders` -- the order in which the codes first appear, relative
   to the reference shoe's (order kept from the previous shoe; a uniform permutation under
   the null when every code has the same number of copies);
-* matches between consecutive shoes are :func:`shufflecheck.audit.statistics.repeat_positions`.
+* matches between consecutive shoes are :func:`shufflecheck.stats.statistics.repeat_positions`.
 
 References
 ----------

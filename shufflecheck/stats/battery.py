@@ -1,20 +1,20 @@
 """The audit battery: every statistic of the catalogue tested on a summary of decks, Holm.
 
 Tests, each against a uniformly random deck, independent from deck to deck (the null); the
-statistics and their exact laws are the records of :mod:`shufflecheck.audit.catalogue`.
+statistics and their exact laws are the records of :mod:`shufflecheck.stats.catalogue`.
 Every per-deck test compares the *sum* over the ``D`` decks with the exact ``D``-fold
-convolution of its law (:func:`shufflecheck.audit.nulls.sum_p_value`, method ``exact``).
+convolution of its law (:func:`shufflecheck.stats.nulls.sum_p_value`, method ``exact``).
 Two-sided tests double the smaller tail: a biased procedure can push these statistics
 either way (riffles leave too few rising sequences, a reversal too many; strips leave too
 many successions, reversals too few). The guessing game is one-sided because only an
 excess of correct guesses is an advantage to a player, and the sequential test is
 one-sided because a dependent machine repeats positions more often, not less. The
 position-by-card test is a chi-square test with an asymptotic or Monte Carlo null
-(:mod:`shufflecheck.audit.positions`). The family-wise error over the tests that ran is
+(:mod:`shufflecheck.stats.positions`). The family-wise error over the tests that ran is
 controlled with Holm's step-down method ([1]_) at ``alpha``; each group's battery controls
 its own family (groups are reported for location, the overall battery carries the
 verdict). When the battery flags and per-deck values were kept in time order, "since when"
-is estimated on the most significant flagged statistic (:mod:`shufflecheck.audit.timeline`).
+is estimated on the most significant flagged statistic (:mod:`shufflecheck.stats.timeline`).
 
 References
 ----------
@@ -30,19 +30,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from shufflecheck.audit import nulls
-from shufflecheck.audit.catalogue import Statistic
-from shufflecheck.audit.effects import (
+from shufflecheck.stats import nulls
+from shufflecheck.stats.catalogue import Statistic
+from shufflecheck.stats.effects import (
     class_position_effect,
     keyed_sum_effect,
     position_effect,
     sum_effect,
 )
-from shufflecheck.audit.holm import holm_log
-from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.positions import class_position_test, position_test
-from shufflecheck.audit.results import BatteryResult, SinceWhen, TestResult
-from shufflecheck.audit.timeline import change_point, describe
+from shufflecheck.stats.holm import holm_log
+from shufflecheck.stats.nulls import Law
+from shufflecheck.stats.positions import class_position_test, position_test
+from shufflecheck.stats.results import BatteryResult, SinceWhen, TestResult
+from shufflecheck.stats.timeline import change_point, describe
 
 __all__ = ["Tallies", "run_battery"]
 
@@ -83,7 +83,7 @@ def run_battery(
 
     ``laws[name]`` is the exact per-deck law, or for a statistic with ``law_keys`` a
     mapping from key to law (the sum over decks is then tested against the exact
-    convolution of the decks' own laws, :func:`~shufflecheck.audit.nulls.mixed_sum_p_value`).
+    convolution of the decks' own laws, :func:`~shufflecheck.stats.nulls.mixed_sum_p_value`).
     """
     cards = tallies.positions.shape[0]
     rows = []

@@ -5,7 +5,7 @@ battery is simulated on ``simulate`` decks; its empirical law stands in for the 
 law (an *estimate*). For a candidate number of decks ``D``:
 
 * the critical values come from the exact null law of the sum over ``D`` decks
-  (:func:`shufflecheck.audit.nulls.sum_distribution` on the exact per-deck law), at the
+  (:func:`shufflecheck.stats.nulls.sum_distribution` on the exact per-deck law), at the
   level ``alpha / m`` for ``m`` tests in the battery, halved per tail for two-sided tests:
   a single test that clears it flags the battery under Holm's method whatever the others
   do (Holm's first step, [1]_);
@@ -42,7 +42,12 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from shufflecheck.audit.catalogue import (
+from shufflecheck.common.checks import check_fraction, check_integer
+from shufflecheck.common.errors import InputError
+from shufflecheck.common.limits import limit
+from shufflecheck.common.quantity import Kind
+from shufflecheck.common.resources import check_memory
+from shufflecheck.stats.catalogue import (
     DeckContext,
     DeckView,
     ShoeContext,
@@ -50,15 +55,10 @@ from shufflecheck.audit.catalogue import (
     battery_statistics,
     deck_bytes,
 )
-from shufflecheck.audit.guessing import DEFAULT_STRATEGIES
-from shufflecheck.audit.nulls import Law, law_bytes, sum_distribution
-from shufflecheck.audit.positions import position_counts
-from shufflecheck.audit.statistics import as_decks
-from shufflecheck.common.checks import check_fraction, check_integer
-from shufflecheck.common.errors import InputError
-from shufflecheck.common.limits import limit
-from shufflecheck.common.quantity import Kind
-from shufflecheck.common.resources import check_memory
+from shufflecheck.stats.guessing import DEFAULT_STRATEGIES
+from shufflecheck.stats.nulls import Law, law_bytes, sum_distribution
+from shufflecheck.stats.positions import position_counts
+from shufflecheck.stats.statistics import as_decks
 
 __all__ = [
     "PowerPlan",
@@ -402,7 +402,7 @@ def detectable_shifts(
     With ``m`` tests in the battery, a test at level ``alpha / m`` (halved per tail when
     two-sided) flags the battery under Holm's method whatever the others do (Holm's first
     step, [1]_, as in :func:`plan_decks`). Its critical value ``c`` for the sum over ``D``
-    decks comes from the exact ``D``-fold null law (:func:`~shufflecheck.audit.nulls.
+    decks comes from the exact ``D``-fold null law (:func:`~shufflecheck.stats.nulls.
     sum_distribution`). A procedure whose per-deck mean is shifted by ``delta`` towards the
     alternative, with the per-deck variance ``s0^2`` of a random deck, has a sum with mean
     ``D (mu0 + delta)`` and variance ``D s0^2``; by Cantelli's one-sided inequality
@@ -542,7 +542,7 @@ def _mixture_law(parts: list[tuple[Law, int]]) -> Law:
 def _class_position_row(
     spec: Statistic, words: np.ndarray, shoe: ShoeContext, level: float, target: float, cap: int
 ) -> PowerRow:
-    from shufflecheck.audit.shoe_statistics import class_position_counts
+    from shufflecheck.stats.shoe_statistics import class_position_counts
 
     sims, n = words.shape
     sizes = np.asarray(shoe.class_counts, dtype=float)

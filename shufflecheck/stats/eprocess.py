@@ -1,7 +1,7 @@
 """Anytime-valid tests of recorded decks: e-processes built by betting against exact laws.
 
 Null hypothesis: every deck is uniformly random given all decks before it. For a per-deck
-statistic ``X`` with exact law ``p0`` (:mod:`shufflecheck.audit.nulls`), every deck is a
+statistic ``X`` with exact law ``p0`` (:mod:`shufflecheck.stats.nulls`), every deck is a
 bet: an e-value ``e_t(X_t) >= 0`` with ``E_p0[e_t] = 1``, chosen from the decks before it.
 The running product ``E_t = e_1 ... e_t`` is then a nonnegative martingale with ``E_0 = 1``
 under the null (a test martingale, [1]_), and by Ville's inequality
@@ -50,8 +50,8 @@ from functools import cache
 import numpy as np
 from scipy.special import logsumexp
 
-from shufflecheck.audit.nulls import Law
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats.nulls import Law
 
 __all__ = [
     "POSITION_BLOCK",

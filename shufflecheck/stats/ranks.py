@@ -24,7 +24,7 @@ same packet: small ranks.
 
 The counts ``L_j = #{u < j : card u lies above card j}`` that give the ranks come from the
 placed positions held as bits of ``ceil(n/64)`` 64-bit words per deck
-(:func:`~shufflecheck.audit.statistics.smaller_above`).
+(:func:`~shufflecheck.stats.statistics.smaller_above`).
 
 References
 ----------
@@ -43,9 +43,9 @@ from functools import cache
 
 import numpy as np
 
-from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.statistics import as_decks, card_positions, smaller_above
 from shufflecheck.common.errors import InputError
+from shufflecheck.stats.nulls import Law
+from shufflecheck.stats.statistics import as_decks, card_positions, smaller_above
 
 __all__ = [
     "RankScore",

@@ -3,11 +3,11 @@
 Each :class:`Statistic` says what it measures (name, title, the noun phrase and unit of its
 effect), how it is computed on a chunk of decks (``values``), its exact law under a
 uniformly random deck (``law``, with the source of that law), the alternative it is tested
-against, and how its effect is worded. The battery (:mod:`shufflecheck.audit.battery`),
-the summaries it runs on (:mod:`shufflecheck.audit.summary`), power planning
-(:mod:`shufflecheck.audit.power`) and the Monte Carlo lower bounds of an assessment
+against, and how its effect is worded. The battery (:mod:`shufflecheck.stats.battery`),
+the summaries it runs on (:mod:`shufflecheck.stats.summary`), power planning
+(:mod:`shufflecheck.stats.power`) and the Monte Carlo lower bounds of an assessment
 (:mod:`shufflecheck.analyses.assess`) all iterate over :func:`battery_statistics`, so a new
-statistic is one record here, one law in :mod:`shufflecheck.audit.nulls` and one
+statistic is one record here, one law in :mod:`shufflecheck.stats.nulls` and one
 brute-force test.
 
 Three shapes of statistic:
@@ -65,12 +65,12 @@ from typing import Literal
 
 import numpy as np
 
-from shufflecheck.audit import nulls, ranks, shoe_nulls, shoe_statistics, statistics
-from shufflecheck.audit.guessing import DEFAULT_STRATEGIES, check_strategies, guess_scores_many
-from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.statistics import as_decks, category_codes
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.shoes import ShoeDefinition
+from shufflecheck.stats import nulls, ranks, shoe_nulls, shoe_statistics, statistics
+from shufflecheck.stats.guessing import DEFAULT_STRATEGIES, check_strategies, guess_scores_many
+from shufflecheck.stats.nulls import Law
+from shufflecheck.stats.statistics import as_decks, category_codes
 
 __all__ = [
     "Alternative",
@@ -214,7 +214,7 @@ class DeckContext:
     """What a statistic may need besides the decks themselves.
 
     ``suits`` / ``colours`` are category codes per *absolute* label (as returned by
-    :func:`~shufflecheck.audit.statistics.category_codes`), or None when the deck has none;
+    :func:`~shufflecheck.stats.statistics.category_codes`), or None when the deck has none;
     ``strategies`` are the guessing strategies the battery plays. ``shoe`` is set for decks
     with repeated cards (:class:`ShoeContext`): then only the statistics that need
     ``multiset`` (and ``ordered`` / ``guessing`` where the shoe provides them) apply, and
@@ -290,7 +290,7 @@ class DeckView:
 
     @cached_property
     def ranks(self) -> np.ndarray:
-        """Sequential ranks of :mod:`shufflecheck.audit.ranks` (one row per deck)."""
+        """Sequential ranks of :mod:`shufflecheck.stats.ranks` (one row per deck)."""
         return ranks.inverse_ranks(self.relative, check=False)
 
     @cached_property
@@ -585,7 +585,7 @@ def _short_rises(width: int) -> Statistic:
     )
 
 
-#: widths of the short-rise family (positions, roughly; see audit/ranks.py)
+#: widths of the short-rise family (positions, roughly; see stats/ranks.py)
 SHORT_RISE_WIDTHS = (4, 16)
 
 _CYCLIC: tuple[Statistic, ...] = (
@@ -786,7 +786,7 @@ _SHOE_REPEAT = Statistic(
 
 def guess_statistic(strategy: str) -> Statistic:
     """The guessing game with feedback played with ``strategy`` (one of
-    :data:`~shufflecheck.audit.guessing.STRATEGIES`)."""
+    :data:`~shufflecheck.stats.guessing.STRATEGIES`)."""
     (name,) = check_strategies((strategy,))
     return Statistic(
         f"guess-{name}",

@@ -2,7 +2,7 @@
 
 An effect is an *estimate* from the recorded decks: the observed mean per deck minus the
 exact mean under a uniform deck, with the standard error of the observed mean, and one
-sentence in the statistic's own words (:meth:`~shufflecheck.audit.catalogue.Statistic.
+sentence in the statistic's own words (:meth:`~shufflecheck.stats.catalogue.Statistic.
 describe_effect`). The position-by-card test reports its largest cell departure instead.
 """
 
@@ -13,9 +13,9 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from shufflecheck.audit.catalogue import Statistic
-from shufflecheck.audit.nulls import Law
-from shufflecheck.audit.results import Effect
+from shufflecheck.stats.catalogue import Statistic
+from shufflecheck.stats.nulls import Law
+from shufflecheck.stats.results import Effect
 
 __all__ = ["class_position_effect", "keyed_sum_effect", "ordinal", "position_effect", "sum_effect"]
 
