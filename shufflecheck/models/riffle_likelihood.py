@@ -67,7 +67,6 @@ from dataclasses import dataclass, field
 from functools import cache, lru_cache
 
 import numpy as np
-from scipy.special import gammaln, logsumexp
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
@@ -362,6 +361,8 @@ def cut_log_law(cards: int, spread: float | None) -> np.ndarray:
     curve ``exp(-(c - n/2)^2 / (2 s^2))`` normalised on ``0..n`` (unrounded; see the module
     notes); ``s = 0`` puts all the mass on the middle cut(s).
     """
+    from scipy.special import gammaln, logsumexp  # scipy on first use: keeps --help quick
+
     n = check_cards(cards)
     check_spread(spread, "hand-riffle")
     c = np.arange(n + 1, dtype=float)
@@ -384,6 +385,8 @@ def _log_clump(clump: float) -> float:
 def unchanged_log_probability(cards: int, spread: float | None, clump: float) -> float:
     """``log P(unchanged deck) = log sum_c P(c) q(c)`` (module notes)."""
     n = check_cards(cards)
+    from scipy.special import logsumexp
+
     if clump != math.inf:
         clump = check_clump(clump)
     return float(logsumexp(cut_log_law(n, spread) + _unchanged_given_cut(n, float(clump))))
