@@ -174,10 +174,27 @@ def first_appearance_ranks(references: np.ndarray, kinds: int) -> np.ndarray:
     """``(shoes, kinds)``: the rank of every kind in the order of its first appearance in
     each reference shoe (0 = the code of the reference's top card)."""
     count, n = references.shape
-    first = np.full((count, kinds), n, dtype=np.int64)
-    rows = np.repeat(np.arange(count), n)
-    positions = np.tile(np.arange(n, dtype=np.int64), count)
-    np.minimum.at(first, (rows, references.ravel().astype(np.int64)), positions)
+    if count == 0:
+        return np.zeros((0, kinds), dtype=np.intp)
+    # Shoes hold one multiset: a stable sort of each row groups its copies kind by kind,
+    # and the first position of each group is the kind's first appearance.
+    order = np.argsort(references, axis=1, kind="stable")
+    copies = np.bincount(references[0].astype(np.int64), minlength=kinds)
+    grouped = np.take_along_axis(references, order, axis=1)
+    if (
+        copies.size == kinds
+        and np.array_equal(
+            grouped, np.broadcast_to(np.repeat(np.arange(kinds), copies), grouped.shape)
+        )
+        and (copies > 0).all()
+    ):
+        offsets = np.concatenate([[0], np.cumsum(copies)[:-1]])
+        first = order[:, offsets]
+    else:  # rows of different multisets (or absent kinds): the direct minimum
+        first = np.full((count, kinds), n, dtype=np.int64)
+        rows = np.repeat(np.arange(count), n)
+        positions = np.tile(np.arange(n, dtype=np.int64), count)
+        np.minimum.at(first, (rows, references.ravel().astype(np.int64)), positions)
     return np.argsort(np.argsort(first, axis=1, kind="stable"), axis=1, kind="stable")
 
 
