@@ -270,8 +270,8 @@ def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool) 
 
 def print_audit(result) -> None:
     """Terminal view: verdict line, then the tests sorted by adjusted p-value."""
+    from shufflecheck.common.numbers import format_measure, format_p_value
     from shufflecheck.report.render.terminal import format_table
-    from shufflecheck.stats.results import format_p
 
     overall = result.result.overall
     echo(f"{result.path}: {overall.verdict()}")
@@ -306,9 +306,9 @@ def print_audit(result) -> None:
         rows.append(
             [
                 t.title,
-                f"{t.statistic:.6g}",
-                format_p(t.log10_p_value),
-                format_p(t.log10_p_adjusted),
+                format_measure(t.statistic),
+                format_p_value(t.log10_p_value),
+                format_p_value(t.log10_p_adjusted),
                 t.method,
                 "FLAGGED" if t.flagged else "",
                 t.effect.text,
@@ -340,8 +340,8 @@ def print_audit(result) -> None:
 
 
 def _print_fleet(result, fleet) -> None:
+    from shufflecheck.common.numbers import format_p_value
     from shufflecheck.report.render.terminal import format_table
-    from shufflecheck.stats.results import format_p
 
     echo()
     echo(
@@ -357,7 +357,7 @@ def _print_fleet(result, fleet) -> None:
                 f"{r['decks']:,}",
                 "FLAGGED" if r["flagged"] else "",
                 r["strongest"] or "",
-                format_p(r["log10_p_adjusted"]) if r["log10_p_adjusted"] is not None else "",
+                format_p_value(r["log10_p_adjusted"]) if r["log10_p_adjusted"] is not None else "",
                 r["since_when"] or "",
             ]
         )

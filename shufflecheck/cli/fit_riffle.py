@@ -212,15 +212,15 @@ def _print(fit, procedure_text: str | None, written: dict) -> None:
     if fit.step is not None:
         echo(f"Fitted step: {fit.step.describe()}")
     echo()
-    from shufflecheck.stats.results import format_p
+    from shufflecheck.common.numbers import format_p_value
 
     tests = fit.tests
     echo(f"The ideal riffle: {tests.verdict()}.")
     rows = [
         [
             t.title,
-            format_p(t.log10_p_value),
-            format_p(t.log10_p_adjusted),
+            format_p_value(t.log10_p_value),
+            format_p_value(t.log10_p_adjusted),
             t.method,
             "REJECTS" if t.flagged else "",
             t.effect_text,

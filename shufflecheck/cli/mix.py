@@ -19,6 +19,8 @@ from shufflecheck.cli._app import (
     save_report,
 )
 from shufflecheck.common.cautions import caution
+from shufflecheck.common.numbers import format_number
+from shufflecheck.core.distances import METRICS
 from shufflecheck.models.registry import curve_models, entry
 
 #: the models with an exact distance curve, from the model registry
@@ -127,7 +129,7 @@ def mix(
         folders=(report,),
     )
     from shufflecheck.core.distances import METRIC_NAMES, check_target, minimum_steps
-    from shufflecheck.models import default_max_steps, distance_curve
+    from shufflecheck.models import default_max_steps, distance_curve_until
 
     goal = check_target(target)
     if feature is not FeatureName.distinct or deck is not None:
@@ -149,10 +151,13 @@ def mix(
         return
     steps = max_steps if max_steps is not None else default_max_steps(model.value, max(cards, 2))
     reports = "progress" in entry(model.value).curve_options
+    chosen = METRIC_NAMES[metric.value]
     with progress(steps if reports else 0, f"{model.value}: k = 1..{steps}", after=0.5) as update:
-        curve = distance_curve(
+        curve, default_steps = distance_curve_until(
             model.value,
             cards,
+            goal,
+            chosen,
             max_steps,
             hands=hands,
             hold=hold,
@@ -160,10 +165,10 @@ def mix(
             method=method.value,
             progress=update,
         )
-    minimum = {m: minimum_steps(curve.rows, m, goal) for m in METRIC_NAMES.values()}
-    bound_minimum = {m: minimum_steps(curve.bounds, m, goal) for m in METRIC_NAMES.values()}
-    chosen = METRIC_NAMES[metric.value]
-    payload = _payload(curve, goal, metric.value, minimum, bound_minimum)
+    extended = default_steps if len(curve.rows) > default_steps else None
+    minimum = {chosen: minimum_steps(curve.rows, chosen, goal)}
+    bound_minimum = {chosen: minimum_steps(curve.bounds, chosen, goal)}
+    payload = _payload(curve, goal, metric.value, minimum, bound_minimum, extended)
     figure = _figure(curve, chosen, goal, minimum[chosen]) if plot or report else None
     if plot is not None:
         from shufflecheck.common.files import atomic_write
@@ -186,7 +191,7 @@ def mix(
     if json_out:
         emit_json(payload)
         return
-    _print(curve, goal, chosen, minimum, bound_minimum)
+    _print(curve, goal, chosen, minimum, bound_minimum, extended)
     if plot is not None:
         echo(f"Wrote {plot}")
     if report is not None:
@@ -233,7 +238,7 @@ def _mix_feature(
     curve = feature_curve(
         words, steps, hands=hands, feature=feature, start_name=start, names=feat.names
     )
-    minimum = {m: curve.minimum(m, goal) for m in ("total_variation", "separation", "kl_bits")}
+    minimum = {chosen: curve.minimum(chosen, goal)}
     payload = {
         "model": model,
         "deck": definition.describe(),
@@ -298,14 +303,13 @@ def _mix_feature(
         rows.append([r.steps, r.total_variation.text(), r.separation.text(), r.kl_bits.text()])
     echo(format_table(["riffles", "total variation", "separation", "KL (bits)"], rows))
     echo()
-    for metric, label in _LABELS.items():
-        k = minimum[metric]
-        if goal is None:
-            break
+    if goal is not None:  # the target applies to the chosen metric only
+        label = _LABELS[chosen]
+        k = minimum[chosen]
         if k is None:
             echo(f"Minimum riffles for {label} <= {goal:g}: not certified within {steps}")
         else:
-            q = curve.rows[k - 1].value(metric)
+            q = curve.rows[k - 1].value(chosen)
             how = "exact" if q.kind == "exact" else "rigorous upper bound"
             echo(f"Minimum riffles for {label} <= {goal:g}: {k} ({how})")
     echo(
@@ -319,15 +323,20 @@ def _mix_feature(
         echo(f"Wrote report {written}")
 
 
-def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
+def _payload(curve, goal, metric, minimum, bound_minimum, extended=None) -> dict:
     def row(r):
-        return {
+        out = {
             "steps": r.steps,
             "total_variation": r.total_variation,
             "separation": r.separation,
             "kl_bits": r.kl_bits,
             "kind": r.kind,
         }
+        for m in ("total_variation", "separation"):  # 1 - value, exact, where a float is 1
+            gap = r.value(m) is not None and getattr(r, f"{m}_below_one")
+            if gap is not None and gap is not False:
+                out[f"{m}_below_one"] = gap
+        return out
 
     return {
         "model": curve.model,
@@ -342,18 +351,27 @@ def _payload(curve, goal, metric, minimum, bound_minimum) -> dict:
         "bounds": [row(r) for r in curve.bounds],
         "bound_source": curve.bound_source or None,
         "minimum_steps_from_bounds": bound_minimum if curve.bounds else None,
+        "range_extended_from": extended,
     }
 
 
-def _fmt(value: float | None) -> str:
-    """Six significant digits (scientific below 1e-4); '-' when the method gives no value."""
-    return "-" if value is None else f"{value:.6g}"
+def _fmt(row, metric: str) -> str:
+    """Six significant digits (scientific below 1e-4), more where the value would otherwise
+    read 1 (``0.99999953``, ``1 - 5.6e-53``); '-' when the method gives no value."""
+    value = row.value(metric)
+    if value is None:
+        return "-"
+    gap = row.below_one(metric)
+    if value == 0 or (value == 1 and not gap):
+        return str(int(value))  # exactly 0 or exactly 1
+    return format_number(value, 6, below_one=gap)
 
 
 _LABELS = {"total_variation": "total variation", "separation": "separation", "kl_bits": "KL (bits)"}
 
 
-def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
+def _print(curve, goal, chosen, minimum, bound_minimum, extended=None) -> None:
+    from shufflecheck.models import steps_limit
     from shufflecheck.report.render.terminal import format_table
 
     params = ", ".join(
@@ -377,32 +395,43 @@ def _print(curve, goal, chosen, minimum, bound_minimum) -> None:
     rows, marks = [], []
     first = minimum[chosen]
     for i, r in enumerate(curve.rows):
-        cells = [r.steps, _fmt(r.total_variation), _fmt(r.separation), _fmt(r.kl_bits), r.kind]
+        cells = [r.steps, *(_fmt(r, m) for m in METRICS), r.kind]
         if bound_metric is not None:
-            cells.append(_fmt(curve.bounds[i].value(bound_metric)))
+            cells.append(_fmt(curve.bounds[i], bound_metric))
         rows.append(cells)
         marks.append("*" if first is not None and r.steps == first else "")
-    echo(format_table(headers, rows, marks=marks if goal is not None else None))
+    align = "rrrrl" + ("r" if bound_metric is not None else "")
+    echo(format_table(headers, rows, align=align, marks=marks if goal is not None else None))
     echo()
     if goal is None:
         echo("No --target given; add --target 0.1 (say) to get the minimum number of steps.")
         return
-    for m, label in _LABELS.items():
-        k = minimum[m]
-        if all(r.value(m) is None for r in curve.rows):
-            echo(f"Minimum steps for {label} <= {goal:g}: this method gives no value for it")
-            continue
-        if k is not None:
-            how = "exact" if curve.rows[k - 1].kind == "exact" else "rigorous upper bound"
-            echo(f"Minimum steps for {label} <= {goal:g}: {k} ({how})")
-        else:
-            kb = bound_minimum.get(m)
-            hint = f"; the bound certifies {kb} steps" if kb is not None else ""
-            echo(
-                f"Minimum steps for {label} <= {goal:g}: not reached within "
-                f"{curve.rows[-1].steps} steps (raise --max-steps){hint}"
-            )
-    echo("* marks the first step meeting the target on the chosen metric.")
+    m, label = chosen, _LABELS[chosen]
+    k = minimum[m]
+    if extended is not None:
+        echo(
+            f"No --max-steps given and {label} <= {goal:g} was not met within the default "
+            f"{extended} steps: the range was extended to {curve.rows[-1].steps} steps."
+        )
+    if all(r.value(m) is None for r in curve.rows):
+        echo(f"Minimum steps for {label} <= {goal:g}: this method gives no value for it")
+    elif k is not None:
+        how = "exact" if curve.rows[k - 1].kind == "exact" else "rigorous upper bound"
+        echo(f"Minimum steps for {label} <= {goal:g}: {k} ({how})")
+    else:
+        kb = bound_minimum.get(m)
+        hint = f"; the bound certifies {kb} steps" if kb is not None else ""
+        last = curve.rows[-1].steps
+        where = (
+            "the model's exact range ends there; use assess"
+            if extended is not None or last >= steps_limit(curve.model)
+            else "raise --max-steps"
+        )
+        echo(
+            f"Minimum steps for {label} <= {goal:g}: not reached within {last} steps "
+            f"({where}){hint}"
+        )
+    echo(f"* marks the first step meeting the target on {label}, the metric it applies to.")
     kind = "exact distances" if curve.rows[0].kind == "exact" else "rigorous bounds"
     echo(f"These are {kind} for the idealised model; real hands and machines differ.")
     echo(caution("the idealised model"))

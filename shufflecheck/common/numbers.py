@@ -13,10 +13,31 @@ from typing import Any
 
 from shufflecheck.common.errors import InputError
 
-__all__ = ["decimals_for", "format_number", "json_number", "percent", "plain_number"]
+__all__ = [
+    "P_FLOOR",
+    "count_interval_text",
+    "decimals_for",
+    "format_count",
+    "format_measure",
+    "format_number",
+    "format_p_value",
+    "json_number",
+    "p_relation",
+    "percent",
+    "plain_number",
+]
+
+#: Smallest p-value shown as a number; smaller ones are shown as ``< 1e-300`` (the JSON keeps
+#: the exact magnitude as ``log10`` of the p-value).
+P_FLOOR = 1e-300
+_LOG10_P_FLOOR = -300.0
+#: below this distance from 1 a value is written ``1 - 4.7e-16`` rather than in decimals
+_GAP_DECIMALS = 1e-9
 
 
-def format_number(x: int | float, digits: int = 4, rounding: str = "nearest") -> str:
+def format_number(
+    x: int | float, digits: int = 4, rounding: str = "nearest", *, below_one: float | None = None
+) -> str:
     """Format a number for display with ``digits`` significant digits.
 
     Integers are shown in full with thousands separators (scientific notation beyond 15
@@ -28,9 +49,27 @@ def format_number(x: int | float, digits: int = 4, rounding: str = "nearest") ->
     upper bound is rounded up and a lower bound down, so the shown digits never claim more
     than was proven (a value within a few units in the last place of the shown decimal,
     float noise, is shown as that decimal).
+
+    A value in ``[0, 1)`` never prints as 1: when the rounded text would read ``1.000``,
+    more digits are shown (``0.99999953``), and within ``1e-9`` of 1 the distance is
+    written out (``1 - 4.7e-16``). ``below_one`` is ``1 - x`` computed exactly by the
+    caller, for values closer to 1 than a float can hold (``x`` then rounds to ``1.0``); a
+    positive ``below_one`` always shows. Nonzero values never print as 0 (they switch to
+    scientific notation).
     """
+    text = _format_plain(x, digits, rounding)
+    if isinstance(x, bool) or not isinstance(x, float) or not math.isfinite(x):
+        return text
+    gap = (1.0 - x) if below_one is None else float(below_one)
+    # 1 is a boundary for values in [0, 1] (probabilities, distances): only they widen
+    if not 0 < gap <= 1 or float(text.replace(",", "")) != 1.0:
+        return text
+    return _format_near_one(x, gap, digits, rounding)
+
+
+def _format_plain(x: int | float, digits: int, rounding: str) -> str:
     if rounding != "nearest" and isinstance(x, float) and math.isfinite(x) and x != 0:
-        nearest = format_number(x, digits)
+        nearest = _format_plain(x, digits, "nearest")
         shown = float(nearest.replace(",", ""))
         # rounding to nearest already lies on the safe side, or within float noise of x
         noise = 8 * math.ulp(x)
@@ -56,6 +95,21 @@ def format_number(x: int | float, digits: int = 4, rounding: str = "nearest") ->
     return scientific
 
 
+def _format_near_one(x: float, gap: float, digits: int, rounding: str) -> str:
+    """``x`` (within rounding of 1, ``gap = 1 - x`` exactly) shown so it does not read 1."""
+    if abs(gap) >= _GAP_DECIMALS:
+        # two significant digits of the gap: 1 - 4.7e-07 -> 0.99999953
+        wide = max(digits, math.ceil(-math.log10(abs(gap))) + 1)
+        while wide <= 15:
+            text = _format_plain(x, wide, rounding)
+            if float(text.replace(",", "")) != 1.0:
+                return text
+            wide += 1
+    # the gap itself, rounded so the shown value stays on the rounding's side of x
+    gap_rounding = {"up": "down", "down": "up"}.get(rounding, "nearest")
+    return f"1 - {_format_plain(gap, 2, gap_rounding)}"
+
+
 def _format_directed(x: float, digits: int, rounding: str) -> str:
     """``format_number`` with the last shown digit rounded up or down (exact decimals)."""
     from decimal import ROUND_CEILING, ROUND_FLOOR
@@ -71,6 +125,59 @@ def _format_directed(x: float, digits: int, rounding: str) -> str:
     if -4 <= exponent < 6:
         return f"{float(r):,.{max(digits - 1 - exponent, 0)}f}"
     return f"{float(r):.{digits - 1}e}"
+
+
+def format_count(x: int) -> str:
+    """A count: an exact integer with thousands separators, never in scientific notation
+    (``5,038,807,462,308,710,400``)."""
+    if isinstance(x, bool) or not isinstance(x, int):
+        raise InputError(f"a count must be an integer, got {x!r}")
+    return f"{x:,}"
+
+
+def count_interval_text(low: float, high: float) -> str:
+    """Ends of a confidence interval of a count, as integers rounded outward:
+    ``2,410 to 2,730``; ``526 or more`` when the upper end is unbounded."""
+    lo = math.floor(low)
+    if not math.isfinite(high):
+        return f"{lo:,} or more"
+    return f"{lo:,} to {math.ceil(high):,}"
+
+
+def format_p_value(log10_p: float) -> str:
+    """A p-value for people, from ``log10`` of it: ``0.012``, ``3.1e-07``, ``< 1e-300``.
+
+    Every terminal line, Markdown and HTML report shows p-values through this function, so a
+    p-value below :data:`P_FLOOR` (``1e-300``) reads ``< 1e-300`` everywhere; the JSON keeps
+    the exact magnitude (``log10_p_value``). Two significant digits, the same as the
+    reports' labelled p-values; the display keeps the order of the p-values (a smaller p
+    never shows a larger number), and a p-value below 1 never reads 1.
+    """
+    value = float(log10_p)
+    if math.isnan(value) or value > 1e-12:
+        raise InputError(f"log10 of a p-value must be <= 0, got {log10_p!r}")
+    if value < _LOG10_P_FLOOR:
+        return f"< {P_FLOOR:g}"
+    # two significant digits, as the reports' labelled p-values (Quantity, digits=2)
+    return format_number(min(10.0**value, 1.0), 2)
+
+
+def p_relation(log10_p: float) -> str:
+    """``= 0.0034`` or ``< 1e-300``: a p-value after ``p`` in a sentence
+    (see :func:`format_p_value`)."""
+    text = format_p_value(log10_p)
+    return text if text.startswith("<") else f"= {text}"
+
+
+def format_measure(x: int | float, digits: int = 6) -> str:
+    """A measured value such as a test statistic: whole numbers (sums of counts, even when
+    held as floats) as exact integers with separators (``1,992,190``), others with
+    ``digits`` significant digits."""
+    if isinstance(x, float) and math.isfinite(x) and x.is_integer() and abs(x) < 2**53:
+        return f"{int(x):,}"
+    if isinstance(x, int) and not isinstance(x, bool):
+        return f"{x:,}"
+    return format_number(x, digits)
 
 
 def decimals_for(uncertainty: float) -> int | None:

@@ -27,6 +27,7 @@ from typing import Any, Literal
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import (
+    count_interval_text,
     decimals_for,
     format_number,
     json_number,
@@ -90,6 +91,14 @@ class Quantity:
     digits : int
         Significant digits for display (estimates with an uncertainty are instead rounded to
         the uncertainty's second significant digit).
+    below_one : float or None
+        ``1 - value`` computed exactly, for values closer to 1 than a float holds (the
+        total variation after one riffle of 52 cards is ``1 - 5.5e-53``): shown as
+        ``1 - 5.5e-53`` and kept in the JSON. A value that is not exactly 1 never shows as 1.
+    count : bool
+        The number counts things (decks, shoes): shown as an integer, an estimate as
+        ``about 2,563 decks (95% CI 2,410 to 2,730)`` with its interval rounded outward to
+        integers; the JSON keeps an integer value.
 
     An estimate must carry ``stderr`` or ``interval`` (or both); other kinds carry neither.
     NaN is refused: nothing ever shows an undefined number.
@@ -104,6 +113,8 @@ class Quantity:
     method: str = ""
     unit: str = ""
     digits: int = 4
+    below_one: float | None = None
+    count: bool = False
 
     def __post_init__(self) -> None:
         value = plain_number(self.value, "value")
@@ -118,6 +129,15 @@ class Quantity:
             text = getattr(self, name)
             if not isinstance(text, str) or "\n" in text:
                 raise InputError(f"{name} must be one line of text, got {text!r}")
+        if self.below_one is not None:
+            gap = float(plain_number(self.below_one, "below_one"))
+            if not 0 <= gap <= 1 or not math.isclose(1 - gap, float(value), abs_tol=1e-12):
+                raise InputError(f"below_one must be 1 - value, got {self.below_one!r}")
+            object.__setattr__(self, "below_one", gap)
+        if self.count and self.kind != "estimate" and not isinstance(value, int):
+            if not float(value).is_integer():
+                raise InputError(f"a count must be a whole number, got {value!r}")
+            object.__setattr__(self, "value", int(value))
         if self.kind == "bound" and self.side not in ("upper", "lower"):
             raise InputError(f"a bound needs side='upper' or side='lower', got {self.side!r}")
         if self.kind in ("exact", "estimate") and self.side is not None:
@@ -143,7 +163,8 @@ class Quantity:
         if self.stderr is None and self.interval is None:
             raise InputError("an estimate needs its uncertainty: give stderr, interval or both")
         try:
-            object.__setattr__(self, "value", float(self.value))  # an estimate is never exact
+            if not (self.count and isinstance(self.value, int)):
+                object.__setattr__(self, "value", float(self.value))  # an estimate is inexact
         except OverflowError:
             raise InputError(f"estimate {self.value!r} is too large to show") from None
         if self.stderr is not None:
@@ -194,10 +215,23 @@ class Quantity:
         if self.side is not None:
             sign = "≤" if self.side == "upper" else "≥"
             outward = "up" if self.side == "upper" else "down"
-            return f"{sign} {format_number(self.value, self.digits, outward)}{unit}"
+            shown = format_number(self.value, self.digits, outward, below_one=self.below_one)
+            return f"{sign} {shown}{unit}"
         if self.kind in ("exact", "conjectured"):
-            return f"{format_number(self.value, self.digits)}{unit}"
+            return f"{format_number(self.value, self.digits, below_one=self.below_one)}{unit}"
+        if self.count:
+            return self._count_text(unit)
         return self._estimate_text(unit)
+
+    def _count_text(self, unit: str) -> str:
+        """``about 2,563 decks (95% CI 2,410 to 2,730)``: an estimated count in integers."""
+        text = f"about {round(self.value):,}{unit}"
+        parts = []
+        if self.interval is not None and self.confidence is not None:
+            parts.append(f"{percent(self.confidence)} CI {count_interval_text(*self.interval)}")
+        if self.stderr is not None:
+            parts.append(f"s.e. {format_number(self.stderr, 2)}")
+        return f"{text} ({'; '.join(parts)})" if parts else text
 
     def _estimate_text(self, unit: str) -> str:
         decimals = None
@@ -254,14 +288,29 @@ class Quantity:
             out["method"] = self.method
         if self.unit:
             out["unit"] = self.unit
+        if self.below_one is not None:
+            out["below_one"] = self.below_one
+        if self.count:
+            out["count"] = True
+            if self.kind == "estimate":
+                out["value"] = round(self.value)
         return out
 
 
 def exact(
-    value: int | float | Fraction, *, unit: str = "", digits: int = 4, method: str = ""
+    value: int | float | Fraction,
+    *,
+    unit: str = "",
+    digits: int = 4,
+    method: str = "",
+    below_one: float | None = None,
+    count: bool = False,
 ) -> Quantity:
-    """A value computed by an exact method."""
-    return Quantity(value, "exact", unit=unit, digits=digits, method=method)
+    """A value computed by an exact method (``below_one``: ``1 - value`` exactly, for values
+    a float rounds to 1; ``count``: an integer count)."""
+    return Quantity(
+        value, "exact", unit=unit, digits=digits, method=method, below_one=below_one, count=count
+    )
 
 
 def bound(
@@ -272,11 +321,19 @@ def bound(
     digits: int = 4,
     method: str = "",
     confidence: float | None = None,
+    below_one: float | None = None,
 ) -> Quantity:
     """A rigorous bound on ``side`` (``"upper"``: the true value is at most ``value``),
     holding surely or with probability ``confidence``."""
     return Quantity(
-        value, "bound", side=side, unit=unit, digits=digits, method=method, confidence=confidence
+        value,
+        "bound",
+        side=side,
+        unit=unit,
+        digits=digits,
+        method=method,
+        confidence=confidence,
+        below_one=below_one,
     )
 
 
@@ -299,9 +356,11 @@ def estimate(
     unit: str = "",
     digits: int = 4,
     method: str = "",
+    count: bool = False,
 ) -> Quantity:
     """A Monte Carlo or sample estimate with its standard error and/or confidence interval
-    (``confidence`` is the interval's level and is ignored without an interval)."""
+    (``confidence`` is the interval's level and is ignored without an interval; ``count``:
+    an estimated number of things, shown in integers)."""
     return Quantity(
         value,
         "estimate",
@@ -311,6 +370,7 @@ def estimate(
         unit=unit,
         digits=digits,
         method=method,
+        count=count,
     )
 
 

@@ -71,6 +71,11 @@ class DistanceRow:
     bounds, ``estimate``); ``note`` says in words which method gave them. A field is None
     when the method gives no value for that metric (e.g. the upper bound lemma bounds total
     variation only).
+
+    ``total_variation_below_one`` and ``separation_below_one`` are ``1 - value`` computed
+    in exact integers, where the method has them: after one riffle of 52 cards the total
+    variation is ``1 - 5.5e-53``, which a float rounds to ``1.0``; displays show it as such
+    and never as 1 (None: ``1 - value`` of the float is all there is, and it is exact).
     """
 
     steps: int
@@ -79,9 +84,20 @@ class DistanceRow:
     kl_bits: float | None
     kind: Kind
     note: str = ""
+    total_variation_below_one: float | None = None
+    separation_below_one: float | None = None
 
     def value(self, metric: str) -> float | None:
         return getattr(self, metric)
+
+    def below_one(self, metric: str) -> float | None:
+        """``1 - value`` for total variation or separation (exact where the method gives
+        it, else from the float, exact there for values >= 1/2); None for KL or no value."""
+        value = self.value(metric)
+        if value is None or metric == "kl_bits":
+            return None
+        given = getattr(self, f"{metric}_below_one")
+        return given if given is not None else 1.0 - value
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,7 @@ design brief's 1..n shifted by one).
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Any
 
 from shufflecheck.common.checks import check_cards
@@ -21,7 +22,14 @@ from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.distances import MixingCurve
 from shufflecheck.models.registry import SPECTRUM_UNITS
 
-__all__ = ["SPECTRUM_UNITS", "default_max_steps", "distance_curve", "spectrum"]
+__all__ = [
+    "SPECTRUM_UNITS",
+    "default_max_steps",
+    "distance_curve",
+    "distance_curve_until",
+    "spectrum",
+    "steps_limit",
+]
 
 
 def default_max_steps(model: str, cards: int) -> int:
@@ -31,6 +39,63 @@ def default_max_steps(model: str, cards: int) -> int:
     found = entry(model, need="curve")
     assert found.default_steps is not None  # every entry with a curve has one
     return found.default_steps(check_cards(cards))
+
+
+def steps_limit(model: str) -> int:
+    """The most steps the exact curve of ``model`` is offered for (its registry entry's
+    ``steps_limit``, else the documented ``max_steps`` limit)."""
+    from shufflecheck.models.registry import entry
+
+    found = entry(model, need="curve")
+    high = limit("max_steps").high
+    return high if found.steps_limit is None else min(found.steps_limit, high)
+
+
+def distance_curve_until(
+    model: str,
+    cards: int,
+    target: float | None,
+    metric: str = "total_variation",
+    max_steps: int | None = None,
+    **options: Any,
+) -> tuple[MixingCurve, int]:
+    """:func:`distance_curve` over the default range, extended until ``metric`` meets
+    ``target``: ``(curve, default_steps)``.
+
+    Without ``max_steps`` and with a target that the default range (the entry's
+    ``default_steps``) does not reach, the range is doubled, up to :func:`steps_limit`,
+    until the exact (or rigorous upper-bound) value of ``metric`` is at most ``target`` or
+    the limit is reached; ``len(curve.rows) > default_steps`` then says it was extended. A
+    ``max_steps`` that is given is kept as it is. ``options`` as for :func:`distance_curve`;
+    a ``progress`` callable is called with the steps done over all the computations so far.
+    """
+    from shufflecheck.core.distances import check_metric, minimum_steps
+
+    check_cards(cards)
+    default = default_max_steps(model, cards)
+    if max_steps is not None or target is None:
+        return distance_curve(model, cards, max_steps, **options), default
+    metric = check_metric(metric)
+    most = max(default, steps_limit(model))
+    steps = default
+    report = options.pop("progress", None)
+    done_before = 0
+    while True:
+        if report is not None:
+            options["progress"] = lambda done, _before=done_before: report(_before + done)
+        curve = distance_curve(model, cards, steps, **options)
+        done_before += steps
+        first = minimum_steps(curve.rows, metric, target)
+        if first is not None and steps > default:  # extended: show up to the answer
+            keep = max(default, first)
+            return dataclasses.replace(
+                curve, rows=curve.rows[:keep], bounds=curve.bounds[:keep]
+            ), default
+        if first is not None or steps >= most:
+            return curve, default
+        if all(r.value(metric) is None for r in curve.rows):
+            return curve, default  # this method gives no value for the metric
+        steps = min(2 * steps, most)
 
 
 def _options(names: tuple[str, ...], given: dict[str, Any]) -> dict[str, Any]:

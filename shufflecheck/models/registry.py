@@ -115,6 +115,10 @@ class ModelEntry:
         The keyword options ``spectrum`` takes.
     default_steps : callable or None
         ``default_steps(cards)``: steps shown by ``mix`` by default (past the cutoff).
+    steps_limit : int or None
+        The most steps the exact curve is offered for: when no step count is given and the
+        target is not met within ``default_steps``, ``mix`` doubles the range up to this
+        limit (None: the documented ``max_steps`` limit of every model).
     exact : str
         What exact analysis exists, in a few words with its limits (docs table); empty
         when there is none (then procedures with this step get bounds or estimates).
@@ -129,6 +133,7 @@ class ModelEntry:
     spectrum_options: tuple[str, ...] = ()
     default_steps: Callable[[int], int] | None = None
     exact: str = ""
+    steps_limit: int | None = None
 
     def __post_init__(self) -> None:
         if not (isinstance(self.step, type) and issubclass(self.step, Step)):

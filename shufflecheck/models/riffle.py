@@ -152,7 +152,15 @@ def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
     fact = math.factorial(cards)
     if steps == 0:
         tv = 1 - Fraction(1, fact)
-        return DistanceRow(0, float(tv), 1.0, math.log2(fact), "exact")
+        return DistanceRow(
+            0,
+            float(tv),
+            1.0,
+            math.log2(fact),
+            "exact",
+            total_variation_below_one=1 / fact,
+            separation_below_one=0.0,
+        )
     a = hands**steps
     counts = eulerian_row(cards)  # counts[r - 1]: arrangements with r rising sequences
     denominator = a**cards
@@ -190,7 +198,18 @@ def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
     tv_numerator = 2 * (above_mass * fact - above_count * denominator)
     tv = tv_numerator / (2 * denominator * fact)
     separation = (denominator - minimum * fact) / denominator
-    return DistanceRow(steps, float(tv), float(separation), kl_nats / math.log(2), "exact")
+    # 1 - TV and 1 - separation from the same integers: they keep values a float rounds to 1
+    tv_gap = (2 * denominator * fact - tv_numerator) / (2 * denominator * fact)
+    separation_gap = (minimum * fact) / denominator
+    return DistanceRow(
+        steps,
+        float(tv),
+        float(separation),
+        kl_nats / math.log(2),
+        "exact",
+        total_variation_below_one=tv_gap,
+        separation_below_one=separation_gap,
+    )
 
 
 def chi_square(cards: int, steps: int, *, hands: int = 2) -> tuple[float, float]:
@@ -353,6 +372,7 @@ register_model(
         spectrum=spectrum,
         spectrum_options=("hands",),
         default_steps=lambda cards: math.ceil(1.5 * math.log2(cards)) + 5,
+        steps_limit=MAX_EXACT_STEPS,
         exact=f"any number of riffles (rising sequences): k <= {MAX_EXACT_STEPS}, "
         f"n <= {MAX_EXACT_CARDS:,}",
     )

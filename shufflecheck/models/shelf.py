@@ -439,6 +439,7 @@ register_model(
         curve=distance_curve,
         curve_options=("shelves",),
         default_steps=lambda cards: 6,
+        steps_limit=MAX_EXACT_PASSES,
         exact=f"any number of passes, either stacking (valleys): k <= {MAX_EXACT_PASSES}, "
         f"n <= {MAX_EXACT_CARDS:,}",
     )

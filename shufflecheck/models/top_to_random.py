@@ -503,6 +503,7 @@ register_model(
         curve_options=("progress",),
         spectrum=spectrum,
         default_steps=_default_steps,
+        steps_limit=MAX_CHAIN_STEPS,
         exact=f"Stirling numbers while cheap, else a double-precision chain with an error "
         f"bound: k <= {MAX_CHAIN_STEPS:,}, n <= {MAX_EXACT_CARDS:,}",
     )
@@ -516,6 +517,7 @@ register_model(
         curve_options=("progress",),
         spectrum=spectrum,
         default_steps=_default_steps,
+        steps_limit=MAX_CHAIN_STEPS,
         exact="as top-to-random (its inverse: the same distances)",
     )
 )

@@ -668,6 +668,7 @@ register_model(
         spectrum=spectrum,
         spectrum_options=("hold", "progress"),
         default_steps=lambda cards: math.ceil(cards * math.log(cards)),
+        steps_limit=MAX_CHAIN_STEPS,
         exact=f"lumped chain on cycle types: n <= {MAX_CHAIN_CARDS}, k <= {MAX_CHAIN_STEPS:,}; "
         f"upper bound lemma: n <= {MAX_BOUND_CARDS}",
     )

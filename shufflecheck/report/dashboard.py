@@ -18,6 +18,7 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
+from shufflecheck.common.numbers import p_relation
 from shufflecheck.common.sources import (
     HOWARD_RAMDAS_MCAULIFFE_SEKHON,
     PAGE,
@@ -80,10 +81,6 @@ def _num(value: float, digits: int = 3) -> str:
     if abs(value) >= 1000:
         return f"{value:,.0f}"
     return f"{value:.{digits}g}"
-
-
-def _p_text(log10_p: float) -> str:
-    return f"{10**log10_p:.3g}" if log10_p > -4 else f"10^{log10_p:.1f}"
 
 
 def _thousands(value: int) -> str:
@@ -266,8 +263,8 @@ def _table_card(t: dict[str, Any]) -> str:
     if retro is not None:
         verdict = "flags" if retro["flagged"] else "does not flag"
         retro_text = (
-            f"{verdict} ({escape(retro['strongest'])}, adjusted p = "
-            f"{_p_text(retro['log10_p_adjusted'])})"
+            f"{verdict} ({escape(retro['strongest'])}, adjusted p "
+            f"{p_relation(retro['log10_p_adjusted'])})"
         )
         if retro["since_when"] is not None:
             retro_text += f"; since-when estimate deck {_thousands(retro['since_when']['deck'])}"

@@ -19,23 +19,10 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
+from shufflecheck.common.numbers import P_FLOOR, p_relation
 from shufflecheck.common.quantity import Quantity
 
 __all__ = ["P_FLOOR", "AuditResult", "BatteryResult", "Effect", "SinceWhen", "TestResult"]
-
-#: Smallest p-value written as a number; smaller ones are reported as this floor.
-P_FLOOR = 1e-300
-
-
-def format_p(log10_p: float) -> str:
-    """A p-value for people: ``0.0123``, ``3.1e-07``, ``1e-4532`` (exact magnitude)."""
-    if log10_p >= -3:
-        return f"{10**log10_p:.3g}"
-    if log10_p >= -300:
-        return f"{10**log10_p:.2g}"
-    exponent = math.floor(log10_p)
-    mantissa = 10 ** (log10_p - exponent)
-    return f"{mantissa:.1f}e{exponent}"
 
 
 @dataclass(frozen=True)
@@ -197,7 +184,7 @@ class BatteryResult:
         return (
             f"FLAGGED: {count} of {len(self.tests)} tests reject a uniform {self.unit} at "
             f"family-wise level {self.alpha:g} (Holm); strongest: {worst.title}, adjusted "
-            f"p = {format_p(worst.log10_p_adjusted)}; {worst.effect.text}"
+            f"p {p_relation(worst.log10_p_adjusted)}; {worst.effect.text}"
         )
 
     def as_json(self) -> dict[str, Any]:

@@ -25,23 +25,24 @@ __all__ = [
     "audit_methods",
     "audit_report",
     "audit_section",
+    "p_cell",
 ]
 
 #: how a p-value was obtained, in the report's three labels
 _P_LABEL = {"exact": "exact", "asymptotic": "estimate", "monte-carlo": "estimate"}
 
 
-def _p_cell(log10_p: float, method: str):
+def p_cell(log10_p: float, method: str):
     """A p-value cell: exact when the null law is exact; text with its method otherwise.
 
     Asymptotic and Monte Carlo p-values are approximations without a stated standard
     error, so they are written as text that names their method.
     """
-    from shufflecheck.stats.results import format_p
+    from shufflecheck.common.numbers import format_p_value
 
-    if method == "exact" and log10_p > -300:
-        return exact(10.0**log10_p, digits=2)
-    return f"{format_p(log10_p)} ({method})"
+    if method == "exact" and log10_p >= -300:
+        return exact(min(10.0**log10_p, 1.0), digits=2)
+    return f"{format_p_value(log10_p)} ({method})"
 
 
 def _tests_table(battery, caption: str) -> Table:
@@ -51,8 +52,8 @@ def _tests_table(battery, caption: str) -> Table:
         rows.append(
             (
                 t.title,
-                _p_cell(t.log10_p_value, t.method),
-                _p_cell(t.log10_p_adjusted, t.method),
+                p_cell(t.log10_p_value, t.method),
+                p_cell(t.log10_p_adjusted, t.method),
                 "flagged" if t.flagged else "",
                 estimate(effect.value, stderr=effect.standard_error, unit=effect.unit)
                 if math.isfinite(effect.standard_error)
@@ -91,13 +92,13 @@ def audit_figure_count(audit) -> int:
 
 def audit_figures(audit, prefix: str = "") -> tuple:
     """p-values, guessing scores against the exact null, and the position heat map."""
+    from shufflecheck.common.numbers import format_p_value
     from shufflecheck.report.figures import (
         heatmap_figure,
         pvalue_figure,
         score_histogram_figure,
     )
     from shufflecheck.stats.guessing import guessing_null
-    from shufflecheck.stats.results import format_p
 
     battery = audit.result.overall
     tests = battery.by_adjusted_p()
@@ -108,7 +109,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
             [_P_LABEL.get(t.method, "estimate") for t in tests],
             alpha=battery.alpha,
             flagged=[t.flagged for t in tests],
-            texts=[format_p(t.log10_p_adjusted) for t in tests],
+            texts=[format_p_value(t.log10_p_adjusted) for t in tests],
             name=f"{prefix}pvalues",
         )
     ]
@@ -259,7 +260,7 @@ def _groups_table(audit, fleet: dict[str, Any]) -> Table:
                 exact(r["decks"]),
                 "flagged" if r["flagged"] else "",
                 r["strongest"] or "",
-                _p_cell(worst.log10_p_adjusted, worst.method),
+                p_cell(worst.log10_p_adjusted, worst.method),
                 r["since_when"] or "",
             )
         )

@@ -18,10 +18,20 @@ __all__ = ["METRIC_LABELS", "feature_mixing_report", "feature_series", "mixing_r
 from shufflecheck.core.distances import METRIC_LABELS
 
 
-def _cell(value: float | None, kind: str):
+def _cell(value: float | None, kind: str, below_one: float | None = None):
+    """A distance as a labelled number; ``below_one`` (``1 - value`` in exact integers)
+    keeps a value a float rounds to 1 from showing as 1."""
     if value is None:
         return None
-    return exact(value) if kind == "exact" else upper_bound(value)
+    if below_one is not None and not 0 < below_one <= 1:
+        below_one = None
+    if kind == "exact":
+        return exact(value, below_one=below_one)
+    return upper_bound(value, below_one=below_one)
+
+
+def _row_cell(row, metric: str):
+    return _cell(row.value(metric), row.kind, row.below_one(metric))
 
 
 def mixing_report(
@@ -57,21 +67,16 @@ def mixing_report(
             row = curve.rows[k - 1]
             answer.append(
                 f"{k} {steps_word} bring {label} to at most {target:g}: "
-                f"{_cell(row.value(metric), row.kind)}."
+                f"{_row_cell(row, metric)}."
             )
         else:
             answer.append(
                 f"{label.capitalize()} stays above {target:g} for every k up to "
                 f"{curve.rows[-1].steps}; more steps are needed."
             )
-        for other, text in METRIC_LABELS.items():
-            if other != metric and minimum[other] is not None:
-                answer.append(
-                    f"For {text} at most {target:g}: {minimum[other]} {steps_word} (exact)."
-                )
     last = curve.rows[-1]
     shown = [
-        f"{METRIC_LABELS[m]} {_cell(last.value(m), last.kind)}"
+        f"{METRIC_LABELS[m]} {_row_cell(last, m)}"
         for m in ("total_variation", "separation")
         if last.value(m) is not None
     ]
@@ -85,12 +90,13 @@ def mixing_report(
     for i, r in enumerate(curve.rows):
         cells = [
             str(r.steps),
-            _cell(r.total_variation, r.kind),
-            _cell(r.separation, r.kind),
-            _cell(r.kl_bits, r.kind),
+            _row_cell(r, "total_variation"),
+            _row_cell(r, "separation"),
+            _row_cell(r, "kl_bits"),
         ]
         if bound_metric is not None:
-            cells.append(_cell(curve.bounds[i].value(bound_metric), "bound"))
+            b = curve.bounds[i]
+            cells.append(_cell(b.value(bound_metric), "bound", b.below_one(bound_metric)))
         rows.append(tuple(cells))
     marked = ()
     if target is not None and minimum[metric] is not None:

@@ -16,6 +16,7 @@ from shufflecheck.common.sources import (
     WALD_WOLFOWITZ,
     WILKS,
 )
+from shufflecheck.report.builders.audit import p_cell
 from shufflecheck.report.document import Figure, MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
@@ -116,22 +117,14 @@ def _z(level: float) -> float:
     return float(norm.ppf(0.5 + level / 2))
 
 
-def _p_cell(log10_p: float, method: str):
-    """An exact p-value as a number; a Monte Carlo one as text naming its method."""
-    if method == "exact" and log10_p > -300:
-        return exact(10.0**log10_p, digits=2)
-    shown = f"{10**log10_p:.3g}" if log10_p > -300 else f"1e{math.floor(log10_p)}"
-    return f"{shown} ({method})"
-
-
 def _tests_table(tests) -> Table:
     rows = []
     for t in tests.tests:
         rows.append(
             (
                 t.title,
-                _p_cell(t.log10_p_value, t.method),
-                _p_cell(t.log10_p_adjusted, t.method),
+                p_cell(t.log10_p_value, t.method),
+                p_cell(t.log10_p_adjusted, t.method),
                 "rejects" if t.flagged else "",
                 t.effect,
                 t.effect_text,
