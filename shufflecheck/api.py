@@ -317,11 +317,17 @@ def power(
     seed: int = 1,
     deck: Any = None,
     feature: str | None = None,
+    confidence: float = 0.95,
 ) -> PowerPlan:
     """Recorded decks each test of the audit battery needs to flag ``procedure`` (repeated
     ``repeats`` times per deck) with the given power at family-wise ``alpha``; with a shoe
     (``deck="shoe(packs=6)"``, ``feature`` as in :func:`assess`), recorded shoes for the
     shoe battery.
+
+    Every count is an estimate from ``simulate`` simulated decks; ``confidence``
+    (``0.5 <= confidence < 1``, as in :func:`assess`) is the level of its interval
+    (:meth:`PowerRow.decks_interval`): the Monte Carlo interval of the estimated shift of
+    the test's mean carried over to the count (see :mod:`shufflecheck.stats.power`).
 
     Examples
     --------
@@ -347,10 +353,18 @@ def power(
             power=power,
             simulate=simulate,
             seed=seed,
+            confidence=confidence,
         )
         return plans[0][1]
     plans = plan_power(
-        proc, cards, [repeats], alpha=alpha, power=power, simulate=simulate, seed=seed
+        proc,
+        cards,
+        [repeats],
+        alpha=alpha,
+        power=power,
+        simulate=simulate,
+        seed=seed,
+        confidence=confidence,
     )
     return plans[0][1]
 

@@ -93,7 +93,7 @@ class TestPowerTerminal:
         assert result.exit_code == 0, result.output
         assert "r = 5" in result.stdout and "r = 6" in result.stdout
         assert "null laws exact" in result.stdout
-        assert "log at least" in result.stdout
+        assert "log about" in result.stdout
 
 
 class TestPowerBadInput:

@@ -59,6 +59,7 @@ from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.common.resources import check_memory
 from shufflecheck.core.block_bounds import block_bounds
@@ -468,7 +469,7 @@ def _row(
     bounds = _statistic_bounds(tally, r, cards, best, confidence)
     top = max(bounds, key=lambda b: b.lower_bound)
     note = (
-        f"lower {confidence:.0%} confidence bound from {top.title} "
+        f"lower {percent(confidence)} confidence bound from {top.title} "
         f"(split sample of {chosen + measured:,} decks)"
     )
     tv_low = top.lower_bound

@@ -97,5 +97,11 @@ def run_demo(*, progress: Callable[[int], None] | None = None) -> DemoResult:
     policy = load_policy(demo_folder() / "policy.toml")
     result = evaluate_policy(policy, progress=progress)
     seed = policy.seed
-    plans = plan_power(parse_procedure("riffle"), 52, list(DEMO_POWER_RIFFLES), seed=seed)
+    plans = plan_power(
+        parse_procedure("riffle"),
+        52,
+        list(DEMO_POWER_RIFFLES),
+        seed=seed,
+        confidence=policy.confidence,  # the policy's level for every interval
+    )
     return DemoResult(result, plans, seed, run_shoe_game(seed))

@@ -50,6 +50,7 @@ from shufflecheck.analyses.assess import (
 )
 from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.distances import DistanceRow
 from shufflecheck.models import features
@@ -293,7 +294,7 @@ def _row(
     top = max(bounds, key=lambda b: b.lower_bound) if bounds else None
     tv_low = top.lower_bound if top is not None else 0.0
     note = (
-        f"lower {confidence:.0%} confidence bound from {top.title if top else 'no statistic'} "
+        f"lower {percent(confidence)} confidence bound from {top.title if top else 'no statistic'} "
         f"(feature '{feature}', split sample of {chosen + measured:,} shoes)"
     )
     lower = {

@@ -24,8 +24,10 @@ def plan_power(
     power: float = 0.9,
     simulate: int = 4000,
     seed: int = 1,
+    confidence: float = 0.95,
 ) -> list[tuple[int, PowerPlan]]:
-    """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count)."""
+    """``[(r, PowerPlan)]`` for each repetition count ``r`` (seeded per count);
+    ``confidence`` is the level of the intervals of the counts."""
     from shufflecheck.records.cards import load_deck
     from shufflecheck.stats import plan_decks
 
@@ -46,6 +48,7 @@ def plan_power(
             suits=deck.suit_codes() if deck is not None else None,
             colours=deck.colour_codes() if deck is not None else None,
             rng=seed + r,
+            confidence=confidence,
         )
         plans.append((r, plan))
     return plans
@@ -61,6 +64,7 @@ def plan_shoe_power(
     power: float = 0.9,
     simulate: int = 2000,
     seed: int = 1,
+    confidence: float = 0.95,
 ) -> list[tuple[int, PowerPlan]]:
     """``[(r, PowerPlan)]`` for a shoe (a :class:`~shufflecheck.records.shoes.ShoeDefinition`)
     read through ``feature``: consecutive shoes simulated as a log records them."""
@@ -81,7 +85,13 @@ def plan_shoe_power(
             (
                 r,
                 plan_shoes(
-                    sample, context, alpha=alpha, power=power, simulate=simulate, rng=seed + r
+                    sample,
+                    context,
+                    alpha=alpha,
+                    power=power,
+                    simulate=simulate,
+                    rng=seed + r,
+                    confidence=confidence,
                 ),
             )
         )
@@ -100,10 +110,11 @@ def planning_json(plans: list[tuple[int, PowerPlan]], proc: Procedure, seed: int
         "simulated_decks": first.simulated_decks,
         "tests_in_battery": first.tests_in_battery,
         "per_test_level": first.per_test_level,
+        "confidence": first.confidence,
         "plans": [
             {
                 "repeats": r,
-                "rows": [row.as_json() for row in plan.rows],
+                "rows": [row.as_json(plan.confidence) for row in plan.rows],
             }
             for r, plan in plans
         ],

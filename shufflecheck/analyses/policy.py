@@ -59,6 +59,7 @@ from typing import Any
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import names_file
 from shufflecheck.common.limits import limit
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.tomlfiles import TomlFile, load_toml
 from shufflecheck.core.distances import METRIC_NAMES, check_target
 from shufflecheck.models.procedures import Procedure, deck_size, load_procedure, parse_procedure
@@ -694,7 +695,10 @@ def decide(
         elif exact is not None:
             standing, standing_how = "fails", "exact"
         elif lower is not None and lower > target:
-            standing, standing_how = "fails", f"lower bound, {assessment.confidence:.0%} confidence"
+            standing, standing_how = (
+                "fails",
+                f"lower bound, {percent(assessment.confidence)} confidence",
+            )
         else:
             standing, standing_how = "undetermined", "bounds straddle the target"
     return PolicyDecision(proc, minimum, kind, estimate_low, standing, standing_how, assessment)
@@ -784,6 +788,7 @@ def evaluate_policy(
                 seed=policy.seed + i,
                 shoe=proc.shoe,
                 feature=proc.feature,
+                confidence=policy.confidence,
             )
         offset += SETTLE_WORK
         if progress is not None:

@@ -29,9 +29,11 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from typing import Any
 
+from shufflecheck.common.numbers import count_interval_text, percent
 from shufflecheck.common.quantity import Quantity, exact
 from shufflecheck.models.blocks import ideal_packets, procedure_blocks
 from shufflecheck.models.hand_riffle import HandRiffle
@@ -85,6 +87,9 @@ class AuditNeed:
     simulated: int
     #: what the audit records: "decks", or "shoes" (the shoe battery)
     unit: str = "decks"
+    #: confidence interval of ``decks`` (whole decks; high may be inf) and its level
+    interval: tuple[int, float] | None = None
+    confidence: float = 0.95
 
     def as_json(self) -> dict[str, Any]:
         return {
@@ -92,6 +97,10 @@ class AuditNeed:
             "repeats": self.repeats,
             "simulated_decks": self.simulated,
             "decks": self.decks,
+            "decks_interval": None
+            if self.interval is None
+            else [self.interval[0], self.interval[1] if math.isfinite(self.interval[1]) else None],
+            "confidence": self.confidence,
             "test": self.test,
             "power": self.power,
             "alpha": self.alpha,
@@ -152,10 +161,16 @@ class Settlement:
         if self.audit is not None:
             a = self.audit
             if a.decks is not None:
+                interval = ""
+                if a.interval is not None:
+                    interval = (
+                        f"{percent(a.confidence)} CI {count_interval_text(*a.interval)} from "
+                        f"{a.simulated:,} simulated {a.unit}; "
+                    )
                 out.append(
                     f"an audit of about {a.decks:,} recorded {a.unit} detects the procedure at "
-                    f"{a.repeats} repetition{'s' if a.repeats != 1 else ''} (estimate; power "
-                    f"{a.power:g}, family-wise level {a.alpha:g}, {a.test})"
+                    f"{a.repeats} repetition{'s' if a.repeats != 1 else ''} (estimate, "
+                    f"{interval}power {a.power:g}, family-wise level {a.alpha:g}, {a.test})"
                 )
             else:
                 out.append(
@@ -261,6 +276,7 @@ def _audit_need(
     seed: int,
     shoe: Any = None,
     feature: str | None = None,
+    confidence: float = 0.95,
 ) -> AuditNeed:
     from shufflecheck.analyses.plan import plan_power, plan_shoe_power
 
@@ -276,6 +292,7 @@ def _audit_need(
             power=PLAN_POWER,
             simulate=simulate,
             seed=seed,
+            confidence=confidence,
         )
     else:
         ((_, plan),) = plan_power(
@@ -286,6 +303,7 @@ def _audit_need(
             power=PLAN_POWER,
             simulate=simulate,
             seed=seed,
+            confidence=confidence,
         )
     best = plan.best()
     return AuditNeed(
@@ -297,6 +315,8 @@ def _audit_need(
         None if best is None else best.relative_standard_error,
         simulate,
         "decks" if shoe is None else "shoes",
+        None if best is None else best.decks_interval(confidence),
+        confidence,
     )
 
 
@@ -313,6 +333,7 @@ def settle(
     plan_audit: bool = True,
     shoe: Any = None,
     feature: str | None = None,
+    confidence: float = 0.95,
 ) -> Settlement:
     """What would settle the decision about ``repeats`` repetitions (the house count, or
     the smallest count the lower bounds leave open)."""
@@ -335,7 +356,9 @@ def settle(
                 conjectured_minimum = r
                 break
     audit = (
-        _audit_need(procedure, cards, repeats, alpha, seed, shoe, feature) if plan_audit else None
+        _audit_need(procedure, cards, repeats, alpha, seed, shoe, feature, confidence)
+        if plan_audit
+        else None
     )
     unanalysed = tuple(
         dict.fromkeys(

@@ -53,6 +53,7 @@ from scipy import stats
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_fraction, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.models.dealing import dealt_window
 from shufflecheck.models.permute import CHUNK_DECKS, identity_decks
@@ -104,7 +105,7 @@ class TrackingExposure:
     def sentence(self) -> str:
         """What a tracker could do, in one sentence of plain units."""
         spread = (
-            f"{self.coverage:.0%} of the slug lies within {self.spread.value:.0f} cards on "
+            f"{percent(self.coverage)} of the slug lies within {self.spread.value:.0f} cards on "
             f"average, against {self.spread_random.value:.0f} in a random shoe"
         )
         if self.placement == "best":

@@ -18,6 +18,7 @@ from shufflecheck.cli._app import (
     progress,
     save_report,
 )
+from shufflecheck.common.numbers import percent
 
 
 @app.command()
@@ -185,7 +186,7 @@ def _print(result) -> None:
         )
     echo(
         f"{result.decks:,} simulated {unit}s, seed {result.seed}; lower bounds hold at "
-        f"{result.confidence:.0%} confidence."
+        f"{percent(result.confidence)} confidence."
     )
     for note in result.notes:
         echo(f"Note: {note}")
@@ -227,7 +228,10 @@ def _print(result) -> None:
     echo("  bounds      upper: block inequalities on the exactly analysed blocks (each block")
     echo("              absorbed, or through its TV, separation or chi-square distance);")
     echo("              lower: statistics of the simulated decks, split sample,")
-    echo(f"              Clopper-Pearson ({result.confidence:.0%}), Bonferroni over the statistics")
+    echo(
+        f"              Clopper-Pearson ({percent(result.confidence)}), "
+        "Bonferroni over the statistics"
+    )
     if conjectures:
         echo("  conjectured NOT a bound: the unproven interleaving conjecture (steps between")
         echo("              ideal riffles never raise the separation); never used to certify")
@@ -236,14 +240,14 @@ def _print(result) -> None:
         echo("              exact figures for ideal riffles; lower bounds from the shoe")
         echo("              statistics with exact laws, read from the shoe's reference order)")
         echo(
-            f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per shoe "
-            f"naming a most frequent remaining value, beyond {first.uniform_guesses:.4f}, the "
-            "exact mean for a random shoe"
+            f"  guesses     estimate ({percent(result.confidence)} interval): correct guesses "
+            "per shoe naming a most frequent remaining value, beyond "
+            f"{first.uniform_guesses:.4f}, the exact mean for a random shoe"
         )
     else:
         echo(
-            f"  guesses     estimate ({result.confidence:.0%} interval): correct guesses per deck "
-            f"beyond {first.uniform_guesses:.4f}, the exact mean for a random deck "
+            f"  guesses     estimate ({percent(result.confidence)} interval): correct guesses "
+            f"per deck beyond {first.uniform_guesses:.4f}, the exact mean for a random deck "
             f"(H_{result.cards})"
         )
     echo()
@@ -256,7 +260,10 @@ def _figure(result):
     from shufflecheck.report.figures import distance_figure
 
     return distance_figure(
-        assessment_series(result), metric="total variation distance", steps_name="repetitions"
+        assessment_series(result),
+        metric="total variation distance",
+        steps_name="repetitions",
+        level=result.confidence,
     )
 
 
@@ -297,7 +304,8 @@ def assessment_series(result) -> list[dict]:
         )
     series.append(
         {
-            "label": f"from {result.decks:,} simulated decks, {result.confidence:.0%} confidence",
+            "label": f"from {result.decks:,} simulated decks, "
+            f"{percent(result.confidence)} confidence",
             "kind": "bound",
             "side": "lower",
             "steps": [r.repeats for r in result.rows],

@@ -415,6 +415,12 @@ def power(
     simulate: Annotated[
         int, typer.Option(help="Decks simulated to learn the procedure's laws.")
     ] = 4000,
+    confidence: Annotated[
+        float,
+        typer.Option(
+            help="Level of the interval of each estimated count, in [0.5, 1) (as assess)."
+        ),
+    ] = 0.95,
     deck: Annotated[
         str | None,
         typer.Option(help="Plan for shoes: shoe(packs=6) or a TOML file with copies."),
@@ -434,12 +440,16 @@ def power(
     """How many recorded decks each test needs to flag a procedure against a random deck.
 
     Simulates the procedure (estimate), uses each test's exact null for its critical value,
-    and searches the smallest number of decks with the requested power.
+    and searches the smallest number of decks with the requested power. Each count is an
+    estimate with its interval at --confidence (the Monte Carlo error of the simulated
+    shift carried over to the count).
     """
     check_outputs(force=force, inputs=procedure_inputs(procedure), files=(plot,), folders=(report,))
     from shufflecheck.analyses.plan import plan_power, planning_json
+    from shufflecheck.common.checks import check_confidence
     from shufflecheck.models.procedures import procedure_from_argument
 
+    check_confidence(confidence)
     proc = procedure_from_argument(procedure)
     counts = _repeat_range(repeat)
     shoe = None
@@ -464,6 +474,7 @@ def power(
             power=power_target,
             simulate=min(simulate, 2000) if simulate == 4000 else simulate,
             seed=seed,
+            confidence=confidence,
         )
     else:
         if feature is not None:
@@ -475,7 +486,14 @@ def power(
             )
         n = cards if cards is not None else (proc.cards or 52)
         plans = plan_power(
-            proc, n, counts, alpha=alpha, power=power_target, simulate=simulate, seed=seed
+            proc,
+            n,
+            counts,
+            alpha=alpha,
+            power=power_target,
+            simulate=simulate,
+            seed=seed,
+            confidence=confidence,
         )
     payload = planning_json(plans, proc, seed)
     if shoe is not None:
@@ -483,10 +501,12 @@ def power(
         payload["feature"] = "rank" if feature is None else feature.value
     figure = None
     if (plot or report) and len(plans) > 1:
-        from shufflecheck.report.builders.power import power_curves
+        from shufflecheck.report.builders.power import power_curves, power_level
         from shufflecheck.report.figures import power_figure
 
-        figure = power_figure(power_curves(plans), x_name="repetitions of the procedure")
+        figure = power_figure(
+            power_curves(plans), x_name="repetitions of the procedure", level=power_level(plans)
+        )
     if plot is not None:
         from shufflecheck.common.errors import InputError
         from shufflecheck.common.files import atomic_write
@@ -518,6 +538,7 @@ def power(
 
 
 def _print_power(plans, proc, shoes: bool = False) -> None:
+    from shufflecheck.common.numbers import count_interval_text, percent
     from shufflecheck.report.render.terminal import format_table
 
     first = plans[0][1]
@@ -536,18 +557,34 @@ def _print_power(plans, proc, shoes: bool = False) -> None:
     headers = ["test", *(f"r = {r}" for r, _ in plans)]
     tests = [row.test for row in first.rows]
     titles = {row.test: row.title for row in first.rows}
-    rows = []
+    # with one or two repetition counts each cell carries its interval; with more, the
+    # table would not fit a terminal, and the intervals are in --json and --report
+    with_interval = len(plans) <= 2
+    rows, order = [], []
     for name in tests:
-        cells = []
+        cells, keys = [], []
         for _, plan in plans:
             row = next(x for x in plan.rows if x.test == name)
-            cells.append(f"{row.decks:,}" if row.decks is not None else "-")
+            keys.append(row.decks if row.decks is not None else 10**12)
+            if row.decks is None:
+                cells.append("-")
+            elif with_interval:
+                low, high = row.decks_interval(plan.confidence)
+                cells.append(f"{row.decks:,} ({count_interval_text(low, high)})")
+            else:
+                cells.append(f"{row.decks:,}")
         rows.append([titles[name], *cells])
-    rows.sort(
-        key=lambda cells: [int(c.replace(",", "")) if c != "-" else 10**12 for c in cells[1:]]
-    )
+        order.append(keys)
+    rows = [row for _, row in sorted(zip(order, rows, strict=True), key=lambda t: t[0])]
     echo(format_table(headers, rows, align="l" + "r" * len(plans)))
-    echo("'-': not detected within the search range.")
+    level = percent(first.confidence)
+    if with_interval:
+        echo(f"'-': not detected within the search range. In brackets: {level} interval.")
+    else:
+        echo(
+            f"'-': not detected within the search range. The {level} interval of every count "
+            "is in --json and --report; the best test's is below."
+        )
     if shoes:
         echo(
             "Shoes are simulated as a log records them, each from the one before (reference "
@@ -559,13 +596,20 @@ def _print_power(plans, proc, shoes: bool = False) -> None:
             "deck starts from the previous one (reference previous), those two tests detect less."
         )
     echo()
+    echo(
+        f"Each count is an estimate; its {level} interval carries the Monte Carlo error of the "
+        "simulated shift over to the count (--confidence)."
+    )
+    echo()
     for r, plan in plans:
         best = plan.best()
         if best is not None:
+            low, high = best.decks_interval(plan.confidence)
             noun = unit[:-1] if best.decks == 1 else unit
             echo(
-                f"r = {r}: log at least {best.decks:,} {noun} before "
-                f"an audit can be expected to flag it ({best.title})."
+                f"r = {r}: log about {best.decks:,} {noun} ({level} CI "
+                f"{count_interval_text(low, high)}; estimate from {plan.simulated_decks:,} "
+                f"simulated {unit}) before an audit can be expected to flag it ({best.title})."
             )
         else:
             echo(f"r = {r}: no test of the battery detects it within the search range.")

@@ -18,6 +18,7 @@ from shufflecheck.cli._app import (
 )
 from shufflecheck.cli.audit import Labels
 from shufflecheck.common.cautions import LOGS_UNTOUCHED, caution
+from shufflecheck.common.numbers import percent
 
 
 @app.command("fit-riffle")
@@ -195,7 +196,7 @@ def _print(fit, procedure_text: str | None, written: dict) -> None:
     echo()
     est = fit.estimates
     echo(
-        f"Fitted hand riffle (maximum likelihood; {est.confidence:.0%} profile-likelihood "
+        f"Fitted hand riffle (maximum likelihood; {percent(est.confidence)} profile-likelihood "
         "intervals; estimates):"
     )
     ideal_spread = math.sqrt(fit.cards) / 2

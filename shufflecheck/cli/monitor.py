@@ -13,6 +13,7 @@ from typing import Annotated
 import typer
 
 from shufflecheck.cli._app import command_group, echo, emit_json, progress, warn
+from shufflecheck.common.numbers import percent
 
 monitor = command_group(
     "monitor",
@@ -133,7 +134,7 @@ def status(store: StoreArgument, json_out: JsonOption = False) -> None:
                 f"  change: ALARM at deck {ch['alarm']['deck']:,} ({ch['alarm']['statistic']}); "
                 f"the departure began between deck {found['low']:,} and {found['high']:,} "
                 f"(recorded {rows['low']['time']} to {rows['high']['time']}; "
-                f"{found['confidence']:.0%} under the alarming alternative)"
+                f"{percent(found['confidence'])} under the alarming alternative)"
             )
         retro = t["retrospective"]
         if retro is not None and retro["since_when"] is not None:

@@ -18,6 +18,7 @@ from shufflecheck.cli._app import (
     report_progress,
     save_report,
 )
+from shufflecheck.common.numbers import percent
 
 
 @app.command()
@@ -93,7 +94,7 @@ def print_policy(result) -> None:
     label = METRIC_LABELS[p.metric]
     echo(f"Policy: {p.title} ({p.path})")
     echo(
-        f"Target: {label} <= {p.target:g}; lower bounds and intervals at {p.confidence:.0%} "
+        f"Target: {label} <= {p.target:g}; lower bounds and intervals at {percent(p.confidence)} "
         f"confidence; {p.decks:,} simulated decks per procedure."
     )
     echo()

@@ -18,6 +18,7 @@ from shufflecheck.cli._app import (
     progress,
     save_report,
 )
+from shufflecheck.common.numbers import percent
 
 
 class Placement(str, Enum):
@@ -151,7 +152,7 @@ def track(
     echo()
     rows = [
         [
-            f"span holding {result.coverage:.0%} of the slug",
+            f"span holding {percent(result.coverage)} of the slug",
             result.spread.text(),
             result.spread_random.text(),
         ],

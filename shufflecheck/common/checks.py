@@ -13,7 +13,7 @@ import numbers
 
 from shufflecheck.common.errors import InputError
 
-__all__ = ["check_cards", "check_fraction", "check_integer"]
+__all__ = ["check_cards", "check_confidence", "check_fraction", "check_integer"]
 
 
 def _is_integer(value: object) -> bool:
@@ -75,3 +75,12 @@ def check_fraction(
         right = "1]" if closed_high else "1)"
         raise InputError(f"{name} must lie in {left}, {right}, got {value!r}", argument=name)
     return float(value)  # type: ignore[arg-type]
+
+
+def check_confidence(confidence: object, name: str = "confidence") -> float:
+    """A confidence level: a number in ``[0.5, 1)`` (the range of every level the tool
+    states, e.g. ``assess`` and ``power``)."""
+    ok = isinstance(confidence, numbers.Real) and not isinstance(confidence, bool)
+    if not ok or not 0.5 <= float(confidence) < 1:  # type: ignore[arg-type]
+        raise InputError(f"{name} must be in [0.5, 1), got {confidence}", argument=name)
+    return float(confidence)  # type: ignore[arg-type]

@@ -18,7 +18,7 @@ from html import escape
 from pathlib import Path
 from typing import Any
 
-from shufflecheck.common.numbers import p_relation
+from shufflecheck.common.numbers import p_relation, percent
 from shufflecheck.common.sources import (
     HOWARD_RAMDAS_MCAULIFFE_SEKHON,
     PAGE,
@@ -103,7 +103,7 @@ def _change_text(t: dict[str, Any]) -> str:
     low, high = rows.get("low", {}), rows.get("high", {})
     text = (
         f"began between deck {_thousands(found['low'])} and {_thousands(found['high'])} "
-        f"({found['confidence']:.0%} set under the alarming alternative)"
+        f"({percent(found['confidence'])} set under the alarming alternative)"
     )
     if low and high:
         where = (

@@ -21,6 +21,15 @@ The relative standard error of each ``D`` is about twice that of the estimated s
 the mean, ``2 se(mu1) / |mu1 - mu0|``; a test is reported as not detecting the procedure
 when the simulated shift is within 4 standard errors of zero.
 
+**Uncertainty of the count.** ``D`` is an estimate: it rests on the shift of the mean
+estimated from the simulated decks. Its confidence interval at level ``c`` carries the
+Monte Carlo interval of that shift, ``|shift| -+ z se`` with ``z = Phi^-1((1 + c) / 2)``,
+over to the count through the scaling of the normal approximation, ``D ~ |shift|^-2``
+(``D ~ delta^-1`` for the position tests, whose shift ``delta = ||M - J/n||^2`` is already
+squared): ``D_low = D (|shift| / (|shift| + z se))^2`` and ``D_high = D (|shift| / (|shift|
+- z se))^2``, rounded outward to whole decks (no upper end when ``|shift| <= z se``). The
+uncertainty of the procedure's standard deviation, second order, is left out.
+
 References
 ----------
 .. [1] S. Holm, "A simple sequentially rejective multiple test procedure", Scand. J.
@@ -42,10 +51,10 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from shufflecheck.common.checks import check_fraction, check_integer
+from shufflecheck.common.checks import check_confidence, check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
-from shufflecheck.common.quantity import Kind
+from shufflecheck.common.quantity import Kind, Quantity
 from shufflecheck.common.resources import check_memory
 from shufflecheck.stats.catalogue import (
     DeckContext,
@@ -90,12 +99,56 @@ class PowerRow:
     kind: Kind
     detail: str
     note: str
+    exponent: float = 2.0
+    offset: int = 0
 
-    def as_json(self) -> dict[str, Any]:
+    def decks_interval(self, confidence: float = 0.95) -> tuple[int, float] | None:
+        """Confidence interval ``(low, high)`` of the decks needed at level ``confidence``,
+        from the Monte Carlo interval of the estimated shift (module notes): whole decks,
+        rounded outward; ``high`` is ``inf`` when the shift's interval reaches zero. None
+        when no count was found."""
+        if self.decks is None:
+            return None
+        check_confidence(confidence)
+        z = float(stats.norm.isf((1 - confidence) / 2))
+        size = abs(self.shift)
+        spread = z * self.shift_standard_error
+        base = self.decks - self.offset  # pairs of consecutive decks count one less
+        low = base * (size / (size + spread)) ** self.exponent
+        high = base * (size / (size - spread)) ** self.exponent if size > spread else math.inf
+        low_decks = max(1, math.floor(low)) + self.offset
+        high_decks = math.ceil(high) + self.offset if math.isfinite(high) else math.inf
+        return min(low_decks, self.decks), max(high_decks, self.decks)
+
+    def decks_quantity(
+        self, confidence: float = 0.95, *, simulated: int | None = None, unit: str = "decks"
+    ) -> Quantity | None:
+        """The decks needed as a labelled estimate (an integer count with its interval at
+        ``confidence``); None when no test count was found."""
+        found = self.decks_interval(confidence)
+        if found is None:
+            return None
+        source = f" from {simulated:,} simulated {unit}" if simulated else ""
+        return Quantity(
+            self.decks,
+            "estimate",
+            interval=(float(found[0]), float(found[1])),
+            confidence=confidence,
+            unit=unit,
+            count=True,
+            method=f"estimate{source}; interval from the Monte Carlo error of the shift",
+        )
+
+    def as_json(self, confidence: float = 0.95) -> dict[str, Any]:
+        interval = self.decks_interval(confidence)
         return {
             "test": self.test,
             "title": self.title,
             "decks": self.decks,
+            "decks_interval": None
+            if interval is None
+            else [interval[0], interval[1] if math.isfinite(interval[1]) else None],
+            "confidence": confidence,
             "power": self.power,
             "shift_per_deck": self.shift,
             "shift_standard_error": self.shift_standard_error,
@@ -117,6 +170,7 @@ class PowerPlan:
     per_test_level: float
     simulated_decks: int
     rows: tuple[PowerRow, ...]
+    confidence: float = 0.95
 
     def best(self) -> PowerRow | None:
         """The test needing the fewest decks (None if no test detects the procedure)."""
@@ -132,10 +186,11 @@ class PowerPlan:
             "tests_in_battery": self.tests_in_battery,
             "per_test_level": self.per_test_level,
             "simulated_decks": self.simulated_decks,
+            "confidence": self.confidence,
             "fewest_decks": None if best is None else best.decks,
             "fewest_decks_test": None if best is None else best.test,
             "kind": "estimate",
-            "rows": [r.as_json() for r in self.rows],
+            "rows": [r.as_json(self.confidence) for r in self.rows],
         }
 
     def to_dict(self) -> dict[str, Any]:
@@ -146,7 +201,7 @@ class PowerPlan:
         """One row per test: decks needed (an estimate) and its relative standard error."""
         import pandas as pd
 
-        return pd.DataFrame([r.as_json() for r in self.rows])
+        return pd.DataFrame([r.as_json(self.confidence) for r in self.rows])
 
 
 def sum_test_power(
@@ -234,6 +289,7 @@ def plan_decks(
     strategies: Sequence[str] = DEFAULT_STRATEGIES,
     max_decks: int = 10_000_000,
     rng: np.random.Generator | int | None = None,
+    confidence: float = 0.95,
 ) -> PowerPlan:
     """How many recorded decks each test of the battery needs to flag a procedure.
 
@@ -258,6 +314,10 @@ def plan_decks(
         Largest number of decks considered.
     rng : Generator, int or None
         Randomness for the simulation.
+    confidence : float
+        Level of the intervals of the counts (``0.5 <= confidence < 1``, default 0.95):
+        the Monte Carlo interval of each estimated shift carried over to the count (module
+        notes).
 
     Returns
     -------
@@ -265,6 +325,7 @@ def plan_decks(
         One row per test, in battery order; every number is an estimate.
     """
     _check_plan(cards, alpha, power, simulate, max_decks)
+    check_confidence(confidence)
     generator = np.random.default_rng(rng)
     context = DeckContext.checked(cards, suits=suits, colours=colours, strategies=strategies)
     rel = as_decks(sample(simulate, generator), cards=cards, name="simulated decks")
@@ -282,7 +343,7 @@ def plan_decks(
         assert stat.values is not None and stat.law is not None
         x = stat.values(view)
         rows.append(_sum_row(stat, stat.law(context), x, level, power, max_decks))
-    return PowerPlan(cards, alpha, power, m, level, simulate, tuple(rows))
+    return PowerPlan(cards, alpha, power, m, level, simulate, tuple(rows), confidence)
 
 
 def _not_detected(
@@ -334,7 +395,17 @@ def _sum_row(
     decks = found + 1 if pairs else found
     note = "decks = pairs + 1; pairs treated as independent" if pairs else ""
     return PowerRow(
-        spec.name, spec.title, decks, power_at(found), shift, se, rel_se, "estimate", base, note
+        spec.name,
+        spec.title,
+        decks,
+        power_at(found),
+        shift,
+        se,
+        rel_se,
+        "estimate",
+        base,
+        note,
+        offset=1 if pairs else 0,
     )
 
 
@@ -384,6 +455,7 @@ def _position_row(
         "estimate",
         base,
         "shift = ||M - J/n||^2 (squared frequency departure)",
+        exponent=1.0,
     )
 
 
@@ -470,6 +542,7 @@ def plan_shoes(
     simulate: int = 2000,
     max_decks: int = 10_000_000,
     rng: np.random.Generator | int | None = None,
+    confidence: float = 0.95,
 ) -> PowerPlan:
     """How many recorded shoes each test of the shoe battery needs to flag a procedure.
 
@@ -480,10 +553,11 @@ def plan_shoes(
     law depends on the reference, the null of one shoe is the mixture of the shoes' own laws
     over the simulated references, and shoes are treated as independent draws from it (an
     approximation). The position-by-value test uses the noncentral chi-square with
-    ``(n-1)(V-1)`` degrees of freedom.
+    ``(n-1)(V-1)`` degrees of freedom. ``confidence`` is the level of the counts' intervals.
     """
     n = shoe.cards
     _check_plan(n, alpha, power, simulate, max_decks, shoe=True)
+    check_confidence(confidence)
     generator = np.random.default_rng(rng)
     context = DeckContext.checked(n, shoe=shoe)
     words = np.asarray(sample(simulate, generator))
@@ -515,7 +589,7 @@ def plan_shoes(
             assert stat.law is not None
             law = stat.law(context)
         rows.append(_sum_row(stat, law, x, level, power, max_decks))
-    return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows))
+    return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows), confidence)
 
 
 def _counted(keys: np.ndarray) -> list[tuple[int, int]]:
@@ -590,4 +664,5 @@ def _class_position_row(
         "estimate",
         base,
         "shift = sum of squared frequency departures over their shares",
+        exponent=1.0,
     )

@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 from typing import Any
 
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity, exact
 from shufflecheck.common.sources import (
     ALDOUS_DIACONIS_1987,
@@ -69,7 +70,7 @@ def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
             f"distance of a statistic's law from its exact uniform law; events, family "
             f"members and a fitted likelihood-ratio score chosen on the first half of the "
             f"simulated decks, probabilities bounded on the second (Clopper-Pearson, "
-            f"{confidence:.0%} confidence, Bonferroni over the statistics); "
+            f"{percent(confidence)} confidence, Bonferroni over the statistics); "
             "separation >= TV; KL >= 2 TV^2 / ln 2 (Pinsker)",
             (CLOPPER_PEARSON, COVER_THOMAS, DIACONIS_GRAHAM),
         ),

@@ -5,7 +5,12 @@ from __future__ import annotations
 from typing import Any
 
 from shufflecheck.report.builders.policy import policy_report
-from shufflecheck.report.builders.power import power_curves, power_methods, power_section
+from shufflecheck.report.builders.power import (
+    power_curves,
+    power_level,
+    power_methods,
+    power_section,
+)
 from shufflecheck.report.document import Report
 from shufflecheck.report.provenance import Provenance
 
@@ -30,7 +35,12 @@ def demo_report(demo, *, payload: dict[str, Any], provenance: Provenance) -> Rep
     """Build the demo report (``demo`` is a :class:`shufflecheck.analyses.demo.DemoResult`)."""
     from shufflecheck.report.figures import power_figure
 
-    figure = power_figure(power_curves(demo.power), x_name="ideal riffles", name="power")
+    figure = power_figure(
+        power_curves(demo.power),
+        x_name="ideal riffles",
+        name="power",
+        level=power_level(demo.power),
+    )
     planning = power_section(demo.power, "riffle", figure=figure)
     extra = [planning]
     methods = list(power_methods())

@@ -66,8 +66,7 @@ def mixing_report(
         if k is not None:
             row = curve.rows[k - 1]
             answer.append(
-                f"{k} {steps_word} bring {label} to at most {target:g}: "
-                f"{_row_cell(row, metric)}."
+                f"{k} {steps_word} bring {label} to at most {target:g}: {_row_cell(row, metric)}."
             )
         else:
             answer.append(

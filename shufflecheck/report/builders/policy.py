@@ -111,7 +111,12 @@ def policy_figure(result):
         "kl_bits": "KL divergence (bits)",
     }[metric]
     return distance_figure(
-        curves, target=result.policy.target, metric=label, steps_name="repetitions", name="policy"
+        curves,
+        target=result.policy.target,
+        metric=label,
+        steps_name="repetitions",
+        name="policy",
+        level=result.policy.confidence,  # the level the policy's bounds and intervals use
     )
 
 

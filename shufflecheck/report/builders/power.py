@@ -2,36 +2,29 @@
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
-from shufflecheck.common.quantity import estimate
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM, HOLM, STANLEY
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
-__all__ = ["decks_value", "power_curves", "power_report", "power_section"]
+__all__ = ["decks_value", "power_curves", "power_level", "power_report", "power_section"]
 
 
-def decks_value(row, level: float = 0.95):
-    """Decks needed as a labelled estimate (with an interval from the simulation's relative
-    standard error), or text when no test detects the procedure."""
+def decks_value(row, level: float = 0.95, *, simulated: int | None = None, unit: str = "decks"):
+    """Decks needed as a labelled estimate: an integer count with its interval at ``level``
+    (:meth:`~shufflecheck.stats.power.PowerRow.decks_interval`), or text when no test
+    detects the procedure."""
     if row.decks is None:
         return "not detected"
-    rse = row.relative_standard_error
-    if rse is None or not math.isfinite(rse):
-        return f"{row.decks:,} (estimate)"
-    z = 1.959963984540054 if level == 0.95 else 2.5758293035489
-    low = max(1.0, row.decks * (1 - z * rse))
-    high = row.decks * (1 + z * rse)
-    return estimate(
-        float(row.decks), interval=(low, high), confidence=level, unit="decks", digits=3
-    )
+    return row.decks_quantity(level, simulated=simulated, unit=unit)
 
 
 def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
     """One curve per test, decks needed against the repetition count, for the ``top`` tests
-    that need the fewest decks (summed over the repetition counts they detect)."""
+    that need the fewest decks (summed over the repetition counts they detect); the bands
+    are the counts' intervals at each plan's confidence."""
 
     def need(test: str) -> tuple[int, float]:
         decks = [next(x for x in plan.rows if x.test == test).decks for _, plan in plans]
@@ -47,9 +40,9 @@ def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
             title = row.title
             xs.append(r)
             decks.append(row.decks)
-            rse = row.relative_standard_error or 0.0
-            low.append(None if row.decks is None else max(1.0, row.decks * (1 - 1.96 * rse)))
-            high.append(None if row.decks is None else row.decks * (1 + 1.96 * rse))
+            interval = row.decks_interval(plan.confidence)
+            low.append(None if interval is None else float(interval[0]))
+            high.append(None if interval is None else float(interval[1]))
         if all(d is None for d in decks):
             continue
         curves.append(
@@ -58,11 +51,23 @@ def power_curves(plans: list[tuple[int, Any]], top: int = 5) -> list[dict]:
     return curves
 
 
+def power_level(plans: list[tuple[int, Any]]) -> float:
+    """The confidence level of the plans' intervals (one level for all of them)."""
+    return plans[0][1].confidence
+
+
 def power_section(plans: list[tuple[int, Any]], procedure: str, *, figure=None) -> Section:
     rows = []
     for r, plan in plans:
         for row in sorted(plan.rows, key=lambda x: (x.decks is None, x.decks or 0)):
-            rows.append((str(r), row.title, decks_value(row), row.note or ""))
+            rows.append(
+                (
+                    str(r),
+                    row.title,
+                    decks_value(row, plan.confidence, simulated=plan.simulated_decks),
+                    row.note or "",
+                )
+            )
     first = plans[0][1]
     table = Table(
         f"Recorded decks needed to flag '{procedure}' "
@@ -74,6 +79,9 @@ def power_section(plans: list[tuple[int, Any]], procedure: str, *, figure=None) 
             f"{first.tests_in_battery} tests, conservative for Holm's method).",
             f"Laws under the procedure estimated from {first.simulated_decks:,} simulated decks; "
             "null laws exact.",
+            f"Intervals ({percent(first.confidence)}) carry the Monte Carlo error of the "
+            "simulated shift of each test's mean over to the count, rounded outward to whole "
+            "decks.",
             "Colour and suit runs are planned for decks that start in new-deck order; when each "
             "deck starts from the previous one, those two tests detect less.",
         ),
@@ -118,9 +126,11 @@ def power_report(
         if best is None:
             answer.append(f"{procedure} x{r}: no test detects it within the search range.")
         else:
+            shown = best.decks_quantity(plan.confidence, simulated=plan.simulated_decks)
             answer.append(
-                f"{procedure} x{r}: about {best.decks:,} recorded decks (estimate) let the "
-                f"{best.title} test flag it with power {plan.power:g}."
+                f"{procedure} x{r}: {shown.number_text()} recorded (estimate from "
+                f"{plan.simulated_decks:,} simulated decks) let the {best.title} test flag it "
+                f"with power {plan.power:g}."
             )
     return Report(
         title=f"Audit planning: {procedure}",

@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import exact
 from shufflecheck.common.sources import (
     BAYER_DIACONIS,
@@ -172,7 +173,7 @@ def _parameters_table(fit) -> Table:
             ),
         ),
         notes=(
-            f"Intervals: profile likelihood at {est.confidence:.0%}; standard errors from the "
+            f"Intervals: profile likelihood at {percent(est.confidence)}; standard errors from the "
             "observed information. Both are large-sample approximations.",
             "The clump parameterisation is the project's own (docs/models.md); clump = 1 with "
             "a binomial cut is the ideal riffle.",

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from shufflecheck.common.numbers import percent
 from shufflecheck.common.sources import BAYER_DIACONIS, CLOPPER_PEARSON, TRADE_PRACTICE
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
@@ -16,7 +17,7 @@ def tracking_table(result) -> Table:
     slug = result.slug[1]
     rows = (
         (
-            f"span holding {result.coverage:.0%} of the slug (cards)",
+            f"span holding {percent(result.coverage)} of the slug (cards)",
             result.spread,
             result.spread_random,
         ),
