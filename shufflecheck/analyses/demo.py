@@ -68,10 +68,10 @@ def demo_work() -> int:
     return policy_work(load_policy(demo_folder() / "policy.toml"))
 
 
-def run_shoe_game(seed: int) -> ShoeGame:
+def run_shoe_game(seed: int, confidence: float = 0.95) -> ShoeGame:
     """Harbour Twenty-One (invented): audit the batch machine's shoes for the blackjack
     values, and follow a 52-card slug through the dealers' hand grab shuffle (simulated and
-    in the recorded hand-shuffled shoes)."""
+    in the recorded hand-shuffled shoes), with intervals at ``confidence``."""
     from shufflecheck.analyses.audit_log import audit_log
     from shufflecheck.analyses.tracking import recorded_exposure, tracking_exposure
     from shufflecheck.models.procedures import load_procedure
@@ -84,8 +84,10 @@ def run_shoe_game(seed: int) -> ShoeGame:
         folder / SHOE_MACHINE_LOG, deck=shoe, feature=SHOE_FEATURE, time="recorded_at"
     )
     hand = load_procedure(folder / SHOE_HAND_PROCEDURE)
-    tracked = tracking_exposure(hand, shoe.size, shoes=SHOE_TRACKED_SHOES, rng=seed)
-    recorded = recorded_exposure(folder / SHOE_HAND_LOG, shoe, rng=seed)
+    tracked = tracking_exposure(
+        hand, shoe.size, shoes=SHOE_TRACKED_SHOES, rng=seed, confidence=confidence
+    )
+    recorded = recorded_exposure(folder / SHOE_HAND_LOG, shoe, rng=seed, confidence=confidence)
     return ShoeGame(machine, tracked, recorded, seed)
 
 
@@ -104,4 +106,4 @@ def run_demo(*, progress: Callable[[int], None] | None = None) -> DemoResult:
         seed=seed,
         confidence=policy.confidence,  # the policy's level for every interval
     )
-    return DemoResult(result, plans, seed, run_shoe_game(seed))
+    return DemoResult(result, plans, seed, run_shoe_game(seed, policy.confidence))

@@ -150,6 +150,11 @@ def spectrum(
 
 
 def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bool) -> None:
+    """Terminal or JSON view. Multiplicities are exact integers: in full with thousands
+    separators in the terminal, and in the JSON both as a JSON integer (``multiplicity``,
+    exact: JSON numbers have no size limit and Python reads them exactly) and as its decimal
+    digits (``multiplicity_text``) for readers that turn numbers beyond 2^53 into floats."""
+    from shufflecheck.common.numbers import format_count, format_number
     from shufflecheck.report.render.terminal import format_table
 
     if json_out:
@@ -162,6 +167,7 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
                         "eigenvalue": float(r.value),
                         "eigenvalue_exact": str(r.value),
                         "multiplicity": r.multiplicity,
+                        "multiplicity_text": str(r.multiplicity),
                         "shapes": [list(s) for s in r.shapes],
                     }
                     for r in rows
@@ -176,7 +182,9 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
         shown = ", ".join(f"({format_partition(s)})" for s in r.shapes[:shapes_shown])
         if len(r.shapes) > shapes_shown:
             shown += f", ... ({len(r.shapes)} shapes)"
-        table_rows.append([f"{float(r.value):.6f}", str(r.value), _big(r.multiplicity), shown])
+        table_rows.append(
+            [format_number(float(r.value), 6), str(r.value), format_count(r.multiplicity), shown]
+        )
     echo(f"Spectrum of {model} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
     echo(format_table(["eigenvalue", "exact", "multiplicity", "shapes"], table_rows, align="rlrl"))
 
@@ -196,11 +204,3 @@ def _exact_digits():
         yield
     finally:
         sys.set_int_max_str_digits(before)
-
-
-def _big(value: int) -> str:
-    """Exact digits when short, otherwise scientific notation built from the digits."""
-    text = str(value)
-    if len(text) <= 15:
-        return text
-    return f"{text[0]}.{text[1:7]}e+{len(text) - 1}"

@@ -225,7 +225,10 @@ class Quantity:
 
     def _count_text(self, unit: str) -> str:
         """``about 2,563 decks (95% CI 2,410 to 2,730)``: an estimated count in integers."""
-        text = f"about {round(self.value):,}{unit}"
+        count = round(self.value)
+        if count == 1 and unit.endswith("s"):  # "about 1 deck"
+            unit = unit[:-1]
+        text = f"about {count:,}{unit}"
         parts = []
         if self.interval is not None and self.confidence is not None:
             parts.append(f"{percent(self.confidence)} CI {count_interval_text(*self.interval)}")

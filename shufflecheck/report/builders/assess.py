@@ -30,7 +30,8 @@ def as_value(q: Quantity | None, *, digits: int = 4) -> Quantity | None:
 def _distance_cells(row, metric: str) -> tuple[Quantity | None, Quantity | None]:
     """(lower, upper) cells, or (exact, exact) when the row is exact."""
     if row.exact is not None:
-        value = exact(row.exact.value(metric))
+        gap = row.exact.below_one(metric)  # 1 - value in exact integers, where known
+        value = exact(row.exact.value(metric), below_one=gap if gap and gap <= 1 else None)
         return value, value
     return as_value(row.lower.get(metric)), as_value(row.upper.get(metric))
 
