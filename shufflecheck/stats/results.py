@@ -100,7 +100,10 @@ class TestResult:
         return {
             "name": self.name,
             "title": self.title,
-            "statistic": self.statistic,
+            # a sum of per-deck counts is a whole number: an integer in the JSON too
+            "statistic": int(self.statistic)
+            if math.isfinite(self.statistic) and float(self.statistic).is_integer()
+            else self.statistic,
             "p_value": max(self.p_value, P_FLOOR),
             "p_adjusted": max(self.p_adjusted, P_FLOOR),
             "p_below_floor": self.log10_p_value < math.log10(P_FLOOR),
