@@ -581,12 +581,17 @@ def assessment_json(result: Assessment) -> dict:
     def distances(row):
         if row is None:
             return None
-        return {
+        out = {
             "total_variation": row.total_variation,
             "separation": row.separation,
             "kl_bits": row.kl_bits,
             "kind": row.kind,
         }
+        for metric in ("total_variation", "separation"):  # 1 - value in exact integers
+            gap = getattr(row, f"{metric}_below_one", None)
+            if gap is not None:
+                out[f"{metric}_below_one"] = gap
+        return out
 
     rows = []
     for row in result.rows:

@@ -149,17 +149,19 @@ def assess(
         echo(f"Wrote report {written}")
 
 
-def _num(value: float, rounding: str = "nearest") -> str:
-    """Four significant digits; bounds rounded outward (never claiming more than proven)."""
+def _num(value: float, rounding: str = "nearest", below_one: float | None = None) -> str:
+    """Four significant digits; bounds rounded outward (never claiming more than proven);
+    a value below 1 never reads 1 (``below_one``: ``1 - value`` exactly, where known)."""
     from shufflecheck.common.numbers import format_number
 
-    return format_number(float(value), 4, rounding)
+    return format_number(float(value), 4, rounding, below_one=below_one)
 
 
 def _range(row, metric: str) -> tuple[str, str]:
     """(value text, how) for one metric of one row."""
     if row.exact is not None:
-        return f"= {_num(row.exact.value(metric))}", "exact"
+        gap = row.exact.below_one(metric)
+        return f"= {_num(row.exact.value(metric), below_one=gap)}", "exact"
     low = row.lower.get(metric)
     high = row.upper.get(metric)
     lo = _num(low.value, "down") if low is not None else "0"

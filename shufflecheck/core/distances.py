@@ -60,6 +60,7 @@ __all__ = [
     "distances_from_groups",
     "kl_term",
     "minimum_steps",
+    "row_from_groups",
 ]
 
 
@@ -247,6 +248,39 @@ def distances_from_groups(
     assert min_numerator is not None
     separation = (scale - min_numerator * n_factorial) / scale
     return float(tv), float(separation), kl_nats / math.log(2)
+
+
+def row_from_groups(
+    steps: int,
+    counts: Sequence[int],
+    numerators: Sequence[int],
+    denominator: int,
+    n_factorial: int,
+    note: str = "",
+) -> DistanceRow:
+    """The exact :class:`DistanceRow` of a law constant on groups (see
+    :func:`distances_from_groups`), with ``1 - TV = sum_sigma min(P, U)`` and
+    ``1 - separation = n! min P`` from the same integers, so values a float rounds to 1
+    keep their distance to 1."""
+    tv, sep, kl = distances_from_groups(counts, numerators, denominator, n_factorial)
+    overlap = 0  # sum of count * min(numerator * n!, denominator), over denominator * n!
+    least = None
+    for count, numerator in zip(counts, numerators, strict=True):
+        if count == 0:
+            continue
+        overlap += count * min(numerator * n_factorial, denominator)
+        least = numerator if least is None else min(least, numerator)
+    assert least is not None
+    return DistanceRow(
+        steps,
+        tv,
+        sep,
+        kl,
+        "exact",
+        note,
+        total_variation_below_one=overlap / (denominator * n_factorial),
+        separation_below_one=least * n_factorial / denominator,
+    )
 
 
 def _ratio(numerator: int, denominator: int) -> float:

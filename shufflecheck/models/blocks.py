@@ -28,6 +28,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 from functools import cache
@@ -247,10 +248,10 @@ def procedure_blocks(procedure: Procedure, repeats: int, cards: int) -> Procedur
             math.log2(fact),
             "exact",
             "fixed rearrangement",
+            total_variation_below_one=1 / fact if cards < 171 else 0.0,
+            separation_below_one=0.0,
         )
     elif len(random_groups) == 1 and random_groups[0][1] is not None:
         row = random_groups[0][1].distances
-        whole = DistanceRow(
-            repeats, row.total_variation, row.separation, row.kl_bits, "exact", row.note
-        )
+        whole = dataclasses.replace(row, steps=repeats, kind="exact")
     return ProcedureBlocks(repeats, tuple(blocks), whole, tuple(unanalysed), packets, riffle_groups)

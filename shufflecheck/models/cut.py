@@ -45,7 +45,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_1988
-from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, row_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -226,8 +226,9 @@ def exact_distances(
     numerators, denominator = rotation_law(cards, times, spread=spread, least=least)
     fact = math.factorial(cards)
     counts = [1] * cards + [fact - cards]
-    tv, sep, kl = distances_from_groups(counts, [*numerators, 0], denominator, fact)
-    return DistanceRow(times, tv, sep, kl, "exact", "law on the n rotations")
+    return row_from_groups(
+        times, counts, [*numerators, 0], denominator, fact, "law on the n rotations"
+    )
 
 
 def chi_square(

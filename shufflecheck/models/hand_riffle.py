@@ -67,7 +67,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import BAYER_DIACONIS, DIACONIS_GRAHAM_KANTOR, GILBERT_REEDS
-from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, row_from_groups
 from shufflecheck.models import riffle
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
@@ -215,8 +215,14 @@ def exact_distances(
     if steps != 1 or cards > riffle.MAX_EXACT_CARDS:
         return None
     counts, numerators, denominator = _one_step_groups(cards, spread)
-    tv, sep, kl = distances_from_groups(counts, numerators, denominator, math.factorial(cards))
-    return DistanceRow(1, tv, sep, kl, "exact", "uniform interleavings given the cut")
+    return row_from_groups(
+        1,
+        counts,
+        numerators,
+        denominator,
+        math.factorial(cards),
+        "uniform interleavings given the cut",
+    )
 
 
 def _one_step_groups(cards: int, spread: float) -> tuple[list[int], list[int], int]:

@@ -52,7 +52,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import PEMANTLE
-from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, chi_square_from_groups, row_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
 from shufflecheck.models.registry import ModelEntry, register_model
@@ -173,8 +173,9 @@ def exact_distances(
     fact = math.factorial(cards)
     counts.append(fact - 2**gaps)
     numerators.append(0)
-    tv, sep, kl = distances_from_groups(counts, numerators, d**gaps, fact)
-    return DistanceRow(1, tv, sep, kl, "exact", "one strip: boundaries are the descents")
+    return row_from_groups(
+        1, counts, numerators, d**gaps, fact, "one strip: boundaries are the descents"
+    )
 
 
 def chi_square(

@@ -32,7 +32,7 @@ import numpy as np
 from shufflecheck.common.checks import check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.sources import DIACONIS_1988, TRADE_PRACTICE
-from shufflecheck.core.distances import DistanceRow, distances_from_groups
+from shufflecheck.core.distances import DistanceRow, row_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
 from shufflecheck.models.permute import apply_in_blocks, apply_sources
@@ -112,8 +112,9 @@ class Plug(Step):
         fact = math.factorial(cards)
         counts = [1] * len(support) + [fact - len(support)]
         numerators = [*support, 0]
-        tv, sep, kl = distances_from_groups(counts, numerators, sum(support), fact)
-        return DistanceRow(1, tv, sep, kl, "exact", "one plug: one arrangement per depth")
+        return row_from_groups(
+            1, counts, numerators, sum(support), fact, "one plug: one arrangement per depth"
+        )
 
 
 def sample(

@@ -76,7 +76,7 @@ from shufflecheck.core.distances import (
     DistanceRow,
     MixingCurve,
     chi_square_from_groups,
-    distances_from_groups,
+    row_from_groups,
 )
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.permute import apply_in_blocks, key_dtype, label_bits
@@ -239,8 +239,14 @@ def exact_distances(cards: int, passes: int, *, shelves: int = 10) -> DistanceRo
         return DistanceRow(0, float(1 - Fraction(1, fact)), 1.0, math.log2(fact), "exact")
     m = equivalent_shelves(shelves, passes)
     numerators = valley_numerators(cards, m)
-    tv, sep, kl = distances_from_groups(valley_counts(cards), numerators, (2 * m) ** cards, fact)
-    return DistanceRow(passes, tv, sep, kl, "exact", f"valley law, {m} equivalent shelves")
+    return row_from_groups(
+        passes,
+        valley_counts(cards),
+        numerators,
+        (2 * m) ** cards,
+        fact,
+        f"valley law, {m} equivalent shelves",
+    )
 
 
 def chi_square(cards: int, passes: int, *, shelves: int = 10) -> tuple[float, float]:

@@ -51,7 +51,7 @@ from shufflecheck.core.distances import (
     DistanceRow,
     MixingCurve,
     chi_square_from_groups,
-    distances_from_groups,
+    row_from_groups,
 )
 from shufflecheck.models.base import Step
 from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks, invert
@@ -218,8 +218,7 @@ def _integer_rows(
         # S(k, d) = d S(k-1, d) + S(k-1, d-1)
         stirling = [0] + [d * stirling[d] + stirling[d - 1] for d in range(1, cards + 1)]
         den *= cards
-        tv, sep, kl = distances_from_groups(counts, _numerators(stirling, cards), den, fact)
-        rows.append(DistanceRow(k, tv, sep, kl, "exact"))
+        rows.append(row_from_groups(k, counts, _numerators(stirling, cards), den, fact))
         tail = float(Fraction(den - fact * stirling[cards], den))
         bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
         if progress is not None:

@@ -478,7 +478,7 @@ def class_law_fourier(
 
 
 def _fourier_rows(cards: int, max_steps: int, hold: Fraction | None) -> tuple[DistanceRow, ...]:
-    from shufflecheck.core.distances import distances_from_groups
+    from shufflecheck.core.distances import row_from_groups
 
     fact = math.factorial(cards)
     rows = []
@@ -489,8 +489,9 @@ def _fourier_rows(cards: int, max_steps: int, hold: Fraction | None) -> tuple[Di
         den = math.lcm(*(p.denominator for p in probs))
         # per arrangement: P(mu) / |C_mu| = P(mu) z_mu / n!
         nums = [int(p * den * z(mu)) for mu, p in law.items()]
-        tv, sep, kl = distances_from_groups(counts, nums, den * fact, fact)
-        rows.append(DistanceRow(k, tv, sep, kl, "exact", "Fourier inversion, exact rationals"))
+        rows.append(
+            row_from_groups(k, counts, nums, den * fact, fact, "Fourier inversion, exact rationals")
+        )
     return tuple(rows)
 
 
