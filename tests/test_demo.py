@@ -217,3 +217,26 @@ class TestDemoAnswers:
         # Bayer & Diaconis (1992): 9 riffles first bring TV to at most 0.1; 7 do not
         assert yardstick["minimum"] == 9 and yardstick["kind"] == "exact"
         assert yardstick["standing"] == "fails"
+
+
+class TestDemoNumbers:
+    """Issue 14, numbers: the demo's report states the level it used, counts in integers."""
+
+    def test_one_confidence_level_everywhere(self, first, report):
+        out, result = first
+        assert report["data"]["policy"]["confidence"] == 0.99  # demo_data/policy.toml
+        for name in ("report.md", "report.html"):
+            text = (out / name).read_text(encoding="utf-8")
+            assert "95%" not in text, name  # every caption, table and sentence says 99%
+            assert "99% confidence band" in text  # Figure 1's caption
+        assert "95%" not in result.stdout
+
+    def test_counts_and_p_values(self, first):
+        out, result = first
+        text = (out / "report.md").read_text(encoding="utf-8")
+        assert not re.search(r"\d\.\d+ decks", text)  # no fractional deck counts
+        assert "e-4846" not in text and "\\< 1e-300" in text  # floor in Markdown
+        html = (out / "report.html").read_text(encoding="utf-8")
+        assert "&lt; 1e-300" in html
+        assert "| 4 | 0.99999953 | 0.99999953 |" in text  # the yardstick's exact TV, 4 riffles
+        assert "about 1 recorded deck lets" in result.stdout and "99% CI" in result.stdout

@@ -91,11 +91,15 @@ def demo(
     for r, plan in result.power:
         best = plan.best()
         if best is not None:
+            from shufflecheck.common.numbers import count_interval_text, percent
+
             verb = "let" if best.decks != 1 else "lets"
             decks = f"{best.decks:,} recorded deck{'s' if best.decks != 1 else ''}"
+            low, high = best.decks_interval(plan.confidence)
             echo(
                 f"Audit planning: after {r} ideal riffles, about {decks} {verb} an audit flag "
-                f"the deck ({best.title}; estimate)."
+                f"the deck ({best.title}; estimate from {plan.simulated_decks:,} simulated "
+                f"decks, {percent(plan.confidence)} CI {count_interval_text(low, high)})."
             )
     if result.shoes is not None:
         game = result.shoes

@@ -179,7 +179,7 @@ class BatteryResult:
         """One line: flagged or not, and by which test."""
         if not self.flagged:
             return (
-                f"no test flags the {self.decks} {self.unit}s at family-wise level "
+                f"no test flags the {self.decks:,} {self.unit}s at family-wise level "
                 f"{self.alpha:g} (Holm); this is not proof of randomness"
             )
         worst = self.by_adjusted_p()[0]

@@ -84,8 +84,8 @@ def describe(
         )
     after = decks - point.start
     return (
-        f"the departure in {what} most likely began at {unit} {point.start + 1} of {decks} "
-        f"(the {after} {unit}s from there average {point.mean_after:.3g} vs {expected:.3g} "
+        f"the departure in {what} most likely began at {unit} {point.start + 1:,} of {decks:,} "
+        f"(the {after:,} {unit}s from there average {point.mean_after:.3g} vs {expected:.3g} "
         f"expected, those before {point.mean_before:.3g}); estimate, scan Z = "
         f"{point.statistic:.1f}"
     )
