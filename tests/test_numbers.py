@@ -177,6 +177,29 @@ class TestRiffleBelowOne:
         assert "0.99999953" in html and "1 - 5.6e-53" in html
 
 
+class TestChainBelowOne:
+    def test_transposition_chain_brute_force(self):
+        # brute force over all 5! arrangements (tests/_brute.py, uniform pairs with holding)
+        from tests._brute import transposition_outcomes
+
+        data = command_json("mix", "transposition", "--cards", 5, "--max-steps", 3)
+        assert "total_variation_below_one" in data["rows"][0]
+        for row in data["rows"]:
+            tv, _, _ = distances(law_after(transposition_outcomes(5), 5, row["steps"]), 5)
+            # kept while TV > 1/2 (below, 1 - TV of the float is exact enough)
+            gap = row.get("total_variation_below_one", 1 - row["total_variation"])
+            assert gap == pytest.approx(float(1 - tv), rel=1e-9)
+
+    def test_transposition_52_never_prints_one(self):
+        # after one step of 52 cards only 1 + C(52, 2) arrangements are reachable, each
+        # more likely than 1/52!: 1 - TV = 1327/52! (Diaconis & Shahshahani 1981 model)
+        data = command_json("mix", "transposition", "--cards", 52, "--max-steps", 1)
+        gap = data["rows"][0]["total_variation_below_one"]
+        assert gap == pytest.approx(1327 / math.factorial(52), rel=1e-9)
+        text = run("mix", "transposition", "--cards", 52, "--max-steps", 1).stdout
+        assert "1 - 1.6e-65" in text
+
+
 class TestCounts:
     def test_count_estimate_text(self):
         q = estimate(2563, interval=(2410.2, 2729.1), confidence=0.95, unit="decks", count=True)

@@ -351,6 +351,9 @@ class _ClassLawDistances:
         self.tail = {bounds[i]: math.fsum(blocks[i:]) for i in range(len(blocks))}
         #: the smallest ``t`` of the last law measured (0 while some state is empty)
         self.lowest = 0.0
+        #: ``1 - TV = sum min(P, U)`` of the last law, summed directly (no cancellation)
+        #: while TV > 1/2, where ``1 - TV`` of the float would lose its digits; else None
+        self.overlap: float | None = None
 
     def __call__(self, law: np.ndarray, support: int | None = None) -> tuple[float, float, float]:
         states = len(law)
@@ -360,6 +363,10 @@ class _ClassLawDistances:
         np.subtract(p, uniform, out=w)
         np.abs(w, out=w)
         tv = 0.5 * (float(w.sum()) + (self.tail[s] if s < states else 0.0))
+        self.overlap = None
+        if tv > 0.5:  # the states beyond the support hold no mass: they add nothing
+            np.minimum(p, uniform, out=w)
+            self.overlap = float(w.sum())
         np.multiply(p, self.z[:s], out=t)
         low = float(t.min()) if s == states else 0.0
         self.lowest = low
@@ -434,7 +441,18 @@ def _chain_rows(
                 if head.min() < 1e-300:
                     np.putmask(head, head < 1e-300, 0.0)
             tv, sep, kl = distances(law, support)
-            rows.append(DistanceRow(k, tv, sep, kl, "exact", "lumped chain, double precision"))
+            rows.append(
+                DistanceRow(
+                    k,
+                    tv,
+                    sep,
+                    kl,
+                    "exact",
+                    "lumped chain, double precision",
+                    total_variation_below_one=distances.overlap,
+                    separation_below_one=distances.lowest,
+                )
+            )
             if progress is not None:
                 progress(k)
     return tuple(rows)
