@@ -328,6 +328,15 @@ class TestMixTargets:
             ).stdout
         )
 
+    def test_feature_range_extended(self):
+        # colour word of 52 cards: bounded by the distinct-card separation, 1 - prod_{i<52}
+        # (1 - i/2^k) (Bayer & Diaconis 1992), 0.0101 after 17 riffles and 0.0050 after 18
+        data = command_json(
+            "mix", "riffle", "--feature", "colour", "--metric", "separation", "--target", 0.01
+        )
+        assert data["minimum_steps"] == {"separation": 18}
+        assert data["range_extended_from"] == 14 and len(data["rows"]) == 18
+
     @pytest.mark.parametrize(
         ("model", "cards"), [("top-to-random", 10), ("shelf", 52), ("transposition", 10)]
     )

@@ -216,7 +216,7 @@ def _mix_feature(
     """``mix riffle --feature F``: labelled distances of the word a game sees."""
     from shufflecheck.common.errors import InputError
     from shufflecheck.models import default_max_steps
-    from shufflecheck.models.features import feature_curve
+    from shufflecheck.models.features import feature_curve_until
     from shufflecheck.records.cards import load_deck
     from shufflecheck.records.shoes import load_shoe, shoe
 
@@ -234,10 +234,20 @@ def _mix_feature(
     classes = definition.feature_classes(feature)
     words = sorted(classes.tolist()) if start == "blocks" else classes.tolist()
     feat = definition.feature(feature)
-    steps = max_steps if max_steps is not None else default_max_steps("riffle", definition.size)
-    curve = feature_curve(
-        words, steps, hands=hands, feature=feature, start_name=start, names=feat.names
+    default = default_max_steps("riffle", definition.size)
+    curve = feature_curve_until(
+        words,
+        default,
+        goal,
+        chosen,
+        max_steps=max_steps,
+        hands=hands,
+        feature=feature,
+        start_name=start,
+        names=feat.names,
     )
+    steps = len(curve.rows)
+    extended = default if steps > default else None
     minimum = {chosen: curve.minimum(chosen, goal)}
     payload = {
         "model": model,
@@ -253,6 +263,7 @@ def _mix_feature(
         "metric": chosen,
         "rows": [row.as_json() for row in curve.rows],
         "minimum_steps": minimum,
+        "range_extended_from": extended,
         "caution": caution("the idealised model"),
     }
     if plot is not None or report is not None:
@@ -306,6 +317,11 @@ def _mix_feature(
     if goal is not None:  # the target applies to the chosen metric only
         label = _LABELS[chosen]
         k = minimum[chosen]
+        if extended is not None:
+            echo(
+                f"No --max-steps given and {label} <= {goal:g} was not met within the default "
+                f"{extended} riffles: the range was extended to {steps} riffles."
+            )
         if k is None:
             echo(f"Minimum riffles for {label} <= {goal:g}: not certified within {steps}")
         else:

@@ -60,7 +60,7 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from fractions import Fraction
 from functools import cache
 
@@ -78,6 +78,7 @@ __all__ = [
     "FeatureDistances",
     "block_separation",
     "feature_curve",
+    "feature_curve_until",
     "feature_distances",
     "in_blocks",
     "small_deck_law",
@@ -368,3 +369,35 @@ def feature_curve(
     counts = _class_counts(values)
     rows = tuple(feature_distances(values, k, hands=hands) for k in range(1, max_steps + 1))
     return FeatureCurve(feature, start_name, len(values), hands, tuple(names), counts, rows)
+
+
+def feature_curve_until(
+    start: Sequence[int],
+    default_steps: int,
+    target: float | None,
+    metric: str,
+    *,
+    max_steps: int | None = None,
+    hands: int = 2,
+    feature: str = "",
+    start_name: str = "",
+    names: Sequence[str] = (),
+) -> FeatureCurve:
+    """:func:`feature_curve` over ``max_steps`` riffles when given; otherwise over
+    ``default_steps``, doubled up to the exact riffle law's limit
+    (:data:`~shufflecheck.models.riffle.MAX_EXACT_STEPS`) until ``metric`` (exact or upper
+    bound) meets ``target``, then cut back to the first step meeting it (never below
+    ``default_steps``); ``len(curve.rows) > default_steps`` says the range was extended."""
+    options = {"hands": hands, "feature": feature, "start_name": start_name, "names": names}
+    if max_steps is not None or target is None:
+        return feature_curve(start, default_steps if max_steps is None else max_steps, **options)
+    most = max(default_steps, riffle.MAX_EXACT_STEPS)
+    steps = default_steps
+    while True:
+        curve = feature_curve(start, steps, **options)
+        first = curve.minimum(metric, target)
+        if first is not None and steps > default_steps:
+            return replace(curve, rows=curve.rows[: max(default_steps, first)])
+        if first is not None or steps >= most:
+            return curve
+        steps = min(2 * steps, most)
