@@ -16,11 +16,13 @@ from sympy.functions.combinatorial.numbers import stirling
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import (
+    BELOW_FLOAT_RANGE,
     count_interval_text,
     format_count,
     format_measure,
     format_number,
     format_p_value,
+    gap_float,
     p_relation,
 )
 from shufflecheck.common.quantity import Quantity, estimate, exact, upper_bound
@@ -137,6 +139,15 @@ class TestRiffleBelowOne:
         for n in (5, 13, 52):
             gap = exact_distances(n, 1).total_variation_below_one
             assert gap == pytest.approx(float(Fraction(2**n - n, math.factorial(n))), rel=1e-12)
+
+    def test_below_the_double_range(self):
+        # a 312-card shoe after one riffle: 1 - TV = (2^312 - 312)/312!, about 10^-549
+        # (Bayer & Diaconis 1992, as above): positive, below any double
+        assert gap_float(2**312 - 312, math.factorial(312)) == BELOW_FLOAT_RANGE > 0
+        data = command_json("mix", "riffle", "--cards", 312, "--max-steps", 1)
+        assert data["rows"][0]["total_variation_below_one"] > 0
+        text = run("mix", "riffle", "--cards", 312, "--max-steps", 1).stdout
+        assert "1 - (< 1e-300)" in text
 
     @pytest.mark.parametrize("n", [4, 5])
     def test_brute_force(self, n):

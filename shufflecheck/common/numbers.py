@@ -14,6 +14,7 @@ from typing import Any
 from shufflecheck.common.errors import InputError
 
 __all__ = [
+    "BELOW_FLOAT_RANGE",
     "P_FLOOR",
     "count_interval_text",
     "decimals_for",
@@ -21,6 +22,7 @@ __all__ = [
     "format_measure",
     "format_number",
     "format_p_value",
+    "gap_float",
     "json_number",
     "p_relation",
     "percent",
@@ -33,6 +35,10 @@ P_FLOOR = 1e-300
 _LOG10_P_FLOOR = -300.0
 #: below this distance from 1 a value is written ``1 - 4.7e-16`` rather than in decimals
 _GAP_DECIMALS = 1e-9
+#: ``below_one`` for a distance to 1 that is known to be positive but is below the double
+#: range (total variation of a 312-card shoe after one riffle: ``(2^312 - 312)/312!``);
+#: shown as ``1 - (< 1e-300)``
+BELOW_FLOAT_RANGE = math.ulp(0.0)
 
 
 def format_number(
@@ -95,8 +101,17 @@ def _format_plain(x: int | float, digits: int, rounding: str) -> str:
     return scientific
 
 
+def gap_float(numerator: int, denominator: int) -> float:
+    """``numerator / denominator`` (a distance to 1 in exact integers) as a float; a
+    positive ratio below the double range becomes :data:`BELOW_FLOAT_RANGE`, never 0."""
+    value = numerator / denominator
+    return BELOW_FLOAT_RANGE if value == 0 and numerator > 0 else value
+
+
 def _format_near_one(x: float, gap: float, digits: int, rounding: str) -> str:
     """``x`` (within rounding of 1, ``gap = 1 - x`` exactly) shown so it does not read 1."""
+    if gap < 1e-300:
+        return "1 - (< 1e-300)"
     if abs(gap) >= _GAP_DECIMALS:
         # two significant digits of the gap: 1 - 4.7e-07 -> 0.99999953
         wide = max(digits, math.ceil(-math.log10(abs(gap))) + 1)

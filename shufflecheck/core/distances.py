@@ -36,6 +36,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import gap_float
 from shufflecheck.common.quantity import Kind
 
 METRICS = ("total_variation", "separation", "kl_bits")
@@ -278,8 +279,8 @@ def row_from_groups(
         kl,
         "exact",
         note,
-        total_variation_below_one=overlap / (denominator * n_factorial),
-        separation_below_one=least * n_factorial / denominator,
+        total_variation_below_one=gap_float(overlap, denominator * n_factorial),
+        separation_below_one=gap_float(least * n_factorial, denominator),
     )
 
 

@@ -33,6 +33,7 @@ import math
 from dataclasses import dataclass
 from functools import cache
 
+from shufflecheck.common.numbers import gap_float
 from shufflecheck.core.block_bounds import BlockFigures
 from shufflecheck.core.distances import DistanceRow
 from shufflecheck.models.base import Step
@@ -248,7 +249,7 @@ def procedure_blocks(procedure: Procedure, repeats: int, cards: int) -> Procedur
             math.log2(fact),
             "exact",
             "fixed rearrangement",
-            total_variation_below_one=1 / fact if cards < 171 else 0.0,
+            total_variation_below_one=gap_float(1, fact),
             separation_below_one=0.0,
         )
     elif len(random_groups) == 1 and random_groups[0][1] is not None:

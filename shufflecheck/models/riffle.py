@@ -38,6 +38,7 @@ import numpy as np
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
+from shufflecheck.common.numbers import gap_float
 from shufflecheck.common.sources import BAYER_DIACONIS, GILBERT_REEDS
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import eulerian_row, stirling1_row
@@ -158,7 +159,7 @@ def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
             1.0,
             math.log2(fact),
             "exact",
-            total_variation_below_one=1 / fact,
+            total_variation_below_one=gap_float(1, fact),
             separation_below_one=0.0,
         )
     a = hands**steps
@@ -199,8 +200,8 @@ def _exact_row(cards: int, steps: int, hands: int) -> DistanceRow:
     tv = tv_numerator / (2 * denominator * fact)
     separation = (denominator - minimum * fact) / denominator
     # 1 - TV and 1 - separation from the same integers: they keep values a float rounds to 1
-    tv_gap = (2 * denominator * fact - tv_numerator) / (2 * denominator * fact)
-    separation_gap = (minimum * fact) / denominator
+    tv_gap = gap_float(2 * denominator * fact - tv_numerator, 2 * denominator * fact)
+    separation_gap = gap_float(minimum * fact, denominator)
     return DistanceRow(
         steps,
         float(tv),
