@@ -52,13 +52,13 @@ def harmonic(n: int) -> Fraction:
 @pytest.fixture(scope="module")
 def riffles() -> dict:
     """'riffle x5' for r = 1, 2: the whole procedure is the exact riffle model."""
-    return assess_json("riffle x5", "--repeat", 2, "--decks", DECKS, "--seed", 11)
+    return assess_json("riffle x5", "--repeat", "1-2", "--simulate", DECKS, "--seed", 11)
 
 
 @pytest.fixture(scope="module")
 def mixed() -> dict:
     """A procedure with a step (strip) that has no exact law: bounds only."""
-    return assess_json("strip, riffle x8", "--repeat", 2, "--decks", DECKS, "--seed", 12)
+    return assess_json("strip, riffle x8", "--repeat", "1-2", "--simulate", DECKS, "--seed", 12)
 
 
 class TestAssessShape:
@@ -89,7 +89,7 @@ class TestAssessShape:
 
 class TestAssessExact:
     def test_riffle_x7(self):
-        data = assess_json("riffle x7", "--repeat", 1, "--decks", DECKS)
+        data = assess_json("riffle x7", "--repeat", 1, "--simulate", DECKS)
         exact = data["rows"][0]["exact"]
         assert exact["kind"] == "exact"
         # Bayer & Diaconis (1992), variation distance after 7 riffles of 52 cards: 0.334
@@ -109,7 +109,7 @@ class TestAssessExact:
                 assert row["lower_bound"][metric]["value"] <= row["exact"][metric] + 1e-12
 
     def test_terminal_shows_exact_value(self):
-        result = run("assess", "riffle x7", "--repeat", 1, "--decks", DECKS)
+        result = run("assess", "riffle x7", "--repeat", 1, "--simulate", DECKS)
         assert result.exit_code == 0, result.output
         # Bayer & Diaconis (1992): 0.334 (printed with four significant digits)
         assert "= 0.3341" in result.stdout
@@ -140,7 +140,7 @@ class TestAssessBounds:
         assert second <= first + 1e-12
 
     def test_procedure_without_exact_block_is_bounded_by_one(self):
-        data = assess_json("strip, cut", "--repeat", 1, "--decks", DECKS)
+        data = assess_json("strip, cut", "--repeat", 1, "--simulate", DECKS)
         row = data["rows"][0]
         upper = row["upper_bound"].get("total_variation")
         assert upper is None or upper["value"] <= 1
@@ -168,14 +168,14 @@ class TestAssessGuessing:
                 assert strategy["interval"][0] <= strategy["value"] <= strategy["interval"][1]
 
     def test_under_mixed_deck_gives_extra_guesses(self):
-        data = assess_json("riffle x4", "--repeat", 1, "--decks", DECKS, "--seed", 3)
+        data = assess_json("riffle x4", "--repeat", 1, "--simulate", DECKS, "--seed", 3)
         extra = data["rows"][0]["guessing"]["extra_correct_guesses_per_deck"]
         # after 4 riffles the rising sequences are long (Bayer & Diaconis 1992): a strategy
         # that follows them gains at least one correct guess per deck
         assert extra["interval"][0] > 1
 
     def test_well_mixed_deck_interval_covers_zero(self):
-        data = assess_json("riffle x20", "--repeat", 1, "--decks", DECKS, "--seed", 4)
+        data = assess_json("riffle x20", "--repeat", 1, "--simulate", DECKS, "--seed", 4)
         extra = data["rows"][0]["guessing"]["extra_correct_guesses_per_deck"]
         low, high = extra["interval"]
         # TV after 20 riffles is below 3e-6 (exact), so no strategy gains measurably
@@ -184,7 +184,14 @@ class TestAssessGuessing:
 
 class TestAssessReproducible:
     def test_same_seed_same_json(self):
-        args = ("assess", "riffle x3, strip, riffle x2, cut", "--repeat", 2, "--decks", DECKS)
+        args = (
+            "assess",
+            "riffle x3, strip, riffle x2, cut",
+            "--repeat",
+            "1-2",
+            "--simulate",
+            DECKS,
+        )
         first = run(*args, "--seed", 5, "--json")
         second = run(*args, "--seed", 5, "--json")
         assert first.exit_code == second.exit_code == 0
@@ -199,7 +206,7 @@ class TestAssessProcedureFile:
         path.write_text(
             'name = "Back room, invented"\ncards = 20\nsteps = "riffle x2, cut"\n', encoding="utf-8"
         )
-        data = assess_json(path, "--repeat", 1, "--decks", DECKS)
+        data = assess_json(path, "--repeat", 1, "--simulate", DECKS)
         assert data["name"] == "Back room, invented"
         assert data["cards"] == 20
         assert data["procedure"].startswith("riffle x2")
@@ -207,7 +214,7 @@ class TestAssessProcedureFile:
     def test_cards_option_overrides_file(self, tmp_path):
         path = tmp_path / "p.toml"
         path.write_text('cards = 20\nsteps = "riffle x6"\n', encoding="utf-8")
-        data = assess_json(path, "--cards", 30, "--repeat", 1, "--decks", DECKS)
+        data = assess_json(path, "--cards", 30, "--repeat", 1, "--simulate", DECKS)
         assert data["cards"] == 30
 
     def test_file_errors_name_line_and_key(self, tmp_path):
@@ -241,7 +248,7 @@ class TestAssessParseErrors:
         ("args", "fragment"),
         [
             (["riffle", "--repeat", 0], "--repeat"),
-            (["riffle", "--decks", 0], "--decks"),
+            (["riffle", "--simulate", 0], "--simulate"),
             (["riffle", "--cards", 1], "--cards must be an integer from 2 to 2,000"),
             (["riffle", "--confidence", 1.5], "confidence"),
         ],
@@ -253,6 +260,8 @@ class TestAssessParseErrors:
 class TestAssessPlot:
     def test_plot_png(self, tmp_path):
         target = tmp_path / "bounds.png"
-        result = run("assess", "strip, riffle x8", "--repeat", 2, "--decks", 500, "--plot", target)
+        result = run(
+            "assess", "strip, riffle x8", "--repeat", "1-2", "--simulate", 500, "--plot", target
+        )
         assert result.exit_code == 0, result.output
         assert target.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -65,11 +65,11 @@ def logs(tmp_path_factory) -> dict[str, Path]:
     }
     a = simulate(
         folder / "a.csv", "riffle x4", "--decks", 30, "--seed", 1, "--table", "A",
-        "--start", "2026-01-01T10:00:00",
+        "--start-time", "2026-01-01T10:00:00",
     )  # fmt: skip
     b = simulate(
         folder / "b.csv", "riffle x12", "--decks", 30, "--seed", 2, "--table", "B",
-        "--start", "2026-01-01T10:00:00",
+        "--start-time", "2026-01-01T10:00:00",
     )  # fmt: skip
     with open(a, newline="") as fa, open(b, newline="") as fb:
         rows_a, rows_b = list(csv.reader(fa)), list(csv.reader(fb))

@@ -193,7 +193,7 @@ class TestFittedFileInOtherCommands:
         return out
 
     def test_assess(self, fitted):
-        data = command_json("assess", fitted, "--repeat", 2, "--decks", 2000)
+        data = command_json("assess", fitted, "--repeat", "1-2", "--simulate", 2000)
         assert data["procedure"].startswith("hand-riffle(spread=")
         assert len(data["rows"]) == 2
 
@@ -213,7 +213,7 @@ class TestFittedFileInOtherCommands:
                 f"""
                 [policy]
                 target = 0.1
-                decks = 500
+                simulate = 500
                 max_repeats = 2
 
                 [[procedure]]
@@ -232,7 +232,7 @@ class TestFittedFileInOtherCommands:
 class TestPolicyFileKey:
     def _policy(self, folder: Path, body: str) -> Path:
         path = folder / "p.toml"
-        path.write_text("[policy]\ntarget = 0.1\ndecks = 200\nmax_repeats = 1\n" + body)
+        path.write_text("[policy]\ntarget = 0.1\nsimulate = 200\nmax_repeats = 1\n" + body)
         return path
 
     def test_relative_path_and_cards(self, tmp_path):

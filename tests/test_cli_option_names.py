@@ -33,7 +33,10 @@ class TestCommandLineNamesOptions:
                 "error: --max-steps must be an integer from 1 to 200,000, got 0",
             ),
             (("assess", "riffle", "--repeat", 0), "error: --repeat must be an integer from 1 to"),
-            (("assess", "riffle", "--decks", 1), "error: --decks must be an integer from 2 to"),
+            (
+                ("assess", "riffle", "--simulate", 1),
+                "error: --simulate must be an integer from 2 to",
+            ),
         ],
     )
     def test_option_in_place_of_argument(self, args, expected):

@@ -30,7 +30,7 @@ def riffle_policy(folder: Path, target: float, house: int = 7) -> Path:
         title = "Riffle yardstick (invented)"
         metric = "total-variation"
         target = {target}
-        decks = 200
+        simulate = 200
         seed = 5
         max_repeats = 12
 
@@ -84,7 +84,7 @@ class TestPolicyMinimums:
             """
             [policy]
             target = 0.1
-            decks = 500
+            simulate = 500
             max_repeats = 2
 
             [[procedure]]
@@ -104,7 +104,7 @@ class TestPolicyMinimums:
             """
             [policy]
             target = 0.1
-            decks = 500
+            simulate = 500
             max_repeats = 2
 
             [[procedure]]
@@ -135,7 +135,7 @@ def policy_with_logs(tmp_path_factory) -> Path:
         """
         [policy]
         target = 0.1
-        decks = 200
+        simulate = 200
         max_repeats = 10
 
         [[procedure]]
@@ -233,13 +233,13 @@ BAD_POLICIES = [
         """
         [policy]
         target = 0.1
-        decks = "many"
+        simulate = "many"
 
         [[procedure]]
         steps = "riffle"
         """,
         3,
-        "policy.decks",
+        "policy.simulate",
         "must be an integer",
         id="wrong-type-int",
     ),
@@ -372,7 +372,7 @@ class TestWhatWouldSettleIt:
             [policy]
             title = "Hand procedure (invented)"
             target = 0.1
-            decks = 2000
+            simulate = 2000
             seed = 3
             max_repeats = 3
 

@@ -71,7 +71,7 @@ class TestSimulateLog:
     def test_table_and_time_columns(self, tmp_path):
         out = tmp_path / "log.csv"
         simulate(
-            "riffle x7", "--decks", 5, "--out", out, "--table", "Table 9", "--start",
+            "riffle x7", "--decks", 5, "--out", out, "--table", "Table 9", "--start-time",
             "2026-11-02T18:00", "--every", 90,
         )  # fmt: skip
         with open(out, newline="", encoding="utf-8") as handle:
@@ -83,8 +83,8 @@ class TestSimulateLog:
         assert set(data["groups"]) == {"Table 9"}
 
     def test_bad_start_time(self, tmp_path):
-        result = run("simulate", "riffle", "--out", tmp_path / "x.csv", "--start", "teatime")
-        assert "--start" in one_line_error(result)
+        result = run("simulate", "riffle", "--out", tmp_path / "x.csv", "--start-time", "teatime")
+        assert "--start-time" in one_line_error(result)
 
     def test_same_seed_same_bytes(self, tmp_path):
         a, b = tmp_path / "a.csv", tmp_path / "b.csv"

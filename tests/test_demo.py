@@ -28,7 +28,7 @@ FAULT_DECK = 1601
 @pytest.fixture(scope="module")
 def first(tmp_path_factory):
     out = tmp_path_factory.mktemp("demo") / "first"
-    result = run("demo", "--out", out)
+    result = run("demo", "--report", out)
     assert result.exit_code == 0, result.output
     return out, result
 
@@ -115,7 +115,7 @@ class TestDemoDeterministic:
     def test_second_run_same_report(self, first, report, tmp_path):
         out, _ = first
         again = tmp_path / "second"
-        result = run("demo", "--out", again, "--json")
+        result = run("demo", "--report", again, "--json")
         assert result.exit_code == 0, result.output
         second = json.loads((again / "report.json").read_text(encoding="utf-8"))
         provenance_a = dict(report["reproducibility"])

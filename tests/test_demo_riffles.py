@@ -43,7 +43,7 @@ class TestDemoRiffles:
         path = demo_folder() / FILES[1]
         procedure = load_procedure(path)
         assert procedure.describe().startswith("hand-riffle(spread=")
-        data = command_json("assess", path, "--repeat", 1, "--decks", 2000)
+        data = command_json("assess", path, "--repeat", 1, "--simulate", 2000)
         # one run with this dealer's clumpy riffles leaves a large edge (estimate, interval
         # far from 0): a figure the documented table reports as +2.79 at 20,000 decks
         extra = data["rows"][0]["guessing"]["extra_correct_guesses_per_deck"]

@@ -387,7 +387,9 @@ class TestCommandLine:
             path = Path(folder) / f"input{suffix}"
             path.write_bytes(data)
             command = (
-                ("assess", path, "-r", 1, "--decks", 100) if suffix == ".toml" else ("audit", path)
+                ("assess", path, "-r", 1, "--simulate", 100)
+                if suffix == ".toml"
+                else ("audit", path)
             )
             result = run(*command)
             assert result.exit_code in (0, 2), result.output

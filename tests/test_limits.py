@@ -40,7 +40,7 @@ def _library(key: str, value: int, tmp_path: Path) -> None:
         "audit_cards": lambda: deck_for(None, value, "int", "log.csv"),
         "deck_cards": lambda: integer_deck(value),
         "assess_decks": lambda: assess(riffle, 52, repeats=1, decks=value),
-        "policy_decks": lambda: load_policy(_policy(tmp_path, f"decks = {value}")),
+        "policy_decks": lambda: load_policy(_policy(tmp_path, f"simulate = {value}")),
         "simulate_decks": lambda: simulate_play(riffle, 52, value),
         "power_simulate": lambda: plan_decks(lambda k, rng: None, 52, simulate=value),
         "repeats": lambda: assess(riffle, 52, repeats=value, decks=100),

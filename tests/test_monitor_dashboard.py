@@ -29,7 +29,7 @@ def fleet(tmp_path_factory) -> tuple[Path, Path]:
     out = folder / "dashboard"
     for name in ("table1.csv", "table2.csv", "table7.csv"):
         ingest_log(store, LOGS / name)
-    result = run("monitor", "dashboard", store, "--out", out)
+    result = run("monitor", "dashboard", store, "--report", out)
     assert result.exit_code == 0, result.output
     return store, out
 

@@ -94,7 +94,7 @@ class TestTomlFiles:
     def test_load(self, tmp_path):
         path = tmp_path / "house.toml"
         path.write_text(
-            'name = "Main floor"\ndecks = 2\nsteps = ["riffle x3", "strip(packets=5)", "cut"]\n'
+            'name = "Main floor"\npacks = 2\nsteps = ["riffle x3", "strip(packets=5)", "cut"]\n'
         )
         proc = load_procedure(path)
         assert proc.name == "Main floor" and proc.cards == 104
@@ -110,8 +110,8 @@ class TestTomlFiles:
                 "line 2: key 'cards': the number of cards must be an integer from 2 to 32,767",
             ),
             (
-                'cards = 52\ndecks = 6\nsteps = "riffle"\n',
-                "line 2: key 'decks': give cards or decks",
+                'cards = 52\npacks = 6\nsteps = "riffle"\n',
+                "line 2: key 'packs': give cards or packs",
             ),
             ('name = "x"\n', "key 'steps': missing"),
             ('steps = "rifle x3"\n', "line 1: key 'steps': unknown step 'rifle' at column 1"),

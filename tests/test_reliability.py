@@ -45,7 +45,7 @@ class TestLimitsUpFront:
         ("args", "expected"),
         [
             (
-                ("assess", "shelf(shelves=1000000000)", "-r", 1, "--decks", 100),
+                ("assess", "shelf(shelves=1000000000)", "-r", 1, "--simulate", 100),
                 "shelves must be an integer from 1 to 524,288, got 1000000000 (shelf counts "
                 "above 2^19 leave the exact law's range",
             ),
@@ -68,7 +68,7 @@ class TestLimitsUpFront:
                 "shape '3^999999999999,1': its parts add up to more than 5",
             ),
             (("characters", 10**6), "n must be an integer from 0 to 10,000"),
-            (("assess", "riffle", "-n", 5000, "--decks", 100), "--cards must be an integer"),
+            (("assess", "riffle", "-n", 5000, "--simulate", 100), "--cards must be an integer"),
             (("assess", "riffle", "-r", 0), "--repeat must be an integer from 1 to 100, got 0"),
             (("spectrum", "riffle", "-n", 5000), "--cards must be an integer from 2 to 2,000"),
             (("mix", "riffle", "--hands", 10**7), "--hands must be an integer from 2 to"),
@@ -93,7 +93,14 @@ class TestLimitsUpFront:
 
     def test_simulate_times_must_go_forward(self, here):
         line = error_line(
-            "simulate", "riffle", "--out", "x.csv", "--every", -5, "--start", "2026-01-01T00:00"
+            "simulate",
+            "riffle",
+            "--out",
+            "x.csv",
+            "--every",
+            -5,
+            "--start-time",
+            "2026-01-01T00:00",
         )
         assert "--every must be an integer from 1 to 31,622,400, got -5" in line
         assert not (here / "x.csv").exists()
@@ -106,7 +113,7 @@ class TestLimitsUpFront:
             "x.csv",
             "--decks",
             10,
-            "--start",
+            "--start-time",
             "9999-12-31T23:59",
             "--every",
             3_000_000,
@@ -124,7 +131,7 @@ class TestLimitsUpFront:
     )
     def test_procedure_files(self, here, body, key):
         (here / "p.toml").write_text(body)
-        assert key in error_line("assess", "p.toml", "-r", 1, "--decks", 100)
+        assert key in error_line("assess", "p.toml", "-r", 1, "--simulate", 100)
 
     @pytest.mark.parametrize(
         ("line", "expected"),
@@ -169,7 +176,7 @@ class TestLimitsUpFront:
     @pytest.mark.slow
     def test_large_assessments_complete(self, here):
         for args in (("shelf(shelves=2049)", "-n", 1000), ("strip", "-n", 2000)):
-            result = run("assess", *args, "-r", 1, "--decks", 4, "--json")
+            result = run("assess", *args, "-r", 1, "--simulate", 4, "--json")
             assert result.exit_code == 0, result.output
             assert json.loads(result.stdout)["cards"] == args[-1]
 
@@ -234,7 +241,7 @@ class TestMemory:
         assert "use a smaller --decks (at most about" in line
         line = error_line("power", "riffle", "--simulate", 5_000_000)
         assert "5,000,000 simulated decks of 52 cards need about" in line
-        line = error_line("assess", "riffle", "-n", 2000, "--decks", 100_000, "-r", 1)
+        line = error_line("assess", "riffle", "-n", 2000, "--simulate", 100_000, "-r", 1)
         assert "decks of 2000 cards assessed at once need about" in line
         assert list(here.iterdir()) == []
 
@@ -265,7 +272,7 @@ class TestOutputs:
             ("simulate", "riffle", "--out", "log.csv"),
             ("fit-riffle", TABLE1, "--out", "fit.toml"),
             ("fit-riffle", TABLE1, "--quarantine", "bad.csv"),
-            ("monitor", "dashboard", "store.db", "--out", "dash"),
+            ("monitor", "dashboard", "store.db", "--report", "dash"),
         ]
         for args in cases:
             assert "exists; pass --force to replace it" in error_line(*args)
@@ -305,7 +312,7 @@ class TestOutputs:
             ("mix", "riffle", "--report", "locked/report"),
             ("mix", "riffle", "--plot", "locked/x.png"),
             ("characters", 4, "--csv", "locked/x.csv"),
-            ("demo", "--out", "locked/demo"),
+            ("demo", "--report", "locked/demo"),
         ],
     )
     def test_read_only_folder(self, here, args):
@@ -414,7 +421,7 @@ class TestPolicyPaths:
     def _policy(self, folder: Path, path: str, extra: str = "") -> Path:
         policy = folder / "policy.toml"
         policy.write_text(
-            "[policy]\ntarget = 0.1\ndecks = 200\nmax_repeats = 1\n"
+            "[policy]\ntarget = 0.1\nsimulate = 200\nmax_repeats = 1\n"
             f'[[procedure]]\nsteps = "riffle"\n[[procedure.log]]\npath = "{path}"\n{extra}'
         )
         return policy

@@ -127,7 +127,7 @@ def test_names_in_a_policy_report(tmp_path):
     policy = tmp_path / "policy.toml"
     policy.write_text(
         "[policy]\n"
-        f"title = {json.dumps(LIVE[1])}\ntarget = 0.1\ndecks = 200\nmax_repeats = 2\n"
+        f"title = {json.dumps(LIVE[1])}\ntarget = 0.1\nsimulate = 200\nmax_repeats = 2\n"
         "[[procedure]]\n"
         f"name = {json.dumps(LIVE[0])}\nsteps = 'riffle x7'\n"
         "[[procedure.log]]\n"

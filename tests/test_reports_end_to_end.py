@@ -46,7 +46,7 @@ class Inputs:
                 [policy]
                 title = "Report check (invented)"
                 target = 0.1
-                decks = 300
+                simulate = 300
                 max_repeats = 10
 
                 [[procedure]]
@@ -67,7 +67,7 @@ class Inputs:
         if kind == "mix":
             return ["mix", "riffle", "--cards", 52, "--target", 0.5 if variant else 0.1]
         if kind == "assess":
-            return ["assess", "strip, riffle x8", "--repeat", 2, "--decks", 1000]
+            return ["assess", "strip, riffle x8", "--repeat", "1-2", "--simulate", 1000]
         if kind == "audit":
             return ["audit", self.log, "--alpha", 0.05 if variant else 0.01]
         return ["policy", self.policy]
@@ -255,7 +255,7 @@ class TestMarkdownNumbers:
     def test_displayed_bounds_round_outward(self, tmp_path):
         folder = tmp_path / "report"
         result = run(
-            "assess", "strip, riffle x6", "--repeat", 1, "--decks", 500, "--report", folder
+            "assess", "strip, riffle x6", "--repeat", 1, "--simulate", 500, "--report", folder
         )
         assert result.exit_code == 0, result.output
         _, rows = markdown_table(read(folder, "report.md"), 1)

@@ -90,7 +90,7 @@ POLICY = """
 [policy]
 title = "Shoe policy (invented)"
 target = 0.1
-decks = 300
+simulate = 300
 max_repeats = 2
 
 [[procedure]]
@@ -159,7 +159,7 @@ class TestCommandLine:
             "blackjack",
             "--repeat",
             "1",
-            "--decks",
+            "--simulate",
             "500",
             "--json",
         )
@@ -168,7 +168,7 @@ class TestCommandLine:
         assert payload["feature"] == "blackjack" and payload["cards"] == 312
 
     def test_assess_feature_needs_a_shoe(self):
-        result = run("assess", "riffle", "--feature", "blackjack", "--decks", "100")
+        result = run("assess", "riffle", "--feature", "blackjack", "--simulate", "100")
         assert result.exit_code == 2 and "give the shoe as the --deck" in result.stderr
 
     def test_power(self):
@@ -237,7 +237,7 @@ class TestCommandLine:
         result = run(
             "track",
             "grab",
-            "--shoes",
+            "--simulate",
             "2000",
             "--placement",
             "fixed",

@@ -49,6 +49,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -87,6 +88,7 @@ __all__ = [
     "assessment_json",
     "assessment_work",
     "bound_statistics",
+    "only_repeats",
     "rigorous_upper_bounds",
 ]
 
@@ -567,6 +569,22 @@ def _statistic_bounds(
             )
         )
     return bounds
+
+
+def only_repeats(result: Assessment, counts: list[int] | tuple[int, ...]) -> Assessment:
+    """``result`` keeping the rows of the repetition counts ``counts`` only (an assessment
+    of ``r = 1..R`` holds every count up to ``R``; ``assess -r 4-6`` shows 4, 5 and 6)."""
+    wanted = set(counts)
+    missing = wanted - {row.repeats for row in result.rows}
+    if missing:
+        raise InputError(
+            f"repeats {min(missing)} was not assessed (the assessment covers 1 to "
+            f"{len(result.rows)})",
+            argument="repeats",
+        )
+    return dataclasses.replace(
+        result, rows=tuple(row for row in result.rows if row.repeats in wanted)
+    )
 
 
 def _normal_quantile(p: float) -> float:

@@ -8,13 +8,13 @@ numbers, and the procedures in use, optionally with recorded logs per table::
     metric = "total-variation"      # or "separation" or "kl" (bits)
     target = 0.1                    # in (0, 1]
     confidence = 0.99               # of lower bounds and intervals
-    decks = 20000                   # simulated decks per procedure
+    simulate = 20000                # simulated decks per procedure
     seed = 2027
     max_repeats = 12                # search r = 1..max_repeats
 
     [[procedure]]
     name = "Hand-dealt poker"
-    cards = 52                      # or: decks = 6 (a shoe of 6 x 52 distinct cards), or
+    cards = 52                      # or: packs = 6 (a shoe of 6 x 52 distinct cards), or
                                     # deck = "shoe(packs=6)" and feature = "blackjack" (a
                                     # shoe of copies alike, assessed on what the game sees)
     steps = "riffle x3, strip(packets=5), riffle, cut"
@@ -62,9 +62,19 @@ from shufflecheck.common.limits import limit
 from shufflecheck.common.numbers import percent
 from shufflecheck.common.tomlfiles import TomlFile, load_toml
 from shufflecheck.core.distances import METRIC_NAMES, check_target
-from shufflecheck.models.procedures import Procedure, deck_size, load_procedure, parse_procedure
+from shufflecheck.models.procedures import (
+    Procedure,
+    deck_size,
+    load_procedure,
+    parse_procedure,
+    renamed_key,
+)
 
 __all__ = [
+    "LOG_KEYS",
+    "POLICY_KEYS",
+    "PROCEDURE_KEYS",
+    "RENAMED_POLICY_KEYS",
     "LogSpec",
     "Policy",
     "PolicyDecision",
@@ -77,20 +87,25 @@ __all__ = [
     "policy_work",
 ]
 
-_POLICY_KEYS = {
+#: keys of ``[policy]`` and their types
+POLICY_KEYS = {
     "title": str,
     "metric": str,
     "target": float,
     "confidence": float,
-    "decks": int,
+    "simulate": int,
     "seed": int,
     "max_repeats": int,
     "alpha": float,
 }
-_PROCEDURE_KEYS = {
+#: ``[policy]`` keys renamed for one vocabulary: old key -> (new key, what it means)
+RENAMED_POLICY_KEYS = {"decks": ("simulate", "simulated decks per procedure")}
+
+#: keys of ``[[procedure]]``
+PROCEDURE_KEYS = {
     "name",
     "cards",
-    "decks",
+    "packs",
     "deck",
     "feature",
     "steps",
@@ -100,7 +115,8 @@ _PROCEDURE_KEYS = {
     "description",
     "max_repeats",
 }
-_LOG_KEYS = {"table", "path", "reference", "labels", "format", "deck", "by", "time"}
+#: keys of ``[[procedure.log]]``
+LOG_KEYS = {"table", "path", "reference", "labels", "format", "deck", "by", "time"}
 
 
 @dataclass(frozen=True)
@@ -196,12 +212,13 @@ def load_policy(path: str | Path, *, allow_outside: bool = False) -> Policy:
     settings = data.get("policy", {})
     if not isinstance(settings, dict):
         raise doc.error("must be a table: [policy]", "policy")
+    renamed_key(doc, settings, "policy", renamed=RENAMED_POLICY_KEYS)
     for key, value in settings.items():
-        if key not in _POLICY_KEYS:
+        if key not in POLICY_KEYS:
             raise doc.error(
-                f"unknown key (allowed: {', '.join(sorted(_POLICY_KEYS))})", key, "policy"
+                f"unknown key (allowed: {', '.join(sorted(POLICY_KEYS))})", key, "policy"
             )
-        _typed(doc, value, _POLICY_KEYS[key], key, "policy")
+        _typed(doc, value, POLICY_KEYS[key], key, "policy")
     metric_text = settings.get("metric", "total-variation")
     if metric_text not in METRIC_NAMES:
         raise doc.error(
@@ -219,7 +236,7 @@ def load_policy(path: str | Path, *, allow_outside: bool = False) -> Policy:
     confidence = float(settings.get("confidence", 0.99))
     if not 0.5 <= confidence < 1:
         raise doc.error(f"must be in [0.5, 1), got {confidence}", "confidence", "policy")
-    decks = _ranged(doc, settings.get("decks", 20000), "policy_decks", "decks", "policy")
+    decks = _ranged(doc, settings.get("simulate", 20000), "policy_decks", "simulate", "policy")
     max_repeats = _ranged(doc, settings.get("max_repeats", 12), "repeats", "max_repeats", "policy")
     seed = settings.get("seed", 1)
     if seed < 0:
@@ -256,9 +273,10 @@ def _procedure(
     doc: TomlFile, entry: dict, index: int, default_repeats: int, allow_outside: bool = False
 ) -> PolicyProcedure:
     table = "procedure"
+    renamed_key(doc, entry, table, index)
     for key in entry:
-        if key not in _PROCEDURE_KEYS:
-            allowed = ", ".join(sorted(_PROCEDURE_KEYS))
+        if key not in PROCEDURE_KEYS:
+            allowed = ", ".join(sorted(PROCEDURE_KEYS))
             raise doc.error(f"unknown key (allowed: {allowed})", key, table, index)
     source = None
     if "file" in entry:
@@ -275,10 +293,10 @@ def _procedure(
     shoe, feature = _shoe_of(doc, entry, index, allow_outside)
     cards = deck_size(doc, entry, table, index) or procedure.cards or 52
     if shoe is not None:
-        if ("cards" in entry or "decks" in entry) and cards != shoe.size:
+        if ("cards" in entry or "packs" in entry) and cards != shoe.size:
             raise doc.error(f"the shoe has {shoe.size} cards, not {cards}", "deck", table, index)
         cards = shoe.size
-    size_key = "decks" if "decks" in entry and "cards" not in entry else "cards"
+    size_key = "packs" if "packs" in entry and "cards" not in entry else "cards"
     if shoe is None:  # shoes are assessed on their features, with their own ranges
         try:
             limit("assess_cards").check(cards, name="the number of cards")
@@ -425,9 +443,9 @@ def _log(
     # [[procedure.log]] headers are counted across all procedures by the line finder
     occurrence = sum(len(p.get("log", [])) for p in doc.data["procedure"][:proc_index]) + index
     for key in entry:
-        if key not in _LOG_KEYS:
+        if key not in LOG_KEYS:
             raise doc.error(
-                f"unknown key (allowed: {', '.join(sorted(_LOG_KEYS))})", key, table, occurrence
+                f"unknown key (allowed: {', '.join(sorted(LOG_KEYS))})", key, table, occurrence
             )
     if "path" not in entry:
         raise doc.error('missing: give path = "logs/table3.csv"', "path", table, occurrence)

@@ -7,8 +7,9 @@ commands on the shared :data:`app`, in the order ``--help`` lists them (the main
 from __future__ import annotations
 
 import importlib
+import sys
 
-from shufflecheck.cli._app import app
+from shufflecheck.cli._app import app, quiet_stdout
 
 __all__ = ["app", "main"]
 
@@ -31,5 +32,22 @@ for _module in COMMAND_MODULES:
 
 
 def main() -> None:
-    """Entry point of the ``shufflecheck`` console script."""
-    app()
+    """Entry point of the ``shufflecheck`` console script.
+
+    Output still buffered when the command ends is flushed here: if its reader has gone
+    (``shufflecheck mix riffle | head -1``), that is a normal end (exit code 0, no message).
+    """
+    code: int | str | None = 0
+    try:
+        app()
+    except SystemExit as exc:
+        code = exc.code
+    except BrokenPipeError:
+        code = 0
+    try:
+        sys.stdout.flush()
+    except BrokenPipeError:
+        quiet_stdout()
+    except (OSError, ValueError):
+        pass
+    sys.exit(code)

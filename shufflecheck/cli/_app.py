@@ -38,7 +38,26 @@ from shufflecheck.common.errors import EXIT_BAD_INPUT, InputError, clip
 #: the command-line parser's usage error (typer ships its own copy of click)
 _UsageError = typer.BadParameter.__mro__[1]
 #: exceptions the command-line framework handles itself (exit codes, --help, aborts)
-_FRAMEWORK = (typer.Exit, typer.Abort, typer.exceptions.TyperException, BrokenPipeError)
+_FRAMEWORK = (typer.Exit, typer.Abort, typer.exceptions.TyperException)
+
+#: options renamed for one vocabulary (docs/options.md): command -> old name -> (new
+#: name, what it means); the old name gives a one-line error naming the new one
+RENAMED: dict[str, dict[str, tuple[str, str]]] = {
+    "assess": {"--decks": ("--simulate", "simulated decks")},
+    "demo": {"--out": ("--report", "the report folder")},
+    "monitor dashboard": {"--out": ("--report", "the dashboard's folder")},
+    "simulate": {"--start": ("--start-time", "the time of the first deck")},
+    "track": {"--shoes": ("--simulate", "simulated shoes")},
+}
+
+#: library arguments a command names by an option of another name: command -> argument
+#: -> option (the option of the same name is found without this table)
+ARGUMENT_OPTIONS: dict[str, dict[str, str]] = {
+    "assess": {"decks": "--simulate", "repeats": "--repeat"},
+    "simulate": {"repeats": "--repeat", "start": "--start-time"},
+    "track": {"shoes": "--simulate"},
+    "power": {"repeats": "--repeat"},
+}
 
 #: exit code of an unexpected failure (a bug): distinct from bad input (2)
 EXIT_INTERNAL = 3
@@ -103,10 +122,44 @@ def internal_error_line(exc: BaseException) -> str:
     return f"error: internal error: {clip(what, 300)} ({where}; please report it)"
 
 
+def quiet_stdout() -> None:
+    """Point standard output at the null device: its reader has gone (``| head``), so
+    nothing more can be shown, and flushing at exit must not fail."""
+    with contextlib.suppress(OSError, ValueError, AttributeError):
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+
+
+def _renamed(command: str, args: list[str]) -> None:
+    """An :class:`InputError` for an option given under its old name (see RENAMED);
+    ``command`` is the command path without the program (``monitor dashboard``)."""
+    table = RENAMED.get(command, {})
+    for arg in args:
+        if arg == "--":
+            return
+        name = arg.split("=", 1)[0]
+        if name in table:
+            new, meaning = table[name]
+            raise InputError(f"{command} {name} is now {new} ({meaning})")
+
+
 class _Group(TyperGroup):
     """Turns :class:`InputError` from any command, and the parser's usage errors, into one
     line ``error: ...`` on stderr and exit code 2; anything unexpected into one line
-    ``error: internal error: ...`` and exit code 3 (see the module notes)."""
+    ``error: internal error: ...`` and exit code 3 (see the module notes). A closed
+    standard output (``shufflecheck mix riffle | head -1``) is a normal end: exit code 0,
+    no message."""
+
+    def resolve_command(self, ctx: Any, args: list[str]) -> Any:
+        name, command, rest = super().resolve_command(ctx, args)
+        path = [name or ""]
+        outer = ctx
+        while outer.parent is not None:  # the group's own name, below the program
+            path.insert(0, outer.info_name or "")
+            outer = outer.parent
+        _renamed(" ".join(path), list(rest))
+        return name, command, rest
 
     def invoke(self, ctx: Any) -> Any:
         with warnings.catch_warnings(record=True) as caught, _signals_as_exceptions():
@@ -120,6 +173,9 @@ class _Group(TyperGroup):
                 message = clip(" ".join(exc.format_message().split()), 1000)
                 typer.echo(f"error: {message} (see '{where} --help')", err=True)
                 raise typer.Exit(code=EXIT_BAD_INPUT) from None
+            except BrokenPipeError:
+                quiet_stdout()
+                raise typer.Exit(code=0) from None
             except _Terminated as exc:
                 name = signal.Signals(exc.signum).name
                 typer.echo(f"error: stopped by {name}; no partial output was left", err=True)
@@ -135,7 +191,8 @@ class _Group(TyperGroup):
         return result
 
     def _subcommand(self, ctx: Any) -> Any:
-        name = ctx.invoked_subcommand or (ctx.protected_args or [None])[0]
+        pending = getattr(ctx, "_protected_args", None) or list(getattr(ctx, "args", ()) or ())
+        name = ctx.invoked_subcommand or (pending or [None])[0]
         return self.get_command(ctx, name) if name else None
 
 
@@ -146,9 +203,14 @@ def _words(name: str) -> set[str]:
 
 def option_message(exc: InputError, command: Any) -> str:
     """The message of ``exc`` with each library argument it names (``cards``) written as
-    the command's option (``--cards``), when the command has an option for it."""
+    the command's option (``--cards``), when the command has an option for it (or the
+    option :data:`ARGUMENT_OPTIONS` names for it)."""
     options: dict[str, str] = {}
+    declared = ARGUMENT_OPTIONS.get(getattr(command, "name", None) or "", {})
     for argument in exc.arguments if command is not None else ():
+        if argument in declared:
+            options[argument] = declared[argument]
+            continue
         wanted = _words(argument)
         exact = argument.replace("-", "_").strip("_")
         candidates = []
@@ -167,11 +229,6 @@ def option_message(exc: InputError, command: Any) -> str:
 app = typer.Typer(
     cls=_Group,
     name="shufflecheck",
-    help=(
-        "Audit card shuffling with the mathematics of the symmetric group: exact distances to "
-        "random, policy minimums, and tests on recorded deck orders. Every number is labelled "
-        "exact, bound or estimate. Results are statistical evidence, not certification."
-    ),
     no_args_is_help=True,
     add_completion=False,
     pretty_exceptions_enable=False,
@@ -195,17 +252,116 @@ def command_group(name: str, help: str) -> typer.Typer:
     return group
 
 
-#: ``--report DIR`` and ``--force``, shared by every analysis command
+def _version(value: bool) -> None:
+    if value:
+        from shufflecheck.common.version import __version__
+
+        typer.echo(f"shufflecheck {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _main(
+    version: Annotated[
+        bool,
+        typer.Option(
+            "--version",
+            is_eager=True,
+            callback=_version,
+            show_default=False,
+            help="Print the version and exit.",
+        ),
+    ] = False,
+) -> None:
+    """Audit card shuffling with the mathematics of the symmetric group: exact distances to
+    random, policy minimums, and tests on recorded deck orders. Every number is labelled
+    exact, bound or estimate. Results are statistical evidence, not certification."""
+
+
+def _check_seed(value: int | None) -> int | None:
+    if value is not None and value < 0:
+        raise InputError(f"seed must be an integer, 0 or more, got {value}", argument="seed")
+    return value
+
+
+def seed_option(
+    default_help: str = "Random seed, 0 or more (results are reproducible from it).",
+) -> Any:
+    """The ``--seed <int>`` option (checked here, so the help shows no range syntax)."""
+    return typer.Option("--seed", metavar="<int>", callback=_check_seed, help=default_help)
+
+
+#: ``--seed <int>``: every random result is reproducible from it
+SeedOption = Annotated[int, seed_option()]
+
+#: ``--report FOLDER``, shared by every command that writes a report
 ReportOption = Annotated[
     Path | None,
-    typer.Option(help="Write a report folder here: report.md, report.html, report.json, figures/."),
+    typer.Option(
+        "--report",
+        metavar="<folder>",
+        help="Write a report folder here: report.md, report.html, report.json, figures/.",
+    ),
 ]
+#: ``--force``: a flag (no ``--no-force`` twin)
 ForceOption = Annotated[
     bool,
     typer.Option(
-        help="Replace existing output files and report folders (never the command's inputs)."
+        "--force",
+        show_default=False,
+        help="Replace existing output files and report folders (never the command's inputs).",
     ),
 ]
+#: ``--json``: the result as JSON on stdout
+JsonOption = Annotated[
+    bool, typer.Option("--json", show_default=False, help="Machine-readable output.")
+]
+
+
+def plot_option(what: str) -> Any:
+    """The ``--plot <file>`` option: ``what`` says what the figure shows."""
+    return typer.Option(
+        "--plot",
+        metavar="<file>",
+        help=f"Draw {what} to this PNG file (refused if it exists, unless --force).",
+    )
+
+
+def repeat_counts(text: str, *, key: str = "repeats", ranges: bool = True) -> list[int]:
+    """The repetition counts of ``--repeat``: ``"5"`` -> [5]; ``"4-8"`` (or ``4..8``) ->
+    [4, ..., 8]; each count inside the limit ``key``. With ``ranges=False`` only one count
+    is allowed. Errors are one line naming ``--repeat``."""
+    from shufflecheck.common.limits import limit
+
+    cleaned = text.replace("..", "-").replace(" ", "")
+    try:
+        if "-" in cleaned[1:]:
+            low_text, high_text = cleaned.split("-", 1) if cleaned[0] != "-" else ("", "")
+            low, high = int(low_text), int(high_text)
+        else:
+            low = high = int(cleaned)
+    except ValueError:
+        shape = "a count like 5 or a range like 4-8" if ranges else "one count like 5"
+        raise InputError(
+            f"repeat must be {shape}, got {clip(text, 40)!r}", argument="repeat"
+        ) from None
+    if not ranges and low != high:
+        raise InputError(
+            f"repeat takes one count R here (each deck is shuffled exactly R times), got "
+            f"{clip(text, 40)!r}",
+            argument="repeat",
+        )
+    allowed = limit(key)
+    if low == high and "-" not in cleaned[1:]:
+        allowed.check(low, name="repeat")
+    elif not allowed.low <= low <= high <= allowed.high:
+        why = f" ({allowed.why})" if high > allowed.high else ""
+        raise InputError(
+            f"repeat must lie within {allowed.low}..{allowed.high} with low <= high, got "
+            f"{clip(text, 40)!r}{why}",
+            argument="repeat",
+        )
+    return list(range(low, high + 1))
 
 
 def _json_default(value: Any) -> Any:
@@ -352,8 +508,21 @@ def check_outputs(
             check_report_target(path, force=force)
 
 
-def check_report_folder(folder: Path | None, *, force: bool, inputs: Any = ()) -> None:
-    """Refuse an unusable report folder before any work is done (the writer checks again)."""
+def check_report_folder(
+    folder: Path | None, *, force: bool, inputs: Any = (), owner: str | None = None
+) -> None:
+    """Refuse an unusable report folder before any work is done (the writer checks again);
+    a folder ``owner`` wrote may be replaced without ``force``."""
+    if folder is not None and owner is not None:
+        from shufflecheck.report.writer import owned_by
+
+        if folder.is_dir() and not force and not owned_by(folder, owner):
+            raise InputError(
+                f"report folder {folder} exists and was not written by the {owner}; pass "
+                "force to replace it",
+                argument="force",
+            )
+        force = force or owned_by(folder, owner)
     check_outputs(force=force, inputs=tuple(inputs), folders=(folder,))
 
 
@@ -366,9 +535,10 @@ def procedure_inputs(*arguments: str | None) -> dict[Path, str]:
     }
 
 
-def save_report(document: Any, folder: Any, *, force: bool) -> str:
-    """Write a report folder (atomically; refuses to replace without ``force``)."""
+def save_report(document: Any, folder: Any, *, force: bool, owner: str | None = None) -> str:
+    """Write a report folder (atomically; refuses to replace without ``force``, unless
+    ``owner`` wrote it: see :mod:`shufflecheck.report.writer`)."""
     from shufflecheck.report.writer import write_report
 
-    written = write_report(document, folder, force=force)
+    written = write_report(document, folder, force=force, owner=owner)
     return str(written.folder)

@@ -9,13 +9,17 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     ReportOption,
+    SeedOption,
     app,
     check_outputs,
     echo,
     emit_json,
+    plot_option,
     procedure_inputs,
     progress,
+    repeat_counts,
     save_report,
 )
 from shufflecheck.common.numbers import percent
@@ -34,14 +38,21 @@ def assess(
         typer.Option("--cards", "-n", help="Number of cards (default: the file's, else 52)."),
     ] = None,
     repeat: Annotated[
-        int, typer.Option("--repeat", "-r", help="Assess r = 1..R repetitions.")
-    ] = 10,
-    decks: Annotated[
-        int, typer.Option(help="Simulated decks for the Monte Carlo parts.")
+        str,
+        typer.Option(
+            "--repeat",
+            "-r",
+            metavar="<R or A-B>",
+            help="How many times the procedure is run: R (exactly R) or A-B (each of A..B).",
+        ),
+    ] = "1-10",
+    simulate: Annotated[
+        int,
+        typer.Option(
+            "--simulate", metavar="<int>", help="Simulated decks for the Monte Carlo parts."
+        ),
     ] = 100_000,
-    seed: Annotated[
-        int, typer.Option(min=0, help="Random seed >= 0 (results are reproducible from it).")
-    ] = 1,
+    seed: SeedOption = 1,
     confidence: Annotated[
         float, typer.Option(help="Confidence of lower bounds and intervals.")
     ] = 0.99,
@@ -56,14 +67,12 @@ def assess(
             "cards, colour, suit, distinct)."
         ),
     ] = None,
-    plot: Annotated[
-        Path | None, typer.Option(help="Draw the bounds against r to this PNG.")
-    ] = None,
+    plot: Annotated[Path | None, plot_option("the bounds on total variation against r")] = None,
     report: ReportOption = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
-    """Distance to a random deck and an observant player's edge, for r = 1..R repetitions.
+    """Distance to a random deck and an observant player's edge, for r repetitions.
 
     Each number says how it was obtained: exact (the whole procedure is an exactly analysed
     model), an upper bound from the exactly analysed blocks (block inequalities), a
@@ -71,9 +80,10 @@ def assess(
     lower bound at the stated confidence from simulated decks, or an estimate with its
     interval (the guessing game).
     """
+    counts = repeat_counts(repeat)
     check_outputs(force=force, inputs=procedure_inputs(procedure), files=(plot,), folders=(report,))
     from shufflecheck.analyses.assess import assess as run_assessment
-    from shufflecheck.analyses.assess import assessment_json, assessment_work
+    from shufflecheck.analyses.assess import assessment_json, assessment_work, only_repeats
     from shufflecheck.models.procedures import procedure_from_argument
 
     proc = procedure_from_argument(procedure)
@@ -94,9 +104,10 @@ def assess(
         from shufflecheck.common.errors import InputError
 
         raise InputError(f"the shoe has {shoe.size} cards, not {cards}", argument="cards")
-    units = assessment_work(decks, repeat, n)
-    size = f"{decks:,} decks x {n} cards x {repeat} repetition{'s' if repeat != 1 else ''}"
-    long_work = decks * n * repeat >= 10_000_000
+    decks, most = simulate, counts[-1]
+    units = assessment_work(decks, most, n)
+    size = f"{decks:,} decks x {n} cards x {most} repetition{'s' if most != 1 else ''}"
+    long_work = decks * n * most >= 10_000_000
     with progress(units if long_work else 0, "simulating", size) as update:
         if shoe is not None and (feature or "rank") != "distinct":
             from shufflecheck.analyses.feature_assess import assess_feature
@@ -105,7 +116,7 @@ def assess(
                 proc,
                 shoe,
                 feature or "rank",
-                repeats=repeat,
+                repeats=most,
                 decks=decks,
                 rng=seed,
                 confidence=confidence,
@@ -115,12 +126,13 @@ def assess(
             result = run_assessment(
                 proc,
                 n,
-                repeats=repeat,
+                repeats=most,
                 decks=decks,
                 rng=seed,
                 confidence=confidence,
                 progress=update,
             )
+    result = only_repeats(result, counts)
     payload = assessment_json(result)
     figure = _figure(result) if plot or report else None
     if plot is not None:

@@ -10,13 +10,17 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     ReportOption,
+    SeedOption,
     app,
     check_outputs,
     echo,
     emit_json,
+    plot_option,
     procedure_inputs,
     progress,
+    repeat_counts,
     save_report,
 )
 from shufflecheck.common.cautions import LOGS_UNTOUCHED, caution
@@ -43,6 +47,16 @@ def segment_option(text: str | None) -> tuple[int, int] | None:
             f"--segment must be START:CARDS like 1:52 (reference positions from 1), got {text!r}"
         ) from None
     return start, length
+
+
+def reference_help() -> str:
+    """The ``--reference`` help: every choice the log reader takes, one line each."""
+    from shufflecheck.records.logs.reference import Reference
+
+    lines = [c.replace(" with by", " with --by") for c in Reference.CHOICES]
+    return "What each deck is compared with (its order before the shuffle):\n\n\b\n" + (
+        "\n".join(lines)
+    )
 
 
 class Labels(str, Enum):
@@ -78,11 +92,7 @@ def audit(
     reference: Annotated[
         str,
         typer.Option(
-            help="Reference order of each deck: previous (default: the deck before it in the "
-            "log, of the same group with --by: the pickup order); first (the first deck, not "
-            "tested); deck (the deck definition's order, e.g. a new pack); column:NAME (each "
-            "deck's own starting order in column NAME); pairs (rows alternate before/after a "
-            "pass); or an order written out / a file holding one."
+            "--reference", metavar="<reference>", show_default=False, help=reference_help()
         ),
     ] = "previous",
     by: Annotated[
@@ -177,15 +187,18 @@ def audit(
     workers: Annotated[
         int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
     ] = None,
+    plot: Annotated[
+        Path | None, plot_option("every test's adjusted p-value against the level")
+    ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Test recorded deck orders for bias: exact nulls, Holm control, plain-unit effects.
 
     Exit code 0 whether or not bias is found (a finding, not a failure); 2 for bad input.
     """
-    _check_audit_outputs(log, deck, reference, quarantine, report, force)
+    _check_audit_outputs(log, deck, reference, quarantine, report, force, plot)
     from shufflecheck.analyses.audit_log import audit_log, choose_engine, total_bytes
 
     chosen = choose_engine(log, engine.value, scheduler)
@@ -215,6 +228,11 @@ def audit(
             workers=workers,
         )
     payload = result.as_json()
+    if plot is not None:
+        from shufflecheck.common.files import atomic_write
+        from shufflecheck.report.builders.audit import audit_pvalue_figure
+
+        atomic_write(plot, audit_pvalue_figure(result).png, force=force)
     if report is not None:
         from shufflecheck.report.builders.audit import audit_report
         from shufflecheck.report.provenance import collect_provenance
@@ -231,11 +249,13 @@ def audit(
         emit_json(payload)
         return
     print_audit(result)
+    if plot is not None:
+        echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")
 
 
-def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool) -> None:
+def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool, plot=None) -> None:
     """Refuse unusable --quarantine and --report paths before any reading: never one of
     the logs, the deck definition or the reference file; never an existing file without
     --force (with several logs, --quarantine is a folder of one file per log)."""
@@ -265,7 +285,7 @@ def _check_audit_outputs(log, deck, reference, quarantine, report, force: bool) 
             files = [quarantine_path(quarantine, s, True) for s in sources]
     elif quarantine is not None:
         files = [quarantine]
-    check_outputs(force=force, inputs=inputs, files=files, folders=(report,))
+    check_outputs(force=force, inputs=inputs, files=[*files, plot], folders=(report,))
 
 
 def print_audit(result) -> None:
@@ -372,30 +392,6 @@ def _print_fleet(result, fleet) -> None:
         echo(f"... and {len(shown) - 40} more (all in --json and --report).")
 
 
-def _repeat_range(text: str) -> list[int]:
-    """``"5"`` -> [5]; ``"4-8"`` or ``"4..8"`` -> [4, ..., 8]."""
-    from shufflecheck.common.errors import InputError, clip
-    from shufflecheck.common.limits import limit
-
-    most = limit("power_repeats").high
-    cleaned = text.replace("..", "-").strip()
-    try:
-        if "-" in cleaned:
-            low, high = (int(part) for part in cleaned.split("-", 1))
-        else:
-            low = high = int(cleaned)
-    except ValueError:
-        raise InputError(
-            f"--repeat must be a count like 5 or a range like 4-8, got {clip(text, 40)!r}"
-        ) from None
-    if not 1 <= low <= high <= most:
-        raise InputError(
-            f"--repeat must lie within 1..{most} with low <= high, got {clip(text, 40)!r} "
-            f"({limit('power_repeats').why})"
-        )
-    return list(range(low, high + 1))
-
-
 @app.command()
 def power(
     procedure: Annotated[str, typer.Argument(help="Procedure text or a .toml procedure file.")],
@@ -410,10 +406,21 @@ def power(
     ] = 0.9,
     repeat: Annotated[
         str,
-        typer.Option("--repeat", "-r", help="Procedure repetitions per deck: 5, or a range 4-8."),
+        typer.Option(
+            "--repeat",
+            "-r",
+            metavar="<R or A-B>",
+            help="How many times the procedure is run per deck: R (exactly R) or A-B (each "
+            "of A..B, planned separately).",
+        ),
     ] = "1",
     simulate: Annotated[
-        int, typer.Option(help="Decks simulated to learn the procedure's laws.")
+        int,
+        typer.Option(
+            "--simulate",
+            metavar="<int>",
+            help="Simulated decks, to learn the procedure's laws (default 4,000; 2,000 for shoes).",
+        ),
     ] = 4000,
     confidence: Annotated[
         float,
@@ -429,13 +436,14 @@ def power(
         Feature | None,
         typer.Option(help="Shoes: what the game sees (rank by default; blackjack, baccarat, ...)."),
     ] = None,
-    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
+    seed: SeedOption = 1,
     plot: Annotated[
-        Path | None, typer.Option(help="Draw decks needed against repetitions (PNG).")
+        Path | None,
+        plot_option("the decks needed against repetitions (needs a range of --repeat)"),
     ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """How many recorded decks each test needs to flag a procedure against a random deck.
 
@@ -451,7 +459,7 @@ def power(
 
     check_confidence(confidence)
     proc = procedure_from_argument(procedure)
-    counts = _repeat_range(repeat)
+    counts = repeat_counts(repeat, key="power_repeats")
     shoe = None
     if deck is not None:
         from shufflecheck.records.shoes import load_shoe

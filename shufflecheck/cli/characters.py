@@ -10,7 +10,15 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import ForceOption, app, check_outputs, echo, emit_json, progress
+from shufflecheck.cli._app import (
+    ForceOption,
+    JsonOption,
+    app,
+    check_outputs,
+    echo,
+    emit_json,
+    progress,
+)
 from shufflecheck.common.errors import InputError
 from shufflecheck.models.registry import spectrum_models
 
@@ -34,7 +42,7 @@ def characters(
         Path | None, typer.Option("--csv", help="Write the whole table to this CSV file.")
     ] = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Exact irreducible characters of S_n (Murnaghan-Nakayama rule on beta-sets).
 
@@ -132,7 +140,7 @@ def spectrum(
     shapes_shown: Annotated[
         int, typer.Option("--show-shapes", help="Terminal view: shapes listed per eigenvalue.")
     ] = 3,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Distinct eigenvalues of a shuffle's transition operator, with multiplicities.
 

@@ -9,6 +9,7 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     app,
     check_report_folder,
     echo,
@@ -17,19 +18,28 @@ from shufflecheck.cli._app import (
     report_progress,
     save_report,
 )
+from shufflecheck.common.files import OWNER_FILE
 
 
 @app.command()
 def demo(
-    out: Annotated[Path, typer.Option(help="Report folder to write.")] = Path("reports/demo"),
+    report: Annotated[
+        Path,
+        typer.Option(
+            "--report",
+            metavar="<folder>",
+            help="Report folder to write. The demo replaces a folder it wrote itself (it "
+            f"leaves a marker file, {OWNER_FILE}); any other existing folder needs --force.",
+        ),
+    ] = Path("reports/demo"),
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Run the main job on the bundled demo data (the invented Lantern Quay Card Room).
 
     Policy minimums for four procedures, their assessment, what would settle the open one,
     audits of three tables' logs, and how many decks an audit needs; prints a summary and
-    writes a report (Markdown, self-contained HTML, JSON, figures) to --out.
+    writes a report (Markdown, self-contained HTML, JSON, figures) to --report.
     """
     from shufflecheck.analyses.demo import demo_folder, demo_work, run_demo
     from shufflecheck.analyses.plan import planning_json
@@ -38,6 +48,7 @@ def demo(
     from shufflecheck.report.builders.policy import policy_payload
     from shufflecheck.report.provenance import collect_provenance
 
+    out = report
     if not out.parent.exists() and out.parent == Path("reports"):
         from shufflecheck.common.files import write_failure
 
@@ -45,7 +56,7 @@ def demo(
             out.parent.mkdir()
         except OSError as exc:
             raise write_failure(out.parent, exc) from None
-    check_report_folder(out, force=force)
+    check_report_folder(out, force=force, owner="demo")
     with progress(demo_work(), "demo: assessing procedures") as update:
         result = run_demo(progress=update)
     payload = {
@@ -76,7 +87,7 @@ def demo(
         document = demo_report(
             result, payload=payload, provenance=collect_provenance(inputs, seeds=seeds)
         )
-        written = save_report(document, out, force=force)
+        written = save_report(document, out, force=force, owner="demo")
         saved()
     if json_out:
         emit_json(payload)

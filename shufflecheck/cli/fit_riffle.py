@@ -8,7 +8,9 @@ from typing import Annotated
 import typer
 
 from shufflecheck.cli._app import (
+    JsonOption,
     ReportOption,
+    SeedOption,
     app,
     check_outputs,
     echo,
@@ -77,7 +79,7 @@ def fit_riffle(
         float, typer.Option(help="Family-wise level of the tests of the ideal riffle (Holm).")
     ] = 0.01,
     samples: Annotated[int, typer.Option(help="Simulated logs for the Monte Carlo tests.")] = 999,
-    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 0,
+    seed: SeedOption = 0,
     plot: Annotated[
         Path | None, typer.Option(help="Draw packet lengths (recorded, ideal, fitted) to this PNG.")
     ] = None,
@@ -89,7 +91,7 @@ def fit_riffle(
             "command's inputs)."
         ),
     ] = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Estimate a dealer's hand riffle (cut spread, clumping) from recorded riffles.
 

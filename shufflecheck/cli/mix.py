@@ -10,6 +10,7 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     ReportOption,
     app,
     check_outputs,
@@ -113,7 +114,7 @@ def mix(
     ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Exact distance to a perfectly random deck after k steps of a classical shuffle.
 

@@ -2,7 +2,7 @@
 
 ``monitor ingest STORE LOG`` adds a log's new decks to their tables (one transaction;
 re-ingesting adds nothing); ``monitor status STORE`` prints every table's evidence and
-alarms; ``monitor dashboard STORE --out DIR`` writes the fleet dashboard (HTML and JSON).
+alarms; ``monitor dashboard STORE --report DIR`` writes the fleet dashboard (HTML and JSON).
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import command_group, echo, emit_json, progress, warn
+from shufflecheck.cli._app import JsonOption, command_group, echo, emit_json, progress, warn
 from shufflecheck.common.numbers import percent
 
 monitor = command_group(
@@ -24,7 +24,6 @@ monitor = command_group(
 StoreArgument = Annotated[
     Path, typer.Argument(help="Monitoring store (one SQLite file; created on first ingest).")
 ]
-JsonOption = Annotated[bool, typer.Option("--json", help="Machine-readable output.")]
 
 
 @monitor.command()
@@ -148,9 +147,21 @@ def status(store: StoreArgument, json_out: JsonOption = False) -> None:
 @monitor.command()
 def dashboard(
     store: StoreArgument,
-    out: Annotated[Path, typer.Option(help="Folder for dashboard.html and dashboard.json.")],
+    out: Annotated[
+        Path,
+        typer.Option(
+            "--report",
+            metavar="<folder>",
+            help="Folder for the dashboard: dashboard.html and dashboard.json.",
+        ),
+    ],
     force: Annotated[
-        bool, typer.Option(help="Replace an existing dashboard.html and dashboard.json.")
+        bool,
+        typer.Option(
+            "--force",
+            show_default=False,
+            help="Replace an existing dashboard.html and dashboard.json.",
+        ),
     ] = False,
     json_out: JsonOption = False,
 ) -> None:

@@ -9,11 +9,13 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     ReportOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
+    plot_option,
     progress,
     report_progress,
     save_report,
@@ -26,16 +28,21 @@ def policy(
     file: Annotated[
         Path, typer.Argument(help="Policy file (TOML): metric, target, procedures, logs.")
     ],
+    plot: Annotated[
+        Path | None, plot_option("each procedure's distance against repetitions")
+    ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
     allow_outside: Annotated[
         bool,
         typer.Option(
+            "--allow-outside",
+            show_default=False,
             help="Let the policy file name logs, decks and reference files outside its own "
-            "folder (only for policy files you trust)."
+            "folder (only for policy files you trust).",
         ),
     ] = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """The fewest repetitions of each house procedure that meet the policy's target.
 
@@ -52,12 +59,20 @@ def policy(
     from shufflecheck.report.builders.policy import policy_payload
 
     loaded = load_policy(file, allow_outside=allow_outside)
-    check_report_folder(
-        report, force=force, inputs={path: "a file the policy reads" for path in loaded.inputs}
+    check_outputs(
+        force=force,
+        inputs={path: "a file the policy reads" for path in loaded.inputs},
+        files=(plot,),
+        folders=(report,),
     )
     with progress(policy_work(loaded), "assessing procedures", policy_size(loaded)) as update:
         result = evaluate_policy(loaded, progress=update)
     payload = policy_payload(result)
+    if plot is not None:
+        from shufflecheck.common.files import atomic_write
+        from shufflecheck.report.builders.policy import policy_figure
+
+        atomic_write(plot, policy_figure(result).png, force=force)
     if report is not None:
         from shufflecheck.report.builders.policy import policy_figure_count, policy_report
         from shufflecheck.report.provenance import collect_provenance
@@ -80,6 +95,8 @@ def policy(
         emit_json(payload)
         return
     print_policy(result)
+    if plot is not None:
+        echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")
 

@@ -9,7 +9,15 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import app, echo, emit_json
+from shufflecheck.cli._app import (
+    ForceOption,
+    JsonOption,
+    SeedOption,
+    app,
+    echo,
+    emit_json,
+    repeat_counts,
+)
 
 
 class SimulatedReference(str, Enum):
@@ -20,17 +28,26 @@ class SimulatedReference(str, Enum):
 @app.command()
 def simulate(
     procedure: Annotated[str, typer.Argument(help="Procedure text or a .toml procedure file.")],
-    out: Annotated[Path, typer.Option(help="Log file to write (.csv or .jsonl).")],
+    out: Annotated[
+        Path, typer.Option("--out", metavar="<file>", help="Log file to write (.csv or .jsonl).")
+    ],
     cards: Annotated[
         int | None, typer.Option("--cards", "-n", help="Cards per deck (default 52).")
     ] = None,
     decks: Annotated[
-        int, typer.Option(help="Recorded decks to simulate (1 to 100,000,000).")
+        int,
+        typer.Option("--decks", metavar="<int>", help="Decks the log records (1 to 100,000,000)."),
     ] = 1000,
-    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
+    seed: SeedOption = 1,
     repeat: Annotated[
-        int, typer.Option("--repeat", "-r", help="Run the procedure r times per deck (1 to 100).")
-    ] = 1,
+        str,
+        typer.Option(
+            "--repeat",
+            "-r",
+            metavar="<R>",
+            help="How many times the procedure is run per deck: exactly R (1 to 100).",
+        ),
+    ] = "1",
     reference: Annotated[
         SimulatedReference,
         typer.Option(
@@ -55,13 +72,17 @@ def simulate(
     table: Annotated[str | None, typer.Option(help="Add a 'table' column with this value.")] = None,
     start: Annotated[
         str | None,
-        typer.Option(help="Add 'recorded_at' times from this ISO time (e.g. 2026-11-02T18:00)."),
+        typer.Option(
+            "--start-time",
+            metavar="<time>",
+            help="Add 'recorded_at' times from this ISO time (e.g. 2026-11-02T18:00).",
+        ),
     ] = None,
     every: Annotated[
-        int, typer.Option(help="Seconds between decks for recorded_at (1 to a year).")
+        int, typer.Option(help="With --start-time: seconds between decks (1 to a year).")
     ] = 120,
-    force: Annotated[bool, typer.Option(help="Replace --out if it exists.")] = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable summary.")] = False,
+    force: ForceOption = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Write a synthetic log: one deck per row, card codes top to bottom (invented data).
 
@@ -78,7 +99,7 @@ def simulate(
     inputs = {**procedure_inputs(procedure, then), deck: "the deck definition itself"}
     check_outputs(force=force, inputs=inputs, files=(out,))
     limit("simulate_decks").check(decks)
-    limit("repeats").check(repeat, name="repeat")
+    (repeats,) = repeat_counts(repeat, ranges=False)
     limit("every").check(every)
     proc = procedure_from_argument(procedure)
     shoe = load_shoe(deck) if deck is not None else None
@@ -91,7 +112,7 @@ def simulate(
         cards=cards,
         decks=decks,
         seed=seed,
-        repeats=repeat,
+        repeats=repeats,
         reference=reference.value,
         change=change,
         deck=deck,

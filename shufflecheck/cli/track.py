@@ -10,11 +10,14 @@ import typer
 
 from shufflecheck.cli._app import (
     ForceOption,
+    JsonOption,
     ReportOption,
+    SeedOption,
     app,
-    check_report_folder,
+    check_outputs,
     echo,
     emit_json,
+    plot_option,
     progress,
     save_report,
 )
@@ -66,12 +69,18 @@ def track(
     coverage: Annotated[
         float, typer.Option(help="Share of the slug the spread figure covers.")
     ] = 0.9,
-    shoes: Annotated[int, typer.Option(help="Simulated shoes.")] = 20000,
-    seed: Annotated[int, typer.Option(min=0, help="Random seed (>= 0).")] = 1,
+    shoes: Annotated[
+        int,
+        typer.Option("--simulate", metavar="<int>", help="Simulated shoes (with a PROCEDURE)."),
+    ] = 20000,
+    seed: SeedOption = 1,
     confidence: Annotated[float, typer.Option(help="Level of every interval.")] = 0.95,
+    plot: Annotated[
+        Path | None, plot_option("the slug cards caught per shoe against a random shoe")
+    ] = None,
     report: ReportOption = None,
     force: ForceOption = False,
-    json_out: Annotated[bool, typer.Option("--json", help="Machine-readable output.")] = False,
+    json_out: JsonOption = False,
 ) -> None:
     """Tracking exposure: where a slug of the discards comes out of a shoe shuffle.
 
@@ -79,7 +88,12 @@ def track(
     catches many of them, against a randomly shuffled shoe; every figure is labelled
     (estimates carry intervals). Statistical evidence, not certification.
     """
-    check_report_folder(report, force=force)
+    inputs = {log: "the log itself"} if log is not None else {}
+    if procedure is not None and procedure.lower().endswith(".toml"):
+        inputs[Path(procedure)] = "the procedure file itself"
+    if not deck.strip().lower().startswith("shoe"):
+        inputs[Path(deck)] = "the deck definition itself"
+    check_outputs(force=force, inputs=inputs, files=(plot,), folders=(report,))
     from shufflecheck.analyses.tracking import (
         CAUTION,
         recorded_exposure,
@@ -129,6 +143,14 @@ def track(
                 progress=update,
             )
     payload = tracking_json(result)
+    if plot is not None:
+        from shufflecheck.common.files import atomic_write
+        from shufflecheck.report.builders.track import tracking_figure
+
+        figure = tracking_figure(result)
+        if figure is None:
+            raise InputError("there is no figure to draw: no shoe was followed")
+        atomic_write(plot, figure.png, force=force)
     if report is not None:
         from shufflecheck.report.builders.track import tracking_report
         from shufflecheck.report.provenance import collect_provenance
@@ -171,5 +193,7 @@ def track(
     for note in result.notes:
         echo(f"Note: {note}.")
     echo(CAUTION)
+    if plot is not None:
+        echo(f"Wrote {plot}")
     if report is not None:
         echo(f"Wrote report {written}")

@@ -36,6 +36,28 @@ def clip(text: object, width: int = 60) -> str:
     return f"{value[:head]} ... [{cut:,} more characters] ... {value[-tail:]}"
 
 
+#: arguments that messages about one row or token may mark (``{separator}``, ``{labels=int}``)
+MARKED = ("separator", "labels")
+
+
+def marked_arguments(text: str, candidates: tuple[str, ...]) -> tuple[str, ...]:
+    """The names among ``candidates`` that ``text`` marks as ``{name}`` or ``{name=value}``."""
+    return tuple(
+        name for name in candidates if "{" + name + "}" in text or "{" + name + "=" in text
+    )
+
+
+def plain_markers(text: str, names: tuple[str, ...]) -> str:
+    """``text`` with the markers of ``names`` in their Python form: ``{name}`` -> ``name``,
+    ``{name=value}`` -> ``name='value'`` (see :class:`InputError`)."""
+    for name in names:
+        text = text.replace("{" + name + "}", name)
+        text = re.sub(
+            r"\{" + re.escape(name) + r"=([^{}]*)\}", lambda m, n=name: f"{n}='{m.group(1)}'", text
+        )
+    return text
+
+
 class InputError(ValueError):
     """Bad input: the message is one line, fit to show a user as it is.
 
@@ -46,7 +68,9 @@ class InputError(ValueError):
     argument : str, tuple of str, or None
         The library argument(s) the message names, by their Python names. Where a name
         could be mistaken for an ordinary word, the message marks the spot as ``{name}``
-        (shown as the bare name); otherwise its first appearance is the argument.
+        (shown as the bare name); otherwise its first appearance is the argument. A value
+        to give it is marked ``{name=value}``: shown as ``name='value'`` (Python), and
+        on the command line as ``--option value``.
     without_content : str or None
         The same message without the text it quotes from the file that failed to parse
         (e.g. the header of a file that is not a log). Callers reading files on behalf of
@@ -68,8 +92,7 @@ class InputError(ValueError):
             () if argument is None else (argument,) if isinstance(argument, str) else argument
         )
         self.template = message
-        for name in self.arguments:
-            message = message.replace("{" + name + "}", name)
+        message = plain_markers(message, self.arguments)
         super().__init__(message)
         self.without_content = message if without_content is None else without_content
 
@@ -79,10 +102,15 @@ class InputError(ValueError):
         for argument in self.arguments:
             marker = "{" + argument + "}"
             if argument not in names:
-                text = text.replace(marker, argument)
-            elif marker in text:
-                text = text.replace(marker, names[argument])
+                text = plain_markers(text, (argument,))
+                continue
+            option = names[argument]
+            valued = r"\{" + re.escape(argument) + r"=([^{}]*)\}"
+            marked = marker in text or re.search(valued, text) is not None
+            text = re.sub(valued, lambda m, o=option: f"{o} {m.group(1)}", text)
+            if marked:
+                text = text.replace(marker, option)
             else:
                 pattern = rf"(?<![\w-]){re.escape(argument)}(?![\w-])"
-                text = re.sub(pattern, names[argument], text, count=1)
+                text = re.sub(pattern, option, text, count=1)
         return text

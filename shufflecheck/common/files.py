@@ -38,6 +38,7 @@ from typing import IO
 from shufflecheck.common.errors import InputError
 
 __all__ = [
+    "OWNER_FILE",
     "TEMPORARY_SUFFIXES",
     "atomic_open",
     "atomic_write",
@@ -50,6 +51,10 @@ __all__ = [
     "temporary_path",
     "write_failure",
 ]
+
+#: The marker file of an output folder its writer owns and may replace without being told
+#: to (it holds the owner's name, one line; see :mod:`shufflecheck.report.writer`)
+OWNER_FILE = ".shufflecheck-owner"
 
 #: suffixes of the temporaries this module (and the report writer) create
 TEMPORARY_SUFFIXES = (".incomplete", ".replaced")

@@ -108,7 +108,7 @@ _ENTRIES = (
         2,
         50_000_000,
         "simulated decks",
-        "assess --decks",
+        "assess --simulate",
         "decks are simulated in chunks, so memory stays bounded, but the time grows with "
         "the number of decks",
     ),
@@ -118,7 +118,7 @@ _ENTRIES = (
         100,
         10_000_000,
         "simulated decks per procedure",
-        "policy files: decks =",
+        "policy files: simulate =",
         "every procedure of the policy is assessed with this many decks",
     ),
     Limit(
@@ -126,7 +126,7 @@ _ENTRIES = (
         "decks",
         1,
         100_000_000,
-        "simulated decks",
+        "decks written to a log",
         "simulate --decks",
         "the whole log is built in memory before it is written",
     ),

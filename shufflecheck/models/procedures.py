@@ -43,12 +43,15 @@ from shufflecheck.models.permute import CHUNK_DECKS, deck_dtype, identity_decks
 from shufflecheck.models.registry import entry, step_types
 
 __all__ = [
+    "PROCEDURE_FILE_KEYS",
+    "RENAMED_KEYS",
     "SIMULATION_REFERENCES",
     "Procedure",
     "ProcedureItem",
     "load_procedure",
     "parse_procedure",
     "procedure_from_argument",
+    "renamed_key",
     "running_composition",
     "simulate_play",
     "simulated_chunks",
@@ -343,11 +346,11 @@ def _article(kind: str) -> str:
 # ---------------------------------------------------------------------------------------
 # files and command-line arguments
 
-_PROCEDURE_KEYS = {"name", "cards", "decks", "steps", "description"}
+PROCEDURE_FILE_KEYS = {"name", "cards", "packs", "steps", "description"}
 
 
 def load_procedure(path: str | Path) -> Procedure:
-    """Read a procedure TOML file (keys: name, cards or decks, steps, description)."""
+    """Read a procedure TOML file (keys: name, cards or packs, steps, description)."""
     from shufflecheck.common.tomlfiles import load_toml
 
     doc = load_toml(path)
@@ -356,10 +359,15 @@ def load_procedure(path: str | Path) -> Procedure:
 
 def procedure_from_table(doc, data: dict, table: str | None, index: int = 0) -> Procedure:
     """Build a procedure from one TOML table (shared with policy files)."""
+    if table is None:
+        renamed_key(doc, data, table, index)
     for key in data:
-        if key not in _PROCEDURE_KEYS and table is None:
+        if key not in PROCEDURE_FILE_KEYS and table is None:
             raise doc.error(
-                f"unknown key (allowed: {', '.join(sorted(_PROCEDURE_KEYS))})", key, table, index
+                f"unknown key (allowed: {', '.join(sorted(PROCEDURE_FILE_KEYS))})",
+                key,
+                table,
+                index,
             )
     steps = data.get("steps")
     if steps is None:
@@ -384,23 +392,36 @@ def procedure_from_table(doc, data: dict, table: str | None, index: int = 0) -> 
         raise doc.error(f"{exc}", "steps", table, index) from None
 
 
+#: keys renamed for one vocabulary (docs/options.md): old key -> (new key, what it means)
+RENAMED_KEYS = {"decks": ("packs", "packs in a shoe of distinct cards")}
+
+
+def renamed_key(doc, data: dict, table: str | None, index: int = 0, renamed=None) -> None:
+    """Refuse a key given under its old name, naming the new one (file, line and key)."""
+    for old, (new, meaning) in (RENAMED_KEYS if renamed is None else renamed).items():
+        if old in data:
+            raise doc.error(f"'{old}' is now '{new}' ({meaning})", old, table, index)
+
+
 def deck_size(doc, data: dict, table: str | None, index: int = 0) -> int | None:
-    """``cards`` (an integer >= 2) or ``decks`` (a shoe of ``decks x 52`` cards), not both."""
+    """``cards`` (an integer >= 2) or ``packs`` (a shoe of ``packs x 52`` distinct cards),
+    not both."""
+    renamed_key(doc, data, table, index)
     cards = data.get("cards")
-    decks = data.get("decks")
-    if cards is not None and decks is not None:
-        raise doc.error("give cards or decks, not both", "decks", table, index)
+    packs = data.get("packs")
+    if cards is not None and packs is not None:
+        raise doc.error("give cards or packs, not both", "packs", table, index)
     if cards is not None:
         try:
             return limit("cards").check(cards, name="the number of cards")
         except InputError as exc:
             raise doc.error(str(exc), "cards", table, index) from None
-    if decks is not None:
-        if isinstance(decks, bool) or not isinstance(decks, int) or not 1 <= decks <= 16:
+    if packs is not None:
+        if isinstance(packs, bool) or not isinstance(packs, int) or not 1 <= packs <= 16:
             raise doc.error(
-                f"must be an integer from 1 to 16, got {decks!r}", "decks", table, index
+                f"must be an integer from 1 to 16, got {packs!r}", "packs", table, index
             )
-        return decks * PACK
+        return packs * PACK
     return None
 
 

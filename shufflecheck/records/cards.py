@@ -54,7 +54,7 @@ from typing import Literal
 import numpy as np
 
 from shufflecheck.common.checks import check_cards
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import MARKED, InputError, marked_arguments
 from shufflecheck.common.limits import limit
 from shufflecheck.common.tomlfiles import parse_toml
 
@@ -452,7 +452,7 @@ class DeckDefinition:
             if _normalise(code).isdigit():
                 return (
                     f"unknown card code {shown!r}{at}; {_EXPECTED} "
-                    "(integer labels need labels='int')"
+                    "(integer labels need {labels=int})"
                 )
             if _normalise(code) in NAME_WORDS and len(_normalise(code)) > 2:
                 return (
@@ -476,7 +476,7 @@ class DeckDefinition:
         found = self.lookup(code)
         if found is None:
             problem = self.code_problem(code)
-            raise InputError(problem, argument="separator" if "{separator}" in problem else None)
+            raise InputError(problem, argument=marked_arguments(problem, MARKED) or None)
         return found
 
     def code(self, label: int) -> str:

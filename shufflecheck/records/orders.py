@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import MARKED, InputError, marked_arguments
 from shufflecheck.records.cards import DeckDefinition, Labels
 
 __all__ = [
@@ -220,7 +220,7 @@ def parse_order(
     tokens = order.split() if isinstance(order, str) else list(order)
     checked = check_arrangement(tokens, deck, labels=labels)
     if not checked.ok:
-        named = "separator" if "{separator}" in str(checked.problem) else None
+        named = marked_arguments(str(checked.problem), MARKED) or None
         raise InputError(f"{where}: {checked.problem}", argument=named)
     assert checked.labels is not None
     return checked.labels

@@ -19,6 +19,11 @@ Replacing is refused unless the existing folder holds nothing but what a report 
 (``report.md``, ``report.html``, ``report.json`` naming the report format, and
 ``figures/*.png``): a mistyped ``--report`` pointing at a folder of input logs can never
 delete them.
+
+A writer that owns its folder (``owner="demo"``: the demo's default folder, which its
+README command writes on every run) leaves a marker file :data:`OWNER_FILE` holding its
+name in the folder; a folder with that marker and nothing but report files is replaced
+without ``force`` by the same owner. Any other existing folder still needs ``force``.
 """
 
 from __future__ import annotations
@@ -32,6 +37,7 @@ from pathlib import Path
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import (
+    OWNER_FILE,
     clean_temporaries,
     default_mode,
     temporary_path,
@@ -41,10 +47,17 @@ from shufflecheck.report.document import FORMAT_NAME, Report, render_json
 from shufflecheck.report.render.html import render_html
 from shufflecheck.report.render.markdown import render_markdown
 
-__all__ = ["REPORT_FILES", "WrittenReport", "check_report_target", "render_files", "write_report"]
+__all__ = [
+    "OWNER_FILE",
+    "REPORT_FILES",
+    "WrittenReport",
+    "check_report_target",
+    "render_files",
+    "write_report",
+]
 
 #: The files at the top of a report folder (figures go in ``figures/``).
-REPORT_FILES = ("report.md", "report.html", "report.json")
+REPORT_FILES = ("report.md", "report.html", "report.json", OWNER_FILE)
 
 
 @dataclass(frozen=True)
@@ -71,12 +84,26 @@ def render_files(report: Report) -> dict[str, bytes]:
     return files
 
 
-def check_report_target(folder: str | os.PathLike[str], *, force: bool = False) -> Path:
+def owned_by(folder: str | os.PathLike[str], owner: str) -> bool:
+    """Whether ``folder`` holds the marker file of ``owner`` (see the module notes)."""
+    marker = Path(folder) / OWNER_FILE
+    if marker.is_symlink() or not marker.is_file():
+        return False
+    try:
+        return marker.read_text(encoding="utf-8").strip() == owner
+    except (OSError, UnicodeDecodeError):
+        return False
+
+
+def check_report_target(
+    folder: str | os.PathLike[str], *, force: bool = False, owner: str | None = None
+) -> Path:
     """Check that a report can be written at ``folder`` (before any work); return it.
 
     Refused: a name that is not a new folder; a missing parent; an existing file; an
-    existing folder without ``force``; with ``force``, a folder that holds anything a
-    report does not write (see the module notes).
+    existing folder without ``force`` (unless ``owner`` wrote it: its marker file names
+    ``owner``); when replacing, a folder that holds anything a report does not write (see
+    the module notes).
     """
     target = Path(folder)
     if target.name in ("", ".", ".."):
@@ -87,9 +114,11 @@ def check_report_target(folder: str | os.PathLike[str], *, force: bool = False) 
     if target.exists() or target.is_symlink():
         if not target.is_dir() or target.is_symlink():
             raise InputError(f"cannot write report to {target}: it exists and is not a folder")
-        if not force:
+        if not force and not (owner is not None and owned_by(target, owner)):
+            whose = f" and was not written by the {owner}" if owner is not None else ""
             raise InputError(
-                f"report folder {target} exists; pass force to replace it", argument="force"
+                f"report folder {target} exists{whose}; pass force to replace it",
+                argument="force",
             )
         _check_replaceable(target)
 
@@ -97,7 +126,11 @@ def check_report_target(folder: str | os.PathLike[str], *, force: bool = False) 
 
 
 def write_report(
-    report: Report, folder: str | os.PathLike[str], *, force: bool = False
+    report: Report,
+    folder: str | os.PathLike[str],
+    *,
+    force: bool = False,
+    owner: str | None = None,
 ) -> WrittenReport:
     """Write ``report`` as a folder at ``folder``, atomically.
 
@@ -108,7 +141,11 @@ def write_report(
         The report folder to create. Its parent must exist.
     force : bool
         Replace an existing report folder (atomically, see the module notes). Without it an
-        existing ``folder`` is an error.
+        existing ``folder`` is an error, unless ``owner`` wrote it.
+    owner : str, optional
+        The writer that owns the folder (e.g. ``"demo"``): its name is written to the
+        marker file :data:`OWNER_FILE`, and a folder holding that marker is replaced
+        without ``force``.
 
     Returns
     -------
@@ -120,9 +157,11 @@ def write_report(
         The parent folder does not exist; ``folder`` exists and ``force`` is not given;
         ``folder`` is a file; or ``folder`` holds files a report does not write.
     """
-    target = check_report_target(folder, force=force)
+    target = check_report_target(folder, force=force, owner=owner)
     parent = target.parent
     files = render_files(report)  # render everything before touching the disk
+    if owner is not None:
+        files[OWNER_FILE] = f"{owner}\n".encode()
     clean_temporaries(parent)
     staging = temporary_path(target)
     try:

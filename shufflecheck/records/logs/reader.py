@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.errors import MARKED, InputError, marked_arguments, plain_markers
 from shufflecheck.common.files import atomic_open, same_file
 from shufflecheck.records.cards import LABEL_MODES, DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import (
@@ -52,7 +52,7 @@ from shufflecheck.records.shoes import ShoeDefinition, check_shoe_row, copy_rows
 # the reader
 
 #: arguments a row's problem may point to (marked ``{name}`` in the text)
-_NAMED = ("separator",)
+_NAMED = MARKED
 
 
 def _format_of(path: Path, fmt: str) -> str:
@@ -238,14 +238,12 @@ class LogReader:
                 if bad:
                     if writer is None:
                         first = bad[0]
-                        named = tuple(a for a in _NAMED if "{" + a + "}" in first.problem)
+                        named = marked_arguments(first.problem, _NAMED)
                         raise InputError(
                             f"{self._where(first.row)}: {first.problem}", argument=named or None
                         )
                     for item in bad:
-                        problem = item.problem
-                        for a in _NAMED:
-                            problem = problem.replace("{" + a + "}", a)
+                        problem = plain_markers(item.problem, _NAMED)
                         writer.writerow((item.row, item.reason, problem, item.raw))
                         self._reasons[item.reason] += 1
                 self._decks += len(chunk)

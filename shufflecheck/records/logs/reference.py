@@ -10,7 +10,7 @@ from typing import Any, Literal
 import numpy as np
 import pandas as pd
 
-from shufflecheck.common.errors import InputError, clip
+from shufflecheck.common.errors import MARKED, InputError, clip, marked_arguments
 from shufflecheck.records.cards import DeckDefinition, Labels, load_deck
 from shufflecheck.records.logs._common import LogChunk
 from shufflecheck.records.orders import parse_order, relative_to
@@ -38,14 +38,18 @@ class Reference:
     source: str = "previous"
     column: str | None = None
 
+    #: The keywords :meth:`parse` reads (besides a file or an order written out).
+    KEYWORDS = ("previous", "first", "deck", "column:NAME", "pairs")
+
     #: The choices of :meth:`parse`, one line each (the ``--reference`` help).
     CHOICES = (
-        "previous (default): the deck before it in the log, of the same group with by",
-        "first: the first deck of the log (of each group), which is not tested",
-        "deck: the deck definition's own order (for standard-52, a new pack)",
-        "column:NAME: each deck's own starting order, in the column NAME",
-        "pairs: rows alternate before/after a pass (per group); after-rows are tested",
-        "a file holding one order, or an order written out (codes separated by spaces)",
+        "previous: the deck before it (default; per group with by)",
+        "first: the first deck (of each group), itself not tested",
+        "deck: the deck definition's order (standard-52: a new pack)",
+        "column:NAME: each deck's own starting order, in column NAME",
+        "pairs: rows alternate before/after a pass; after-rows tested",
+        "FILE: a file holding one order",
+        "an order written out: card codes separated by spaces",
     )
 
     @classmethod
@@ -141,7 +145,9 @@ class Reference:
             )
         kinds, _, problem = check_shoe_row(tokens, shoe)
         if kinds is None:
-            raise InputError(f"{where}: {problem}")
+            raise InputError(
+                f"{where}: {problem}", argument=marked_arguments(str(problem), MARKED) or None
+            )
         return cls(
             "order", kinds, "given order" if where == "reference order" else f"order in {text}"
         )

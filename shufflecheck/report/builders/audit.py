@@ -23,6 +23,7 @@ __all__ = [
     "audit_figure_count",
     "audit_figures",
     "audit_methods",
+    "audit_pvalue_figure",
     "audit_report",
     "audit_section",
     "p_cell",
@@ -90,29 +91,33 @@ def audit_figure_count(audit) -> int:
     return 2 + (_guessing_histogram(audit) is not None)
 
 
+def audit_pvalue_figure(audit, prefix: str = ""):
+    """The adjusted p-value of every test against the family-wise level (``audit --plot``)."""
+    from shufflecheck.common.numbers import format_p_value
+    from shufflecheck.report.figures import pvalue_figure
+
+    battery = audit.result.overall
+    tests = battery.by_adjusted_p()
+    return pvalue_figure(
+        [t.title for t in tests],
+        [max(t.p_adjusted, 1e-300) for t in tests],
+        [_P_LABEL.get(t.method, "estimate") for t in tests],
+        alpha=battery.alpha,
+        flagged=[t.flagged for t in tests],
+        texts=[format_p_value(t.log10_p_adjusted) for t in tests],
+        name=f"{prefix}pvalues",
+    )
+
+
 def audit_figures(audit, prefix: str = "") -> tuple:
     """p-values, guessing scores against the exact null, and the position heat map."""
-    from shufflecheck.common.numbers import format_p_value
     from shufflecheck.report.figures import (
         heatmap_figure,
-        pvalue_figure,
         score_histogram_figure,
     )
     from shufflecheck.stats.guessing import guessing_null
 
-    battery = audit.result.overall
-    tests = battery.by_adjusted_p()
-    figures = [
-        pvalue_figure(
-            [t.title for t in tests],
-            [max(t.p_adjusted, 1e-300) for t in tests],
-            [_P_LABEL.get(t.method, "estimate") for t in tests],
-            alpha=battery.alpha,
-            flagged=[t.flagged for t in tests],
-            texts=[format_p_value(t.log10_p_adjusted) for t in tests],
-            name=f"{prefix}pvalues",
-        )
-    ]
+    figures = [audit_pvalue_figure(audit, prefix)]
     shown = _guessing_histogram(audit)
     shoe = getattr(audit, "shoe", None)
     if shown is not None:

@@ -9,7 +9,13 @@ from shufflecheck.common.sources import BAYER_DIACONIS, CLOPPER_PEARSON, TRADE_P
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 
-__all__ = ["tracking_figure_count", "tracking_report", "tracking_section", "tracking_table"]
+__all__ = [
+    "tracking_figure",
+    "tracking_figure_count",
+    "tracking_report",
+    "tracking_section",
+    "tracking_table",
+]
 
 
 def tracking_table(result) -> Table:
@@ -55,29 +61,33 @@ def tracking_figure_count(result, *, figures: bool = True) -> int:
     return int(figures and _has_histogram(result))
 
 
-def tracking_section(result, title: str, *, prefix: str = "", figures: bool = True) -> Section:
-    """One tracking analysis as a report section."""
+def tracking_figure(result, prefix: str = ""):
+    """Slug cards caught per shoe against a randomly shuffled shoe (None without shoes)."""
     from shufflecheck.report.figures import score_histogram_figure
 
-    figs = ()
-    if figures and _has_histogram(result):
-        figs = (
-            score_histogram_figure(
-                result.caught.tolist(),
-                result.random_pmf.tolist(),
-                score_name=f"slug cards in the {result.window}-card window",
-                count_name="number of shoes",
-                name=f"{prefix}tracking",
-                sample_label="simulated shoes" if result.placement != "best" else "recorded shoes",
-                null_label="a randomly shuffled shoe",
-                null_kind="exact" if result.chance_random.kind == "exact" else "estimate",
-                caption=(
-                    "Slug cards caught by the observer's window in each shoe (bars) against "
-                    "a randomly shuffled shoe (line; "
-                    f"{result.chance_random.kind})."
-                ),
-            ),
-        )
+    if not _has_histogram(result):
+        return None
+    return score_histogram_figure(
+        result.caught.tolist(),
+        result.random_pmf.tolist(),
+        score_name=f"slug cards in the {result.window}-card window",
+        count_name="number of shoes",
+        name=f"{prefix}tracking",
+        sample_label="simulated shoes" if result.placement != "best" else "recorded shoes",
+        null_label="a randomly shuffled shoe",
+        null_kind="exact" if result.chance_random.kind == "exact" else "estimate",
+        caption=(
+            "Slug cards caught by the observer's window in each shoe (bars) against "
+            "a randomly shuffled shoe (line; "
+            f"{result.chance_random.kind})."
+        ),
+    )
+
+
+def tracking_section(result, title: str, *, prefix: str = "", figures: bool = True) -> Section:
+    """One tracking analysis as a report section."""
+    figure = tracking_figure(result, prefix) if figures else None
+    figs = () if figure is None else (figure,)
     return Section(
         title,
         paragraphs=(result.sentence(),),
