@@ -9,7 +9,7 @@ from __future__ import annotations
 import importlib
 import sys
 
-from shufflecheck.cli._app import app, quiet_stdout
+from shufflecheck.cli._app import app, quiet_stdout, use_plain_help
 
 __all__ = ["app", "main"]
 
@@ -29,6 +29,7 @@ COMMAND_MODULES = (
 
 for _module in COMMAND_MODULES:
     importlib.import_module(f"shufflecheck.cli.{_module}")
+use_plain_help(app)
 
 
 def main() -> None:

@@ -19,6 +19,7 @@ import datetime as dt
 import json
 import math
 import os
+import re
 import signal
 import sys
 import tempfile
@@ -31,7 +32,7 @@ from pathlib import Path
 from typing import Annotated, Any
 
 import typer
-from typer.core import TyperGroup
+from typer.core import TyperCommand, TyperGroup
 
 from shufflecheck.common.errors import EXIT_BAD_INPUT, InputError, clip
 
@@ -142,6 +143,32 @@ def _renamed(command: str, args: list[str]) -> None:
         if name in table:
             new, meaning = table[name]
             raise InputError(f"{command} {name} is now {new} ({meaning})")
+
+
+def plain_help(text: str) -> str:
+    """Help text without the parser's Python spellings: ``<str>`` reads ``<text>`` and an
+    argument's ``{procedure}`` in the usage line reads ``PROCEDURE``."""
+    text = re.sub(r"<str>( {2,})", lambda m: "<text>" + m.group(1)[1:], text)  # same width
+    text = text.replace("<str>", "<text>")
+    return re.sub(r"\{([a-z_]+)\}", lambda m: m.group(1).upper(), text)
+
+
+class HelpCommand(TyperCommand):
+    """A command whose ``--help`` is passed through :func:`plain_help`."""
+
+    def format_help(self, ctx: Any, formatter: Any) -> None:
+        super().format_help(ctx, formatter)
+        formatter.buffer[:] = [plain_help("".join(formatter.buffer))]
+
+
+def use_plain_help(group: typer.Typer) -> None:
+    """Give every command of ``group`` (and of its sub-groups) :class:`HelpCommand`."""
+    for info in group.registered_commands:
+        if info.cls in (None, TyperCommand):
+            info.cls = HelpCommand
+    for sub in group.registered_groups:
+        if sub.typer_instance is not None:
+            use_plain_help(sub.typer_instance)
 
 
 class _Group(TyperGroup):

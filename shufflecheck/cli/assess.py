@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from enum import Enum
 from pathlib import Path
 from typing import Annotated
 
@@ -23,6 +24,13 @@ from shufflecheck.cli._app import (
     save_report,
 )
 from shufflecheck.common.numbers import percent
+
+#: what a game sees of a shoe (``distinct``: every card told apart)
+ShoeFeature = Enum(
+    "ShoeFeature",
+    {n: n for n in ("rank", "blackjack", "baccarat", "cards", "colour", "suit", "distinct")},
+    type=str,
+)
 
 
 @app.command()
@@ -61,10 +69,10 @@ def assess(
         typer.Option(help="A shoe of repeated cards: shoe(packs=6) or a TOML file with copies."),
     ] = None,
     feature: Annotated[
-        str | None,
+        ShoeFeature | None,
         typer.Option(
             help="With a shoe: what the game sees (rank by default; blackjack, baccarat, "
-            "cards, colour, suit, distinct)."
+            "cards, colour, suit, or distinct: every card told apart)."
         ),
     ] = None,
     plot: Annotated[Path | None, plot_option("the bounds on total variation against r")] = None,
@@ -92,7 +100,8 @@ def assess(
         from shufflecheck.records.shoes import load_shoe
 
         shoe = load_shoe(deck)
-    if feature is not None and shoe is None:
+    seen = None if feature is None else feature.value
+    if seen is not None and shoe is None:
         from shufflecheck.common.errors import InputError
 
         raise InputError(
@@ -109,13 +118,13 @@ def assess(
     size = f"{decks:,} decks x {n} cards x {most} repetition{'s' if most != 1 else ''}"
     long_work = decks * n * most >= 10_000_000
     with progress(units if long_work else 0, "simulating", size) as update:
-        if shoe is not None and (feature or "rank") != "distinct":
+        if shoe is not None and (seen or "rank") != "distinct":
             from shufflecheck.analyses.feature_assess import assess_feature
 
             result = assess_feature(
                 proc,
                 shoe,
-                feature or "rank",
+                seen or "rank",
                 repeats=most,
                 decks=decks,
                 rng=seed,

@@ -15,6 +15,7 @@ from shufflecheck.cli._app import (
     check_outputs,
     echo,
     emit_json,
+    plot_option,
     progress,
     save_report,
 )
@@ -81,14 +82,16 @@ def fit_riffle(
     samples: Annotated[int, typer.Option(help="Simulated logs for the Monte Carlo tests.")] = 999,
     seed: SeedOption = 0,
     plot: Annotated[
-        Path | None, typer.Option(help="Draw packet lengths (recorded, ideal, fitted) to this PNG.")
+        Path | None, plot_option("the packet lengths (recorded, ideal, fitted)")
     ] = None,
     report: ReportOption = None,
     force: Annotated[
         bool,
         typer.Option(
+            "--force",
+            show_default=False,
             help="Replace an existing procedure file, CSV, plot or report folder (never the "
-            "command's inputs)."
+            "command's inputs).",
         ),
     ] = False,
     json_out: JsonOption = False,

@@ -16,6 +16,7 @@ from shufflecheck.cli._app import (
     check_outputs,
     echo,
     emit_json,
+    plot_option,
     progress,
     save_report,
 )
@@ -109,9 +110,7 @@ def mix(
             "blocks (the cards sorted by value: the most ordered start)."
         ),
     ] = Start.reference,
-    plot: Annotated[
-        Path | None, typer.Option(help="Draw distance against steps to this PNG file.")
-    ] = None,
+    plot: Annotated[Path | None, plot_option("the distance against steps")] = None,
     report: ReportOption = None,
     force: ForceOption = False,
     json_out: JsonOption = False,

@@ -417,7 +417,7 @@ def test_demo_command(benchmark, figures, tmp_path):
         before = resource.getrusage(resource.RUSAGE_CHILDREN)
         start = time.perf_counter()
         subprocess.run(
-            [sys.executable, "-m", "shufflecheck", "demo", "--out", str(tmp_path / f"d{k}")],
+            [sys.executable, "-m", "shufflecheck", "demo", "--report", str(tmp_path / f"d{k}")],
             check=True,
             capture_output=True,
         )

@@ -33,13 +33,13 @@ target = 0.1
 
 [[procedure]]
 name = "Shoe, hand shuffled"
-decks = 6
+packs = 6
 steps = "riffle x4, strip, riffle x4, cut"
 house = 1
 
 [[procedure]]
 name = "Ideal riffles"
-decks = 6
+packs = 6
 steps = "riffle"
 max_repeats = 16
 """
