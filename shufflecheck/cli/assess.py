@@ -66,7 +66,11 @@ def assess(
     ] = 0.99,
     deck: Annotated[
         str | None,
-        typer.Option(help="A shoe of repeated cards: shoe(packs=6) or a TOML file with copies."),
+        typer.Option(
+            "--deck",
+            metavar="<deck>",
+            help="A shoe of repeated cards: shoe(packs=6) or a TOML file with copies.",
+        ),
     ] = None,
     feature: Annotated[
         ShoeFeature | None,

@@ -137,7 +137,12 @@ def audit(
     ] = None,
     alpha: Annotated[float, typer.Option(help="Family-wise error level (Holm).")] = 0.01,
     quarantine: Annotated[
-        Path | None, typer.Option(help="Set bad rows aside into this CSV and audit the rest.")
+        Path | None,
+        typer.Option(
+            "--quarantine",
+            metavar="<file>",
+            help="Set bad rows aside into this CSV and audit the rest.",
+        ),
     ] = None,
     labels: Annotated[
         Labels, typer.Option(help="Card codes, or integer labels (0..n-1 or 1..n).")
@@ -145,8 +150,10 @@ def audit(
     deck: Annotated[
         str | None,
         typer.Option(
+            "--deck",
+            metavar="<deck>",
             help="Deck definition TOML for non-standard decks; a shoe of repeated cards as "
-            "shoe(packs=6) or a TOML file with copies."
+            "shoe(packs=6) or a TOML file with copies.",
         ),
     ] = None,
     cards: Annotated[
@@ -430,7 +437,11 @@ def power(
     ] = 0.95,
     deck: Annotated[
         str | None,
-        typer.Option(help="Plan for shoes: shoe(packs=6) or a TOML file with copies."),
+        typer.Option(
+            "--deck",
+            metavar="<deck>",
+            help="Plan for shoes: shoe(packs=6) or a TOML file with copies.",
+        ),
     ] = None,
     feature: Annotated[
         Feature | None,

@@ -13,6 +13,7 @@ import typer
 from shufflecheck.cli._app import (
     ForceOption,
     JsonOption,
+    ReportOption,
     app,
     check_outputs,
     echo,
@@ -39,7 +40,8 @@ def characters(
         typer.Option("--class", help="With --shape: the class as a cycle type, e.g. 3,3,1."),
     ] = None,
     csv: Annotated[
-        Path | None, typer.Option("--csv", help="Write the whole table to this CSV file.")
+        Path | None,
+        typer.Option("--csv", metavar="<file>", help="Write the whole table to this CSV file."),
     ] = None,
     force: ForceOption = False,
     json_out: JsonOption = False,
@@ -140,6 +142,8 @@ def spectrum(
     shapes_shown: Annotated[
         int, typer.Option("--show-shapes", help="Terminal view: shapes listed per eigenvalue.")
     ] = 3,
+    report: ReportOption = None,
+    force: ForceOption = False,
     json_out: JsonOption = False,
 ) -> None:
     """Distinct eigenvalues of a shuffle's transition operator, with multiplicities.
@@ -151,10 +155,15 @@ def spectrum(
     from shufflecheck.models import SPECTRUM_UNITS
     from shufflecheck.models import spectrum as model_spectrum
 
+    check_outputs(force=force, folders=(report,))
     with progress(SPECTRUM_UNITS, f"{model.value} spectrum", after=0.5) as update:
         rows = model_spectrum(model.value, cards, hold=hold, hands=hands, progress=update)
     with _exact_digits():
+        if report is not None:
+            written = _spectrum_report(model.value, cards, rows, report, force, hold, hands)
         _show_spectrum(model.value, cards, rows, shapes_shown, json_out)
+    if report is not None and not json_out:
+        echo(f"Wrote report {written}")
 
 
 def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bool) -> None:
@@ -166,22 +175,7 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
     from shufflecheck.report.render.terminal import format_table
 
     if json_out:
-        emit_json(
-            {
-                "model": model,
-                "cards": cards,
-                "rows": [
-                    {
-                        "eigenvalue": float(r.value),
-                        "eigenvalue_exact": str(r.value),
-                        "multiplicity": r.multiplicity,
-                        "multiplicity_text": str(r.multiplicity),
-                        "shapes": [list(s) for s in r.shapes],
-                    }
-                    for r in rows
-                ],
-            }
-        )
+        emit_json(spectrum_payload(model, cards, rows))
         return
     from shufflecheck.core.partitions import format_partition
 
@@ -212,3 +206,45 @@ def _exact_digits():
         yield
     finally:
         sys.set_int_max_str_digits(before)
+
+
+def spectrum_payload(model: str, cards: int, rows) -> dict:
+    """The ``spectrum --json`` result (also the data of its report)."""
+    return {
+        "model": model,
+        "cards": cards,
+        "rows": [
+            {
+                "eigenvalue": float(r.value),
+                "eigenvalue_exact": str(r.value),
+                "multiplicity": r.multiplicity,
+                "multiplicity_text": str(r.multiplicity),
+                "shapes": [list(s) for s in r.shapes],
+            }
+            for r in rows
+        ],
+    }
+
+
+def _spectrum_report(model: str, cards: int, rows, folder: Path, force: bool, hold, hands) -> str:
+    """Write the report of one spectrum; the folder written."""
+    from shufflecheck.cli._app import save_report
+    from shufflecheck.models.registry import entry
+    from shufflecheck.report.builders.spectrum import spectrum_report
+    from shufflecheck.report.provenance import collect_provenance
+
+    options = entry(model).spectrum_options
+    parameters = ", ".join(
+        text
+        for name, text in (("hands", f"hands = {hands}"), ("hold", f"hold = {hold}"))
+        if name in options and (name != "hold" or hold is not None)
+    )
+    document = spectrum_report(
+        model,
+        cards,
+        rows,
+        payload=spectrum_payload(model, cards, rows),
+        provenance=collect_provenance(),
+        parameters=parameters,
+    )
+    return save_report(document, folder, force=force)

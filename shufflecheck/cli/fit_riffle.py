@@ -32,7 +32,11 @@ def fit_riffle(
     ],
     out: Annotated[
         Path | None,
-        typer.Option(help="Write the fitted procedure to this .toml file (assess, power, ...)."),
+        typer.Option(
+            "--out",
+            metavar="<file>",
+            help="Write the fitted procedure to this .toml file (assess, power, ...).",
+        ),
     ] = None,
     procedure: Annotated[
         str | None,
@@ -45,8 +49,10 @@ def fit_riffle(
     reference: Annotated[
         str,
         typer.Option(
+            "--reference",
+            metavar="<reference>",
             help="What each deck is a riffle of: previous (default: the deck before it), "
-            "first, or an order/file."
+            "first, or an order/file.",
         ),
     ] = "previous",
     by: Annotated[
@@ -56,7 +62,10 @@ def fit_riffle(
         Labels, typer.Option(help="Card codes, or integer labels (0..n-1 or 1..n).")
     ] = Labels.codes,
     deck: Annotated[
-        Path | None, typer.Option(help="Deck definition TOML for non-standard decks.")
+        Path | None,
+        typer.Option(
+            "--deck", metavar="<deck>", help="Deck definition TOML for non-standard decks."
+        ),
     ] = None,
     cards: Annotated[
         int | None,
@@ -67,11 +76,20 @@ def fit_riffle(
         typer.Option("--format", help="csv, wide, jsonl or parquet (default: extension)."),
     ] = None,
     quarantine: Annotated[
-        Path | None, typer.Option(help="Set invalid rows aside into this CSV and fit the rest.")
+        Path | None,
+        typer.Option(
+            "--quarantine",
+            metavar="<file>",
+            help="Set invalid rows aside into this CSV and fit the rest.",
+        ),
     ] = None,
     not_riffles: Annotated[
         Path | None,
-        typer.Option(help="Write every row that is not one riffle to this CSV."),
+        typer.Option(
+            "--not-riffles",
+            metavar="<file>",
+            help="Write every row that is not one riffle to this CSV.",
+        ),
     ] = None,
     confidence: Annotated[
         float, typer.Option(help="Confidence level of the parameters' intervals.")

@@ -93,7 +93,9 @@ def mix(
     deck: Annotated[
         str | None,
         typer.Option(
-            help="riffle on a feature: the deck or shoe, e.g. shoe(packs=6) (default standard-52)."
+            "--deck",
+            metavar="<deck>",
+            help="riffle on a feature: the deck or shoe, e.g. shoe(packs=6) (default standard-52).",
         ),
     ] = None,
     feature: Annotated[

@@ -38,7 +38,9 @@ def ingest(
         typer.Option(help="Column naming each deck's table (default: 'table' if present)."),
     ] = None,
     time: Annotated[str, typer.Option(help="Column with each deck's time.")] = "recorded_at",
-    deck: Annotated[Path | None, typer.Option(help="Deck definition TOML.")] = None,
+    deck: Annotated[
+        Path | None, typer.Option("--deck", metavar="<deck>", help="Deck definition TOML.")
+    ] = None,
     alpha: Annotated[
         float | None,
         typer.Option(help="New tables: chance of ever a false evidence alarm (default 0.01)."),

@@ -51,7 +51,8 @@ def simulate(
     reference: Annotated[
         SimulatedReference,
         typer.Option(
-            help="previous: each deck shuffled from the one before; first: all from row 1."
+            "--reference",
+            help="previous: each deck shuffled from the one before; first: all from row 1.",
         ),
     ] = SimulatedReference.previous,
     then: Annotated[
@@ -65,8 +66,10 @@ def simulate(
     deck: Annotated[
         str | None,
         typer.Option(
+            "--deck",
+            metavar="<deck>",
             help="Deck definition TOML for card codes (default: standard 52); a shoe of "
-            "repeated cards as shoe(packs=6) or a TOML file with copies."
+            "repeated cards as shoe(packs=6) or a TOML file with copies.",
         ),
     ] = None,
     table: Annotated[str | None, typer.Option(help="Add a 'table' column with this value.")] = None,

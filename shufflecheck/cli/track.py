@@ -45,11 +45,17 @@ def track(
     ] = None,
     log: Annotated[
         Path | None,
-        typer.Option(help="Recorded shoes instead: each shoe against the shoe before it."),
+        typer.Option(
+            "--log",
+            metavar="<file>",
+            help="Recorded shoes instead: each shoe against the shoe before it.",
+        ),
     ] = None,
     deck: Annotated[
         str,
-        typer.Option(help="The shoe: shoe(packs=6) or a TOML file with copies."),
+        typer.Option(
+            "--deck", metavar="<deck>", help="The shoe: shoe(packs=6) or a TOML file with copies."
+        ),
     ] = "shoe(packs=6)",
     slug: Annotated[
         str,

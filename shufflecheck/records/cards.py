@@ -61,6 +61,7 @@ from shufflecheck.common.tomlfiles import parse_toml
 __all__ = [
     "BUILT_IN_DECKS",
     "COLOURS",
+    "DECK_FILE_KEYS",
     "RANKS",
     "STANDARD_52",
     "SUITS",
@@ -563,6 +564,10 @@ _BUILT_IN = {"standard": STANDARD_52, "standard-52": STANDARD_52}
 BUILT_IN_DECKS = tuple(_BUILT_IN)
 
 
+#: the keys of a deck definition file of distinct cards (a shoe's file adds ``copies``)
+DECK_FILE_KEYS = ("name", "description", "cards", "codes", "spelling")
+
+
 def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> DeckDefinition:
     """The deck a log is checked against: built-in by name, or read from a TOML file.
 
@@ -624,7 +629,7 @@ def load_deck(spec: DeckDefinition | str | os.PathLike[str] | None = None) -> De
             "a deck of distinct cards (shoes are read by audit, assess, policy, power, "
             "simulate, mix and track)"
         )
-    unknown = sorted(set(data) - {"name", "description", "cards", "codes", "spelling"})
+    unknown = sorted(set(data) - set(DECK_FILE_KEYS))
     if unknown:
         raise InputError(
             f"{text}: unknown key {unknown[0]!r}; a deck definition has name, description, "

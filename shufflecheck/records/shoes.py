@@ -57,6 +57,7 @@ from shufflecheck.records.cards import (
     load_deck,
     with_file_dialect,
 )
+from shufflecheck.records.cards import DECK_FILE_KEYS as DISTINCT_DECK_KEYS
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -64,6 +65,7 @@ else:  # pragma: no cover - exercised on Python 3.10 only
     import tomli as tomllib
 
 __all__ = [
+    "DECK_FILE_KEYS",
     "FEATURES",
     "Feature",
     "ShoeDefinition",
@@ -350,8 +352,12 @@ def load_shoe(spec: ShoeDefinition | str | os.PathLike[str]) -> ShoeDefinition |
     return _shoe_from_file(text, data)
 
 
+#: the keys of a deck definition file, a shoe's included (``copies``)
+DECK_FILE_KEYS = (*DISTINCT_DECK_KEYS, "copies")
+
+
 def _shoe_from_file(text: str, data: dict) -> ShoeDefinition:
-    unknown = sorted(set(data) - {"name", "description", "cards", "copies", "codes", "spelling"})
+    unknown = sorted(set(data) - set(DECK_FILE_KEYS))
     if unknown:
         raise InputError(
             f"{text}: unknown key {unknown[0]!r}; a deck definition has name, description, "
