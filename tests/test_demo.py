@@ -18,6 +18,7 @@ import pytest
 
 from shufflecheck.analyses.demo import demo_folder
 from shufflecheck.cli import app
+from shufflecheck.common.files import OWNER_FILE
 
 from ._cli import run, runner
 
@@ -112,12 +113,15 @@ class TestDemoProgress:
 
 
 class TestDemoDeterministic:
-    def test_second_run_same_report(self, first, report, tmp_path):
+    def test_second_run_same_report(self, first, report):
+        # the README's command run twice: the demo replaces the folder it wrote itself
+        # (its marker file), without --force
         out, _ = first
-        again = tmp_path / "second"
-        result = run("demo", "--report", again, "--json")
+        assert (out / OWNER_FILE).read_text(encoding="utf-8") == "demo\n"
+        before = {f.name: f.read_bytes() for f in (out / "figures").iterdir()}
+        result = run("demo", "--report", out, "--json")
         assert result.exit_code == 0, result.output
-        second = json.loads((again / "report.json").read_text(encoding="utf-8"))
+        second = json.loads((out / "report.json").read_text(encoding="utf-8"))
         provenance_a = dict(report["reproducibility"])
         provenance_b = dict(second["reproducibility"])
         for varying in ("created_utc", "command"):  # time and command line only
@@ -128,8 +132,8 @@ class TestDemoDeterministic:
         assert rest == {k: v for k, v in second.items() if k != "reproducibility"}
         # --json prints the same data the report holds
         assert json.loads(result.stdout) == report["data"]
-        for figure in (out / "figures").iterdir():
-            assert (again / "figures" / figure.name).read_bytes() == figure.read_bytes()
+        after = {f.name: f.read_bytes() for f in (out / "figures").iterdir()}
+        assert after == before
 
 
 def readme_commands() -> list[list[str]]:

@@ -39,6 +39,7 @@ class SimulatedLog:
     reference: str
     change: dict | None
     labels: str
+    repeats: int = 1  # runs of the procedure per deck
 
 
 def simulate_log(
@@ -147,6 +148,7 @@ def simulate_log(
         reference=reference,
         change=None if change is None else {"from": change[0], "procedure": change[1].describe()},
         labels="codes" if definition is not None else "int (1..n)",
+        repeats=repeats,
     )
 
 

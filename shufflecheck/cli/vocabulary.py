@@ -21,7 +21,9 @@ __all__ = [
     "OPTIONS",
     "command_options",
     "file_keys",
+    "key_table",
     "markdown_table",
+    "option_table",
     "vocabulary_problems",
 ]
 
@@ -205,7 +207,13 @@ def _cell(text: str) -> str:
 
 
 def markdown_table() -> str:
-    """The option and file-key tables of ``docs/options.md``."""
+    """The option and file-key tables of ``docs/options.md`` (:func:`option_table`, then
+    :func:`key_table`)."""
+    return option_table() + "\n" + key_table()
+
+
+def option_table() -> str:
+    """The table of every option: name, commands, meaning, values and defaults."""
     options = command_options()
     names: dict[str, list[dict[str, Any]]] = {}
     for item in options:
@@ -235,7 +243,12 @@ def markdown_table() -> str:
             values += "; required"
         meaning = OPTIONS.get(name, "(no declared meaning)")
         lines.append(f"| {label} | {commands} | {_cell(meaning)} | {_cell(values)} |")
-    lines += ["", "| file | key | meaning |", "|---|---|---|"]
+    return "\n".join(lines) + "\n"
+
+
+def key_table() -> str:
+    """The table of every key of the input files, with its meaning."""
+    lines = ["| file | key | meaning |", "|---|---|---|"]
     for file, keys in file_keys().items():
         for key in keys:
             meaning = FILE_KEYS.get((file, key), "(no declared meaning)")

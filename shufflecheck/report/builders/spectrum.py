@@ -77,12 +77,13 @@ def spectrum_report(
         tuple(table_rows),
         notes=tuple(notes),
     )
-    second = rows[1] if len(rows) > 1 else None
+    others = [r for r in rows if r.value != 1]
     answer = [f"{len(rows)} distinct eigenvalues, all exact."]
-    if second is not None:
+    if others:
+        slowest = max(others, key=lambda r: abs(r.value))
         answer.append(
-            f"The largest below 1 is {second.value} (exact), with "
-            f"multiplicity {_digits(second.multiplicity)}: it sets the slowest rate at which "
+            f"The largest in absolute value below 1 is {slowest.value} (exact), with "
+            f"multiplicity {_digits(slowest.multiplicity)}: it sets the slowest rate at which "
             "the deck's law approaches the uniform one."
         )
     method = SPECTRUM_METHODS.get(model, "the exact eigenvalues of the model's step law")
