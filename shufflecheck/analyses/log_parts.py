@@ -150,7 +150,7 @@ def deck_for(deck: Any, cards: int | None, labels: str, where: str) -> DeckDefin
         if not labels.startswith("int"):
             raise InputError(
                 f"{where}: a {cards}-card deck needs a deck definition ({{deck}} FILE) for card "
-                "codes, or integer labels ({labels} int)",
+                "codes, or integer labels ({labels=int})",
                 argument=("deck", "labels"),
             )
         definition = integer_deck(cards)

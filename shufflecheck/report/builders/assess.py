@@ -1,4 +1,4 @@
-"""Report for ``shufflecheck assess``: a dealing procedure repeated r = 1..R times."""
+"""Report for ``shufflecheck assess``: a dealing procedure repeated r times (r = A..B)."""
 
 from __future__ import annotations
 
@@ -143,7 +143,8 @@ def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Pr
     edge = first.extra_guesses
     answer.append(
         f"An observant player following the '{first.best_strategy}' strategy gains "
-        f"{as_value(edge)} correct guesses per deck after one repetition (a random deck "
+        f"{as_value(edge)} correct guesses per deck after {first.repeats} "
+        f"repetition{'s' if first.repeats != 1 else ''} (a random deck "
         f"allows {exact(first.uniform_guesses)} on average)."
     )
     answer.extend(result.notes)
