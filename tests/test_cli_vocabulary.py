@@ -200,6 +200,13 @@ class TestHelp:
             assert any(line.startswith(f"{keyword}: ") for line in lines), keyword
         assert any(line.startswith("FILE: ") for line in lines)
 
+    def test_the_reader_takes_every_listed_keyword(self):
+        for keyword in Reference.KEYWORDS:
+            found = Reference.parse(keyword.replace("NAME", "before"))
+            assert found.kind in ("previous", "first", "order", "column", "pairs")
+        with pytest.raises(InputError, match="is not previous, first, deck, column:NAME, pairs"):
+            Reference.parse("nonsense")
+
 
 class TestLabelsHint:
     def test_command_line_spelling(self, tmp_path):

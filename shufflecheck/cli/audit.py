@@ -49,11 +49,22 @@ def segment_option(text: str | None) -> tuple[int, int] | None:
     return start, length
 
 
+#: every choice of ``--reference`` the log reader takes (``Reference.KEYWORDS``, then a
+#: file or an order), one line each; written here so that ``--help`` loads no reader
+REFERENCE_CHOICES = (
+    "previous: the deck before it (default; per group with --by)",
+    "first: the first deck (of each group), itself not tested",
+    "deck: the deck definition's order (standard-52: a new pack)",
+    "column:NAME: each deck's own starting order, in column NAME",
+    "pairs: rows alternate before/after a pass; after-rows tested",
+    "FILE: a file holding one order",
+    "an order written out: card codes separated by spaces",
+)
+
+
 def reference_help() -> str:
     """The ``--reference`` help: every choice the log reader takes, one line each."""
-    from shufflecheck.records.logs.reference import Reference
-
-    lines = [c.replace(" with by", " with --by") for c in Reference.CHOICES]
+    lines = REFERENCE_CHOICES
     return "What each deck is compared with (its order before the shuffle):\n\n\b\n" + (
         "\n".join(lines)
     )

@@ -38,19 +38,9 @@ class Reference:
     source: str = "previous"
     column: str | None = None
 
-    #: The keywords :meth:`parse` reads (besides a file or an order written out).
+    #: The keywords :meth:`parse` reads (besides a file or an order written out); the
+    #: ``audit --reference`` help has one line for each (a test compares).
     KEYWORDS = ("previous", "first", "deck", "column:NAME", "pairs")
-
-    #: The choices of :meth:`parse`, one line each (the ``--reference`` help).
-    CHOICES = (
-        "previous: the deck before it (default; per group with by)",
-        "first: the first deck (of each group), itself not tested",
-        "deck: the deck definition's order (standard-52: a new pack)",
-        "column:NAME: each deck's own starting order, in column NAME",
-        "pairs: rows alternate before/after a pass; after-rows tested",
-        "FILE: a file holding one order",
-        "an order written out: card codes separated by spaces",
-    )
 
     @classmethod
     def parse(
