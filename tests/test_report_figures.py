@@ -220,29 +220,41 @@ class TestData:
 class TestStyle:
     def test_line_style_follows_how_obtained(self):
         series = []
-        for how, extra in (
-            ("exact", {}),
-            ("bound", {}),
-            ("estimate", {"low": [0.1] * 3, "high": [0.9] * 3}),
+        for name, how, side, extra in (
+            ("A", "exact", None, {}),
+            ("B", "bound", "upper", {}),
+            ("C", "bound", "lower", {}),
+            ("D", "estimate", None, {"low": [0.1] * 3, "high": [0.9] * 3}),
+            ("E", "conjectured", "upper", {}),
         ):
-            spec = {"label": how, "steps": [1, 2, 3], "values": [0.5] * 3, "kind": how, **extra}
+            spec = {"label": name, "steps": [1, 2, 3], "values": [0.5] * 3}
+            spec |= {"kind": how, **({"side": side} if side else {}), **extra}
             s = F._series(spec, x_key="steps", y_key="values", what="t")
-            s["group"], s["minimum"] = how, None
+            s["group"], s["minimum"], s["confidence"] = name, None, None
             series.append(s)
         with F._style():
             fig = F._draw_distance(
                 series, target=0.1, metric="tv", steps_name="steps", log_scale=False, level=0.95
             )
+        by_label = {line.get_label(): line for line in fig.axes[0].get_lines()}
         lines = [
-            line
-            for line in fig.axes[0].get_lines()
-            if line.get_label() in ("exact (exact)", "bound (upper bound)", "estimate (estimate)")
+            by_label[text]
+            for text in (
+                "A (exact)",
+                "B (upper bound)",
+                "C (lower bound)",
+                "D (estimate)",
+                "E (conjectured upper bound)",
+            )
         ]
         styles = [line.get_linestyle() for line in lines]
-        assert styles[0] == "-" and styles[1] == "--" and styles[2] == ":"
+        assert styles[:2] == ["-", "--"] and styles[3] == ":"
+        # every kind has its own dash pattern: exact, upper, lower, estimate, conjectured
+        patterns = {str(line._dash_pattern) for line in lines}
+        assert len(patterns) == 5
         colours = {line.get_color() for line in lines}
         markers = {line.get_marker() for line in lines}
-        assert colours <= set(F.SERIES_COLOURS) and len(colours) == 3 and len(markers) == 3
+        assert colours <= set(F.SERIES_COLOURS) and len(colours) == 5 and len(markers) == 5
         target = [line for line in fig.axes[0].get_lines() if line.get_label().startswith("target")]
         assert target and target[0].get_linestyle() == "-."
 

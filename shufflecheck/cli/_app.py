@@ -433,8 +433,11 @@ def emit_json(payload: Any) -> None:
 
 
 def echo(text: str = "") -> None:
-    """Human-readable output on stdout."""
-    typer.echo(text)
+    """Human-readable output on stdout, each line wrapped to 100 columns
+    (:func:`~shufflecheck.report.render.terminal.wrap_line`; tables come already fitted)."""
+    from shufflecheck.report.render.terminal import wrap_line
+
+    typer.echo("\n".join(wrap_line(line) for line in str(text).split("\n")))
 
 
 def warn(text: str) -> None:

@@ -349,14 +349,15 @@ def print_audit(result) -> None:
                 format_p_value(t.log10_p_adjusted),
                 t.method,
                 "FLAGGED" if t.flagged else "",
-                t.effect.text,
             ]
         )
     echo(
         format_table(
-            ["test", "statistic", "p", "p (Holm)", "method", "", "effect (estimate)"],
+            ["test", "statistic", "p", "p (Holm)", "method", "verdict"],
             rows,
-            align="lrrrlll",
+            align="lrrrll",
+            details=[t.effect.text for t in overall.by_adjusted_p()],
+            details_header="effect (estimate), in words",
         )
     )
     if overall.since_when is not None:
@@ -401,7 +402,14 @@ def _print_fleet(result, fleet) -> None:
         )
     echo(
         format_table(
-            [fleet["by"], "decks", "", "strongest test", "p (Holm)", "since when (estimate)"],
+            [
+                fleet["by"],
+                "decks",
+                "verdict",
+                "strongest test",
+                "p (Holm)",
+                "since when (estimate)",
+            ],
             rows,
             align="lrllrl",
         )

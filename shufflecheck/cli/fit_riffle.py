@@ -247,13 +247,16 @@ def _print(fit, procedure_text: str | None, written: dict) -> None:
             format_p_value(t.log10_p_adjusted),
             t.method,
             "REJECTS" if t.flagged else "",
-            t.effect_text,
         ]
         for t in tests.tests
     ]
     echo(
         format_table(
-            ["test", "p", "p (Holm)", "method", "", "in plain words"], rows, align="lrrlll"
+            ["test", "p", "p (Holm)", "method", "verdict"],
+            rows,
+            align="lrrll",
+            details=[t.effect_text for t in tests.tests],
+            details_header="in plain words",
         )
     )
     echo(

@@ -148,7 +148,8 @@ def print_policy(result) -> None:
     for d in result.decisions:
         echo(f"- {d.summary(label, p.target)}.")
         if d.settlement is not None:
-            echo(f"  What would settle it ({d.settlement.repeats} repetitions):")
+            n = d.settlement.repeats
+            echo(f"  What would settle it ({n} repetition{'s' if n != 1 else ''}):")
             for sentence in d.settlement.sentences(label):
                 echo(f"    * {sentence}")
         for log, audit in d.audits:

@@ -47,7 +47,10 @@ from shufflecheck.report.document import Figure
 
 __all__ = [
     "DPI",
+    "KIND_COLOURS",
     "KIND_LINESTYLES",
+    "KIND_MARKERS",
+    "LOWER_BOUND_LINESTYLE",
     "OKABE_ITO",
     "SERIES_COLOURS",
     "SERIES_MARKERS",
@@ -55,6 +58,8 @@ __all__ = [
     "expectation_figure",
     "figure_progress",
     "heatmap_figure",
+    "keep_drawn",
+    "line_style",
     "power_figure",
     "pvalue_figure",
     "render_png",
@@ -81,13 +86,16 @@ SERIES_COLOURS: tuple[str, ...] = tuple(
     for c in ("blue", "vermillion", "bluish green", "reddish purple", "orange", "sky blue", "black")
 )
 SERIES_MARKERS: tuple[str, ...] = ("o", "s", "D", "^", "v", "P", "X", "h")
-#: Line style by how the numbers were obtained (conjectured: dash-dot-dot, never solid).
+#: Line style by how the numbers were obtained (conjectured: dash-dot-dot, never solid);
+#: "bound" is the style of an upper bound, a lower bound has its own (see :func:`line_style`).
 KIND_LINESTYLES: dict[str, Any] = {
     "exact": "-",
     "bound": "--",
     "estimate": ":",
     "conjectured": (0, (4, 1.5, 1, 1.5, 1, 1.5)),
 }
+#: A lower bound: short dashes (an upper bound has long ones, an estimate fine dots).
+LOWER_BOUND_LINESTYLE: Any = (0, (1.8, 1.5))
 _THRESHOLD = {"color": "#333333", "linestyle": "-.", "linewidth": 1.1}
 _INK = "#222222"
 _STYLE = {
@@ -186,8 +194,27 @@ def figure_progress(callback: Callable[[], None]) -> Iterator[None]:
         _RENDERED.reset(token)
 
 
+#: the list :func:`keep_drawn` collects into, if any
+_DRAWN: ContextVar[list[tuple[str, Any]] | None] = ContextVar("figures_drawn", default=None)
+
+
+@contextmanager
+def keep_drawn() -> Iterator[list[tuple[str, Any]]]:
+    """Collect ``(name, matplotlib Figure)`` for each figure drawn inside the ``with`` block,
+    for checks on what a chart shows (its lines, styles, legend) beyond its PNG."""
+    kept: list[tuple[str, Any]] = []
+    token = _DRAWN.set(kept)
+    try:
+        yield kept
+    finally:
+        _DRAWN.reset(token)
+
+
 def _finish(fig: Any, name: str, caption: str, alt: str, data: dict[str, Any]) -> Figure:
     figure = Figure(name=name, caption=caption, png=render_png(fig), alt=alt, data=data)
+    kept = _DRAWN.get()
+    if kept is not None:
+        kept.append((name, fig))
     rendered = _RENDERED.get()
     if rendered is not None:
         rendered()
@@ -316,7 +343,143 @@ def _as_list(a: np.ndarray | None) -> list[float | None] | None:
 # --------------------------------------------------------------------------- distance
 
 
-_DISTANCE_KEYS = {"label", "steps", "values", "kind", "side", "low", "high", "minimum", "group"}
+_DISTANCE_KEYS = {
+    "label",
+    "steps",
+    "values",
+    "kind",
+    "side",
+    "low",
+    "high",
+    "minimum",
+    "group",
+    "confidence",
+}
+
+
+def line_style(kind: str, side: str | None = None) -> Any:
+    """The line style of a series: :data:`KIND_LINESTYLES`, with lower bounds apart."""
+    if kind == "bound" and side == "lower":
+        return LOWER_BOUND_LINESTYLE
+    return KIND_LINESTYLES[kind]
+
+
+def _legend_text(label: str, how_text: str) -> str:
+    """``label (how)``, without saying the same words twice ("bound (upper bound)")."""
+    low = label.lower()
+    if how_text in low:
+        return label
+    if set(low.replace(",", " ").split()) <= set(how_text.replace(",", " ").split()):
+        return how_text
+    for word in (f", {how_text}", f": {how_text}"):
+        if low.endswith(word):
+            return label
+    return f"{label} ({how_text})"
+
+
+def _how_legend(s: Mapping[str, Any]) -> str:
+    """How a series was obtained, for its legend entry (with a bound's confidence)."""
+    text = _how_phrase(s["kind"], s["side"])
+    if s.get("confidence") is not None:
+        text += f", {_level_text(s['confidence'])} confidence"
+    return text
+
+
+def _minimum_text(s: Mapping[str, Any], steps_name: str) -> str:
+    unit = steps_name[:-1] if s["minimum"] == 1 and steps_name.endswith("s") else steps_name
+    return f"minimum: {s['minimum']:g} {unit} ({_how_phrase(s['kind'], s['side'])})"
+
+
+def _bottom_margin(ax: Any, log_scale: bool, top: float) -> None:
+    """Leave room below 0 and above the top value: a curve at 0 or at 1 is not drawn on the
+    axis line or clipped at the frame."""
+    if log_scale:
+        ax.set_yscale("log")
+        _plain_log_ticks(ax.yaxis)
+    else:
+        ax.set_ylim(-0.04 * top, 1.06 * top)
+
+
+def _plot_series(
+    ax: Any,
+    s: Mapping[str, Any],
+    colour: str,
+    marker: str,
+    level: float,
+    log_scale: bool,
+    label: str | None,
+) -> None:
+    """One series: its line (style by kind and side), markers (hollow for upper bounds, so a
+    lower bound at the same value shows through), and an estimate's band."""
+    hollow = s["kind"] in ("bound", "conjectured") and s["side"] == "upper"
+    lower = s["kind"] == "bound" and s["side"] == "lower"
+    ax.plot(
+        s["x"],
+        s["y"],
+        color=colour,
+        marker=marker,
+        markersize=6.5 if hollow else 4.0 if lower else 4.5,
+        markerfacecolor="white" if hollow else colour,
+        markeredgecolor=colour,
+        markeredgewidth=1.3 if hollow else 1.0,
+        linestyle=line_style(s["kind"], s["side"]),
+        label=label if label is not None else "_nolegend_",
+        # bounds under exact values, lower bounds over upper ones (a smaller, filled marker
+        # inside a larger hollow one shows both where they meet)
+        zorder={"exact": 3.4, "estimate": 3.3}.get(s["kind"], 3.2 if lower else 3.0),
+    )
+    if s["kind"] == "estimate":
+        low = s["low"]
+        if log_scale:  # a band reaching 0 is drawn down to the bottom of the axis
+            low = np.where(low > 0, low, np.nan)
+        ax.fill_between(
+            s["x"],
+            low,
+            s["high"],
+            color=colour,
+            alpha=0.2,
+            linewidth=0,
+            zorder=2,
+            label=(f"{s['label']}: {_level_text(level)} band" if label is not None else None),
+        )
+
+
+def _ring(ax: Any, s: Mapping[str, Any]) -> tuple[float, float]:
+    k = int(np.flatnonzero(s["x"] == s["minimum"])[0])
+    ax.plot(
+        [s["x"][k]],
+        [s["y"][k]],
+        marker="o",
+        markersize=13,
+        markerfacecolor="none",
+        markeredgecolor=_INK,
+        markeredgewidth=1.5,
+        linestyle="none",
+        zorder=4,
+    )
+    return float(s["x"][k]), float(s["y"][k])
+
+
+def _ring_handle(ax: Any) -> Any:
+    (handle,) = ax.plot(
+        [],
+        [],
+        marker="o",
+        markersize=9,
+        markerfacecolor="none",
+        markeredgecolor=_INK,
+        linestyle="none",
+        label="chosen minimum",
+    )
+    return handle
+
+
+def _top(series: list[dict[str, Any]], target: float | None) -> float:
+    values = [float(np.max(s["y"])) for s in series]
+    values += [float(np.max(s["high"])) for s in series if s["high"] is not None]
+    if target is not None:
+        values.append(target)
+    return max(max(values), 1e-12)
 
 
 def _draw_distance(
@@ -339,52 +502,15 @@ def _draw_distance(
         g = groups.setdefault(s["group"], len(groups))
         colour = SERIES_COLOURS[g % len(SERIES_COLOURS)]
         marker = SERIES_MARKERS[g % len(SERIES_MARKERS)]
-        how_text = _how_phrase(s["kind"], s["side"])
-        ax.plot(
-            s["x"],
-            s["y"],
-            color=colour,
-            marker=marker,
-            linestyle=KIND_LINESTYLES[s["kind"]],
-            label=f"{s['label']} ({how_text})",
-            zorder=3,
+        _plot_series(
+            ax, s, colour, marker, level, log_scale, _legend_text(s["label"], _how_legend(s))
         )
-        if s["kind"] == "estimate":
-            low = s["low"]
-            if log_scale:  # a band reaching 0 is drawn down to the bottom of the axis
-                low = np.where(low > 0, low, np.nan)
-            ax.fill_between(
-                s["x"],
-                low,
-                s["high"],
-                color=colour,
-                alpha=0.2,
-                linewidth=0,
-                zorder=2,
-                label=f"{s['label']}: {_level_text(level)} band",
-            )
         if s["minimum"] is not None:
-            k = int(np.flatnonzero(s["x"] == s["minimum"])[0])
-            ax.plot(
-                [s["x"][k]],
-                [s["y"][k]],
-                marker="o",
-                markersize=13,
-                markerfacecolor="none",
-                markeredgecolor=_INK,
-                markeredgewidth=1.5,
-                linestyle="none",
-                zorder=4,
-            )
-            unit = steps_name[:-1] if s["minimum"] == 1 and steps_name.endswith("s") else steps_name
-            notes.append((s["x"][k], s["y"][k], f"minimum: {s['minimum']:g} {unit} ({how_text})"))
+            x, y = _ring(ax, s)
+            notes.append((x, y, _minimum_text(s, steps_name)))
     if target is not None:
         ax.axhline(target, **_THRESHOLD, label=f"target = {target:g}", zorder=1)
-    if log_scale:
-        ax.set_yscale("log")
-        _plain_log_ticks(ax.yaxis)
-    else:
-        ax.set_ylim(bottom=0)
+    _bottom_margin(ax, log_scale, _top(series, target))
     from matplotlib.ticker import MaxNLocator
 
     ax.xaxis.set_major_locator(MaxNLocator(integer=True))
@@ -405,20 +531,179 @@ def _draw_distance(
     ax.set_xlabel(f"number of {steps_name}")
     ax.set_ylabel(f"{metric} to random" + (" (log scale)" if log_scale else ""))
     if any(s["minimum"] is not None for s in series):
-        ax.plot(
-            [],
-            [],
-            marker="o",
-            markersize=9,
-            markerfacecolor="none",
-            markeredgecolor=_INK,
-            linestyle="none",
-            label="chosen minimum",
-        )
+        _ring_handle(ax)
     if entries > 6:
         ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=1, fontsize=7.5)
     else:
         ax.legend(loc="best")
+    return fig
+
+
+#: Colour of each kind of number in a chart of panels (one panel per group), where colour is
+#: free to say the kind as well as the line style does.
+KIND_COLOURS: dict[tuple[str, str | None], str] = {
+    ("exact", None): OKABE_ITO["blue"],
+    ("bound", "upper"): OKABE_ITO["vermillion"],
+    ("bound", "lower"): OKABE_ITO["bluish green"],
+    ("estimate", None): OKABE_ITO["reddish purple"],
+    ("conjectured", "upper"): OKABE_ITO["orange"],
+    ("conjectured", "lower"): OKABE_ITO["orange"],
+    ("conjectured", None): OKABE_ITO["orange"],
+}
+#: Marker of each kind in a chart of panels: bounds point to where the true value lies
+#: (an upper bound's triangle points down, a lower bound's up).
+KIND_MARKERS: dict[tuple[str, str | None], str] = {
+    ("exact", None): "o",
+    ("bound", "upper"): "v",
+    ("bound", "lower"): "^",
+    ("estimate", None): "D",
+    ("conjectured", "upper"): "s",
+    ("conjectured", "lower"): "s",
+    ("conjectured", None): "s",
+}
+
+
+def _legend_rank(text: str) -> int:
+    """Legend order in panels: exact, upper bound, lower bound, estimate, conjectured, then
+    the target and the ring."""
+    for word, rank in (
+        ("chosen minimum", 7),
+        ("target", 6),
+        ("conjecture", 5),
+        (" band", 4),
+        ("estimate", 3),
+        ("lower bound", 2),
+        ("upper bound", 1),
+    ):
+        if word in text:
+            return rank
+    return 0
+
+
+def _free_spot(
+    ax: Any, members: list[dict[str, Any]], width: float, index: int
+) -> tuple[float, float, str]:
+    """Where a note of ``width`` (axes fraction) crosses no curve of the panel: the first free
+    place from the top right, then the top left, down the panel (axes coordinates)."""
+    to_axes = (ax.transData + ax.transAxes.inverted()).transform
+    paths = []
+    for s in members:
+        points = to_axes(np.column_stack([s["x"], s["y"]]))
+        # the segments between the points, sampled finely
+        t = np.linspace(0.0, 1.0, 25)[:, None, None]
+        paths.append((points[:-1] * (1 - t) + points[1:] * t).reshape(-1, 2))
+        paths.append(points)
+    every = np.concatenate(paths) if paths else np.zeros((0, 2))
+    half = 0.07
+    for y in (0.86, 0.72, 0.58, 0.44, 0.30):
+        y -= 0.14 * index
+        for x, ha, x0, x1 in (
+            (0.98, "right", 0.98 - width, 0.98),
+            (0.03, "left", 0.03, 0.03 + width),
+        ):
+            inside = (
+                (every[:, 0] >= x0 - 0.02)
+                & (every[:, 0] <= x1 + 0.02)
+                & (every[:, 1] >= y - half)
+                & (every[:, 1] <= y + half)
+            )
+            if not inside.any():
+                return x, y, ha
+    return 0.98, 0.58 - 0.14 * index, "right"
+
+
+def _draw_distance_panels(
+    series: list[dict[str, Any]],
+    *,
+    target: float | None,
+    metric: str,
+    steps_name: str,
+    log_scale: bool,
+    level: float,
+) -> Any:
+    """One small panel per group (a procedure), with a shared distance axis; the kinds of
+    number differ by colour, marker and line style, explained once in a shared legend."""
+    import textwrap
+
+    from matplotlib.ticker import MaxNLocator
+
+    groups: dict[str, list[dict[str, Any]]] = {}
+    for s in series:
+        groups.setdefault(s["group"], []).append(s)
+    count = len(groups)
+    cols = 2
+    rows = -(-count // cols)
+    spare = rows * cols > count  # an empty cell: the legend goes there
+    fig = _new_figure((7.2, 1.95 * rows + (0.35 if spare else 1.3)))
+    axes = fig.subplots(rows, cols, sharey=True, squeeze=False)
+    top = _top(series, target)
+    handles: dict[str, Any] = {}
+    panel_notes: list[tuple[Any, list[dict[str, Any]], list[str]]] = []
+    for k, (group, members) in enumerate(groups.items()):
+        ax = axes[k // cols][k % cols]
+        ax.set_title("\n".join(textwrap.wrap(group, 44)), fontsize=8.5, loc="left")
+        notes = []
+        for s in members:
+            key = (s["kind"], s["side"])
+            text = _legend_text(_how_legend(s), _how_legend(s))
+            if s["kind"] == "conjectured" and s["label"] != group:
+                text = _legend_text(s["label"].removeprefix(f"{group}, "), _how_legend(s))
+            _plot_series(ax, s, KIND_COLOURS[key], KIND_MARKERS[key], level, log_scale, text)
+            if s["minimum"] is not None:
+                _ring(ax, s)
+                notes.append(_minimum_text(s, steps_name))
+        if target is not None:
+            ax.axhline(target, **_THRESHOLD, label=f"target = {target:g}", zorder=1)
+        for line in ax.get_lines() + list(ax.collections):
+            label = line.get_label()
+            if label and not label.startswith("_"):
+                handles.setdefault(label, line)
+        ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+        lo, hi = (
+            float(min(np.min(s["x"]) for s in members)),
+            float(max(np.max(s["x"]) for s in members)),
+        )
+        pad = 0.25 if hi - lo <= 4 else 0.4
+        ax.set_xlim(lo - pad, hi + pad)
+        ax.tick_params(labelsize=7.5)
+        ax.yaxis.set_tick_params(labelleft=True)
+        if notes:
+            panel_notes.append((ax, members, notes))
+    _bottom_margin(axes[0][0], log_scale, top)
+    # each minimum's note where no curve runs (found on the final axis limits)
+    for ax, members, notes in panel_notes:
+        width = (fig.get_figwidth() / cols) * 0.88
+        for j, text in enumerate(notes):
+            x, y, ha = _free_spot(ax, members, len(text) * 7.5 * 0.55 / 72 / width, j)
+            ax.text(
+                x,
+                y,
+                text,
+                transform=ax.transAxes,
+                ha=ha,
+                va="center",
+                fontsize=7.5,
+                color=_INK,
+                zorder=6,
+            )
+    if any(s["minimum"] is not None for s in series):
+        handles["chosen minimum"] = _ring_handle(axes[0][0])
+    for ax in axes[-1][: count - (rows - 1) * cols]:
+        ax.set_xlabel(f"number of {steps_name}", fontsize=9)
+    fig.supylabel(f"{metric} to random" + (" (log scale)" if log_scale else ""), fontsize=9)
+    handles = dict(sorted(handles.items(), key=lambda kv: _legend_rank(kv[0])))
+    if spare:
+        legend_ax = axes[-1][-1]
+        legend_ax.axis("off")
+        legend_ax.legend(
+            list(handles.values()), list(handles), loc="center", fontsize=7.5, borderaxespad=0
+        )
+    else:
+        for ax in axes[-1][count % cols or cols :]:
+            ax.axis("off")
+        fig.legend(
+            list(handles.values()), list(handles), loc="outside lower center", ncol=2, fontsize=7.5
+        )
     return fig
 
 
@@ -432,6 +717,7 @@ def distance_figure(
     level: float = 0.95,
     name: str = "distance",
     caption: str | None = None,
+    panels: bool = False,
 ) -> Figure:
     """Distance to random against the number of steps, one or several curves on one chart.
 
@@ -444,7 +730,8 @@ def distance_figure(
         ``low`` and ``high`` (its confidence band, required); optionally ``minimum`` (a step
         count in ``steps`` to mark as the chosen minimum) and ``group`` (curves with the same
         group share colour and marker, e.g. the exact values and a bound for one procedure;
-        default: the label).
+        default: the label); for a bound that holds at a confidence level (a lower bound
+        from simulation), ``confidence``, shown in the legend.
     target : float or None
         Drawn as a horizontal dash-dot line.
     metric : str
@@ -458,12 +745,18 @@ def distance_figure(
         Confidence level of the estimate bands, for the legend and caption.
     name, caption : str
         File stem and caption of the figure (a caption is written if none is given).
+    panels : bool
+        One small panel per group (shared distance axis) instead of every curve on one
+        chart: for many groups whose curves would hide one another. In panels the kind of
+        number sets colour and marker as well as line style (:data:`KIND_COLOURS`,
+        :data:`KIND_MARKERS`), and one legend explains them.
 
     Returns
     -------
     Figure
         PNG at :data:`DPI` (1080 x 660 pixels; taller, with the legend under the plot, when
-        the legend has more than six entries) and ``data`` with every plotted number.
+        the legend has more than six entries; 1080 wide and about 290 high per row of two
+        panels with ``panels``) and ``data`` with every plotted number.
     """
     level = _check_level(level)
     if isinstance(curves, Mapping) or not len(curves):
@@ -478,6 +771,12 @@ def distance_figure(
         if minimum is not None and not np.any(s["x"] == minimum):
             raise InputError(f"{what}: minimum {minimum!r} is not one of its steps")
         s["minimum"] = minimum
+        confidence = spec.get("confidence")
+        if confidence is not None:
+            if s["kind"] != "bound":
+                raise InputError(f"{what}: confidence is only for bounds")
+            confidence = _check_level(confidence)
+        s["confidence"] = confidence
         if log_scale and np.any(s["y"] <= 0):
             raise InputError(f"{what}: a value <= 0 cannot be shown on a log scale")
         series.append(s)
@@ -487,7 +786,8 @@ def distance_figure(
         if not math.isfinite(target) or (log_scale and target <= 0):
             raise InputError(f"target {target!r} cannot be drawn")
     with _style():
-        fig = _draw_distance(
+        draw = _draw_distance_panels if panels else _draw_distance
+        fig = draw(
             series,
             target=target,
             metric=metric,
@@ -499,9 +799,11 @@ def distance_figure(
             caption = (
                 f"{metric[:1].upper()}{metric[1:]} to random against the number of "
                 f"{steps_name}. Line style shows how each value was obtained: solid = exact, "
-                f"dashed = rigorous bound, dotted with a shaded band = estimate with its "
-                f"{_level_text(level)} confidence band."
+                f"long dashes = rigorous upper bound, short dashes = lower bound, dotted with "
+                f"a shaded band = estimate with its {_level_text(level)} confidence band."
             )
+            if panels:
+                caption = caption.replace(f"{steps_name}. ", f"{steps_name}, one panel each. ", 1)
             if any(s["kind"] == "conjectured" for s in series):
                 caption += (
                     " Dash-dot-dot = conjectured: it rests on an unproven statement, is not "
@@ -529,6 +831,7 @@ def distance_figure(
                     "low": None if s["low"] is None else s["low"].tolist(),
                     "high": None if s["high"] is None else s["high"].tolist(),
                     "minimum": s["minimum"],
+                    "confidence": s["confidence"],
                 }
                 for s in series
             ],

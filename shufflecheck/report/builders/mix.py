@@ -155,8 +155,13 @@ def feature_series(curve, metric: str) -> list[dict]:
         if not steps:
             continue
         values = [r.value(metric).value for r in curve.rows if r.value(metric).kind == kind]
-        label = f"{curve.feature}, {'exact' if kind == 'exact' else 'upper bound'}"
-        item = {"label": label, "steps": steps, "values": values, "kind": kind, "group": "feature"}
+        item = {
+            "label": str(curve.feature),
+            "steps": steps,
+            "values": values,
+            "kind": kind,
+            "group": "feature",
+        }
         if side:
             item["side"] = side
         series.append(item)

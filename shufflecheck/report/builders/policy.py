@@ -48,7 +48,7 @@ def policy_payload(result) -> dict[str, Any]:
 
 
 def policy_figure(result):
-    """Every procedure's distance (exact, bounds) against repetitions on one chart."""
+    """Every procedure's distance (exact, bounds) against repetitions, a panel each."""
     from shufflecheck.report.figures import distance_figure
 
     metric = result.policy.metric
@@ -103,6 +103,7 @@ def policy_figure(result):
                     "group": name,
                     "steps": [r.repeats for r in lower],
                     "values": [r.lower[metric].value for r in lower],
+                    "confidence": result.policy.confidence,
                 }
             )
     label = {
@@ -117,6 +118,7 @@ def policy_figure(result):
         steps_name="repetitions",
         name="policy",
         level=result.policy.confidence,  # the level the policy's bounds and intervals use
+        panels=len({c["group"] for c in curves}) > 1,
     )
 
 

@@ -21,7 +21,10 @@ from html import escape as _escape
 from shufflecheck.common.quantity import LABEL_MEANINGS, Quantity
 from shufflecheck.report.document import Figure, Report, Table
 
-__all__ = ["STYLESHEET", "render_html"]
+__all__ = ["STYLESHEET", "WIDE_COLUMNS", "render_html"]
+
+#: Tables with this many columns or more are set in a smaller type with tighter cells.
+WIDE_COLUMNS = 6
 
 #: Our own stylesheet (inline in every report). No url(), no imports, no web fonts.
 STYLESHEET = """
@@ -57,7 +60,8 @@ p { margin: 0.6rem 0; }
 .answer li:first-child { font-weight: 700; }
 .notice { font-size: 0.92rem; color: var(--muted); border-top: 1px solid var(--rule);
   border-bottom: 1px solid var(--rule); padding: 0.5rem 0; }
-.toc ol { margin: 0; padding-left: 1.4rem; columns: 2 16rem; }
+.toc ol { margin: 0; padding-left: 0; list-style: none; columns: 2 16rem; }
+.toc li { margin: 0.1rem 0; padding-left: 1.6rem; text-indent: -1.6rem; break-inside: avoid; }
 .toc h2 { font-size: 1rem; border-bottom-width: 1px; }
 a { color: var(--accent); }
 .how { display: inline-block; margin-left: 0.3em; padding: 0 0.35em; border: 1px solid;
@@ -70,13 +74,17 @@ a { color: var(--accent); }
 .how-conjectured { border-style: double; border-width: 3px; }
 .table-block { margin: 1.1rem 0 1.6rem; overflow-x: auto; }
 table { border-collapse: collapse; width: 100%; font-size: 0.92rem; }
+table.wide { font-size: 0.8rem; }
+table.wide th, table.wide td { padding: 0.28rem 0.4rem; }
 caption { caption-side: top; text-align: left; font-weight: 600; padding: 0 0 0.45rem;
   font-size: 0.92rem; }
 th, td { text-align: left; vertical-align: top; padding: 0.32rem 0.6rem;
   border-bottom: 1px solid var(--rule); }
 thead th { border-bottom: 2px solid var(--ink); font-size: 0.84rem; font-weight: 600; }
-.num { text-align: right; font-variant-numeric: tabular-nums lining-nums;
-  white-space: nowrap; }
+table.wide thead th { font-size: 0.76rem; }
+.num { text-align: right; font-variant-numeric: tabular-nums lining-nums; }
+td.num { white-space: nowrap; }
+th .how { white-space: normal; margin-left: 0; }
 td.est { white-space: normal; min-width: 9rem; }
 tr.marked td { font-weight: 700; background: #fff3e8; }
 tr.marked td:first-child { box-shadow: inset 0.3rem 0 0 var(--mark); }
@@ -157,9 +165,11 @@ def _table(number: int, table: Table) -> list[str]:
         label = table.column_label(j)
         badge = " " + _badge(label) if label is not None else ""
         head.append(f'<th scope="col"{cls}>{_e(table.headers[j])}{badge}</th>')
+    # many columns: a smaller type and tighter cells, so the table fits the page's width
+    wide = ' class="wide"' if len(table.headers) >= WIDE_COLUMNS else ""
     out = [
         '<div class="table-block">',
-        f'<table id="table-{number}">',
+        f'<table id="table-{number}"{wide}>',
         f"<caption>Table {number}. {_e(table.caption)}</caption>",
         "<thead><tr>" + "".join(head) + "</tr></thead>",
         "<tbody>",
