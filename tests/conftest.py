@@ -11,6 +11,18 @@ import os
 import pytest
 
 
+@pytest.fixture(scope="session")
+def demo_run(tmp_path_factory):
+    """``shufflecheck demo`` run once per test session (its report folder and the CLI
+    result), shared by the demo, report-page and terminal-width tests."""
+    from tests._cli import run
+
+    out = tmp_path_factory.mktemp("demo") / "first"
+    result = run("demo", "--report", out)
+    assert result.exit_code == 0, result.output
+    return out, result
+
+
 def pytest_addoption(parser: pytest.Parser) -> None:
     parser.addoption("--run-slow", action="store_true", default=False, help="run tests marked slow")
 

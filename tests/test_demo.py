@@ -27,11 +27,8 @@ FAULT_DECK = 1601
 
 
 @pytest.fixture(scope="module")
-def first(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo") / "first"
-    result = run("demo", "--report", out)
-    assert result.exit_code == 0, result.output
-    return out, result
+def first(demo_run):
+    return demo_run  # run once per session (tests/conftest.py)
 
 
 @pytest.fixture(scope="module")

@@ -416,6 +416,15 @@ def _print_fleet(result, fleet) -> None:
     )
     if len(shown) > 40:
         echo(f"... and {len(shown) - 40} more (all in --json and --report).")
+    # each flagged group's own since-when estimate (the pooled one is printed above)
+    groups = {str(k): b for k, b in result.result.groups}
+    for r in shown[:40]:
+        battery = groups.get(r["group"])
+        if battery is not None and battery.since_when is not None:
+            where = result.since_when_place(r["group"])
+            place = f" (first {battery.unit} of that stretch: {where})" if where else ""
+            echo()
+            echo(f"Since when in {r['group']} (estimate): {battery.since_when.text}{place}.")
 
 
 @app.command()

@@ -64,6 +64,7 @@ __all__ = [
     "pvalue_figure",
     "render_png",
     "score_histogram_figure",
+    "timeline_figure",
 ]
 
 #: Resolution of every report figure, in dots per inch.
@@ -1585,4 +1586,164 @@ def expectation_figure(
                 for s in series
             ],
         }
+        return _finish(fig, name, caption, caption, data)
+
+
+# --------------------------------------------------------------------------- since when
+
+
+_TIMELINE_KEYS = {"label", "values", "expected", "start", "low", "high", "level", "what"}
+
+
+def timeline_figure(
+    groups: Sequence[Mapping[str, Any]],
+    *,
+    unit: str = "deck",
+    name: str = "since-when",
+    caption: str | None = None,
+) -> Figure:
+    """The statistic behind a since-when estimate against deck number, one panel per group.
+
+    Parameters
+    ----------
+    groups : sequence of dict
+        One dict per group (a table, a dealer, or the whole log) with keys ``label``,
+        ``values`` (the statistic on each deck, in time order), ``expected`` (its exact mean
+        for a random deck), ``start`` (1-based estimated first deck of the biased stretch),
+        ``low`` and ``high`` (the interval on the start, 1-based, inclusive), ``level`` (its
+        nominal level) and ``what`` (the statistic's name, for the axis).
+    unit : str
+        What one value is recorded on (``"deck"`` or ``"shoe"``).
+
+    Returns
+    -------
+    Figure
+        A moving average of the statistic (with its window), the exact mean of a random
+        deck (solid), the estimated start (a dashed vertical line), the interval on it
+        (shaded) and the means before and after the start (dotted, estimates).
+    """
+    if isinstance(groups, Mapping) or not len(groups):
+        raise InputError("timeline figure needs a list of one or more groups")
+    panels = []
+    for k, spec in enumerate(groups):
+        what = f"timeline figure, group {k + 1}"
+        _check_keys(spec, _TIMELINE_KEYS, _TIMELINE_KEYS, what)
+        values = _numbers(spec["values"], f"{what}: values")
+        if values.size < 2:
+            raise InputError(f"{what}: needs two or more values")
+        start, low, high = (int(spec[key]) for key in ("start", "low", "high"))
+        if not 1 <= low <= start <= high <= values.size:
+            raise InputError(f"{what}: need 1 <= low <= start <= high <= {values.size}")
+        panels.append(
+            {
+                "label": str(spec["label"]),
+                "values": values,
+                "expected": float(spec["expected"]),
+                "start": start,
+                "low": low,
+                "high": high,
+                "level": _check_level(spec["level"]),
+                "what": str(spec["what"]),
+            }
+        )
+    with _style():
+        rows = len(panels)
+        fig = _new_figure((7.2, 1.2 + 2.3 * rows))
+        axes = fig.subplots(rows, 1, squeeze=False)[:, 0]
+        data_groups = []
+        for ax, p in zip(axes, panels, strict=True):
+            v = p["values"]
+            n = v.size
+            window = int(max(5, min(200, n // 30)))
+            kernel = np.ones(window) / window
+            smooth = np.convolve(v, kernel, mode="valid")
+            x = np.arange(window, n + 1)
+            ax.axvspan(
+                p["low"] - 0.5,
+                p["high"] + 0.5,
+                color=OKABE_ITO["orange"],
+                alpha=0.25,
+                linewidth=0,
+                label=f"interval on the start ({_level_text(p['level'])}, estimate)",
+                zorder=1,
+            )
+            ax.plot(
+                x,
+                smooth,
+                color=OKABE_ITO["blue"],
+                linewidth=1.2,
+                label=f"moving average over {window} {unit}s (recorded)",
+                zorder=3,
+            )
+            ax.axhline(
+                p["expected"],
+                color=_INK,
+                linestyle=KIND_LINESTYLES["exact"],
+                linewidth=1.0,
+                label=f"random {unit} (exact mean)",
+                zorder=2,
+            )
+            s = p["start"]
+            before = float(v[: s - 1].mean()) if s > 1 else None
+            after = float(v[s - 1 :].mean())
+            if before is not None:
+                ax.plot(
+                    [1, s - 1],
+                    [before, before],
+                    color=OKABE_ITO["vermillion"],
+                    linestyle=KIND_LINESTYLES["estimate"],
+                    linewidth=2.0,
+                    zorder=4,
+                )
+            ax.plot(
+                [s, n],
+                [after, after],
+                color=OKABE_ITO["vermillion"],
+                linestyle=KIND_LINESTYLES["estimate"],
+                linewidth=2.0,
+                label="mean before and after the start (estimate)",
+                zorder=4,
+            )
+            ax.axvline(
+                s,
+                color=OKABE_ITO["vermillion"],
+                linestyle=KIND_LINESTYLES["bound"],
+                linewidth=1.3,
+                label=f"estimated start: {unit} {s}",
+                zorder=5,
+            )
+            ax.set_xlim(0.5, n + 0.5)
+            ax.set_title(f"{p['label']}: {p['what']}", fontsize=9, loc="left")
+            ax.set_ylabel(f"value per {unit}", fontsize=8)
+            ax.tick_params(labelsize=7.5)
+            ax.legend(loc="upper left", fontsize=7, ncol=2)
+            top, bottom = float(smooth.max()), float(smooth.min())
+            spread = max(top - bottom, 1e-9)
+            # room above the curves for the legend
+            ax.set_ylim(bottom - 0.1 * spread, top + 0.75 * spread)
+            data_groups.append(
+                {
+                    "label": p["label"],
+                    "what": p["what"],
+                    "expected": p["expected"],
+                    "start": s,
+                    "low": p["low"],
+                    "high": p["high"],
+                    "level": p["level"],
+                    "window": window,
+                    "mean_before": before,
+                    "mean_after": after,
+                    "moving_average": smooth.tolist(),
+                }
+            )
+        axes[-1].set_xlabel(f"{unit} number, in time order")
+        if caption is None:
+            caption = (
+                f"Since when: the statistic behind each estimate, {unit} by {unit} in time "
+                "order (moving average), against its exact mean for a random "
+                f"{unit}. The dashed line is the estimated start of the departure, the shaded "
+                "band the interval on it (an estimate under the scan's working model), the "
+                "dotted lines the means before and after."
+            )
+        data = {"kind": "timeline", "unit": unit, "groups": data_groups}
         return _finish(fig, name, caption, caption, data)

@@ -42,7 +42,7 @@ from shufflecheck.stats.holm import holm_log
 from shufflecheck.stats.nulls import Law
 from shufflecheck.stats.positions import class_position_test, position_test
 from shufflecheck.stats.results import BatteryResult, SinceWhen, TestResult
-from shufflecheck.stats.timeline import change_point, describe
+from shufflecheck.stats.timeline import change_interval, change_point, describe
 
 __all__ = ["Tallies", "run_battery"]
 
@@ -182,6 +182,10 @@ def run_battery(
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
+#: nominal level of the interval on a since-when start
+SINCE_WHEN_LEVEL = 0.95
+
+
 def _since_when(
     series: Mapping[str, Sequence[np.ndarray]],
     tests: tuple[TestResult, ...],
@@ -199,7 +203,14 @@ def _since_when(
     mean0, var0 = float(law.mean), float(law.variance)
     direction = 1 if best.alternative == "greater" or best.effect.value >= 0 else -1
     point = change_point(values, mean0, var0, direction)
+    interval = change_interval(values, mean0, var0, direction, level=SINCE_WHEN_LEVEL)
     stat = next(s for s in statistics if s.name == best.name)
+    text = describe(point, values.size, stat.what, mean0, unit=unit)
+    level = f"{100 * SINCE_WHEN_LEVEL:g}%"
+    if interval.low == interval.high:
+        text += f"; {level} interval: {unit} {interval.low + 1} alone"
+    else:
+        text += f"; {level} interval: {unit}s {interval.low + 1} to {interval.high + 1}"
     return SinceWhen(
         test=best.name,
         start=point.start + 1,
@@ -210,7 +221,12 @@ def _since_when(
         statistic=point.statistic,
         method=(
             "estimate: likelihood-ratio (CUSUM) scan for a lasting mean shift, Gaussian "
-            "working model with the exact null mean and variance; no confidence interval"
+            "working model with the exact null mean and variance; interval: the likelihood "
+            f"set for the start at about {level} under that model, shift fixed at its estimate"
         ),
-        text=describe(point, values.size, stat.what, mean0, unit=unit),
+        text=text,
+        low=interval.low + 1,
+        high=interval.high + 1,
+        level=SINCE_WHEN_LEVEL,
+        series=tuple(values.tolist()),
     )

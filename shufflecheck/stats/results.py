@@ -135,11 +135,22 @@ class SinceWhen:
     statistic: float
     method: str
     text: str
+    #: 1-based decks ``low``..``high`` holding the start at about ``level`` (an estimate)
+    low: int | None = None
+    high: int | None = None
+    level: float | None = None
+    #: the statistic on every deck of the group, in time order (for charts; not in JSON)
+    series: tuple[float, ...] = ()
 
     def as_json(self) -> dict[str, Any]:
         return {
             "test": self.test,
             "start": self.start,
+            "interval": (
+                None
+                if self.low is None
+                else {"low": self.low, "high": self.high, "level": self.level, "kind": "estimate"}
+            ),
             "decks_after": self.decks_after,
             "mean_before": self.mean_before,
             "mean_after": self.mean_after,

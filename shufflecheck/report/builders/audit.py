@@ -86,9 +86,37 @@ def _guessing_histogram(audit):
     return (best, hist) if hist is not None and hist.sum() > 0 else None
 
 
+def _since_when_groups(audit) -> list[dict[str, Any]]:
+    """The since-when estimates to chart: each group's (with ``by``), else the whole log's."""
+    batteries = (
+        [(str(k), b) for k, b in audit.result.groups]
+        if getattr(audit, "by", None)
+        else [("all decks", audit.result.overall)]
+    )
+    out = []
+    for label, battery in batteries:
+        when = battery.since_when
+        if when is None or when.low is None or len(when.series) < 2:
+            continue
+        title = battery.test(when.test).title
+        out.append(
+            {
+                "label": label,
+                "values": list(when.series),
+                "expected": when.expected,
+                "start": when.start,
+                "low": when.low,
+                "high": when.high,
+                "level": when.level,
+                "what": title,
+            }
+        )
+    return out
+
+
 def audit_figure_count(audit) -> int:
     """How many figures :func:`audit_figures` draws for ``audit`` (for progress bars)."""
-    return 2 + (_guessing_histogram(audit) is not None)
+    return 2 + (_guessing_histogram(audit) is not None) + bool(_since_when_groups(audit))
 
 
 def audit_pvalue_figure(audit, prefix: str = ""):
@@ -114,6 +142,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
     from shufflecheck.report.figures import (
         heatmap_figure,
         score_histogram_figure,
+        timeline_figure,
     )
     from shufflecheck.stats.guessing import guessing_null
 
@@ -188,6 +217,13 @@ def audit_figures(audit, prefix: str = "") -> tuple:
                 caption=f"{what}; orange = more often than random, purple = less often).",
             )
         )
+    since = _since_when_groups(audit)
+    if since:
+        figures.append(
+            timeline_figure(
+                since, unit="deck" if shoe is None else "shoe", name=f"{prefix}since-when"
+            )
+        )
     return tuple(figures)
 
 
@@ -234,6 +270,13 @@ def audit_section(audit, title: str, *, prefix: str = "", figures: bool = True) 
                 + "."
             )
         paragraphs.append(line)
+        for key, group in audit.result.groups:
+            if group.since_when is not None:
+                where = audit.since_when_place(str(key))
+                place = f" First {group.unit} of that stretch: {where}." if where else ""
+                paragraphs.append(
+                    f"Since when in {key} (estimate): {group.since_when.text}.{place}"
+                )
         tables.append(_groups_table(audit, fleet))
     else:
         for key, group in audit.result.groups:
