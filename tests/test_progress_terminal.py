@@ -1,0 +1,38 @@
+"""Progress on long work, in a real run with stderr on a terminal (issue 14): the command
+runs as ``python -m shufflecheck`` with stderr on a pseudo-terminal (bars show only there)
+and stdout on a pipe."""
+
+from __future__ import annotations
+
+import re
+
+import pytest
+
+from ._tty import run_with_terminal_stderr
+
+
+def percents(stderr: str) -> list[int]:
+    return [int(p) for p in re.findall(r"(\d+)%", stderr)]
+
+
+def test_spectrum_52_shows_progress():
+    code, out, err = run_with_terminal_stderr("spectrum", "transposition", "-n", "52")
+    assert code == 0, err
+    assert "transposition spectrum" in err
+    shown = percents(err)
+    assert shown and shown[-1] == 100 and shown == sorted(shown)
+    assert "%" not in out  # the bar never reaches stdout
+
+
+@pytest.mark.slow
+def test_demo_shows_progress_to_the_end(tmp_path):
+    # about 35 s: the demo's two bars (the assessment, then the report with one unit per
+    # figure drawn and one for writing) both reach 100%
+    code, out, err = run_with_terminal_stderr("demo", "--out", str(tmp_path / "demo"))
+    assert code == 0, err
+    assert "demo: assessing procedures" in err and "demo: drawing the report" in err
+    report = err[err.index("demo: drawing the report") :]
+    shown = percents(report)
+    assert shown and shown[-1] == 100 and shown == sorted(shown)
+    assert len(set(shown)) >= 3  # it moved on the way, not only 0% and 100%
+    assert "Report:" in out
