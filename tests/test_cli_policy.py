@@ -188,14 +188,15 @@ class TestReportProgress:
                 result, payload={}, provenance=collect_provenance(loaded.inputs)
             )
         figures = [f for _, _, f in document.numbered_figures()]
-        assert policy_figure_count(result) == len(figures) == len(drawn) == 7
+        # the policy chart, three per log, and the since-when chart of the flagged Table A
+        assert policy_figure_count(result) == len(figures) == len(drawn) == 8
         assert policy_figure_count(result, figures=False) == 0
 
     def test_bar_outside_a_terminal_is_silent(self, policy_with_logs, tmp_path):
         result = run("policy", policy_with_logs, "--report", tmp_path / "r")
         assert result.exit_code == 0, result.output
         assert "drawing the report" not in result.output
-        assert len(list((tmp_path / "r" / "figures").iterdir())) == 7
+        assert len(list((tmp_path / "r" / "figures").iterdir())) == 8
 
 
 #: (policy text, line number, dotted key, text in the message)

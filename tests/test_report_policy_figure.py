@@ -182,6 +182,7 @@ class TestLegendText:
             ("upper bound", "upper bound", "upper bound"),
             ("suit colours, upper bound", "upper bound", "suit colours, upper bound"),
             ("A", "exact", "A (exact)"),
+            ("ideal riffle (binomial cut)", "exact", "ideal riffle (binomial cut; exact)"),
         ],
     )
     def test_no_doubled_words(self, label, how, expected):

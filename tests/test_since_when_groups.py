@@ -100,6 +100,8 @@ class TestGroupedAudit:
         report = json.loads((out / "report.json").read_text(encoding="utf-8"))
         section = report["sections"][0]
         assert any("Since when in Table 7 (estimate)" in p for p in section["paragraphs"])
+        # the pooled decks are not flagged, so the answer names the flagged table itself
+        assert any(a.startswith("Table 7: FLAGGED") and "Since when" in a for a in report["answer"])
         (chart,) = [f for f in section["figures"] if f["file"].endswith("since-when.png")]
         (group,) = chart["data"]["groups"]
         assert group["label"] == "Table 7"

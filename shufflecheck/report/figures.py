@@ -372,9 +372,8 @@ def _legend_text(label: str, how_text: str) -> str:
         return label
     if set(low.replace(",", " ").split()) <= set(how_text.replace(",", " ").split()):
         return how_text
-    for word in (f", {how_text}", f": {how_text}"):
-        if low.endswith(word):
-            return label
+    if label.endswith(")") and "(" in label:  # "ideal riffle (binomial cut; exact)"
+        return f"{label[:-1]}; {how_text})"
     return f"{label} ({how_text})"
 
 
@@ -797,14 +796,29 @@ def distance_figure(
             level=level,
         )
         if caption is None:
+            present = {(s["kind"], s["side"]) for s in series}
+            styles = [
+                text
+                for key, text in (
+                    (("exact", None), "solid = exact"),
+                    (("bound", "upper"), "long dashes = rigorous upper bound"),
+                    (("bound", "lower"), "short dashes = lower bound"),
+                    (
+                        ("estimate", None),
+                        "dotted with a shaded band = estimate with its "
+                        f"{_level_text(level)} confidence band",
+                    ),
+                )
+                if key in present
+            ]
             caption = (
                 f"{metric[:1].upper()}{metric[1:]} to random against the number of "
-                f"{steps_name}. Line style shows how each value was obtained: solid = exact, "
-                f"long dashes = rigorous upper bound, short dashes = lower bound, dotted with "
-                f"a shaded band = estimate with its {_level_text(level)} confidence band."
+                f"{steps_name}{', one panel each' if panels else ''}."
             )
+            if styles:
+                caption += f" Line style shows how each value was obtained: {', '.join(styles)}."
             if panels:
-                caption = caption.replace(f"{steps_name}. ", f"{steps_name}, one panel each. ", 1)
+                caption += " Colour and marker say the same (triangles point to the true value)."
             if any(s["kind"] == "conjectured" for s in series):
                 caption += (
                     " Dash-dot-dot = conjectured: it rests on an unproven statement, is not "
@@ -1327,7 +1341,7 @@ def _draw_power(
             color=colour,
             marker=marker,
             linestyle=KIND_LINESTYLES[s["kind"]],
-            label=f"{s['label']} ({_how_phrase(s['kind'], s['side'])})",
+            label=_legend_text(s["label"], _how_phrase(s["kind"], s["side"])),
             zorder=3,
         )
         if s["kind"] == "estimate":
@@ -1495,7 +1509,7 @@ def _draw_expectations(
             markersize=4.5,
             linestyle=KIND_LINESTYLES[m["kind"]],
             linewidth=1.4,
-            label=f"{m['label']} ({m['kind']})",
+            label=_legend_text(m["label"], m["kind"]),
             zorder=4,
         )
         if m["kind"] == "estimate":

@@ -398,6 +398,14 @@ def audit_report(audit, *, payload: dict[str, Any], provenance: Provenance) -> R
         answer.append(f"Largest effect on the strongest test: {worst.effect.text} (estimate).")
     if battery.since_when is not None:
         answer.append(f"Since when: {battery.since_when.text} (estimate).")
+    if audit.by:  # each flagged group's own verdict and since when (pooled decks can hide one)
+        for key, group in audit.result.groups:
+            if not group.flagged:
+                continue
+            line = f"{key}: {group.verdict()}."
+            if group.since_when is not None:
+                line += f" Since when (estimate): {group.since_when.text}."
+            answer.append(line)
     if audit.set_aside:
         answer.append(f"{audit.set_aside:,} rows were set aside as invalid and not audited.")
     return Report(
