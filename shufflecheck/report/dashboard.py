@@ -60,6 +60,7 @@ table { border-collapse:collapse; width:100%; margin:0.8rem 0; font-size:0.85rem
 th, td { border-bottom:1px solid var(--rule); padding:0.35rem 0.5rem; text-align:left;
   vertical-align:top; }
 th { background:var(--panel); }
+td:first-child { white-space:nowrap; }
 .state { font-weight:700; white-space:nowrap; }
 .state.alarm { color:var(--alarm); }
 .state.quiet { color:var(--ok); }
