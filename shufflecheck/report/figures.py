@@ -1731,7 +1731,10 @@ def timeline_figure(
             ax.set_ylabel(f"value per {unit}", fontsize=8)
             ax.tick_params(labelsize=7.5)
             ax.legend(loc="upper left", fontsize=7, ncol=2)
-            top, bottom = float(smooth.max()), float(smooth.min())
+            # the random deck's mean is always on the chart, however far the decks are off
+            levels = [float(smooth.max()), float(smooth.min()), p["expected"], after]
+            levels += [] if before is None else [before]
+            top, bottom = max(levels), min(levels)
             spread = max(top - bottom, 1e-9)
             # room above the curves for the legend
             ax.set_ylim(bottom - 0.1 * spread, top + 0.75 * spread)

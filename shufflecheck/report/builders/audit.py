@@ -91,7 +91,7 @@ def _since_when_groups(audit) -> list[dict[str, Any]]:
     batteries = (
         [(str(k), b) for k, b in audit.result.groups]
         if getattr(audit, "by", None)
-        else [("all decks", audit.result.overall)]
+        else [(f"all {audit.result.overall.unit}s", audit.result.overall)]
     )
     out = []
     for label, battery in batteries:
