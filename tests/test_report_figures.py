@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import subprocess
 import sys
 import zlib
@@ -365,3 +366,32 @@ class TestPvalueTexts:
         assert figure.png.startswith(b"\x89PNG")
         with pytest.raises(InputError, match="1 texts for 2 tests"):
             F.pvalue_figure(["a", "b"], [0.1, 0.2], ["exact", "exact"], texts=["x"])
+
+    def test_tick_labels_do_not_overlap(self):
+        # adjusted p-values down to the floor: the decade labels of the log axis stay apart
+        # (once '1e-3011e-2581e-215...' ran together)
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+        with F.keep_drawn() as kept:
+            F.pvalue_figure(
+                ["rising sequences", "guessing game with feedback, next-card strategy", "c"],
+                [1e-300, 1e-100, 0.5],
+                ["exact", "exact", "exact"],
+                alpha=0.01,
+            )
+        fig = kept[0][1]
+        canvas = FigureCanvasAgg(fig)
+        canvas.draw()
+        renderer = canvas.get_renderer()
+        ax = fig.axes[0]
+        boxes = [
+            t.get_window_extent(renderer)
+            for t in ax.get_xticklabels()
+            if t.get_text() and ax.get_xlim()[0] <= t.get_position()[0] <= ax.get_xlim()[1]
+        ]
+        assert len(boxes) >= 3
+        boxes.sort(key=lambda b: b.x0)
+        assert all(a.x1 < b.x0 for a, b in itertools.pairwise(boxes))
+        # long names wrap onto two lines, never at a hyphen
+        names = [t.get_text() for t in ax.get_yticklabels()]
+        assert "guessing game with feedback,\nnext-card strategy" in names

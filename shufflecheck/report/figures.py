@@ -1034,11 +1034,21 @@ def _draw_pvalues(
         bar.set_hatch(hatch)
     ax.axvline(alpha, **_THRESHOLD, zorder=3, label=f"alpha = {alpha:g}")
     ax.set_xscale("log")
+    from matplotlib.ticker import LogLocator
+
+    # at most six decade ticks, so labels such as 1e-300 never run into each other
+    ax.xaxis.set_major_locator(LogLocator(base=10.0, numticks=6))
     _plain_log_ticks(ax.xaxis)
     ax.set_xlim(left, 1.0)
     ax.set_ylim(count - 0.5, -0.5)
     ax.set_yticks(y)
-    ax.set_yticklabels(tests)
+    # long test names on two lines, so the bars keep most of the width
+    import textwrap
+
+    ax.set_yticklabels(
+        ["\n".join(textwrap.wrap(t, 34, break_on_hyphens=False)) or t for t in tests],
+        linespacing=0.95,
+    )
     for tick, f in zip(ax.get_yticklabels(), flagged, strict=True):
         if f:
             tick.set_fontweight("bold")
