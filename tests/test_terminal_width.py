@@ -37,6 +37,15 @@ def assert_fits(text: str) -> None:
         pytest.param(("power", "riffle", "-r", "4-6"), id="power"),
         pytest.param(("fit-riffle", DEMO / "logs/table1-riffles.csv"), id="fit-riffle"),
         pytest.param(("characters", "7"), id="characters"),
+        pytest.param(
+            (
+                "track",
+                "plug(cards=60), grab(stacks=4, pairs=split), cut(spread=20), cut-card(behind=60)",
+                "--shoes",
+                "2000",
+            ),
+            id="track",
+        ),
     ],
 )
 def test_command_fits(args):
