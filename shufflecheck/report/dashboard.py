@@ -153,7 +153,8 @@ def timeline_svg(t: dict[str, Any], *, width: int = 900, height: int = 330) -> s
     line = t["timeline"]
     decks = line["deck"]
     pad_l, pad_r, gap = 58, 16, 34
-    panel_h = (height - 30 - gap - 28) // 2
+    head = 22  # room above each panel for its title, off the curves and the alarm line
+    panel_h = (height - head - 20 - gap - 28) // 2
     x_max = max(decks[-1] if decks else 1, 1)
     x_min = 1
 
@@ -183,7 +184,7 @@ def timeline_svg(t: dict[str, Any], *, width: int = 900, height: int = 330) -> s
         ),
     ]
     for k, (label, values, level, colour, kind) in enumerate(panels):
-        top = 10 + k * (panel_h + gap)
+        top = head + k * (panel_h + gap)
         finite = [v for v in values if v is not None and math.isfinite(v)]
         y_lo = min([0.0, *finite, level])
         y_hi = max([level * 1.15, *finite])
@@ -241,9 +242,9 @@ def timeline_svg(t: dict[str, Any], *, width: int = 900, height: int = 330) -> s
                 f'y2="{top + panel_h}" stroke="#333" stroke-dasharray="2 3"/>'
             )
         parts.append(
-            f'<text x="{pad_l + 6}" y="{top + 14}" font-weight="bold">{escape(label)}</text></g>'
+            f'<text x="{pad_l}" y="{top - 6}" font-weight="bold">{escape(label)}</text></g>'
         )
-    base = 10 + 2 * panel_h + gap
+    base = head + 2 * panel_h + gap
     for v in _ticks(x_min, x_max, 8):
         x = sx(v)
         parts.append(
