@@ -28,7 +28,7 @@ def test_spectrum_52_shows_progress():
 def test_demo_shows_progress_to_the_end(tmp_path):
     # about 35 s: the demo's two bars (the assessment, then the report with one unit per
     # figure drawn and one for writing) both reach 100%
-    code, out, err = run_with_terminal_stderr("demo", "--out", str(tmp_path / "demo"))
+    code, out, err = run_with_terminal_stderr("demo", "--report", str(tmp_path / "demo"))
     assert code == 0, err
     assert "demo: assessing procedures" in err and "demo: drawing the report" in err
     report = err[err.index("demo: drawing the report") :]

@@ -17,7 +17,7 @@ POLICY = """
 [policy]
 title = "Figure check (invented)"
 target = 0.1
-decks = 400
+simulate = 400
 seed = 11
 max_repeats = 3
 

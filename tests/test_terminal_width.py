@@ -31,7 +31,7 @@ def assert_fits(text: str) -> None:
         pytest.param(("spectrum", "riffle", "-n", "12"), id="spectrum-riffle"),
         pytest.param(("mix", "riffle"), id="mix"),
         pytest.param(
-            ("assess", "riffle x3, strip(packets=5), riffle x3, cut", "--decks", "2000"),
+            ("assess", "riffle x3, strip(packets=5), riffle x3, cut", "--simulate", "2000"),
             id="assess",
         ),
         pytest.param(("power", "riffle", "-r", "4-6"), id="power"),
@@ -41,7 +41,7 @@ def assert_fits(text: str) -> None:
             (
                 "track",
                 "plug(cards=60), grab(stacks=4, pairs=split), cut(spread=20), cut-card(behind=60)",
-                "--shoes",
+                "--simulate",
                 "2000",
             ),
             id="track",

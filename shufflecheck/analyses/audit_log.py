@@ -299,6 +299,7 @@ def finish_audit(
     alpha: float,
     rng: np.random.Generator | int | None,
     engine: str = "single process",
+    confidence: float = 0.95,
 ) -> LogAudit:
     """Run the battery on a part's summary and describe the audit."""
     info = _combined_reader(part.readers, shown)
@@ -308,7 +309,7 @@ def finish_audit(
             f"{shown}: no decks to test ({info.decks} read, {info.set_aside} set aside, "
             f"{part.reference_only} used only as references)"
         )
-    result = summary.finish(alpha, rng=rng)
+    result = summary.finish(alpha, rng=rng, since_when_level=confidence)
     arrays = summary.as_arrays()
     small = None
     needed = int(MONTE_CARLO_BELOW * options.deck.size)
@@ -403,6 +404,7 @@ def audit_log(
     engine: str = "single",
     scheduler: str | None = None,
     workers: int | None = None,
+    confidence: float = 0.95,
 ) -> LogAudit:
     """Audit recorded logs against their reference orders (default: the previous deck).
 
@@ -469,7 +471,12 @@ def audit_log(
         Dask engine starts a local cluster on this machine's cores.
     workers : int, optional
         Workers of the local cluster (default: one per core).
+    confidence : float
+        Nominal level of the interval on a since-when start (default 0.95; a policy passes
+        its own ``confidence``).
     """
+    if not 0.5 <= confidence < 1:
+        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
     sources = log_sources(path)
     shown = os.fspath(path) if isinstance(path, (str, os.PathLike)) else f"{len(sources)} logs"
     definition, shoe, chunk_rows = _definition(
@@ -504,10 +511,19 @@ def audit_log(
             sources, options, scheduler=scheduler, workers=workers, progress=progress
         )
         return finish_audit(
-            part, options, shown=shown, paths=paths, alpha=alpha, rng=rng, engine=used
+            part,
+            options,
+            shown=shown,
+            paths=paths,
+            alpha=alpha,
+            rng=rng,
+            engine=used,
+            confidence=confidence,
         )
     part = scan_sources(sources, options, progress=progress)
-    return finish_audit(part, options, shown=shown, paths=paths, alpha=alpha, rng=rng)
+    return finish_audit(
+        part, options, shown=shown, paths=paths, alpha=alpha, rng=rng, confidence=confidence
+    )
 
 
 def _definition(

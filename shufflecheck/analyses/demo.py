@@ -81,7 +81,11 @@ def run_shoe_game(seed: int, confidence: float = 0.95) -> ShoeGame:
     shoe = load_shoe(SHOE_DECK)
     assert shoe is not None
     machine = audit_log(
-        folder / SHOE_MACHINE_LOG, deck=shoe, feature=SHOE_FEATURE, time="recorded_at"
+        folder / SHOE_MACHINE_LOG,
+        deck=shoe,
+        feature=SHOE_FEATURE,
+        time="recorded_at",
+        confidence=confidence,
     )
     hand = load_procedure(folder / SHOE_HAND_PROCEDURE)
     tracked = tracking_exposure(

@@ -831,6 +831,7 @@ def _audit(log: LogSpec, proc: PolicyProcedure, policy: Policy):
             by=log.by,
             time=log.time,
             alpha=policy.alpha,
+            confidence=policy.confidence,  # of the since-when interval
         )
     except InputError as exc:
         # the file may not be a log at all: never quote the content of what failed to parse

@@ -30,6 +30,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from shufflecheck.common.numbers import percent
 from shufflecheck.stats import nulls
 from shufflecheck.stats.catalogue import Statistic
 from shufflecheck.stats.effects import (
@@ -78,6 +79,7 @@ def run_battery(
     resamples: int = 999,
     rng: np.random.Generator,
     since_when: bool = True,
+    since_when_level: float = 0.95,
 ) -> BatteryResult:
     """Test every statistic on ``tallies``; Holm at ``alpha``; since when if flagged.
 
@@ -178,7 +180,7 @@ def run_battery(
     when = None
     unit = "deck" if tallies.class_counts is None else "shoe"
     if flagged and since_when and tallies.series is not None:
-        when = _since_when(tallies.series, tests, statistics, laws, unit)
+        when = _since_when(tallies.series, tests, statistics, laws, unit, since_when_level)
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
@@ -192,6 +194,7 @@ def _since_when(
     statistics: Sequence[Statistic],
     laws: Mapping[str, Law],
     unit: str = "deck",
+    level: float = SINCE_WHEN_LEVEL,
 ) -> SinceWhen | None:
     candidates = [t for t in tests if t.flagged and t.name in series]
     if not candidates:
@@ -203,14 +206,14 @@ def _since_when(
     mean0, var0 = float(law.mean), float(law.variance)
     direction = 1 if best.alternative == "greater" or best.effect.value >= 0 else -1
     point = change_point(values, mean0, var0, direction)
-    interval = change_interval(values, mean0, var0, direction, level=SINCE_WHEN_LEVEL)
+    interval = change_interval(values, mean0, var0, direction, level=level)
     stat = next(s for s in statistics if s.name == best.name)
     text = describe(point, values.size, stat.what, mean0, unit=unit)
-    level = f"{100 * SINCE_WHEN_LEVEL:g}%"
+    shown = percent(level)
     if interval.low == interval.high:
-        text += f"; {level} interval: {unit} {interval.low + 1} alone"
+        text += f"; {shown} interval: {unit} {interval.low + 1} alone"
     else:
-        text += f"; {level} interval: {unit}s {interval.low + 1} to {interval.high + 1}"
+        text += f"; {shown} interval: {unit}s {interval.low + 1} to {interval.high + 1}"
     return SinceWhen(
         test=best.name,
         start=point.start + 1,
@@ -227,6 +230,6 @@ def _since_when(
         text=text,
         low=interval.low + 1,
         high=interval.high + 1,
-        level=SINCE_WHEN_LEVEL,
+        level=level,
         series=tuple(values.tolist()),
     )

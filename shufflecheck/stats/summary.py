@@ -485,6 +485,7 @@ class BatterySummary:
         resamples: int = 999,
         rng: np.random.Generator | int | None = None,
         since_when: bool = True,
+        since_when_level: float = 0.95,
     ) -> AuditResult:
         """Run the battery on all decks and on each group.
 
@@ -526,6 +527,7 @@ class BatterySummary:
                 resamples=resamples,
                 rng=generator,
                 since_when=since_when,
+                since_when_level=since_when_level,
             )
 
         overall = battery(self._overall)
