@@ -211,9 +211,9 @@ def _since_when(
     text = describe(point, values.size, stat.what, mean0, unit=unit)
     shown = percent(level)
     if interval.low == interval.high:
-        text += f"; {shown} interval: {unit} {interval.low + 1} alone"
+        text += f"; {shown} interval: {unit} {interval.low + 1:,} alone"
     else:
-        text += f"; {shown} interval: {unit}s {interval.low + 1} to {interval.high + 1}"
+        text += f"; {shown} interval: {unit}s {interval.low + 1:,} to {interval.high + 1:,}"
     return SinceWhen(
         test=best.name,
         start=point.start + 1,
