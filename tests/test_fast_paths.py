@@ -278,6 +278,39 @@ class TestTopToRandomChain:
             assert bb.total_variation == pytest.approx(ab.total_variation, rel=1e-12, abs=1e-300)
             assert b.kind == "exact" and "double precision" in b.note
 
+    @pytest.mark.parametrize(("n", "k"), [(7, 300), (13, 200), (52, 600), (180, 400)])
+    def test_chain_gaps_below_one_equal_the_integers(self, n, k):
+        # 1 - TV and 1 - separation where the float rounds the value to 1 (summed in logs
+        # by the chain) against the exact integers' gaps; after one step 1 - TV = n/n!
+        # (n equally likely insertions), e.g. 1/51! for 52 cards
+        from shufflecheck.models import top_to_random as ttr
+
+        exact, _ = ttr._integer_rows(n, k, None)
+        chain, _ = ttr._chain_rows(n, k, None)
+        assert chain[0].below_one("total_variation") == pytest.approx(
+            n / math.factorial(n), rel=1e-9
+        )
+        for a, b in zip(exact, chain, strict=True):
+            for metric in ("total_variation", "separation"):
+                x, y = a.below_one(metric), b.below_one(metric)
+                if x == 0:  # exactly 1 (an arrangement of probability 0)
+                    assert y == 0, (metric, b.steps)
+                elif x > 1e-300:  # within the double range
+                    assert y == pytest.approx(x, rel=1e-9), (metric, b.steps)
+                else:  # positive, below the double range
+                    assert 0 < y <= 1e-290, (metric, b.steps)
+
+    def test_chain_never_prints_a_distance_of_one(self):
+        # 312 cards (a six-pack shoe): the first steps are within 1e-300 of 1
+        from shufflecheck.common.numbers import format_number
+        from shufflecheck.models import top_to_random as ttr
+
+        chain, _ = ttr._chain_rows(312, 3, None)
+        for row in chain:
+            gap = row.below_one("total_variation")
+            assert gap > 0
+            assert format_number(row.total_variation, below_one=gap) != "1"
+
     def test_method_by_work_and_the_defaults_fit(self):
         from shufflecheck.models import default_max_steps
         from shufflecheck.models import top_to_random as ttr

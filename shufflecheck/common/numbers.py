@@ -21,6 +21,7 @@ __all__ = [
     "format_count",
     "format_measure",
     "format_number",
+    "gap_from_log",
     "format_p_value",
     "gap_float",
     "json_number",
@@ -106,6 +107,16 @@ def gap_float(numerator: int, denominator: int) -> float:
     positive ratio below the double range becomes :data:`BELOW_FLOAT_RANGE`, never 0."""
     value = numerator / denominator
     return BELOW_FLOAT_RANGE if value == 0 and numerator > 0 else value
+
+
+def gap_from_log(log_gap: float) -> float:
+    """``exp(log_gap)`` (a distance to 1 known by its natural log, e.g. from a double
+    chain summed in logs) as a float; a positive gap below the double range becomes
+    :data:`BELOW_FLOAT_RANGE`, never 0."""
+    if log_gap == -math.inf:
+        return 0.0
+    value = math.exp(min(log_gap, 0.0))
+    return value if value > 0 else BELOW_FLOAT_RANGE
 
 
 def _format_near_one(x: float, gap: float, digits: int, rounding: str) -> str:

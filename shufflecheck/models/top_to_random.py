@@ -44,6 +44,7 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards, check_integer
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.numbers import gap_from_log
 from shufflecheck.common.sources import ALDOUS_DIACONIS_1986, DIACONIS_FILL_PITMAN
 from shufflecheck.core.characters import Eigenvalue
 from shufflecheck.core.counting import rencontres_row, stirling2_columns
@@ -267,6 +268,7 @@ def _chain_rows(
     rows, bounds = [], []
     with np.errstate(divide="ignore", under="ignore"):
         for k in range(1, max_steps + 1):
+            tv_gap = sep_gap = None  # 1 - value where the float rounds it (log space)
             top = min(hi + 1, n)
             previous = q[lo:top].copy()
             q[lo : top + 1] *= stay[lo : top + 1]
@@ -304,12 +306,30 @@ def _chain_rows(
                 tv += above * -math.expm1(min(x_top, 0.0))
                 lowest = min(float(xs.min()), x_top)
                 sep = 1.0 if below > 0 else -math.expm1(min(lowest, 0.0))
+                if tv > 0.5:  # 1 - TV = sum U min(t, 1), in logs: positive below any float
+                    parts = log_uniform[first - 1 : m_hi] + np.minimum(xs, 0.0)
+                    if m_hi < n:
+                        parts = np.r_[parts, -log_fact[m_hi + 1] + min(x_top, 0.0)]
+                    tv_gap = gap_from_log(float(np.logaddexp.reduce(parts)))
+                if sep > 0.5 and below == 0:  # 1 - separation = min t
+                    sep_gap = gap_from_log(min(lowest, 0.0))
                 kl = below + _kl_terms(xs, us, log_uniform[first - 1 : m_hi])
                 if m_hi < n:  # in logs: 1/(m_hi + 1)! may underflow while its P does not
                     kl += _kl_terms(
                         np.array([x_top]), np.array([above]), np.array([-log_fact[m_hi + 1]])
                     )
-            rows.append(DistanceRow(k, tv, sep, kl / math.log(2), "exact", note))
+            rows.append(
+                DistanceRow(
+                    k,
+                    tv,
+                    sep,
+                    kl / math.log(2),
+                    "exact",
+                    note,
+                    total_variation_below_one=tv_gap,
+                    separation_below_one=sep_gap,
+                )
+            )
             tail = float(q[lo : min(hi, n - 1) + 1].sum()) if lo < n else 0.0  # P(D < n)
             bounds.append(DistanceRow(k, tail, tail, None, "bound", "strong uniform time"))
             if progress is not None:
