@@ -112,3 +112,25 @@ class TestFormatTable:
         assert lines[0].startswith("  - ") and all(x.startswith("    w") for x in lines[1:])
         path = "/" + "p" * 150
         assert wrap_line(path) == path  # one token stays whole
+
+
+@pytest.mark.parametrize("model", ["transposition", "riffle"])
+def test_spectrum_of_a_full_deck_fits_without_exceptions(model):
+    # 52 cards: multiplicities of up to 68 digits (d^2 for S_52) and the shape 1^52 once
+    # ran the table to 210 columns; now no line at all is longer than 100
+    result = run("spectrum", model, "-n", "52")
+    assert result.exit_code == 0, result.output
+    assert max(len(line) for line in result.stdout.splitlines()) <= WIDTH
+    if model == "transposition":
+        assert "(1^52)" in result.stdout and "(2,1^50)" in result.stdout
+        assert "multiplicity, exact: " in result.stdout  # the digits under a rounded cell
+        assert "its exact digits are on the line under the row" in " ".join(result.stdout.split())
+
+
+def test_compact_partitions_read_back():
+    from shufflecheck.core.partitions import format_partition, parse_partition
+
+    for parts in [(52,), (2, 1, 1), (3, 3, 3, 1, 1, 1, 1), (1,) * 52, (5, 2, 2, 2)]:
+        text = format_partition(parts, compact=True)
+        assert parse_partition(text) == parts, text
+    assert format_partition((2, 1, 1, 1, 1), compact=True) == "2,1^4"

@@ -166,6 +166,10 @@ def spectrum(
         echo(f"Wrote report {written}")
 
 
+#: longest multiplicity (with separators) printed in full in the terminal's table
+_TERMINAL_DIGITS = 29
+
+
 def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bool) -> None:
     """Terminal or JSON view. Multiplicities are exact integers: in full with thousands
     separators in the terminal, and in the JSON both as a JSON integer (``multiplicity``,
@@ -180,15 +184,36 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
     from shufflecheck.core.partitions import format_partition
 
     table_rows = []
+    details = []
     for r in rows:
-        shown = ", ".join(f"({format_partition(s)})" for s in r.shapes[:shapes_shown])
+        shown = ", ".join(f"({format_partition(s, compact=True)})" for s in r.shapes[:shapes_shown])
         if len(r.shapes) > shapes_shown:
             shown += f", ... ({len(r.shapes)} shapes)"
-        table_rows.append(
-            [format_number(float(r.value), 6), str(r.value), format_count(r.multiplicity), shown]
-        )
+        multiplicity = format_count(r.multiplicity)
+        if len(multiplicity) > _TERMINAL_DIGITS:  # too wide for 100 columns: the exact
+            digits = str(r.multiplicity)  # digits go on their own line under the row
+            details.append(f"multiplicity, exact: {multiplicity}")
+            multiplicity = f"~{digits[0]}.{digits[1:5]}e+{len(digits) - 1}"
+        else:
+            details.append("")
+        cells = [format_number(float(r.value), 6), str(r.value), multiplicity]
+        table_rows.append([*cells, shown] if any(x.shapes for x in rows) else cells)
+    headers = ["eigenvalue", "exact", "multiplicity", "shapes"][: len(table_rows[0])]
     echo(f"Spectrum of {model} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
-    echo(format_table(["eigenvalue", "exact", "multiplicity", "shapes"], table_rows, align="rlrl"))
+    long = any(details)
+    echo(
+        format_table(
+            headers,
+            table_rows,
+            align="rlrl"[: len(headers)],
+            details=details if long else None,
+        )
+    )
+    if long:
+        echo(
+            "~: a multiplicity too long for its column, rounded there; its exact digits are "
+            "on the line under the row (and in --json and --report)."
+        )
 
 
 @contextlib.contextmanager

@@ -20,6 +20,7 @@ References
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
 from collections import Counter
@@ -154,9 +155,21 @@ def parse_partition(text: str, name: str = "partition", most: int | None = None)
     return tuple(parts)
 
 
-def format_partition(parts: Sequence[int]) -> str:
-    """``(3, 3, 1)`` -> ``"3,3,1"``; the empty partition -> ``"()"``."""
-    return ",".join(str(p) for p in parts) if parts else "()"
+def format_partition(parts: Sequence[int], *, compact: bool = False) -> str:
+    """``(3, 3, 1)`` -> ``"3,3,1"``; the empty partition -> ``"()"``.
+
+    ``compact=True`` writes a run of three or more equal parts as ``part^count``, the
+    notation ``characters --shape`` reads: ``(2, 1, 1, 1, 1)`` -> ``"2,1^4"``.
+    """
+    if not parts:
+        return "()"
+    if not compact:
+        return ",".join(str(p) for p in parts)
+    out: list[str] = []
+    for part, run in itertools.groupby(parts):
+        count = len(list(run))
+        out.append(f"{part}^{count}" if count >= 3 else ",".join([str(part)] * count))
+    return ",".join(out)
 
 
 @cache
