@@ -302,7 +302,10 @@ def _main(
 ) -> None:
     """Audit card shuffling with the mathematics of the symmetric group: exact distances to
     random, policy minimums, and tests on recorded deck orders. Every number is labelled
-    exact, bound or estimate. Results are statistical evidence, not certification."""
+    exact, bound, estimate or conjectured (resting on an unproven statement, never used to
+    certify). Results are statistical evidence, not certification: approval of shuffling
+    devices and dealing rules belongs to the local gaming regulator and accredited test
+    laboratories."""
 
 
 def _check_seed(value: int | None) -> int | None:
