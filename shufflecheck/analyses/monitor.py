@@ -19,11 +19,12 @@ default reference), across files: the store keeps each table's last order.
 
 from __future__ import annotations
 
+import json
 import math
 import os
 import time as clock
-from collections.abc import Callable
-from dataclasses import dataclass
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass, field
 from datetime import datetime, timezone
 from pathlib import Path
 from typing import Any
@@ -44,6 +45,7 @@ from shufflecheck.stats.results import BatteryResult
 from shufflecheck.stores.monitor_store import MonitorStore, TableRow
 
 __all__ = [
+    "FleetIngest",
     "FleetStatus",
     "IngestResult",
     "TableIngest",
@@ -51,6 +53,7 @@ __all__ = [
     "evidence_words",
     "fleet_status",
     "ingest_log",
+    "ingest_logs",
 ]
 
 #: Stored deck blocks hold at most this many decks (one chunk of the reader at most).
@@ -157,18 +160,58 @@ class IngestResult:
         }
 
 
+@dataclass(frozen=True)
+class _ReadOptions:
+    """How the logs of one ingest are read (sent with each file to a worker)."""
+
+    deck: DeckDefinition
+    labels: str
+    fmt: str
+    chunk_rows: int
+    time: str
+    table: str | None
+    by: str | None
+
+
+@dataclass(frozen=True)
+class _Piece:
+    """The decks of one table in one chunk of a log, in file order."""
+
+    table: str
+    decks: np.ndarray
+    rows: np.ndarray
+    times: np.ndarray
+    digests: np.ndarray
+
+
+@dataclass(frozen=True)
+class _Work:
+    """New decks of one table to test: ``decks`` (absolute labels) follow ``previous``."""
+
+    decks: np.ndarray
+    previous: np.ndarray
+    rows: np.ndarray
+    times: np.ndarray
+    digests: np.ndarray
+    first_deck: int
+
+
 @dataclass
 class _Table:
-    """A table while a file is being ingested."""
+    """A table while files are being ingested (``table_id`` None: not in the store yet)."""
 
     row: TableRow
-    monitor: Monitor
+    table_id: int | None
+    monitor: Monitor | None
     names: tuple[str, ...]
     dtype: str
     last_order: np.ndarray | None
     last_time: int | None
     origin: tuple[int, int] | None
     stored_last_time: int | None
+    decks: int
+    #: times and digests of decks tested in this run but perhaps not yet committed
+    batch_keys: list[tuple[np.ndarray, np.ndarray]] | None = None
     known_pairs: set[tuple[int, int]] | None = None
     added: int = 0
     known: int = 0
@@ -177,6 +220,16 @@ class _Table:
     new_table: bool = False
     seen_new: bool = False
     alarms_before: tuple[Any, Any] = (None, None)
+
+    def start_file(self) -> None:
+        """Reset what is counted per file (a table met again in a later file)."""
+        self.stored_last_time = self.last_time
+        self.known_pairs = None
+        self.added = self.known = 0
+        self.first_row = None
+        self.last_row = 0
+        self.new_table = False
+        self.seen_new = False
 
 
 def _times(path: Path, chunk, column: str) -> np.ndarray:
@@ -195,6 +248,43 @@ def _time_text(ns: int) -> str:
     return str(np.datetime64(int(ns), "ns").astype("datetime64[s]"))
 
 
+def _open_reader(source: Path, options: _ReadOptions):
+    return read_log(
+        source,
+        deck=options.deck,
+        labels=options.labels,
+        fmt=options.fmt,
+        chunk_rows=options.chunk_rows,
+    )
+
+
+def _pieces(source: Path, reader, options: _ReadOptions) -> Iterator[tuple[int, list[_Piece]]]:
+    """Chunk by chunk: (rows read so far, the chunk's decks split by table, tables in the
+    order they first appear in the chunk); validation errors raise as they are met."""
+    rows_read = 0
+    for chunk in reader:
+        rows_read += len(chunk)
+        if len(chunk) == 0:
+            yield rows_read, []
+            continue
+        times = _times(source, chunk, options.time)
+        names = _table_names(source, chunk, options.table, options.by)
+        pieces = []
+        for name in pd.unique(names):
+            pick = np.flatnonzero(names == name)
+            decks = chunk.decks[pick]
+            pieces.append(
+                _Piece(
+                    str(name),
+                    decks,
+                    chunk.rows[pick],
+                    times[pick],
+                    deck_digests(decks).view(np.int64),
+                )
+            )
+        yield rows_read, pieces
+
+
 def ingest_log(
     store: str | os.PathLike[str],
     path: str | os.PathLike[str],
@@ -210,7 +300,8 @@ def ingest_log(
     chunk_rows: int = BLOCK_DECKS,
     progress: Callable[[int], None] | None = None,
 ) -> IngestResult:
-    """Add the new decks of one log to their tables in a monitoring store.
+    """Add the new decks of one log to their tables in a monitoring store (one process;
+    :func:`ingest_logs` ingests many logs, optionally on a Dask cluster).
 
     Parameters
     ----------
@@ -240,9 +331,7 @@ def ingest_log(
     source = Path(path)
     if not source.is_file():
         raise InputError(f"cannot read {source}: no such file")
-    if table is not None and by is not None:
-        raise InputError("give a table name or a column of table names, not both")
-    definition = load_deck(deck)
+    options = _read_options(table, by, time, deck, labels, fmt, chunk_rows)
     digest = sha256_file(source)
     size = source.stat().st_size
     with MonitorStore(store) as db:
@@ -251,13 +340,7 @@ def ingest_log(
             return IngestResult(
                 Path(store), source, digest, seen, 0, (), clock.perf_counter() - start
             )
-        reader = read_log(
-            source,
-            deck=definition,
-            labels=labels,
-            fmt=fmt or "auto",
-            chunk_rows=min(chunk_rows, BLOCK_DECKS),
-        )
+        reader = _open_reader(source, options)
         tables: dict[str, _Table] = {}
         rows_read = 0
         now = _now()
@@ -268,68 +351,104 @@ def ingest_log(
                     Path(store), source, digest, seen, 0, (), clock.perf_counter() - start
                 )
             file_id = db.add_file(digest, str(source), size, 0, now)
-            for chunk in reader:
-                rows_read += len(chunk)
-                if len(chunk) == 0:
-                    continue
-                times = _times(source, chunk, time)
-                names = _table_names(source, chunk, table, by)
-                for name in pd.unique(names):
-                    pick = np.flatnonzero(names == name)
-                    state = tables.get(name)
+            for rows_read, pieces in _pieces(source, reader, options):
+                for piece in pieces:
+                    state = tables.get(piece.table)
                     if state is None:
-                        state = tables[name] = _open_table(
-                            db, str(name), definition, plan, strategies, now
+                        state = tables[piece.table] = _open_table(
+                            db, piece.table, options.deck, plan, strategies, now
                         )
-                    _ingest_decks(
-                        db,
-                        source,
-                        file_id,
-                        state,
-                        chunk.decks[pick],
-                        chunk.rows[pick],
-                        times[pick],
-                    )
+                    work = _select(db, source, state, piece)
+                    if work is not None:
+                        assert state.monitor is not None and state.table_id is not None
+                        stats, trace = _test(state.monitor, state.names, work)
+                        _add_block(db, state.table_id, file_id, state.dtype, work, stats, trace)
                 if progress is not None:
                     progress(rows_read)
-            results = []
-            for name, state in tables.items():
-                db.update_table(
-                    state.row.id,
-                    decks=state.monitor.decks,
-                    origin=state.origin,
-                    last_order=state.last_order,
-                    last_time=state.last_time,
-                    state=state.monitor.state(),
-                    now=now,
-                )
-                db.add_file_table(
-                    file_id,
-                    state.row.id,
-                    state.first_row or 0,
-                    state.last_row,
-                    state.added,
-                    state.known,
-                )
-                before = state.alarms_before
-                results.append(
-                    TableIngest(
-                        table=name,
-                        decks_added=state.added,
-                        decks_known=state.known,
-                        first_row=state.first_row or 0,
-                        last_row=state.last_row,
-                        decks_tested=state.monitor.decks,
-                        family_alarm=state.monitor.family_alarm if before[0] is None else None,
-                        change_alarm=state.monitor.change_alarm if before[1] is None else None,
-                        new_table=state.new_table,
-                    )
-                )
             if not tables:
                 raise InputError(f"{source}: no decks to ingest")
+            results = []
+            for state in tables.values():
+                assert state.monitor is not None
+                results.append(
+                    _write_table(
+                        db, file_id, state, state.monitor.state(), state.alarms_before, now
+                    )
+                )
             db.set_file_rows(file_id, rows_read)
     return IngestResult(
         Path(store), source, digest, None, rows_read, tuple(results), clock.perf_counter() - start
+    )
+
+
+def _read_options(table, by, time, deck, labels, fmt, chunk_rows) -> _ReadOptions:
+    if table is not None and by is not None:
+        raise InputError("give a table name or a column of table names, not both")
+    return _ReadOptions(
+        deck=load_deck(deck),
+        labels=labels,
+        fmt=fmt or "auto",
+        chunk_rows=min(chunk_rows, BLOCK_DECKS),
+        time=time,
+        table=table,
+        by=by,
+    )
+
+
+def _add_block(
+    db: MonitorStore,
+    table_id: int,
+    file_id: int,
+    dtype: str,
+    work: _Work,
+    stats: np.ndarray,
+    trace: np.ndarray,
+) -> None:
+    db.add_block(
+        table_id,
+        work.first_deck,
+        file_id,
+        rows=work.rows,
+        times=work.times,
+        digests=work.digests,
+        stats=stats,
+        stats_dtype=dtype,
+        trace=trace,
+    )
+
+
+def _write_table(
+    db: MonitorStore,
+    file_id: int,
+    state: _Table,
+    monitor_state: dict[str, Any],
+    before: tuple[Any, Any],
+    now: str,
+) -> TableIngest:
+    """The table's row after one file, the file's row range for it, and what it did."""
+    assert state.table_id is not None
+    db.update_table(
+        state.table_id,
+        decks=state.decks,
+        origin=state.origin,
+        last_order=state.last_order,
+        last_time=state.last_time,
+        state=monitor_state,
+        now=now,
+    )
+    db.add_file_table(
+        file_id, state.table_id, state.first_row or 0, state.last_row, state.added, state.known
+    )
+    return TableIngest(
+        table=state.row.name,
+        decks_added=state.added,
+        decks_known=state.known,
+        first_row=state.first_row or 0,
+        last_row=state.last_row,
+        decks_tested=state.decks,
+        family_alarm=monitor_state["family_alarm"] if before[0] is None else None,
+        change_alarm=monitor_state["change_alarm"] if before[1] is None else None,
+        new_table=state.new_table,
     )
 
 
@@ -361,23 +480,48 @@ def _open_table(
     plan: MonitorPlan | None,
     strategies: tuple[str, ...],
     now: str,
+    *,
+    create: bool = True,
+    probes: dict[Any, Monitor] | None = None,
 ) -> _Table:
+    """A table of the store, checked against this ingest's deck and plan. A table the store
+    does not hold is created (``create``) or only described, to be created when the file
+    that first holds it is committed; with ``create`` it also gets its :class:`Monitor`."""
     row = db.table(name)
     new = row is None
     if row is None:
         chosen = plan or MonitorPlan()
-        probe = Monitor(_context(definition, strategies), chosen)
+        key = (tuple(definition.cards), tuple(strategies))
+        probe = None if probes is None else probes.get(key)
+        if probe is None:
+            probe = Monitor(_context(definition, strategies), chosen)
+            if probes is not None:
+                probes[key] = probe
         dtype = "i4" if any(v == np.int32 for v in probe.dtypes.values()) else "i2"
-        table_id = db.create_table(
-            name,
+        described = dict(
             deck=_deck_json(definition),
             reference="previous",
             plan=chosen.as_json(),
             columns={"statistics": list(probe.dtypes), "dtype": dtype, "strategies": strategies},
-            now=now,
         )
-        row = db.table(name)
-        assert row is not None and row.id == table_id
+        if create:
+            table_id = db.create_table(name, **described, now=now)
+            row = db.table(name)
+            assert row is not None and row.id == table_id
+        else:
+            row = TableRow(
+                id=-1,
+                name=name,
+                **json.loads(json.dumps(described)),  # as the store gives it back
+                decks=0,
+                origin_time=None,
+                origin_digest=None,
+                last_order=None,
+                last_time=None,
+                state=None,
+                created_at=now,
+                updated_at=now,
+            )
     stored_deck = _deck_from_json(row.deck)
     if tuple(stored_deck.cards) != tuple(definition.cards):
         raise InputError(
@@ -393,10 +537,13 @@ def _open_table(
             "levels cannot change once decks were seen (start a new store or table)",
             argument=("alpha", "arl", "confidence"),
         )
-    context = _context(stored_deck, tuple(row.columns["strategies"]))
-    monitor = Monitor(context, stored_plan, row.state)
+    monitor = None
+    if create:
+        context = _context(stored_deck, tuple(row.columns["strategies"]))
+        monitor = Monitor(context, stored_plan, row.state)
     out = _Table(
         row=row,
+        table_id=None if new and not create else row.id,
         monitor=monitor,
         names=tuple(row.columns["statistics"]),
         dtype=row.columns["dtype"],
@@ -404,9 +551,11 @@ def _open_table(
         last_time=row.last_time,
         origin=None if row.origin_time is None else (row.origin_time, row.origin_digest),
         stored_last_time=row.last_time,
+        decks=row.decks,
         new_table=new,
     )
-    out.alarms_before = (monitor.family_alarm, monitor.change_alarm)
+    if monitor is not None:
+        out.alarms_before = (monitor.family_alarm, monitor.change_alarm)
     return out
 
 
@@ -427,10 +576,17 @@ def _known_mask(
         return old
     if state.known_pairs is None:
         low = int(times[old].min())
-        kt, kd = db.keys_between(state.row.id, low, limit)
+        if state.table_id is not None:
+            kt, kd = db.keys_between(state.table_id, low, limit)
+        else:
+            kt = kd = np.zeros(0, dtype=np.int64)
         if state.origin is not None and low <= state.origin[0] <= limit:
             kt = np.r_[state.origin[0], kt]
             kd = np.r_[state.origin[1], kd]
+        for bt, bd in state.batch_keys or ():
+            keep = (bt >= low) & (bt <= limit)
+            kt = np.r_[kt, bt[keep]]
+            kd = np.r_[kd, bd[keep]]
         state.known_pairs = set(zip(kt.tolist(), kd.tolist(), strict=True))
     pairs = state.known_pairs
     known = old.copy()
@@ -447,19 +603,14 @@ def _known_mask(
     return known
 
 
-def _ingest_decks(
-    db: MonitorStore,
-    path: Path,
-    file_id: int,
-    state: _Table,
-    decks: np.ndarray,
-    rows: np.ndarray,
-    times: np.ndarray,
-) -> None:
+def _select(db: MonitorStore, path: Path, state: _Table, piece: _Piece) -> _Work | None:
+    """The decks of a piece the store does not hold yet, checked for time order, with the
+    deck each follows; moves the table's bookkeeping (last deck, counts) past them. The
+    monitor itself is not touched (:func:`_test` runs it on the returned work)."""
+    decks, rows, times, digests = piece.decks, piece.rows, piece.times, piece.digests
     if state.first_row is None:
         state.first_row = int(rows[0])
     state.last_row = int(rows[-1])
-    digests = deck_digests(decks).view(np.int64)
     known = _known_mask(db, path, state, times, digests, rows)
     if known.any():
         last_known = int(np.flatnonzero(known)[-1])
@@ -472,7 +623,7 @@ def _ingest_decks(
         state.known += int(known.sum())
     fresh = ~known
     if not fresh.any():
-        return
+        return None
     decks = decks[fresh]
     rows = rows[fresh]
     times = times[fresh]
@@ -494,8 +645,22 @@ def _ingest_decks(
         state.added += 1
         decks, rows, times, digests = decks[1:], rows[1:], times[1:], digests[1:]
         if decks.shape[0] == 0:
-            return
-    previous = state.last_order
+            return None
+    work = _Work(decks, state.last_order, rows, times, digests, state.decks + 1)
+    count = int(decks.shape[0])
+    if state.batch_keys is not None:
+        state.batch_keys.append((times, digests))
+    state.last_order = decks[-1].astype(np.int16)
+    state.last_time = int(times[-1])
+    state.added += count
+    state.decks += count
+    return work
+
+
+def _test(monitor: Monitor, names: tuple[str, ...], work: _Work) -> tuple[np.ndarray, np.ndarray]:
+    """Feed a table's new decks to its monitor: (per-deck statistics in the stored column
+    order, per-deck trace: family log e-value and largest CUSUM)."""
+    decks, previous = work.decks, work.previous
     # relative[t, i] = position in deck t-1 of the card at position i of deck t
     refs = np.concatenate([previous[None, :], decks[:-1]]).astype(np.intp)
     k, n = decks.shape
@@ -503,23 +668,405 @@ def _ingest_decks(
     inverse[np.arange(k)[:, None], refs] = np.arange(n, dtype=np.int16)
     relative = np.take_along_axis(inverse, decks.astype(np.intp), axis=1)
     absolute = decks.astype(np.int16)
-    trace = state.monitor.update(relative, absolute, previous)
-    stats = np.stack([trace.values[n] for n in state.names], axis=1)
-    first_deck = state.monitor.decks - decks.shape[0] + 1
-    db.add_block(
-        state.row.id,
-        first_deck,
-        file_id,
-        rows=rows,
-        times=times,
-        digests=digests,
-        stats=stats,
-        stats_dtype=state.dtype,
-        trace=np.stack([trace.family_log_e, trace.detector], axis=1),
+    trace = monitor.update(relative, absolute, previous)
+    stats = np.stack([trace.values[n] for n in names], axis=1)
+    return stats, np.stack([trace.family_log_e, trace.detector], axis=1)
+
+
+# ------------------------------------------------------------------------------ many logs
+
+
+def ingest_logs(
+    store: str | os.PathLike[str],
+    paths: Sequence[str | os.PathLike[str]],
+    *,
+    table: str | None = None,
+    by: str | None = None,
+    time: str = "recorded_at",
+    deck: str | os.PathLike[str] | DeckDefinition | None = None,
+    labels: str = "codes",
+    fmt: str | None = None,
+    plan: MonitorPlan | None = None,
+    strategies: tuple[str, ...] = DEFAULT_STRATEGIES,
+    chunk_rows: int = BLOCK_DECKS,
+    engine: str = "single",
+    scheduler: str | None = None,
+    workers: int | None = None,
+    processes: bool = True,
+    progress: Callable[[int], None] | None = None,
+) -> FleetIngest:
+    """Ingest many logs, in the order given, each file in one transaction.
+
+    With ``engine="single"`` the files are ingested one after another by
+    :func:`ingest_log`. With ``engine="dask"`` the work runs on a Dask cluster (an existing
+    one at ``scheduler``, else a local one of ``workers`` workers, as processes unless
+    ``processes`` is False): every file is read, validated and split by table as its own
+    task, several files at once; each table's decks of a file are then tested (statistics,
+    e-processes, change detectors) as one task that waits for the same table's task of the
+    file before, so different tables run side by side while each table sees its decks in
+    time order. Only this process writes the store, one transaction per file, in the order
+    given; the store ends exactly as after ingesting the files one by one (same decks,
+    values, states, alarms and row ranges). A file whose reading or checks fail leaves the
+    files before it committed and raises, as the one-by-one ingest would.
+
+    ``progress`` is called with the bytes of logs done so far. Other parameters as for
+    :func:`ingest_log`.
+
+    Returns
+    -------
+    FleetIngest
+        One :class:`IngestResult` per file, in order, and where the work ran.
+    """
+    start = clock.perf_counter()
+    sources = [Path(p) for p in paths]
+    if not sources:
+        raise InputError("no logs to ingest")
+    for source in sources:
+        if not source.is_file():
+            raise InputError(f"cannot read {source}: no such file")
+    if engine not in ("single", "dask"):
+        raise InputError(f"engine must be single or dask, got {engine!r}", argument="engine")
+    kwargs: dict[str, Any] = dict(
+        table=table,
+        by=by,
+        time=time,
+        deck=deck,
+        labels=labels,
+        fmt=fmt,
+        plan=plan,
+        strategies=strategies,
+        chunk_rows=chunk_rows,
     )
-    state.last_order = absolute[-1].copy()
-    state.last_time = int(times[-1])
-    state.added += int(decks.shape[0])
+    if engine == "single":
+        results = []
+        done = 0
+        for source in sources:
+            results.append(ingest_log(store, source, **kwargs))  # type: ignore[arg-type]
+            done += source.stat().st_size
+            if progress is not None:
+                progress(done)
+        return FleetIngest(tuple(results), "single process", {}, clock.perf_counter() - start)
+    from shufflecheck.engines.dask import session
+
+    options = _read_options(table, by, time, deck, labels, fmt, chunk_rows)
+    with session(scheduler, workers, processes) as cluster:
+        results = _ingest_on_cluster(
+            cluster, Path(store), sources, options, plan, tuple(strategies), progress
+        )
+        peaks = cluster.worker_peak_mb()
+        where = cluster.cluster.describe()
+    return FleetIngest(tuple(results), where, peaks, clock.perf_counter() - start)
+
+
+@dataclass(frozen=True)
+class FleetIngest:
+    """Many logs ingested: one result per file in the order given, where the work ran
+    (``engine``), each Dask worker's peak resident memory in MB, and the wall time."""
+
+    files: tuple[IngestResult, ...]
+    engine: str
+    worker_peak_mb: dict[str, float]
+    seconds: float
+
+    def as_json(self) -> dict[str, Any]:
+        return {
+            "engine": self.engine,
+            "files": [r.as_json() for r in self.files],
+            "decks_added": sum(r.decks_added for r in self.files),
+            "worker_peak_mb": self.worker_peak_mb,
+            "seconds": self.seconds,
+        }
+
+
+def _error_state(exc: InputError) -> tuple[str, tuple[str, ...], str]:
+    return exc.template, exc.arguments, exc.without_content
+
+
+def _error_from(state: tuple[str, tuple[str, ...], str]) -> InputError:
+    template, arguments, without = state
+    return InputError(template, argument=arguments or None, without_content=without)
+
+
+def _read_task(task: tuple[Path, _ReadOptions, frozenset[str]]) -> dict[str, Any]:
+    """On a worker: hash a log and, unless the store holds that file, read and validate
+    it, split by table. Errors come back as data (rebuilt as :class:`InputError`)."""
+    source, options, stored = task
+    out: dict[str, Any] = {"chunks": [], "rows": 0, "error": None}
+    try:
+        out["sha256"] = sha256_file(source)
+        out["bytes"] = source.stat().st_size
+        if out["sha256"] in stored:
+            return out
+        reader = _open_reader(source, options)
+        for rows_read, pieces in _pieces(source, reader, options):
+            out["rows"] = rows_read
+            out["chunks"].append(pieces)
+    except InputError as exc:
+        out["error"] = _error_state(exc)
+    return out
+
+
+def _update_task(
+    before: dict[str, Any], spec: tuple[Any, ...], works: list[_Work]
+) -> dict[str, Any]:
+    """On a worker: one table's new decks of one file through its monitor, from the state
+    the table's previous task (or the store) left."""
+    deck_json, strategies, plan_json, names = spec
+    context = _context(_deck_from_json(deck_json), tuple(strategies))
+    monitor = Monitor(context, MonitorPlan(**plan_json), before["state"])
+    blocks = [_test(monitor, names, work) for work in works]
+    return {"state": monitor.state(), "blocks": blocks}
+
+
+@dataclass
+class _FileJob:
+    """One file between its checks and its commit."""
+
+    source: Path
+    sha256: str
+    size: int
+    rows: int = 0
+    already: bool = False
+    now: str = ""
+    #: tables in the order they first appear, with what the commit needs of each
+    tables: dict[str, tuple[_Table, dict[str, Any], Any]] = field(default_factory=dict)
+    #: (table, work) in file order, the order the one-by-one ingest writes blocks
+    works: list[tuple[str, _Work]] = field(default_factory=list)
+    #: per table, what the store must hold when the file is committed (decks tested, last
+    #: time), as the checks of this file found it
+    expect: dict[str, tuple[int, int | None]] = field(default_factory=dict)
+
+
+def _ingest_on_cluster(
+    cluster,
+    store: Path,
+    sources: list[Path],
+    options: _ReadOptions,
+    plan: MonitorPlan | None,
+    strategies: tuple[str, ...],
+    progress: Callable[[int], None] | None,
+) -> list[IngestResult]:
+    from collections import deque
+
+    start = clock.perf_counter()
+    results: list[IngestResult] = []
+    with MonitorStore(store) as db:
+        stored = frozenset(f["sha256"] for f in db.files())
+        ahead = max(2, 2 * cluster.cluster.workers)
+        reads: deque = deque()
+        queued = 0
+
+        def refill() -> None:
+            nonlocal queued
+            while queued < len(sources) and len(reads) < ahead:
+                reads.append(cluster.submit(_read_task, (sources[queued], options, stored)))
+                queued += 1
+
+        tables: dict[str, _Table] = {}
+        chain: dict[str, Any] = {}  # table -> its last task (or the stored state)
+        committed: dict[str, dict[str, Any] | None] = {}  # table -> state in the store
+        probes: dict[Any, Monitor] = {}
+        pending: deque[_FileJob] = deque()
+        seen: set[str] = set()
+        done_bytes = 0
+
+        def commit(job: _FileJob) -> None:
+            nonlocal done_bytes
+            results.append(_commit(db, job, cluster, committed, start))
+            done_bytes += job.size
+            if progress is not None:
+                progress(done_bytes)
+
+        def flush(block: bool) -> None:
+            while pending and (
+                block or all(cluster.done(t[2]) for t in pending[0].tables.values())
+            ):
+                commit(pending.popleft())
+
+        refill()
+        for source in sources:
+            read = cluster.result(reads.popleft())
+            refill()
+            if read["error"] is not None and "sha256" not in read:
+                flush(True)
+                raise _error_from(read["error"])
+            job = _FileJob(source, read["sha256"], read["bytes"], read["rows"], now=_now())
+            if read["sha256"] in stored or read["sha256"] in seen:
+                job.already = True
+                pending.append(job)
+                flush(False)
+                continue
+            seen.add(read["sha256"])
+            try:
+                _plan_file(
+                    db,
+                    job,
+                    read,
+                    tables,
+                    chain,
+                    committed,
+                    probes,
+                    options,
+                    plan,
+                    strategies,
+                    cluster,
+                )
+            except InputError:
+                flush(True)
+                raise
+            pending.append(job)
+            flush(False)
+        flush(True)
+    return results
+
+
+def _plan_file(
+    db: MonitorStore,
+    job: _FileJob,
+    read: dict[str, Any],
+    tables: dict[str, _Table],
+    chain: dict[str, Any],
+    committed: dict[str, dict[str, Any] | None],
+    probes: dict[Any, Monitor],
+    options: _ReadOptions,
+    plan: MonitorPlan | None,
+    strategies: tuple[str, ...],
+    cluster,
+) -> None:
+    """The checks of one file on this process (which decks are new, time order), exactly
+    as :func:`ingest_log` makes them, and one test task per table of the file."""
+    here: dict[str, _Table] = {}
+    for pieces in read["chunks"]:
+        for piece in pieces:
+            state = here.get(piece.table)
+            if state is None:
+                state = tables.get(piece.table)
+                if state is not None:
+                    state.start_file()
+                if state is None:
+                    state = tables[piece.table] = _open_table(
+                        db,
+                        piece.table,
+                        options.deck,
+                        plan,
+                        strategies,
+                        job.now,
+                        create=False,
+                        probes=probes,
+                    )
+                    state.batch_keys = []
+                    chain[piece.table] = {"state": state.row.state}
+                    committed[piece.table] = state.row.state
+                here[piece.table] = state
+                job.expect[piece.table] = (state.decks, state.last_time)
+            work = _select(db, job.source, state, piece)
+            if work is not None:
+                job.works.append((piece.table, work))
+    if read["error"] is not None:
+        raise _error_from(read["error"])
+    if not here:
+        raise InputError(f"{job.source}: no decks to ingest")
+    for name, state in here.items():
+        row = state.row
+        spec = (row.deck, tuple(row.columns["strategies"]), row.plan, state.names)
+        works = [w for t, w in job.works if t == name]
+        task = cluster.submit(_update_task, chain[name], spec, works)
+        chain[name] = task
+        snapshot = {
+            "decks": state.decks,
+            "origin": state.origin,
+            "last_order": state.last_order,
+            "last_time": state.last_time,
+            "first_row": state.first_row,
+            "last_row": state.last_row,
+            "added": state.added,
+            "known": state.known,
+        }
+        job.tables[name] = (state, snapshot, task)
+    # drop the decks themselves: the tasks have them; the commit needs rows, times, digests
+    job.works = [
+        (t, _Work(w.decks[:0], w.previous[:0], w.rows, w.times, w.digests, w.first_deck))
+        for t, w in job.works
+    ]
+
+
+def _commit(
+    db: MonitorStore,
+    job: _FileJob,
+    cluster,
+    committed: dict[str, dict[str, Any] | None],
+    start: float,
+) -> IngestResult:
+    """Write one file's results in one transaction (this process is the store's only
+    writer); the tables must be as the checks of this file found them."""
+    if job.already:
+        seen = db.file_by_sha(job.sha256)
+        return IngestResult(
+            db.path, job.source, job.sha256, seen, 0, (), clock.perf_counter() - start
+        )
+    outputs = {name: cluster.result(task) for name, (_, _, task) in job.tables.items()}
+    with db.transaction():
+        if db.file_by_sha(job.sha256) is not None:
+            raise _changed(db, job)
+        file_id = db.add_file(job.sha256, str(job.source), job.size, 0, job.now)
+        for name, (state, snapshot, _) in job.tables.items():
+            row = db.table(name)
+            decks, last_time = job.expect[name]
+            if (row is None) != (state.table_id is None) or (
+                row is not None and (row.decks, row.last_time) != (decks, last_time)
+            ):
+                raise _changed(db, job)
+            if state.table_id is None:
+                state.table_id = db.create_table(
+                    name,
+                    deck=state.row.deck,
+                    reference=state.row.reference,
+                    plan=state.row.plan,
+                    columns=state.row.columns,
+                    now=job.now,
+                )
+                snapshot["new_table"] = True
+        blocks = {name: iter(out["blocks"]) for name, out in outputs.items()}
+        for name, work in job.works:
+            stats, trace = next(blocks[name])
+            state = job.tables[name][0]
+            assert state.table_id is not None
+            _add_block(db, state.table_id, file_id, state.dtype, work, stats, trace)
+        tables = []
+        for name, (state, snapshot, _) in job.tables.items():
+            before = committed[name] or {}
+            view = _Table(
+                row=state.row,
+                table_id=state.table_id,
+                monitor=None,
+                names=state.names,
+                dtype=state.dtype,
+                last_order=snapshot["last_order"],
+                last_time=snapshot["last_time"],
+                origin=snapshot["origin"],
+                stored_last_time=None,
+                decks=snapshot["decks"],
+                added=snapshot["added"],
+                known=snapshot["known"],
+                first_row=snapshot["first_row"],
+                last_row=snapshot["last_row"],
+                new_table=bool(snapshot.get("new_table")),
+            )
+            after = outputs[name]["state"]
+            alarms = (before.get("family_alarm"), before.get("change_alarm"))
+            tables.append(_write_table(db, file_id, view, after, alarms, job.now))
+            committed[name] = after
+        db.set_file_rows(file_id, job.rows)
+    return IngestResult(
+        db.path, job.source, job.sha256, None, job.rows, tuple(tables), clock.perf_counter() - start
+    )
+
+
+def _changed(db: MonitorStore, job: _FileJob) -> InputError:
+    return InputError(
+        f"store {db.path} changed while {job.source} was being ingested (another ingest "
+        "wrote to it); nothing of this file was added: ingest it again"
+    )
 
 
 # ------------------------------------------------------------------------------ status

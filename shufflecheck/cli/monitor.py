@@ -13,6 +13,7 @@ from typing import Annotated
 import typer
 
 from shufflecheck.cli._app import JsonOption, command_group, echo, emit_json, progress, warn
+from shufflecheck.cli.audit import Engine
 from shufflecheck.common.numbers import percent
 
 monitor = command_group(
@@ -52,15 +53,32 @@ def ingest(
     confidence: Annotated[
         float | None, typer.Option(help="New tables: level of the change-point set (0.95).")
     ] = None,
+    engine: Annotated[
+        Engine,
+        typer.Option(
+            help="auto (default: Dask for several files of 64 MB or more when installed, else "
+            "one process), single, or dask (files read and tables tested in parallel; this "
+            "process alone writes the store)."
+        ),
+    ] = Engine.auto,
+    scheduler: Annotated[
+        str | None,
+        typer.Option(help="Address of an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."),
+    ] = None,
+    workers: Annotated[
+        int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
+    ] = None,
     json_out: JsonOption = False,
 ) -> None:
     """Add the new decks of logs to their tables; each file is one transaction.
 
     A file ingested before (same SHA-256) adds nothing; decks the store already holds (same
     time, same order) are skipped. Logs are only read, never changed. Exit code 0 whether or
-    not an alarm is raised; 2 for bad input (the store is then left as it was).
+    not an alarm is raised; 2 for bad input (the files before the bad one stay ingested,
+    the bad one adds nothing).
     """
-    from shufflecheck.analyses.monitor import ingest_log
+    from shufflecheck.analyses.audit_log import choose_engine
+    from shufflecheck.analyses.monitor import ingest_log, ingest_logs
     from shufflecheck.stats.monitoring import MonitorPlan
 
     plan = None
@@ -71,21 +89,26 @@ def ingest(
             arl=base.arl if arl is None else arl,
             confidence=base.confidence if confidence is None else confidence,
         )
+    chosen = choose_engine(logs, engine.value, scheduler)
+    options = dict(table=table, by=by, time=time, deck=deck, plan=plan)
     results = []
-    for log in logs:
-        with progress(0, f"ingesting {log.name}") as update:
-            results.append(
-                ingest_log(
+    if chosen == "dask":
+        total = sum(log.stat().st_size for log in logs if log.is_file())
+        with progress(total, f"ingesting {len(logs)} logs on dask") as update:
+            results = list(
+                ingest_logs(
                     store,
-                    log,
-                    table=table,
-                    by=by,
-                    time=time,
-                    deck=deck,
-                    plan=plan,
+                    logs,
+                    engine="dask",
+                    scheduler=scheduler,
+                    workers=workers,
                     progress=update,
-                )
+                    **options,
+                ).files
             )
+    for log in logs if chosen != "dask" else ():
+        with progress(0, f"ingesting {log.name}") as update:
+            results.append(ingest_log(store, log, progress=update, **options))
     if json_out:
         emit_json([r.as_json() for r in results])
         return

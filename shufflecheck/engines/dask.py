@@ -28,7 +28,7 @@ from typing import Any
 
 from shufflecheck.common.errors import InputError
 
-__all__ = ["Cluster", "available", "peak_memory_mb", "run_in_order"]
+__all__ = ["Cluster", "Session", "available", "peak_memory_mb", "run_in_order", "session"]
 
 
 def peak_memory_mb() -> float:
@@ -97,7 +97,7 @@ def _client(
             finally:
                 client.close()
             return
-        count = workers or os.cpu_count() or 1
+        count = (os.cpu_count() or 1) if workers is None else workers
         if count < 1:
             raise InputError(f"workers must be at least 1, got {count}", argument="workers")
         cluster = LocalCluster(
@@ -157,3 +157,46 @@ def run_in_order(
                 report["worker_peak_mb"] = client.run(peak_memory_mb)
         finally:
             client.cancel([f for f in futures if not f.done()])
+
+
+class Session:
+    """Tasks with dependencies on one cluster (see :func:`session`).
+
+    ``submit(function, *args)`` starts ``function(*args)`` on a worker and returns a future;
+    a future among ``args`` is replaced by its result on the worker, so a chain of tasks
+    (each taking the one before) runs in order while independent chains run side by side.
+    """
+
+    def __init__(self, client: Any, cluster: Cluster) -> None:
+        self._client = client
+        self.cluster = cluster
+
+    def submit(self, function: Callable[..., Any], *args: Any) -> Any:
+        """``function(*args)`` on a worker (a module-level function); returns a future."""
+        return self._client.submit(function, *args, pure=False)
+
+    @staticmethod
+    def result(future: Any) -> Any:
+        """The result of a future, waiting for it (a task's exception is raised here)."""
+        return future.result()
+
+    @staticmethod
+    def done(future: Any) -> bool:
+        """Whether a future has finished (successfully or not)."""
+        return bool(future.done())
+
+    def worker_peak_mb(self) -> dict[str, float]:
+        """Each worker's peak resident memory in MB so far."""
+        return dict(self._client.run(peak_memory_mb))
+
+
+@contextlib.contextmanager
+def session(
+    scheduler: str | None = None, workers: int | None = None, processes: bool = True
+) -> Iterator[Session]:
+    """A :class:`Session` on a Dask cluster: an existing one at ``scheduler``, else a local
+    cluster of ``workers`` workers (default one per core; as processes unless
+    ``processes`` is False) started here and closed on leaving. Futures still running on
+    leaving are cancelled."""
+    with _client(scheduler, workers, processes) as (client, cluster):
+        yield Session(client, cluster)
