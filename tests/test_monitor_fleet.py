@@ -218,3 +218,44 @@ class MonitorRows:
 
     def __exit__(self, *exc: object) -> None:
         self.db.close()
+
+
+_KILLER = """
+import os, signal, sys
+from shufflecheck.stores import monitor_store
+original = monitor_store.MonitorStore.add_block
+def add_block(self, table_id, first_deck, file_id, **kwargs):
+    original(self, table_id, first_deck, file_id, **kwargs)
+    if file_id == 2:
+        os.kill(os.getpid(), signal.SIGKILL)   # a real kill, inside the second file's commit
+monitor_store.MonitorStore.add_block = add_block
+from shufflecheck.analyses.monitor import ingest_logs
+ingest_logs(sys.argv[1], sys.argv[2:], engine="dask", workers=1, processes=False, chunk_rows=64)
+"""
+
+
+@pytest.mark.slow  # a fresh interpreter with distributed and a cluster: about 10 s here
+def test_kill_during_a_commit_keeps_the_files_before(tmp_path, logs):
+    """The cluster's results reach the store only through this process's transactions: a
+    kill inside the second file's commit leaves the first file's, and finishing the ingest
+    gives the store of a clean one-by-one run."""
+    import signal
+    import subprocess
+    import sys
+
+    store = tmp_path / "s.db"
+    batch = [logs[0], logs[2], logs[5]]
+    proc = subprocess.run(
+        [sys.executable, "-c", _KILLER, str(store), *map(str, batch)],
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+    assert proc.returncode == -signal.SIGKILL, proc.stderr
+    first = tmp_path / "first.db"
+    one_by_one(first, batch[:1])
+    assert dump(store) == dump(first)  # the hot journal is rolled back at this open
+    ingest_logs(store, batch, engine="dask", workers=1, processes=False, chunk_rows=CHUNK)
+    clean = tmp_path / "clean.db"
+    one_by_one(clean, batch)
+    assert dump(store) == dump(clean)
