@@ -36,6 +36,7 @@ from shufflecheck.analyses.log_parts import (
     split_place,
 )
 from shufflecheck.common.errors import InputError
+from shufflecheck.common.resources import release_free_memory
 from shufflecheck.records.cards import DeckDefinition
 from shufflecheck.records.logs import LogSummary
 from shufflecheck.records.logs.sources import log_sources
@@ -309,6 +310,7 @@ def finish_audit(
             f"{shown}: no decks to test ({info.decks} read, {info.set_aside} set aside, "
             f"{part.reference_only} used only as references)"
         )
+    release_free_memory()  # the reading's freed pages, before the battery's convolutions
     result = summary.finish(alpha, rng=rng, since_when_level=confidence)
     arrays = summary.as_arrays()
     small = None

@@ -42,7 +42,6 @@ from functools import cache, cached_property
 
 import numpy as np
 from scipy import fft as sp_fft
-from scipy.optimize import brentq
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.counting import (
@@ -429,6 +428,8 @@ def _solve_tilt(log_q: np.ndarray, ks: np.ndarray, x: float) -> float:
         return lo
     if g_hi < 0:
         return hi
+    from scipy.optimize import brentq  # on first use (about 20 MB)
+
     return brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
 
 
@@ -449,14 +450,30 @@ def _windowed_convolution(r: np.ndarray, decks: int, start: int, stop: int) -> n
         raise InputError(
             f"the sum over {decks} decks spans {width} values, too wide for the exact method"
         )
+    # |phi|^D e^{i D arg phi}, computed in place: at a million decks the window holds a
+    # few million points, and each array of the spectrum is then several MB
     phi = sp_fft.rfft(r, size)
-    magnitude = np.abs(phi)
+    angle = np.angle(phi)
+    angle *= decks
+    power = np.abs(phi)
+    del phi
     with np.errstate(divide="ignore", under="ignore"):
-        power = np.exp(decks * np.log(magnitude))
-    angle = np.angle(phi) * decks
-    values = sp_fft.irfft(power * np.exp(1j * angle), size)
-    index = np.arange(start, stop + 1) % size
-    out = values[index]
+        np.log(power, out=power)
+        power *= decks
+        np.exp(power, out=power)
+    spectrum = 1j * angle
+    del angle
+    np.exp(spectrum, out=spectrum)
+    spectrum *= power
+    del power
+    values = sp_fft.irfft(spectrum, size)
+    del spectrum
+    first = start % size  # the window, read cyclically from the circular convolution
+    if first + width <= size:
+        out = values[first : first + width].copy()
+    else:
+        out = np.concatenate([values[first:], values[: first + width - size]])
+    del values
     np.clip(out, 0.0, None, out=out)
     return out
 
@@ -512,15 +529,22 @@ def sum_tail_logs(law: Law, decks: int, total: int) -> tuple[float, float]:
     stop = min(t_max, math.ceil(decks * mean_r + half))
     start, stop = min(start, t), max(stop, t)
     tilted = _windowed_convolution(r, decks, start, stop)
-    offsets = np.arange(start, stop + 1) - t
     base = decks * log_m - theta * t  # log of M^D e^{-theta t}
     point = tilted[t - start]
     with np.errstate(divide="ignore"):
         log_point = base + math.log(point) if point > 0 else -math.inf
     upper_side = theta >= 0
-    mask = offsets >= 0 if upper_side else offsets <= 0
-    weights = np.exp(-theta * offsets[mask])
-    tail_sum = float(tilted[mask] @ weights)
+    # the window's side of t: offsets from t of 0..stop-t (upper) or start-t..0 (lower)
+    if upper_side:
+        offsets = np.arange(0, stop - t + 1)
+        side = tilted[t - start :].copy()
+    else:
+        offsets = np.arange(start - t, 1)
+        side = tilted[: t - start + 1].copy()
+    del tilted
+    weights = np.exp(-theta * offsets)
+    del offsets
+    tail_sum = float(side @ weights)
     log_small = base + math.log(tail_sum) if tail_sum > 0 else -math.inf
     # the other tail: 1 - P(strictly beyond on the small side) = 1 - (small - point)
     strict = math.exp(log_small) - (math.exp(log_point) if log_point > -math.inf else 0.0)
@@ -681,6 +705,8 @@ def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float
     elif gap(hi) < 0:
         theta = hi
     else:
+        from scipy.optimize import brentq  # on first use (about 20 MB)
+
         theta = brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
     r, log_ms = tilted_all(theta)
     means = r @ ks

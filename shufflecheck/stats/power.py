@@ -49,7 +49,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy import stats
 
 from shufflecheck.common.checks import check_confidence, check_fraction, check_integer
 from shufflecheck.common.errors import InputError
@@ -356,6 +355,8 @@ def _not_detected(
 def _sum_row(
     spec: Statistic, law: Law, x: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
+    from scipy import stats  # on first use: it costs an audit about 45 MB
+
     sims = x.size
     pairs = spec.shape == "consecutive"
     mean1 = float(x.mean())
@@ -412,6 +413,8 @@ def _sum_row(
 def _position_row(
     spec: Statistic, rel: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
+    from scipy import stats  # on first use: it costs an audit about 45 MB
+
     sims, n = rel.shape
     freq = position_counts(rel, n) / sims
     df = (n - 1) ** 2
@@ -616,6 +619,8 @@ def _mixture_law(parts: list[tuple[Law, int]]) -> Law:
 def _class_position_row(
     spec: Statistic, words: np.ndarray, shoe: ShoeContext, level: float, target: float, cap: int
 ) -> PowerRow:
+    from scipy import stats  # on first use: it costs an audit about 45 MB
+
     from shufflecheck.stats.shoe_statistics import class_position_counts
 
     sims, n = words.shape

@@ -374,9 +374,11 @@ def csv_chunks(
             try:
                 lines = pending + list(itertools.islice(handle, chunk_rows - len(pending)))
                 pending = []
-                quoted = b'"' in b"".join(lines)
+                joined: bytes | None = b"".join(lines)
+                quoted = b'"' in joined
                 records = lines
                 if quoted:
+                    joined = None
                     records, still_open = _csv_records(lines, delimiter)
                     for _ in range(_SPAN):
                         more = handle.readline() if still_open else b""
@@ -390,9 +392,12 @@ def csv_chunks(
                 return
             rows = np.arange(next_row, next_row + len(records), dtype=np.int64)
             next_row += len(records)
-            block = _csv_block(records, rows, shape, quoted=quoted)
-            block.done = _fraction(handle, path)
-            yield block
+            block = [_csv_block(records, rows, shape, quoted=quoted, joined=joined)]
+            block[0].done = _fraction(handle, path)
+            # keep no reference to this block's text here while the reader works on it
+            # (popped as it is yielded), so it is freed before the next block is read
+            del lines, records, joined, rows
+            yield block.pop()
 
 
 @dataclass(frozen=True)
@@ -414,19 +419,20 @@ def _csv_fields(text: str, delimiter: str) -> list[str] | None:
 
 
 def _plain_block(
-    records: list[bytes], rows: np.ndarray, shape: _Shape
+    records: list[bytes], rows: np.ndarray, shape: _Shape, joined: bytes | None = None
 ) -> tuple[list[int], bytes, int, list[BadRow]] | None:
     """Check a block without quotes with array operations.
 
     Returns (indices of good records, their bytes joined, blank count, failed rows), or
     None when some line needs the record-by-record loop (not UTF-8, a stray carriage
-    return).
+    return). ``joined``: the records already joined.
     """
-    data = b"".join(records)
-    try:
-        data.decode("utf-8")
-    except UnicodeDecodeError:
-        return None
+    data = b"".join(records) if joined is None else joined
+    if not data.isascii():  # ASCII is UTF-8; only other bytes need decoding to be checked
+        try:
+            data.decode("utf-8")
+        except UnicodeDecodeError:
+            return None
     buf = np.frombuffer(data, dtype=np.uint8)
     ends = np.flatnonzero(buf == 10)
     if not data.endswith(b"\n"):
@@ -527,8 +533,15 @@ def _kept_frame(data: bytes, count: int, shape: _Shape) -> pd.DataFrame:
     return frame.reset_index(drop=True)
 
 
-def _csv_block(records: list[bytes], rows: np.ndarray, shape: _Shape, *, quoted: bool) -> RawChunk:
-    plain = None if quoted else _plain_block(records, rows, shape)
+def _csv_block(
+    records: list[bytes],
+    rows: np.ndarray,
+    shape: _Shape,
+    *,
+    quoted: bool,
+    joined: bytes | None = None,
+) -> RawChunk:
+    plain = None if quoted else _plain_block(records, rows, shape, joined)
     if plain is not None and shape.layout == "csv" and shape.before is None:
         good, data, blank, failed = plain
         good_rows = rows[np.asarray(good, dtype=np.int64)] if good else np.zeros(0, dtype=np.int64)

@@ -120,6 +120,10 @@ def scan_text(
     return values, counts
 
 
+#: cells per block of the vectorised checks (a block of 52-card rows is about 5,000 rows)
+_BLOCK_CELLS = 1 << 18
+
+
 def map_tokens(flat: np.ndarray, deck: DeckDefinition, integer: bool) -> np.ndarray:
     """One value per token of a flat array (text, ints, None) -> labels / raw integers, -1 bad."""
     if flat.dtype.kind in "iu":
@@ -139,9 +143,15 @@ def permutation_rows(labels: np.ndarray, n: int) -> np.ndarray:
     """Rows of ``labels`` (values already in 0..n-1) holding every label exactly once."""
     m = labels.shape[0]
     if n <= 63 and labels.shape[1] == n and hasattr(np, "bitwise_count"):
-        # n values in 0..n-1 whose bits together fill all n bits: each label once
-        masks = np.bitwise_or.reduce(np.left_shift(1, labels.astype(np.int64)), axis=1)
-        return masks == (1 << n) - 1
+        # n values in 0..n-1 whose bits together fill all n bits: each label once (in
+        # blocks of rows, so the 64-bit masks stay a few MB whatever the chunk)
+        full = np.empty(m, dtype=bool)
+        block = max(1, _BLOCK_CELLS // n)
+        for lo in range(0, m, block):
+            part = labels[lo : lo + block].astype(np.int64)
+            masks = np.bitwise_or.reduce(np.left_shift(1, part, out=part), axis=1)
+            full[lo : lo + block] = masks == (1 << n) - 1
+        return full
     ok = np.zeros(m, dtype=bool)
     step = max(1, (1 << 22) // max(n, 1))  # about 4M cells at a time
     for lo in range(0, m, step):
@@ -222,9 +232,16 @@ def scan_spans(
     width = 3 * n - 1
     if starts.size == 0 or not ((ends - starts) == width).all():
         return None
-    at = starts[:, None] + np.arange(0, width, 3)  # first byte of each code
-    if n > 1 and not (buf[at[:, :-1] + 2] == 32).all():
-        return None
-    pairs = buf[at].astype(np.uint16) | (buf[at + 1].astype(np.uint16) << 8)
-    values = _keys(deck).table16[pairs]  # int16 labels, -1 for anything else
-    return values.ravel(), np.full(starts.size, n, dtype=np.int64)
+    table = _keys(deck).table16  # int16 labels, -1 for anything else
+    m = starts.size
+    kind = np.int32 if int(buf.size) + width < 2**31 else np.int64
+    steps = np.arange(0, width, 3, dtype=kind)  # first byte of each code in a field
+    values = np.empty((m, n), dtype=np.int16)
+    block = max(1, _BLOCK_CELLS // n)  # in blocks of rows: the byte offsets stay a few MB
+    for lo in range(0, m, block):
+        at = starts[lo : lo + block, None].astype(kind) + steps
+        if n > 1 and not (buf[at[:, :-1] + 2] == 32).all():
+            return None
+        pairs = buf[at].astype(np.uint16) | (buf[at + 1].astype(np.uint16) << 8)
+        values[lo : lo + block] = table[pairs]
+    return values.ravel(), np.full(m, n, dtype=np.int64)

@@ -218,9 +218,7 @@ class LogReader:
             self._order_column = str(names[used[0]]).strip()
         else:
             self._order_column = f"positions {names[used[0]]}..{names[used[-1]]}"
-        for raw in source:
-            assert isinstance(raw, RawChunk)
-            yield raw
+        yield from source  # type: ignore[misc]  (delegated: no reference kept here)
 
     def _run(self) -> Iterator[LogChunk]:
         with contextlib.ExitStack() as stack:
@@ -235,6 +233,7 @@ class LogReader:
                 chunk, bad = self._check(raw)
                 seen += len(raw.rows) + len(raw.failed)
                 self._blank += raw.blank
+                del raw  # the raw text is not needed while the chunk is used
                 if bad:
                     if writer is None:
                         first = bad[0]
