@@ -92,20 +92,20 @@ def ingest(
     chosen = choose_engine(logs, engine.value, scheduler)
     options = dict(table=table, by=by, time=time, deck=deck, plan=plan)
     results = []
+    where = "single process"
     if chosen == "dask":
         total = sum(log.stat().st_size for log in logs if log.is_file())
         with progress(total, f"ingesting {len(logs)} logs on dask") as update:
-            results = list(
-                ingest_logs(
-                    store,
-                    logs,
-                    engine="dask",
-                    scheduler=scheduler,
-                    workers=workers,
-                    progress=update,
-                    **options,
-                ).files
+            fleet = ingest_logs(
+                store,
+                logs,
+                engine="dask",
+                scheduler=scheduler,
+                workers=workers,
+                progress=update,
+                **options,
             )
+        results, where = list(fleet.files), fleet.engine
     for log in logs if chosen != "dask" else ():
         with progress(0, f"ingesting {log.name}") as update:
             results.append(ingest_log(store, log, progress=update, **options))
@@ -130,6 +130,8 @@ def ingest(
                     f"ALARM {t.table}: change detected at deck {t.change_alarm['deck']:,} "
                     f"({t.change_alarm['statistic']})"
                 )
+    if chosen == "dask":
+        echo(f"Read and tested on {where}; the store was written by this process.")
 
 
 @monitor.command()
