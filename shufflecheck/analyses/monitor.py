@@ -210,8 +210,10 @@ class _Table:
     origin: tuple[int, int] | None
     stored_last_time: int | None
     decks: int
-    #: times and digests of decks tested in this run but perhaps not yet committed
-    batch_keys: list[tuple[np.ndarray, np.ndarray]] | None = None
+    #: (file number, times, digests) of decks tested in this run and not yet committed
+    batch_keys: list[tuple[int, np.ndarray, np.ndarray]] | None = None
+    #: number of the file being checked (a run of many files)
+    file_number: int = 0
     known_pairs: set[tuple[int, int]] | None = None
     added: int = 0
     known: int = 0
@@ -583,7 +585,7 @@ def _known_mask(
         if state.origin is not None and low <= state.origin[0] <= limit:
             kt = np.r_[state.origin[0], kt]
             kd = np.r_[state.origin[1], kd]
-        for bt, bd in state.batch_keys or ():
+        for _, bt, bd in state.batch_keys or ():
             keep = (bt >= low) & (bt <= limit)
             kt = np.r_[kt, bt[keep]]
             kd = np.r_[kd, bd[keep]]
@@ -649,7 +651,7 @@ def _select(db: MonitorStore, path: Path, state: _Table, piece: _Piece) -> _Work
     work = _Work(decks, state.last_order, rows, times, digests, state.decks + 1)
     count = int(decks.shape[0])
     if state.batch_keys is not None:
-        state.batch_keys.append((times, digests))
+        state.batch_keys.append((state.file_number, times, digests))
     state.last_order = decks[-1].astype(np.int16)
     state.last_time = int(times[-1])
     state.added += count
@@ -828,6 +830,7 @@ class _FileJob:
     rows: int = 0
     already: bool = False
     now: str = ""
+    number: int = 0  # the file's place in the run
     #: tables in the order they first appear, with what the commit needs of each
     tables: dict[str, tuple[_Table, dict[str, Any], Any]] = field(default_factory=dict)
     #: (table, work) in file order, the order the one-by-one ingest writes blocks
@@ -884,13 +887,14 @@ def _ingest_on_cluster(
                 commit(pending.popleft())
 
         refill()
-        for source in sources:
+        for number, source in enumerate(sources):
             read = cluster.result(reads.popleft())
             refill()
             if read["error"] is not None and "sha256" not in read:
                 flush(True)
                 raise _error_from(read["error"])
             job = _FileJob(source, read["sha256"], read["bytes"], read["rows"], now=_now())
+            job.number = number
             if read["sha256"] in stored or read["sha256"] in seen:
                 job.already = True
                 pending.append(job)
@@ -958,6 +962,7 @@ def _plan_file(
                     chain[piece.table] = {"state": state.row.state}
                     committed[piece.table] = state.row.state
                 here[piece.table] = state
+                state.file_number = job.number
                 job.expect[piece.table] = (state.decks, state.last_time)
             work = _select(db, job.source, state, piece)
             if work is not None:
@@ -1056,6 +1061,9 @@ def _commit(
             alarms = (before.get("family_alarm"), before.get("change_alarm"))
             tables.append(_write_table(db, file_id, view, after, alarms, job.now))
             committed[name] = after
+            # the store holds this file's decks now: later checks find them there
+            assert state.batch_keys is not None
+            state.batch_keys = [k for k in state.batch_keys if k[0] > job.number]
         db.set_file_rows(file_id, job.rows)
     return IngestResult(
         db.path, job.source, job.sha256, None, job.rows, tuple(tables), clock.perf_counter() - start
