@@ -259,3 +259,58 @@ def test_kill_during_a_commit_keeps_the_files_before(tmp_path, logs):
     clean = tmp_path / "clean.db"
     one_by_one(clean, batch)
     assert dump(store) == dump(clean)
+
+
+class _Inline:
+    """A stand-in for a Dask session that runs each task at once, in this process; whether
+    a finished task reports itself done is chosen, so both orders of checking and
+    committing are taken deterministically."""
+
+    class _Done:
+        def __init__(self, value) -> None:
+            self.value = value
+
+    class cluster:  # the attribute the engine's Session has
+        workers = 1
+
+        @staticmethod
+        def describe() -> str:
+            return "inline"
+
+    def __init__(self, report_done: bool) -> None:
+        self.report_done = report_done
+
+    def submit(self, function, *args):
+        args = [a.value if isinstance(a, self._Done) else a for a in args]
+        return self._Done(function(*args))
+
+    def result(self, future):
+        return future.value
+
+    def done(self, future) -> bool:
+        return self.report_done
+
+    def worker_peak_mb(self) -> dict:
+        return {}
+
+
+@pytest.mark.parametrize("report_done", [True, False], ids=["commit-early", "commit-late"])
+def test_checks_before_and_after_the_earlier_commits(tmp_path, logs, monkeypatch, report_done):
+    """Each file's checks either find the earlier files of the run already in the store
+    (commit-early) or only in the run's own memory (commit-late: every commit waits to the
+    end); both give the one-by-one store."""
+    import contextlib
+
+    import shufflecheck.engines.dask as engine
+
+    @contextlib.contextmanager
+    def inline(*args, **kwargs):
+        yield _Inline(report_done)
+
+    monkeypatch.setattr(engine, "session", inline)
+    many, one = tmp_path / "many.db", tmp_path / "one.db"
+    result = ingest_logs(many, logs, engine="dask", chunk_rows=CHUNK)
+    assert result.engine == "inline"
+    expected = one_by_one(one, logs)
+    assert dump(many) == dump(one)
+    assert outcome(result.files) == outcome(expected)
