@@ -88,7 +88,7 @@ STRATEGIES: dict[str, str] = {
 DEFAULT_STRATEGIES: tuple[str, ...] = ("next-card", "longest-run", "strip", "lowest-unseen")
 
 _ONE = np.uint64(1)
-_CHUNK = 1 << 15
+_CHUNK = 1 << 14
 
 
 def check_strategies(strategies: Iterable[str]) -> tuple[str, ...]:

@@ -58,7 +58,7 @@ def position_counts(relative: np.ndarray, n: int | None = None) -> np.ndarray:
     n = p.shape[1] if n is None else n
     out = np.zeros(n * n, dtype=np.int64)
     base = np.arange(n, dtype=np.int64) * n
-    step = max(1, (1 << 20) // max(n, 1))
+    step = max(1, (1 << 18) // max(n, 1))
     for start in range(0, p.shape[0], step):
         block = p[start : start + step].astype(np.int64) + base
         out += np.bincount(block.ravel(), minlength=n * n)

@@ -60,7 +60,7 @@ __all__ = [
 ]
 
 _ONE = np.uint64(1)
-_CHUNK = 1 << 15
+_CHUNK = 1 << 13
 
 
 def bitmask_ok(n: int) -> bool:
