@@ -119,8 +119,9 @@ def ingest(
         for t in r.tables:
             known = f", {t.decks_known:,} already stored" if t.decks_known else ""
             echo(
-                f"{r.path}: {t.table}: {t.decks_added:,} decks added (rows {t.first_row}-"
-                f"{t.last_row}{known}); {t.decks_tested:,} tested in all"
+                f"{r.path}: {t.table}: {t.decks_added:,} deck{'' if t.decks_added == 1 else 's'}"
+                f" added (rows {t.first_row:,}-{t.last_row:,}{known}); {t.decks_tested:,} tested "
+                "in all"
             )
             if t.family_alarm is not None:
                 deck_no = t.family_alarm["deck"]

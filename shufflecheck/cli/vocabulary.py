@@ -42,7 +42,7 @@ OPTIONS: dict[str, str] = {
     "--csv": "write a table to this CSV data file",
     "--deck": "the deck or shoe: a deck definition TOML file, or shoe(packs=6)",
     "--decks": "decks written to a log (simulate)",
-    "--engine": "how a large audit is run: one process or a Dask cluster",
+    "--engine": "how a large audit or ingest is run: one process or a Dask cluster",
     "--every": "seconds between the recorded times of consecutive decks",
     "--feature": "what a game sees of a card (rank, blackjack value, ...; distinct: all apart)",
     "--force": "replace existing outputs (never an input of the command)",
