@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import re
 import shlex
 import shutil
@@ -218,6 +219,22 @@ class TestDemoAnswers:
         # Bayer & Diaconis (1992): 9 riffles first bring TV to at most 0.1; 7 do not
         assert yardstick["minimum"] == 9 and yardstick["kind"] == "exact"
         assert yardstick["standing"] == "fails"
+
+
+class TestDemoConjecture:
+    def test_conjectured_minimum_of_the_shoe_machine(self, report):
+        # 'riffle x12, cut, cut-card' on 312 cards: 12r ideal riffles in blocks of 12; the
+        # interleaving conjecture's separation figure 1 - prod_{i<312} (1 - i/2^(12 r)) is
+        # computed here directly: above 0.1 at r = 1, 0.0029 at r = 2, so the conjectured
+        # minimum is 2 (it once read 5: the shoe rows carry no conjectured figure and the
+        # search started after them)
+        def figure(r: int) -> float:
+            return 1 - math.prod(1 - i / 2 ** (12 * r) for i in range(312))
+
+        assert figure(1) > 0.1 >= figure(2)
+        procedures = report["data"]["procedures"]
+        machine = next(p for p in procedures if p["name"].endswith("batch machine"))
+        assert machine["settle"]["conjectured_minimum"] == 2
 
 
 class TestDemoNumbers:

@@ -342,19 +342,22 @@ def settle(
     if block_riffles is not None:
         change = _certifying_change(procedure, cards, metric, target, repeats, block_riffles)
     conjectured_minimum = None
-    at_repeats = None
-    for row in assessment.rows:
-        guess = row.conjectured.get(metric)
-        if row.repeats == repeats and guess is not None:
-            at_repeats = guess
-        if conjectured_minimum is None and guess is not None and guess.value <= target:
-            conjectured_minimum = row.repeats
-    if conjectured_minimum is None:  # the conjecture may reach beyond the assessed counts
-        for r in range(len(assessment.rows) + 1, len(assessment.rows) + 41):
+    shown = {row.repeats: row.conjectured.get(metric) for row in assessment.rows}
+    # every count from 1 on: the assessment's own figure where it has one (a shoe's
+    # feature rows carry none), else the conjecture's figure for the distinct cards (a
+    # feature is never farther); the conjecture may also reach beyond the assessed counts
+    def conjectured_at(r: int) -> Quantity | None:
+        guess = shown.get(r)
+        if guess is None:
             guess = conjectured_bounds(procedure_blocks(procedure, r, cards), cards).get(metric)
-            if guess is not None and guess.value <= target:
-                conjectured_minimum = r
-                break
+        return guess
+
+    at_repeats = conjectured_at(repeats)
+    for r in range(1, len(assessment.rows) + 41):
+        guess = conjectured_at(r)
+        if guess is not None and guess.value <= target:
+            conjectured_minimum = r
+            break
     audit = (
         _audit_need(procedure, cards, repeats, alpha, seed, shoe, feature, confidence)
         if plan_audit
