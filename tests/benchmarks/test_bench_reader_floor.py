@@ -34,8 +34,10 @@ t = pacsv.read_csv({path!r}, read_options=pacsv.ReadOptions(use_threads=False),
 order = t.column("order").combine_chunks()
 offsets = np.frombuffer(order.buffers()[1], dtype=np.int32)[: len(order) + 1]
 buf = np.frombuffer(order.buffers()[2], dtype=np.uint8)
-at = offsets[:-1, None] + np.arange(0, 3 * 52 - 1, 3)
-decks = table[buf[at].astype(np.int32) | buf[at + 1].astype(np.int32) << 8]
+width = 3 * 52 - 1  # every order of this file has one width: decoded as one byte matrix
+assert (np.diff(offsets) == width).all()
+rows = buf[offsets[0] : offsets[-1]].reshape(-1, width)
+decks = table[rows[:, 0::3].astype(np.uint16) | rows[:, 1::3].astype(np.uint16) << 8]
 assert decks.shape == ({decks}, 52) and (decks >= 0).all()
 """
 
