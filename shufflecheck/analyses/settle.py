@@ -343,6 +343,7 @@ def settle(
         change = _certifying_change(procedure, cards, metric, target, repeats, block_riffles)
     conjectured_minimum = None
     shown = {row.repeats: row.conjectured.get(metric) for row in assessment.rows}
+
     # every count from 1 on: the assessment's own figure where it has one (a shoe's
     # feature rows carry none), else the conjecture's figure for the distinct cards (a
     # feature is never farther); the conjecture may also reach beyond the assessed counts

@@ -347,6 +347,15 @@ JsonOption = Annotated[
     bool, typer.Option("--json", show_default=False, help="Machine-readable output.")
 ]
 
+SchedulerOption = Annotated[
+    str | None,
+    typer.Option(help="Address of an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."),
+]
+
+WorkersOption = Annotated[
+    int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
+]
+
 
 def plot_option(what: str) -> Any:
     """The ``--plot <file>`` option: ``what`` says what the figure shows."""

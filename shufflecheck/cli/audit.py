@@ -12,7 +12,9 @@ from shufflecheck.cli._app import (
     ForceOption,
     JsonOption,
     ReportOption,
+    SchedulerOption,
     SeedOption,
+    WorkersOption,
     app,
     check_outputs,
     echo,
@@ -198,13 +200,8 @@ def audit(
             "one process), single, or dask."
         ),
     ] = Engine.auto,
-    scheduler: Annotated[
-        str | None,
-        typer.Option(help="Address of an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."),
-    ] = None,
-    workers: Annotated[
-        int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
-    ] = None,
+    scheduler: SchedulerOption = None,
+    workers: WorkersOption = None,
     plot: Annotated[
         Path | None, plot_option("every test's adjusted p-value against the level")
     ] = None,

@@ -12,7 +12,16 @@ from typing import Annotated
 
 import typer
 
-from shufflecheck.cli._app import JsonOption, command_group, echo, emit_json, progress, warn
+from shufflecheck.cli._app import (
+    JsonOption,
+    SchedulerOption,
+    WorkersOption,
+    command_group,
+    echo,
+    emit_json,
+    progress,
+    warn,
+)
 from shufflecheck.cli.audit import Engine
 from shufflecheck.common.numbers import percent
 
@@ -61,13 +70,8 @@ def ingest(
             "process alone writes the store)."
         ),
     ] = Engine.auto,
-    scheduler: Annotated[
-        str | None,
-        typer.Option(help="Address of an existing Dask scheduler, e.g. tcp://10.0.0.5:8786."),
-    ] = None,
-    workers: Annotated[
-        int | None, typer.Option(help="Workers of the local Dask cluster (default: one per core).")
-    ] = None,
+    scheduler: SchedulerOption = None,
+    workers: WorkersOption = None,
     json_out: JsonOption = False,
 ) -> None:
     """Add the new decks of logs to their tables; each file is one transaction.
