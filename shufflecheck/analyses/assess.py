@@ -57,7 +57,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from shufflecheck.common.cautions import caution
-from shufflecheck.common.checks import check_cards
+from shufflecheck.common.checks import check_cards, check_confidence
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
 from shufflecheck.common.numbers import percent
@@ -392,8 +392,7 @@ def assess(
     limit("repeats").check(repeats)
     limit("assess_decks").check(decks)
     limit("assess_cards").check(cards)
-    if not 0.5 <= confidence < 1:
-        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
+    check_confidence(confidence)
     check_cards(cards)
     procedure.check_cards(cards)
     names = check_strategies(strategies if strategies is not None else tuple(STRATEGIES))

@@ -35,6 +35,7 @@ from shufflecheck.analyses.log_parts import (
     scan_sources,
     split_place,
 )
+from shufflecheck.common.checks import check_confidence
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.resources import release_free_memory
 from shufflecheck.records.cards import DeckDefinition
@@ -477,8 +478,7 @@ def audit_log(
         Nominal level of the interval on a since-when start (default 0.95; a policy passes
         its own ``confidence``).
     """
-    if not 0.5 <= confidence < 1:
-        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
+    check_confidence(confidence)
     sources = log_sources(path)
     shown = os.fspath(path) if isinstance(path, (str, os.PathLike)) else f"{len(sources)} logs"
     definition, shoe, chunk_rows = _definition(

@@ -48,8 +48,7 @@ from shufflecheck.analyses.assess import (
     StatisticBound,
     rigorous_upper_bounds,
 )
-from shufflecheck.common.checks import check_integer
-from shufflecheck.common.errors import InputError
+from shufflecheck.common.checks import check_confidence, check_integer
 from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.distances import DistanceRow
@@ -122,8 +121,7 @@ def assess_feature(
     """
     check_integer(repeats, "repeats", low=1, high=MAX_REPEATS)
     check_integer(decks, "decks", low=2, high=MAX_DECKS)
-    if not 0.5 <= confidence < 1:
-        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
+    check_confidence(confidence)
     n = shoe.size
     procedure.check_cards(n)
     context_shoe = ShoeContext.of(shoe, feature)

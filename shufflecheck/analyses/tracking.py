@@ -51,7 +51,7 @@ import numpy as np
 from scipy import stats
 
 from shufflecheck.common.cautions import caution
-from shufflecheck.common.checks import check_fraction, check_integer
+from shufflecheck.common.checks import check_confidence, check_fraction, check_integer
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
@@ -243,8 +243,7 @@ def _check_common(window: int, at_least: int, coverage: float, confidence: float
     check_integer(window, "window", low=1, high=dealt, why=f"{dealt} cards are dealt")
     check_integer(at_least, "at_least", low=1, high=window)
     check_fraction(coverage, "coverage", closed_high=True)
-    if not 0.5 <= confidence < 1:
-        raise InputError(f"confidence must be in [0.5, 1), got {confidence}", argument="confidence")
+    check_confidence(confidence)
 
 
 def tracking_exposure(

@@ -185,6 +185,7 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
 
     table_rows = []
     details = []
+    with_shapes = any(r.shapes for r in rows)
     for r in rows:
         shown = ", ".join(f"({format_partition(s, compact=True)})" for s in r.shapes[:shapes_shown])
         if len(r.shapes) > shapes_shown:
@@ -197,7 +198,7 @@ def _show_spectrum(model: str, cards: int, rows, shapes_shown: int, json_out: bo
         else:
             details.append("")
         cells = [format_number(float(r.value), 6), str(r.value), multiplicity]
-        table_rows.append([*cells, shown] if any(x.shapes for x in rows) else cells)
+        table_rows.append([*cells, shown] if with_shapes else cells)
     headers = ["eigenvalue", "exact", "multiplicity", "shapes"][: len(table_rows[0])]
     echo(f"Spectrum of {model} on {cards} cards: {len(rows)} distinct eigenvalues [exact]")
     long = any(details)

@@ -69,6 +69,10 @@ class Tallies:
     class_names: tuple[str, ...] = ()
 
 
+#: nominal level of the interval on a since-when start
+SINCE_WHEN_LEVEL = 0.95
+
+
 def run_battery(
     tallies: Tallies,
     statistics: Sequence[Statistic],
@@ -79,7 +83,7 @@ def run_battery(
     resamples: int = 999,
     rng: np.random.Generator,
     since_when: bool = True,
-    since_when_level: float = 0.95,
+    since_when_level: float = SINCE_WHEN_LEVEL,
 ) -> BatteryResult:
     """Test every statistic on ``tallies``; Holm at ``alpha``; since when if flagged.
 
@@ -182,10 +186,6 @@ def run_battery(
     if flagged and since_when and tallies.series is not None:
         when = _since_when(tallies.series, tests, statistics, laws, unit, since_when_level)
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
-
-
-#: nominal level of the interval on a since-when start
-SINCE_WHEN_LEVEL = 0.95
 
 
 def _since_when(

@@ -36,7 +36,7 @@ import numpy as np
 
 from shufflecheck.common.checks import check_cards
 from shufflecheck.common.errors import InputError
-from shufflecheck.stats.battery import Tallies, run_battery
+from shufflecheck.stats.battery import SINCE_WHEN_LEVEL, Tallies, run_battery
 from shufflecheck.stats.catalogue import DeckContext, DeckView, ShoeContext, battery_statistics
 from shufflecheck.stats.guessing import DEFAULT_STRATEGIES, check_strategies
 from shufflecheck.stats.nulls import Law
@@ -485,7 +485,7 @@ class BatterySummary:
         resamples: int = 999,
         rng: np.random.Generator | int | None = None,
         since_when: bool = True,
-        since_when_level: float = 0.95,
+        since_when_level: float = SINCE_WHEN_LEVEL,
     ) -> AuditResult:
         """Run the battery on all decks and on each group.
 
