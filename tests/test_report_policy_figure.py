@@ -199,7 +199,9 @@ class TestLegendText:
 
         rows = [
             SimpleNamespace(
-                steps=k, value=lambda m, k=k, kind=kind: Value(kind=kind, value=0.5 / k)
+                steps=k,
+                value=lambda m, k=k, kind=kind: Value(kind=kind, value=0.5 / k),
+                total_variation_lower=None,
             )
             for k, kind in ((1, "exact"), (2, "bound"))
         ]

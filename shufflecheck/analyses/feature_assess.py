@@ -248,6 +248,7 @@ def _row(
                     method=f"{distinct}: {q.method}",
                 )
     exact: DistanceRow | None = None
+    sure_low: Quantity | None = None  # a rigorous lower bound of the feature's own riffle law
     packets = _riffle_packets(procedure, r + 1)
     if feature != "distinct" and packets is not None:
         own = features.feature_distances(start_classes.tolist(), 1, hands=packets)
@@ -263,6 +264,7 @@ def _row(
             )
             upper = {}
         else:
+            sure_low = own.total_variation_lower
             for metric, q in values.items():
                 held = upper.get(metric)
                 if held is None or q.value < held.value:
@@ -295,19 +297,22 @@ def _row(
         f"lower {percent(confidence)} confidence bound from {top.title if top else 'no statistic'} "
         f"(feature '{feature}', split sample of {chosen + measured:,} shoes)"
     )
+    tv_lower = Quantity(tv_low, "bound", side="lower", confidence=confidence, method=note)
+    if sure_low is not None and sure_low.value >= tv_low:  # sure, and at least as high
+        tv_low, note = sure_low.value, f"feature '{feature}': {sure_low.method}"
+        tv_lower = Quantity(tv_low, "bound", side="lower", method=note)
+    sure = {} if tv_lower.confidence is None else {"confidence": confidence}
     lower = {
-        "total_variation": Quantity(
-            tv_low, "bound", side="lower", confidence=confidence, method=note
-        ),
+        "total_variation": tv_lower,
         "separation": Quantity(
-            tv_low, "bound", side="lower", confidence=confidence, method=f"separation >= TV; {note}"
+            tv_low, "bound", side="lower", method=f"separation >= TV; {note}", **sure
         ),
         "kl_bits": Quantity(
             2 * tv_low**2 / math.log(2),
             "bound",
             side="lower",
-            confidence=confidence,
             method=f"Pinsker's inequality, KL >= 2 TV^2 / ln 2; {note}",
+            **sure,
             unit="bits",
         ),
     }

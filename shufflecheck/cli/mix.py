@@ -218,7 +218,7 @@ def _mix_feature(
     """``mix riffle --feature F``: labelled distances of the word a game sees."""
     from shufflecheck.common.errors import InputError
     from shufflecheck.models import default_max_steps
-    from shufflecheck.models.features import feature_curve_until
+    from shufflecheck.models.features import FEATURE_SOURCES_NOTE, feature_curve_until
     from shufflecheck.records.cards import load_deck
     from shufflecheck.records.shoes import load_shoe, shoe
 
@@ -313,7 +313,7 @@ def _mix_feature(
     echo()
     rows = []
     for r in curve.rows:
-        rows.append([r.steps, r.total_variation.text(), r.separation.text(), r.kl_bits.text()])
+        rows.append([r.steps, r.total_variation_text(), r.separation.text(), r.kl_bits.text()])
     echo(format_table(["riffles", "total variation", "separation", "KL (bits)"], rows))
     echo()
     if goal is not None:  # the target applies to the chosen metric only
@@ -330,10 +330,7 @@ def _mix_feature(
             q = curve.rows[k - 1].value(chosen)
             how = "exact" if q.kind == "exact" else "rigorous upper bound"
             echo(f"Minimum riffles for {label} <= {goal:g}: {k} ({how})")
-    echo(
-        "Upper bounds come from the distinct-card distances (a feature is never farther); "
-        "exact values where the feature's law is known in closed form (docs/models.md)."
-    )
+    echo(FEATURE_SOURCES_NOTE)
     echo(caution("the idealised model"))
     if plot is not None:
         echo(f"Wrote {plot}")

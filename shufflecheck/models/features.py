@@ -37,6 +37,10 @@ programme over ``i`` that settles every partial word whose completions all lie a
 all below) ``1/M`` in closed form; it is offered while the unsettled partial words stay
 within a budget (about 30 cards). Derived in this project; checked against brute force.
 
+**Two-sided bounds for larger two-valued decks in blocks** (a 52-card colour deck, a colour
+shoe): :mod:`shufflecheck.models.two_valued` sums the same additive likelihood ratio on a
+grid, with rigorous lower and upper ends.
+
 **Exact everything for small decks**: for ``n <= 9`` (any start, any feature) the law of
 the word is summed from the exact law of the arrangement over all ``n!`` arrangements.
 
@@ -74,6 +78,7 @@ from shufflecheck.models import riffle
 
 __all__ = [
     "ENUMERATION_CARDS",
+    "FEATURE_SOURCES_NOTE",
     "FeatureCurve",
     "FeatureDistances",
     "block_separation",
@@ -85,6 +90,13 @@ __all__ = [
     "two_valued_block_tv",
 ]
 
+#: How the distances of a feature curve were obtained, in one sentence (terminal and report).
+FEATURE_SOURCES_NOTE = (
+    "Upper bounds come from the distinct-card distances (a feature is never farther); exact "
+    "values where the feature's law is known in closed form; for a two-valued deck in blocks "
+    "too large for the exact sum, rigorous lower and upper bounds from its likelihood ratios "
+    "summed on a grid (docs/models.md)."
+)
 #: Largest deck whose word law is summed over all ``n!`` arrangements.
 ENUMERATION_CARDS = 9
 #: Unsettled partial words the two-valued dynamic programme may hold.
@@ -264,17 +276,34 @@ class FeatureDistances:
     total_variation: Quantity
     separation: Quantity
     kl_bits: Quantity
+    #: a rigorous lower bound on the total variation, where one is computed (the exact
+    #: value needs none)
+    total_variation_lower: Quantity | None = None
 
     def value(self, metric: str) -> Quantity:
         return getattr(self, metric)
 
+    def total_variation_text(self) -> str:
+        """The total variation with its label; with a lower bound, both ends rounded outward:
+        ``0.1048 to 0.1049 (bounds)``."""
+        if self.total_variation_lower is None:
+            return self.total_variation.text()
+        from shufflecheck.common.numbers import format_number
+
+        low = format_number(self.total_variation_lower.value, 4, "down")
+        high = format_number(self.total_variation.value, 4, "up")
+        return f"{low} to {high} (bounds)"
+
     def as_json(self) -> dict:
-        return {
+        out = {
             "steps": self.steps,
             "total_variation": self.total_variation.as_json(),
             "separation": self.separation.as_json(),
             "kl_bits": self.kl_bits.as_json(),
         }
+        if self.total_variation_lower is not None:
+            out["total_variation_lower"] = self.total_variation_lower.as_json()
+        return out
 
 
 def _small_distances(start: tuple[int, ...], hands: int) -> tuple[float, float, float]:
@@ -313,6 +342,7 @@ def feature_distances(start: Sequence[int], steps: int, *, hands: int = 2) -> Fe
     tv = Quantity(full.total_variation, "bound", side="upper", method=distinct)
     sep = Quantity(full.separation, "bound", side="upper", method=distinct)
     kl = Quantity(full.kl_bits, "bound", side="upper", method=distinct, unit="bits")
+    lower = None
     if in_blocks(values):
         exact_sep = float(block_separation(counts, packets))
         sep = Quantity(
@@ -328,7 +358,26 @@ def feature_distances(start: Sequence[int], steps: int, *, hands: int = 2) -> Fe
                     "exact",
                     method="exact: two-valued deck in blocks, sum over all words (derived)",
                 )
-    return FeatureDistances(steps, tv, sep, kl)
+            else:
+                tv, lower = _bracketed(tv, counts, packets)
+    return FeatureDistances(steps, tv, sep, kl, lower)
+
+
+def _bracketed(tv: Quantity, counts: tuple[int, ...], packets: int):
+    """The two-valued bracket of :mod:`shufflecheck.models.two_valued` (when within its work
+    limit): its upper end where it beats ``tv``, and its lower end."""
+    from shufflecheck.models.two_valued import two_valued_tv_bracket
+
+    found = two_valued_tv_bracket(counts[0], counts[1], packets)
+    if found is None:
+        return tv, None
+    how = (
+        f"two-valued deck in blocks: likelihood ratios summed on a grid of {found.grid:,} "
+        "steps, both ends rigorous (derived)"
+    )
+    if found.upper < tv.value:
+        tv = Quantity(found.upper, "bound", side="upper", method=how)
+    return tv, Quantity(found.lower, "bound", side="lower", method=how)
 
 
 @dataclass(frozen=True)

@@ -148,13 +148,21 @@ def mixing_report(
 
 
 def feature_series(curve, metric: str) -> list[dict]:
-    """The feature curve of one metric as figure series, one per kind of number."""
+    """The feature curve of one metric as figure series, one per kind of number (with the
+    total variation's lower bounds where there are any)."""
     series = []
-    for kind, side in (("exact", None), ("bound", "upper")):
-        steps = [r.steps for r in curve.rows if r.value(metric).kind == kind]
+    for kind, side in (("exact", None), ("bound", "upper"), ("bound", "lower")):
+        if side == "lower":
+            if metric != "total_variation":
+                continue
+            found = [r for r in curve.rows if r.total_variation_lower is not None]
+            steps = [r.steps for r in found]
+            values = [r.total_variation_lower.value for r in found]
+        else:
+            steps = [r.steps for r in curve.rows if r.value(metric).kind == kind]
+            values = [r.value(metric).value for r in curve.rows if r.value(metric).kind == kind]
         if not steps:
             continue
-        values = [r.value(metric).value for r in curve.rows if r.value(metric).kind == kind]
         item = {
             "label": str(curve.feature),
             "steps": steps,
@@ -181,6 +189,7 @@ def feature_mixing_report(
 ) -> Report:
     """Report of ``mix riffle --feature``: the labelled distances of what a game sees."""
     from shufflecheck.common.sources import CONGER_VISWANATH
+    from shufflecheck.models.features import FEATURE_SOURCES_NOTE
 
     label = METRIC_LABELS[metric]
     subject = f"the {curve.feature} of {deck} after k riffles from the {curve.start} order"
@@ -200,7 +209,15 @@ def feature_mixing_report(
         f"After {last.steps} riffles: total variation {last.total_variation.text()}, separation "
         f"{last.separation.text()}."
     )
-    rows = tuple((str(r.steps), r.total_variation, r.separation, r.kl_bits) for r in curve.rows)
+    rows = tuple(
+        (
+            str(r.steps),
+            r.total_variation if r.total_variation_lower is None else r.total_variation_text(),
+            r.separation,
+            r.kl_bits,
+        )
+        for r in curve.rows
+    )
     marked = ()
     if target is not None and minimum[metric] is not None:
         marked = (minimum[metric] - 1,)
@@ -209,11 +226,7 @@ def feature_mixing_report(
         f"Distance of the {curve.feature} word to uniform after k riffles",
         ("k", "total variation", "separation", "KL divergence (bits)"),
         rows,
-        notes=(
-            "Upper bounds are the distinct-card distances (a feature is never farther); exact "
-            "values where the feature's law is known in closed form (docs/models.md).",
-            f"Classes: {made}.",
-        ),
+        notes=(FEATURE_SOURCES_NOTE, f"Classes: {made}."),
         marked_rows=marked,
         mark_note=f"first k with {label} at most {target:g}" if marked else "",
     )
@@ -249,6 +262,15 @@ def feature_mixing_report(
                 "variation of two-valued decks in blocks (closed form summed over all words); "
                 "decks of at most 9 cards summed over all arrangements; derived in this "
                 "project and checked by brute force",
+                (*model.sources, CONGER_VISWANATH),
+            ),
+            MethodNote(
+                "two-sided bounds",
+                "bound",
+                "total variation of a two-valued deck in blocks too large for the exact sum: "
+                "each word's likelihood ratio is a sum over its cards of one class, summed on a "
+                "grid by dynamic programming; the grid's rounding is bounded on both sides "
+                "(derived in this project; checked against the exact sum and brute force)",
                 (*model.sources, CONGER_VISWANATH),
             ),
         ),
