@@ -73,6 +73,55 @@ class TestFeatureAssessment:
         exact = features.two_valued_block_tv(13, 13, 16)
         assert tv.value == pytest.approx(float(exact)) and "exact" in tv.method
 
+    def test_feature_lower_bounds_see_only_the_word(self):
+        # regression: the first-appearance order of the 26 codes once gave a "lower bound"
+        # of 0.988 on the colour word's distance after one riffle, whose exact value is
+        # 0.498 (the codes are farther from random than their colours)
+        cards = ["AH", "2H", "3H", "4H", "5H", "6H", "7H", "8H", "9H", "TH", "JH", "QH", "KH"]
+        cards += [c[0] + "S" for c in cards]
+        from shufflecheck.records.cards import DeckDefinition
+
+        definition = shoe(1, DeckDefinition.from_cards("reds-then-blacks", cards))
+        result = assess_feature(
+            parse_procedure("riffle"), definition, "colour", repeats=3, decks=2000, rng=4
+        )
+        for row in result.rows:
+            exact = float(features.two_valued_block_tv(13, 13, 2**row.repeats))
+            assert row.lower["total_variation"].value <= exact
+            assert "first-appearance" not in row.lower["total_variation"].method
+        # the codes themselves (feature 'cards') keep the statistics of the codes
+        from shufflecheck.stats.catalogue import (
+            DeckContext,
+            ShoeContext,
+            lower_bound_statistics,
+        )
+
+        def names(feature, word_only):
+            context = DeckContext.checked(26, shoe=ShoeContext.of(definition, feature))
+            return {s.name for s in lower_bound_statistics(context, word_only=word_only)}
+
+        assert "first-appearance-rising" in names("cards", False)
+        assert "first-appearance-rising" not in names("colour", True)
+        assert "segment-zone" not in names("colour", True)
+
+    def test_full_colour_deck_gets_a_sure_lower_bound(self):
+        # 26 red above 26 black: beyond the exact sum, the two-valued bracket
+        # (models/two_valued.py, checked against brute force) gives both ends
+        from shufflecheck.models.two_valued import two_valued_tv_bracket
+        from shufflecheck.records.cards import DeckDefinition
+
+        ranks = "A23456789TJQK"
+        cards = [r + s for s in "HD" for r in ranks] + [r + s for s in "SC" for r in ranks]
+        definition = shoe(1, DeckDefinition.from_cards("reds-then-blacks-52", cards))
+        result = assess_feature(
+            parse_procedure("riffle"), definition, "colour", repeats=3, decks=1000, rng=2
+        )
+        for row in result.rows:
+            found = two_valued_tv_bracket(26, 26, 2**row.repeats)
+            low, up = row.lower["total_variation"], row.upper["total_variation"]
+            assert low.value == pytest.approx(found.lower) and low.confidence is None
+            assert up.value == pytest.approx(found.upper) and up.side == "upper"
+
 
 class TestGuessingMean:
     @pytest.mark.parametrize("counts", [(5,) * 5, (2, 3, 1), (4, 1, 1, 2), (8,) * 9 + (32,)])

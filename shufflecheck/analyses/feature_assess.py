@@ -128,7 +128,11 @@ def assess_feature(
     context = DeckContext.checked(n, shoe=context_shoe)
     kinds = shoe.physical_kinds()
     start = kinds[None, :]
-    statistics = lower_bound_statistics(context)
+    # a feature that merges codes (values, colours) gets lower bounds only from statistics
+    # of its own word; statistics of the codes bound the codes' distance, which is larger
+    of_kind = shoe.feature(feature).of_kind
+    merges = of_kind is not None and len(set(of_kind)) < len(of_kind)
+    statistics = lower_bound_statistics(context, word_only=merges)
     reference_view = DeckView(start, start, context, reference=start)
     laws = []
     for stat in statistics:

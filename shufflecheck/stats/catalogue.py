@@ -375,6 +375,13 @@ class Statistic:
         ``law_keys(view)``: per deck, the key of its own exact law when the law depends on
         the deck (the zone test: on the reference segment); ``keyed_law(context, key)``
         is then that law and ``law`` is unused.
+    needs_reference : bool
+        The values need the reference shoe of every row.
+    on_codes : bool
+        Shoes: the values depend on which card code lies where, not only on the word the
+        feature reads (first appearances, the reference segment's codes, codes repeated
+        from the previous shoe). Such a statistic bounds the distance of the codes, so it
+        gives no lower bound for a feature that merges codes (values, colours).
     """
 
     name: str
@@ -396,6 +403,7 @@ class Statistic:
     law_keys: Callable[[DeckView], np.ndarray] | None = None
     keyed_law: Callable[[DeckContext, int], Law] | None = None
     needs_reference: bool = False
+    on_codes: bool = False
 
     def describe_effect(self, observed: float, expected: float) -> str:
         """The effect in one sentence (means as shown, i.e. after ``shown_offset``)."""
@@ -710,6 +718,7 @@ _SHOE: tuple[Statistic, ...] = (
         sentence=_per_shoe_sentence,
         needs_reference=True,
         lower_bound=True,
+        on_codes=True,
     ),
     Statistic(
         "first-appearance-successions",
@@ -723,6 +732,7 @@ _SHOE: tuple[Statistic, ...] = (
         need="equal-copies",
         sentence=_per_shoe_sentence,
         needs_reference=True,
+        on_codes=True,
     ),
     Statistic(
         "value-positions",
@@ -751,6 +761,7 @@ _SHOE: tuple[Statistic, ...] = (
         sentence=_zone_sentence,
         need="multiset",
         lower_bound=True,
+        on_codes=True,
     ),
     Statistic(
         "guess-most-frequent",
@@ -781,6 +792,7 @@ _SHOE_REPEAT = Statistic(
     law_source="rook polynomial of the copies, inclusion-exclusion (exact integers)",
     sentence=_shoe_repeat_sentence,
     need="multiset",
+    on_codes=True,
 )
 
 
@@ -816,13 +828,20 @@ def battery_statistics(context: DeckContext) -> tuple[Statistic, ...]:
     return tuple(s for s in catalogue(context.strategies) if s.battery and context.has(s.need))
 
 
-def lower_bound_statistics(context: DeckContext) -> tuple[Statistic, ...]:
+def lower_bound_statistics(
+    context: DeckContext, *, word_only: bool = False
+) -> tuple[Statistic, ...]:
     """The statistics behind the Monte Carlo lower bounds of an assessment (per-deck, with
-    an exact law), in catalogue order."""
+    an exact law), in catalogue order; with ``word_only``, only those that are functions
+    of the word a shoe's feature reads (a lower bound on that word's distance must not see
+    more than the word)."""
     return tuple(
         s
         for s in catalogue(context.strategies)
-        if s.lower_bound and context.has(s.need) and s.shape == "per-deck"
+        if s.lower_bound
+        and context.has(s.need)
+        and s.shape == "per-deck"
+        and not (word_only and s.on_codes)
     )
 
 
