@@ -29,6 +29,16 @@ def tiny_shoe(tmp_path_factory):
     return load_shoe(path)
 
 
+def reds_then_blacks(reds: str, blacks: str):
+    """A one-pack deck of the red suits' cards in rank order above the black suits' (an
+    invented test deck whose colour word starts in two blocks)."""
+    from shufflecheck.records.cards import DeckDefinition
+
+    ranks = "A23456789TJQK"
+    cards = [r + s for s in reds for r in ranks] + [r + s for s in blacks for r in ranks]
+    return shoe(1, DeckDefinition.from_cards("reds-then-blacks", cards))
+
+
 class TestFeatureAssessment:
     def test_exact_for_a_small_deck_of_riffles(self, tiny_shoe):
         result = assess_feature(
@@ -60,11 +70,7 @@ class TestFeatureAssessment:
 
     def test_riffles_use_the_feature_figures(self):
         # 13 red above 13 black (two-valued blocks): exact TV on the colour word
-        cards = ["AH", "2H", "3H", "4H", "5H", "6H", "7H", "8H", "9H", "TH", "JH", "QH", "KH"]
-        cards += [c[0] + "S" for c in cards]
-        from shufflecheck.records.cards import DeckDefinition
-
-        definition = shoe(1, DeckDefinition.from_cards("reds-then-blacks", cards))
+        definition = reds_then_blacks("H", "S")
         result = assess_feature(
             parse_procedure("riffle"), definition, "colour", repeats=4, decks=1000, rng=1
         )
@@ -77,11 +83,7 @@ class TestFeatureAssessment:
         # regression: the first-appearance order of the 26 codes once gave a "lower bound"
         # of 0.988 on the colour word's distance after one riffle, whose exact value is
         # 0.498 (the codes are farther from random than their colours)
-        cards = ["AH", "2H", "3H", "4H", "5H", "6H", "7H", "8H", "9H", "TH", "JH", "QH", "KH"]
-        cards += [c[0] + "S" for c in cards]
-        from shufflecheck.records.cards import DeckDefinition
-
-        definition = shoe(1, DeckDefinition.from_cards("reds-then-blacks", cards))
+        definition = reds_then_blacks("H", "S")
         result = assess_feature(
             parse_procedure("riffle"), definition, "colour", repeats=3, decks=2000, rng=4
         )
@@ -108,11 +110,8 @@ class TestFeatureAssessment:
         # 26 red above 26 black: beyond the exact sum, the two-valued bracket
         # (models/two_valued.py, checked against brute force) gives both ends
         from shufflecheck.models.two_valued import two_valued_tv_bracket
-        from shufflecheck.records.cards import DeckDefinition
 
-        ranks = "A23456789TJQK"
-        cards = [r + s for s in "HD" for r in ranks] + [r + s for s in "SC" for r in ranks]
-        definition = shoe(1, DeckDefinition.from_cards("reds-then-blacks-52", cards))
+        definition = reds_then_blacks("HD", "SC")
         result = assess_feature(
             parse_procedure("riffle"), definition, "colour", repeats=3, decks=1000, rng=2
         )
