@@ -415,19 +415,44 @@ def _sum_row(
 def _position_row(
     spec: Statistic, rel: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
-    from scipy import stats  # on first use: it costs an audit about 45 MB
-
     sims, n = rel.shape
     freq = position_counts(rel, n) / sims
     df = (n - 1) ** 2
     raw = float(((freq - 1.0 / n) ** 2).sum())
     noise = (n - float((freq**2).sum())) / sims  # E of the sampling part of ||M_hat - J/n||^2
-    delta2 = raw - noise
-    null_sd = math.sqrt(2 * df) / (sims * (n - 1))
     base = (
         f"noncentral chi-square ({df} df) with noncentrality (n-1) D ||M - J/n||^2, M the "
         f"position frequencies of {sims} simulated decks (debiased)"
     )
+    return _chi_square_row(
+        spec,
+        raw - noise,
+        math.sqrt(2 * df) / (sims * (n - 1)),
+        df,
+        n - 1,
+        base,
+        "shift = ||M - J/n||^2 (squared frequency departure)",
+        (level, target, cap, "decks"),
+    )
+
+
+def _chi_square_row(
+    spec: Statistic,
+    delta2: float,
+    null_sd: float,
+    df: int,
+    per_deck: float,
+    base: str,
+    note: str,
+    search: tuple[float, float, int, str],
+) -> PowerRow:
+    """Decks needed by a position chi-square test with ``df`` degrees of freedom whose
+    noncentrality after ``D`` decks is ``per_deck * D * delta2`` (``delta2`` debiased from
+    the simulation, ``null_sd`` its standard deviation under no departure); ``search`` is
+    (level, target power, cap, unit counted)."""
+    from scipy import stats  # on first use: it costs an audit about 45 MB
+
+    level, target, cap, unit = search
     if delta2 <= _RESOLUTION * null_sd:
         return _not_detected(
             spec,
@@ -440,15 +465,15 @@ def _position_row(
     crit = float(stats.chi2.isf(level, df))
 
     def power_at(d: int) -> float:
-        return float(stats.ncx2.sf(crit, df, (n - 1) * d * delta2))
+        return float(stats.ncx2.sf(crit, df, per_deck * d * delta2))
 
     # normal approximation of the noncentral chi-square: lambda ~ crit - df + 2 sqrt(2 df)
     lam = max(1.0, crit - df + 2.0 * math.sqrt(2.0 * df))
-    guess = max(1, math.ceil(lam / ((n - 1) * delta2)))
+    guess = max(1, math.ceil(lam / (per_deck * delta2)))
     found = _smallest(power_at, target, guess, cap)
     rel_se = null_sd / delta2
     if found is None:
-        return _not_detected(spec, delta2, null_sd, rel_se, base, f"needs more than {cap} decks")
+        return _not_detected(spec, delta2, null_sd, rel_se, base, f"needs more than {cap} {unit}")
     return PowerRow(
         spec.name,
         spec.title,
@@ -459,7 +484,7 @@ def _position_row(
         rel_se,
         "estimate",
         base,
-        "shift = ||M - J/n||^2 (squared frequency departure)",
+        note,
         exponent=1.0,
     )
 
@@ -621,8 +646,6 @@ def _mixture_law(parts: list[tuple[Law, int]]) -> Law:
 def _class_position_row(
     spec: Statistic, words: np.ndarray, shoe: ShoeContext, level: float, target: float, cap: int
 ) -> PowerRow:
-    from scipy import stats  # on first use: it costs an audit about 45 MB
-
     from shufflecheck.stats.shoe_statistics import class_position_counts
 
     sims, n = words.shape
@@ -634,42 +657,17 @@ def _class_position_row(
     # variance f (1 - f) / sims of each cell
     raw = float((((freq - share) ** 2) / share).sum())
     noise = float(((freq * (1 - freq)) / share).sum()) / sims
-    delta2 = raw - noise
-    null_sd = math.sqrt(2 * df) / (sims * (n - 1))
     base = (
         f"noncentral chi-square ({df} df) with noncentrality (n-1)/n D sum (f - c/n)^2/(c/n), "
         f"f the position-by-value frequencies of {sims} simulated shoes (debiased)"
     )
-    if delta2 <= _RESOLUTION * null_sd:
-        return _not_detected(
-            spec,
-            delta2,
-            null_sd,
-            None,
-            base,
-            "no departure of position frequencies detectable in the simulation",
-        )
-    crit = float(stats.chi2.isf(level, df))
-
-    def power_at(d: int) -> float:
-        return float(stats.ncx2.sf(crit, df, (n - 1) / n * d * delta2))
-
-    lam = max(1.0, crit - df + 2.0 * math.sqrt(2.0 * df))
-    guess = max(1, math.ceil(lam / ((n - 1) / n * delta2)))
-    found = _smallest(power_at, target, guess, cap)
-    rel_se = null_sd / delta2
-    if found is None:
-        return _not_detected(spec, delta2, null_sd, rel_se, base, f"needs more than {cap} shoes")
-    return PowerRow(
-        spec.name,
-        spec.title,
-        found,
-        power_at(found),
-        delta2,
-        null_sd,
-        rel_se,
-        "estimate",
+    return _chi_square_row(
+        spec,
+        raw - noise,
+        math.sqrt(2 * df) / (sims * (n - 1)),
+        df,
+        (n - 1) / n,
         base,
         "shift = sum of squared frequency departures over their shares",
-        exponent=1.0,
+        (level, target, cap, "shoes"),
     )
