@@ -38,3 +38,24 @@ def test_demo_shows_progress_to_the_end(tmp_path):
     assert shown and shown[-1] == 100 and shown == sorted(shown)
     assert len(set(shown)) >= 3  # it moved on the way, not only 0% and 100%
     assert "Report:" in out
+
+
+def test_feature_curve_of_a_shoe_shows_progress():
+    # a six-pack colour shoe in blocks: about 1 s per row (the two-valued bounds)
+    code, out, err = run_with_terminal_stderr(
+        "mix",
+        "riffle",
+        "--deck",
+        "shoe(packs=6)",
+        "--feature",
+        "colour",
+        "--start",
+        "blocks",
+        "-k",
+        "3",
+    )
+    assert code == 0, err
+    assert "riffle on 'colour': k = 1..3" in err
+    shown = percents(err)
+    assert shown and shown[-1] == 100 and shown == sorted(shown)
+    assert "(bounds)" in out and "%" not in out

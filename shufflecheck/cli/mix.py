@@ -237,17 +237,26 @@ def _mix_feature(
     words = sorted(classes.tolist()) if start == "blocks" else classes.tolist()
     feat = definition.feature(feature)
     default = default_max_steps("riffle", definition.size)
-    curve = feature_curve_until(
-        words,
-        default,
-        goal,
-        chosen,
-        max_steps=max_steps,
-        hands=hands,
-        feature=feature,
-        start_name=start,
-        names=feat.names,
-    )
+    rows_planned = default if max_steps is None else max_steps
+    with progress(rows_planned, f"riffle on '{feature}': k = 1..{rows_planned}", after=0.5) as bar:
+        shown = [0]  # a range extended from the default starts again at k = 1: never go back
+
+        def advance(k: int) -> None:
+            shown[0] = max(shown[0], min(k, rows_planned))
+            bar(shown[0])
+
+        curve = feature_curve_until(
+            words,
+            default,
+            goal,
+            chosen,
+            max_steps=max_steps,
+            hands=hands,
+            feature=feature,
+            start_name=start,
+            names=feat.names,
+            progress=advance,
+        )
     steps = len(curve.rows)
     extended = default if steps > default else None
     minimum = {chosen: curve.minimum(chosen, goal)}
