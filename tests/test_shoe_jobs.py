@@ -120,6 +120,10 @@ class TestFeatureAssessment:
             low, up = row.lower["total_variation"], row.upper["total_variation"]
             assert low.value == pytest.approx(found.lower) and low.confidence is None
             assert up.value == pytest.approx(found.upper) and up.side == "upper"
+            # the exact separation of a start in blocks closes the separation's range
+            separation = float(features.block_separation((26, 26), 2**row.repeats))
+            assert row.lower["separation"].value == pytest.approx(separation)
+            assert row.upper["separation"].value == pytest.approx(separation)
 
 
 class TestGuessingMean:

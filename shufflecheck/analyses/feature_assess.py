@@ -191,8 +191,9 @@ def assess_feature(
     notes = (
         f"Distances on the feature '{feature}' ({feat.title}) of {shoe.describe()}: upper "
         "bounds from the distinct cards (a feature is never farther) or the feature's own "
-        "exact figures for ideal riffles; lower bounds from the shoe statistics with exact "
-        "laws, read from the shoe's reference order.",
+        "figures for ideal riffles; lower bounds from the statistics of the feature's word "
+        "with exact laws, read from the shoe's reference order, or the feature's own sure "
+        "figures for ideal riffles.",
     )
     seed = rng if isinstance(rng, int) else None
     return Assessment(
@@ -253,6 +254,7 @@ def _row(
                 )
     exact: DistanceRow | None = None
     sure_low: Quantity | None = None  # a rigorous lower bound of the feature's own riffle law
+    sure_separation: Quantity | None = None  # the feature's exact separation, where known
     packets = _riffle_packets(procedure, r + 1)
     if feature != "distinct" and packets is not None:
         own = features.feature_distances(start_classes.tolist(), 1, hands=packets)
@@ -269,6 +271,8 @@ def _row(
             upper = {}
         else:
             sure_low = own.total_variation_lower
+            if values["separation"].kind == "exact":
+                sure_separation = values["separation"]
             for metric, q in values.items():
                 held = upper.get(metric)
                 if held is None or q.value < held.value:
@@ -320,6 +324,14 @@ def _row(
             unit="bits",
         ),
     }
+
+    if sure_separation is not None and sure_separation.value > lower["separation"].value:
+        lower["separation"] = Quantity(
+            sure_separation.value,
+            "bound",
+            side="lower",
+            method=f"feature '{feature}': {sure_separation.method}",
+        )
 
     def interval(total: float, squares: float, count: int) -> tuple[float, float, float]:
         mean = total / count

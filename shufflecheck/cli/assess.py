@@ -264,8 +264,9 @@ def _print(result) -> None:
         echo("              ideal riffles never raise the separation); never used to certify")
     if shoe:
         echo("  (shoes: upper bounds are the distinct cards' figures, or the feature's own")
-        echo("              exact figures for ideal riffles; lower bounds from the shoe")
-        echo("              statistics with exact laws, read from the shoe's reference order)")
+        echo("              figures for ideal riffles; lower bounds from the statistics of")
+        echo("              the feature's word with exact laws, read from the shoe's")
+        echo("              reference order, or the feature's own sure figures)")
         echo(
             f"  guesses     estimate ({percent(result.confidence)} interval): correct guesses "
             "per shoe naming a most frequent remaining value, beyond "
