@@ -206,7 +206,7 @@ def feature_mixing_report(
             )
     last = curve.rows[-1]
     answer.append(
-        f"After {last.steps} riffles: total variation {last.total_variation.text()}, separation "
+        f"After {last.steps} riffles: total variation {last.total_variation_text()}, separation "
         f"{last.separation.text()}."
     )
     rows = tuple(
