@@ -33,7 +33,15 @@ Strategies (cards are labels in the reference order, 0 = the reference top card)
     unshuffled deck, and on a deck whose top stock was left alone.
 
 All strategies are vectorized over decks: the loop runs over the ``n`` positions, with the
-seen cards of every deck held as a 64-bit mask when ``n <= 63``. For larger decks the seen
+seen cards of every deck held as a 64-bit mask when ``n <= 63``. Scores alone (the audit's
+need) take a shorter road there, since a guess is right exactly when it names the card
+shown: the positions are read from the bottom up, where the unseen cards only gain one
+card per step and the block holding it is read off two bit counts (of the unseen mask
+and of its mirror image); ``longest-run`` then keeps the lowest longest block as one
+16-bit key (length, then start) under a running maximum, and ``lowest-unseen`` is right
+where a card is below every card after it. ``next-card`` is right where the card follows
+the last one cyclically, or where the last one's successor was seen and ``longest-run``
+is right; ``strip`` needs its packet, read from the top down. For larger decks the seen
 (and, read backwards, the unseen) cards are kept as merged blocks of consecutive labels
 (each block's end stored at its start and its start at its end), so every guess costs a
 few array operations whatever ``n``: the lowest unseen card and the unseen card just above
@@ -160,6 +168,13 @@ def _play(
         return scores, picks
     if force_generic:
         play = _play_generic
+    elif bitmask_ok(n) and not record:
+        for start in range(0, count, _CHUNK):
+            stop = min(count, start + _CHUNK)
+            found = _score_bitmask(np.ascontiguousarray(decks[start:stop].T), names)
+            for name in names:
+                scores[name][start:stop] = found[name]
+        return scores, picks
     else:
         play = _play_bitmask if bitmask_ok(n) else _play_blocks
     for start in range(0, count, _CHUNK):
@@ -264,6 +279,110 @@ def _play_bitmask(
                 best_start = best_start.copy()
                 best_start[hit], best_len[hit] = _longest_run(~seen[hit] & full, n)
     return {name: (score[name], picked.get(name)) for name in names}
+
+
+def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    """Correct guesses per deck (``int64``) for ``n <= 63``: the same scores as
+    :func:`_play_bitmask` without naming the guesses (``cols[i]``: the cards at position
+    ``i``, one per deck)."""
+    n, m = cols.shape
+    c8 = cols.astype(np.uint8)
+    c64 = c8.astype(np.uint64)
+    score = {name: np.zeros(m, dtype=np.uint8) for name in names}
+    want_next = "next-card" in names
+    want_longest = "longest-run" in names
+    want_low = "lowest-unseen" in names or "strip" in names
+    t = np.empty(m, dtype=np.uint64)  # scratch rows
+    up = np.empty(m, dtype=np.uint64)
+    down = np.empty(m, dtype=np.uint64)
+    key = np.zeros(m, dtype=np.uint16)
+    k = np.empty(m, dtype=np.uint16)
+    low = np.full(m, 255, dtype=np.uint8)
+    low_hit = np.empty((n, m), dtype=bool)  # the card is the lowest unseen one
+    unseen = np.zeros(m, dtype=np.uint64)  # bit c: card c lies at this position or below
+    mirror = np.zeros(m, dtype=np.uint64)  # the same set, bit n - 1 - c for card c
+    top, top_bit, mask6 = np.uint64(n - 1), np.uint64(1 << (n - 1)), np.uint16(63)
+    for i in range(n - 1, -1, -1):
+        c = c64[i]
+        np.left_shift(_ONE, c, out=t)
+        unseen |= t
+        if want_low:
+            np.minimum(low, c8[i], out=low)
+            np.equal(low, c8[i], out=low_hit[i])
+        if "lowest-unseen" in names:
+            score["lowest-unseen"] += low_hit[i]
+        if not (want_next or want_longest):
+            continue
+        # the unseen block holding c: (ones of unseen from bit c up) = pu - 1, (ones of
+        # mirror from bit n - 1 - c up) = pd - 1; it starts at c + 2 - pd, has pu + pd - 3
+        # cards; key = 64 * (pu + pd) + 63 - start is largest for the lowest longest block
+        np.right_shift(top_bit, c, out=t)
+        mirror |= t
+        np.right_shift(unseen, c, out=up)
+        np.add(up, _ONE, out=t)
+        up ^= t
+        pu = np.bitwise_count(up)
+        np.subtract(top, c, out=t)
+        np.right_shift(mirror, t, out=down)
+        np.add(down, _ONE, out=t)
+        down ^= t
+        pd = np.bitwise_count(down)
+        pu += pd
+        np.left_shift(pu, 6, out=k, dtype=np.uint16)
+        k += pd
+        k += np.uint16(61)
+        k -= c8[i]
+        np.maximum(key, k, out=key)
+        np.bitwise_and(key, mask6, out=k)
+        k += c8[i]
+        longest_hit = k == mask6  # 63 - start == 63 - c
+        if want_longest:
+            score["longest-run"] += longest_hit
+        if want_next:
+            if i == 0:
+                score["next-card"] += longest_hit
+                continue
+            nxt = c64[i - 1] + _ONE
+            nxt[nxt == n] = 0  # cyclic: the top card follows the bottom one
+            np.right_shift(unseen, nxt, out=t)
+            t &= _ONE
+            score["next-card"] += np.where(t.astype(bool), c == nxt, longest_hit)
+    if "strip" in names:
+        _score_strip(c64, low_hit, score["strip"])
+    return {name: score[name].astype(np.int64) for name in names}
+
+
+def _score_strip(c64: np.ndarray, low_hit: np.ndarray, out: np.ndarray) -> None:
+    """Add the strip's correct guesses to ``out``, from the top down (``low_hit``: where
+    the card shown is the lowest unseen one)."""
+    n, m = c64.shape
+    t = np.empty(m, dtype=np.uint64)
+    up = np.empty(m, dtype=np.uint64)
+    out += c64[0] == n - 1  # the first guess: the reference bottom card
+    unseen = np.full(m, (1 << n) - 1, dtype=np.uint64)
+    unseen ^= _ONE << c64[0]
+    run = np.ones(m, dtype=np.uint64)  # cards in the packet ending at the last card
+    for i in range(1, n):
+        c = c64[i]
+        nxt = c64[i - 1] + _ONE  # shifts by n or more give 0: a seen card
+        np.right_shift(unseen, nxt, out=t)
+        t &= _ONE
+        cont = t.astype(bool)  # the packet's next card is unseen
+        follows = c == nxt
+        start = nxt - run  # the packet's lowest card
+        jump = start - run  # one packet-length above; wraps when negative (seen)
+        np.right_shift(unseen, jump, out=t)
+        t &= _ONE
+        jump_ok = t.astype(bool)
+        np.left_shift(_ONE, start, out=t)
+        t -= _ONE
+        t &= unseen  # the unseen cards above the packet (in reference order)
+        np.right_shift(t, c, out=up)  # c is the highest of them when this is 1
+        above = np.where(t != 0, up == _ONE, low_hit[i])
+        out += np.where(cont, follows, np.where(jump_ok, c == jump, above))
+        run = np.where(follows, run + _ONE, _ONE)
+        np.left_shift(_ONE, c, out=t)
+        unseen ^= t
 
 
 def _strip_guess_bitmask(
