@@ -302,6 +302,9 @@ def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.nda
     unseen = np.zeros(m, dtype=np.uint64)  # bit c: card c lies at this position or below
     mirror = np.zeros(m, dtype=np.uint64)  # the same set, bit n - 1 - c for card c
     top, top_bit, mask6 = np.uint64(n - 1), np.uint64(1 << (n - 1)), np.uint16(63)
+    if want_next:  # the cyclic successor of each card: the top card follows the bottom one
+        successor = c8 + np.uint8(1)
+        successor[successor == n] = 0
     for i in range(n - 1, -1, -1):
         c = c64[i]
         np.left_shift(_ONE, c, out=t)
@@ -342,11 +345,11 @@ def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.nda
             if i == 0:
                 score["next-card"] += longest_hit
                 continue
-            nxt = c64[i - 1] + _ONE
-            nxt[nxt == n] = 0  # cyclic: the top card follows the bottom one
+            nxt = successor[i - 1].astype(np.uint64)
             np.right_shift(unseen, nxt, out=t)
             t &= _ONE
-            score["next-card"] += np.where(t.astype(bool), c == nxt, longest_hit)
+            # right when the successor is shown; else, once it was seen, as longest-run
+            score["next-card"] += (c == nxt) | (longest_hit & (t == 0))
     if "strip" in names:
         _score_strip(c64, low_hit, score["strip"])
     return {name: score[name].astype(np.int64) for name in names}
@@ -362,25 +365,29 @@ def _score_strip(c64: np.ndarray, low_hit: np.ndarray, out: np.ndarray) -> None:
     unseen = np.full(m, (1 << n) - 1, dtype=np.uint64)
     unseen ^= _ONE << c64[0]
     run = np.ones(m, dtype=np.uint64)  # cards in the packet ending at the last card
+    follows = np.empty(m, dtype=np.uint64)
     for i in range(1, n):
         c = c64[i]
         nxt = c64[i - 1] + _ONE  # shifts by n or more give 0: a seen card
+        np.equal(c, nxt, out=follows, casting="unsafe")
         np.right_shift(unseen, nxt, out=t)
         t &= _ONE
-        cont = t.astype(bool)  # the packet's next card is unseen
-        follows = c == nxt
+        stop = t == 0  # the packet's next card was seen (or there is none)
         start = nxt - run  # the packet's lowest card
         jump = start - run  # one packet-length above; wraps when negative (seen)
         np.right_shift(unseen, jump, out=t)
         t &= _ONE
-        jump_ok = t.astype(bool)
+        jump_hit = c == jump  # (then that card is unseen)
+        stop_jump = stop & (t == 0)
         np.left_shift(_ONE, start, out=t)
         t -= _ONE
         t &= unseen  # the unseen cards above the packet (in reference order)
         np.right_shift(t, c, out=up)  # c is the highest of them when this is 1
-        above = np.where(t != 0, up == _ONE, low_hit[i])
-        out += np.where(cont, follows, np.where(jump_ok, c == jump, above))
-        run = np.where(follows, run + _ONE, _ONE)
+        above = (up == _ONE) | ((t == 0) & low_hit[i])
+        # right: the packet goes on; else the jump; else the card above the packet
+        out += (follows != 0) | (stop & jump_hit) | (stop_jump & above)
+        run *= follows
+        run += _ONE
         np.left_shift(_ONE, c, out=t)
         unseen ^= t
 
