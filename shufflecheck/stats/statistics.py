@@ -334,28 +334,35 @@ def cyclic_valleys(relative: np.ndarray, *, check: bool = True) -> np.ndarray:
 
 
 def _cycles_walk(p: np.ndarray) -> np.ndarray:
-    """Cycles by walking each deck's permutation once, lowest unvisited label first."""
+    """Cycles by walking each deck's permutation once, lowest unvisited label first
+    (labels as bytes, the visited labels as one 64-bit mask per deck)."""
     count, n = p.shape
     out = np.zeros(count, dtype=np.int64)
     for start in range(0, count, _CHUNK):
         block = p[start : start + _CHUNK]
         m = block.shape[0]
-        flat = block.astype(np.int64).ravel()
+        flat = block.astype(np.uint8).ravel()
         base = np.arange(m, dtype=np.int64) * n
         visited = np.zeros(m, dtype=np.uint64)
-        cur = np.zeros(m, dtype=np.int64)
-        head = np.zeros(m, dtype=np.int64)
-        acc = np.zeros(m, dtype=np.int64)
+        bit = np.empty(m, dtype=np.uint64)
+        cur = np.zeros(m, dtype=np.uint8)
+        head = np.zeros(m, dtype=np.uint8)
+        acc = np.zeros(m, dtype=np.uint8)
         for step in range(n):
-            visited |= _ONE << cur.astype(np.uint64)
-            nxt = flat[base + cur]
+            np.left_shift(_ONE, cur, out=bit, casting="unsafe")
+            visited |= bit
+            nxt = flat.take(base + cur)
             closed = nxt == head
             acc += closed
             if step < n - 1:
-                free = ~visited
-                lowest = np.bitwise_count((free & (~free + _ONE)) - _ONE).astype(np.int64)
-                head = np.where(closed, lowest, head)
-                cur = np.where(closed, lowest, nxt)
+                # the lowest unvisited label: the trailing ones of the visited mask
+                np.add(visited, _ONE, out=bit)
+                bit ^= visited
+                lowest = np.bitwise_count(bit)
+                lowest -= np.uint8(1)
+                # where closed, both move to it (byte arithmetic wraps consistently)
+                head += closed * (lowest - head)
+                cur = nxt + closed * (lowest - nxt)
         out[start : start + _CHUNK] = acc
     return out
 
