@@ -265,17 +265,16 @@ def relative_to(decks: np.ndarray, reference: np.ndarray) -> np.ndarray:
         return inverse[decks]
     if reference.shape != decks.shape:
         raise InputError(f"reference shape {reference.shape} does not match decks {decks.shape}")
-    # per block of rows, one flat scatter and one flat gather (row offsets added) in 32-bit
-    # indices: the inverse of each reference, then each deck read through it
+    # per block of rows, one flat scatter and one flat gather (row offsets added) in
+    # native-width indices (numpy converts narrower ones first): the inverse of each
+    # reference, then each deck read through it
     out = np.empty((count, n), dtype=np.int16)
     step = max(1, _BLOCK_CELLS // max(n, 1))
-    kind = np.int32 if step * n < 2**31 else np.int64
     ramp = np.tile(np.arange(n, dtype=np.int16), min(step, count))
     for lo in range(0, count, step):
         rows = min(step, count - lo)
-        offsets = (np.arange(rows, dtype=kind) * n)[:, None]
+        offsets = (np.arange(rows, dtype=np.intp) * n)[:, None]
         inverse = np.empty(rows * n, dtype=np.int16)
-        inverse[(reference[lo : lo + rows].astype(kind) + offsets).ravel()] = ramp[: rows * n]
-        gathered = inverse[(decks[lo : lo + rows].astype(kind) + offsets).ravel()]
-        out[lo : lo + rows] = gathered.reshape(rows, n)
+        inverse[(reference[lo : lo + rows].astype(np.intp) + offsets).ravel()] = ramp[: rows * n]
+        out[lo : lo + rows] = inverse.take(decks[lo : lo + rows].astype(np.intp) + offsets)
     return out

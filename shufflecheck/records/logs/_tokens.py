@@ -234,14 +234,16 @@ def scan_spans(
         return None
     table = _keys(deck).table16  # int16 labels, -1 for anything else
     m = starts.size
-    kind = np.int32 if int(buf.size) + width < 2**31 else np.int64
-    steps = np.arange(0, width, 3, dtype=kind)  # first byte of each code in a field
+    steps = np.arange(0, width, 3, dtype=np.intp)  # first byte of each code in a field
     values = np.empty((m, n), dtype=np.int16)
     block = max(1, _BLOCK_CELLS // n)  # in blocks of rows: the byte offsets stay a few MB
     for lo in range(0, m, block):
-        at = starts[lo : lo + block, None].astype(kind) + steps
-        if n > 1 and not (buf[at[:, :-1] + 2] == 32).all():
+        # native-width offsets and take(): numpy gathers fastest with them (about half
+        # the time of 32-bit offsets, which it converts first)
+        at = starts[lo : lo + block, None].astype(np.intp) + steps
+        if n > 1 and not (buf.take(at[:, :-1] + 2) == 32).all():
             return None
-        pairs = buf[at].astype(np.uint16) | (buf[at + 1].astype(np.uint16) << 8)
-        values[lo : lo + block] = table[pairs]
+        pairs = buf.take(at).astype(np.uint16)
+        pairs |= buf.take(at + 1).astype(np.uint16) << 8
+        values[lo : lo + block] = table.take(pairs)
     return values.ravel(), np.full(m, n, dtype=np.int64)
