@@ -102,6 +102,10 @@ def as_decks(decks: object, *, cards: int | None = None, name: str = "decks") ->
 
 
 def _count_true(mask: np.ndarray) -> np.ndarray:
+    """True entries per row (``int64``); rows of fewer than 256 entries are summed as bytes,
+    which numpy does faster than ``count_nonzero`` along short rows."""
+    if mask.dtype == np.bool_ and mask.shape[1] < 256:
+        return np.add.reduce(mask.view(np.uint8), axis=1, dtype=np.uint8).astype(np.int64)
     return np.count_nonzero(mask, axis=1).astype(np.int64)
 
 
@@ -429,7 +433,7 @@ def _runs(p: np.ndarray, codes: np.ndarray) -> np.ndarray:
     small = codes.astype(np.int16) if codes.max(initial=0) < 32767 else codes
 
     def count(b: np.ndarray) -> np.ndarray:
-        cat = small[b]
+        cat = small.take(b.astype(np.intp))  # take() with native indices: the fast gather
         return 1 + _count_true(cat[:, 1:] != cat[:, :-1])
 
     return _chunked(count, p)
