@@ -171,3 +171,82 @@ def test_null_is_exact_fractions():
     # c(4, k): 6, 11, 6, 1 for k = 1..4 (OEIS A132393 row 4)
     assert law.counts == (6, 11, 6, 1) and law.offset == 1
     assert law.probability(2) == Fraction(11, 24)
+
+
+# -- the scores against the strategies played one deck at a time --------------------------
+
+
+def _row_by_row(deck: list[int], strategy: str) -> int:
+    """Correct guesses of ``strategy`` on one deck, played card by card straight from the
+    definitions in shufflecheck.stats.guessing (sets and lists, no bit tricks)."""
+    n = len(deck)
+    seen: set[int] = set()
+    score = 0
+    last = packet_start = packet_len = -1
+    for i, card in enumerate(deck):
+        unseen = [c for c in range(n) if c not in seen]
+        blocks = []  # (start, length) of the maximal blocks of consecutive unseen labels
+        for c in unseen:
+            if blocks and blocks[-1][0] + blocks[-1][1] == c:
+                blocks[-1] = (blocks[-1][0], blocks[-1][1] + 1)
+            else:
+                blocks.append((c, 1))
+        longest = max(blocks, key=lambda b: (b[1], -b[0]))[0]  # lowest start on ties
+        if strategy == "lowest-unseen":
+            guess = unseen[0]
+        elif strategy == "longest-run":
+            guess = longest
+        elif strategy == "next-card":
+            follower = (last + 1) % n
+            guess = follower if i > 0 and follower not in seen else longest
+        elif i == 0:  # strip: the first guess is the reference bottom card
+            guess = n - 1
+        elif last + 1 < n and last + 1 not in seen:  # the packet goes on
+            guess = last + 1
+        elif packet_start - packet_len >= 0 and packet_start - packet_len not in seen:
+            guess = packet_start - packet_len  # one packet-length above it
+        else:
+            above = [c for c in unseen if c < packet_start]
+            guess = above[-1] if above else unseen[0]
+        score += guess == card
+        if i > 0 and card == last + 1:
+            packet_len += 1
+        else:
+            packet_start, packet_len = card, 1
+        seen.add(card)
+        last = card
+    return score
+
+
+def _check_scores(decks: np.ndarray) -> None:
+    found = guessing.guess_scores_many(decks, tuple(STRATEGIES))
+    for name in STRATEGIES:
+        expected = [_row_by_row(row, name) for row in decks.tolist()]
+        assert found[name].tolist() == expected, name
+
+
+@settings(max_examples=80, deadline=None)
+@given(_decks())
+def test_scores_match_row_by_row_play(decks):
+    # random arrangements of 1..70 cards: the 64-bit scoring path (up to 63) and the
+    # block path (64 and more) against the definitions played one card at a time
+    _check_scores(decks)
+
+
+@pytest.mark.parametrize("n", [2, 3, 13, 52, 62, 63])
+def test_scores_match_row_by_row_on_shuffled_decks(n):
+    # the decks each strategy is made for, and the ends of the 64-bit masks
+    from shufflecheck.models.procedures import parse_procedure
+
+    rng = np.random.default_rng(500 + n)
+    decks = np.concatenate(
+        [
+            rng.permuted(np.tile(np.arange(n), (60, 1)), axis=1),
+            riffle.sample(60, n, 2, rng=rng).astype(np.int64),
+            parse_procedure("riffle x3, strip(packets=2), cut").sample(60, n, 1, rng=rng),
+            parse_procedure("strip(packets=2), cut").sample(60, n, 1, rng=rng),
+            np.arange(n)[None, :],
+            np.arange(n)[None, ::-1],
+        ]
+    ).astype(np.int16)
+    _check_scores(decks)
