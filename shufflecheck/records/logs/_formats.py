@@ -418,13 +418,19 @@ def _csv_fields(text: str, delimiter: str) -> list[str] | None:
         return None
 
 
+#: (line ends, delimiter offsets, index of each line's first delimiter) of a block
+_Scan = tuple[np.ndarray, np.ndarray, np.ndarray]
+
+
 def _plain_block(
     records: list[bytes], rows: np.ndarray, shape: _Shape, joined: bytes | None = None
-) -> tuple[list[int], bytes, int, list[BadRow]] | None:
+) -> tuple[list[int], bytes, int, list[BadRow], _Scan | None] | None:
     """Check a block without quotes with array operations.
 
-    Returns (indices of good records, their bytes joined, blank count, failed rows), or
-    None when some line needs the record-by-record loop (not UTF-8, a stray carriage
+    Returns (indices of good records, their bytes joined, blank count, failed rows, the
+    line ends, delimiter offsets and each line's first delimiter when every record is
+    good, else None),
+    or None when some line needs the record-by-record loop (not UTF-8, a stray carriage
     return). ``joined``: the records already joined.
     """
     data = b"".join(records) if joined is None else joined
@@ -444,7 +450,8 @@ def _plain_block(
     if returns.size and not np.isin(returns + 1, ends).all():
         return None
     sep = np.flatnonzero(buf == ord(shape.delimiter))
-    fields = np.searchsorted(sep, ends) - np.searchsorted(sep, begins) + 1
+    first = np.searchsorted(sep, begins)  # each line's first delimiter
+    fields = np.searchsorted(sep, ends) - first + 1
     single = np.flatnonzero(fields == 1)  # a blank line has no delimiter
     blank = np.zeros(len(records), dtype=bool)
     blank[single] = [not records[k].strip() for k in single.tolist()]
@@ -461,25 +468,37 @@ def _plain_block(
     ]
     good = np.flatnonzero(~blank & ~wrong).tolist()
     if len(good) != len(records):
-        data = b"".join(records[k] for k in good)
-    return good, data, int(blank.sum()), failed
+        return good, b"".join(records[k] for k in good), int(blank.sum()), failed, None
+    return good, data, int(blank.sum()), failed, (ends, sep, first)
 
 
-def _field_spans(data: bytes, delimiter: str, field: int, width: int) -> OrderSpans:
+def _field_spans(
+    data: bytes,
+    delimiter: str,
+    field: int,
+    width: int,
+    scanned: _Scan | None = None,
+) -> OrderSpans:
     """Byte range of field ``field`` in every line of ``data`` (lines known to have
-    ``width`` fields and no quotes), without making text of it."""
+    ``width`` fields and no quotes), without making text of it. ``scanned``: the line
+    ends, delimiter offsets and first delimiter of each line of ``data`` when already
+    found by :func:`_plain_block` (not searched again)."""
     buf = np.frombuffer(data, dtype=np.uint8)
     if not data:
         empty = np.zeros(0, dtype=np.int64)
         return OrderSpans(buf, empty, empty)
-    ends = np.flatnonzero(buf == 10)
-    if not data.endswith(b"\n"):
-        ends = np.append(ends, buf.size)
+    if scanned is None:
+        ends = np.flatnonzero(buf == 10)
+        if not data.endswith(b"\n"):
+            ends = np.append(ends, buf.size)
+        sep = np.flatnonzero(buf == ord(delimiter))
+    else:
+        ends, sep, first = scanned
     begins = np.concatenate([[0], ends[:-1] + 1]).astype(np.int64)
     cr = (ends > begins) & (buf[np.maximum(ends - 1, 0)] == 13)
     line_end = ends - cr
-    sep = np.flatnonzero(buf == ord(delimiter))
-    first = np.searchsorted(sep, begins)
+    if scanned is None:
+        first = np.searchsorted(sep, begins)
     start = begins if field == 0 else sep[first + field - 1] + 1
     stop = line_end if field == width - 1 else sep[first + field]
     return OrderSpans(buf, start.astype(np.int64), stop.astype(np.int64))
@@ -543,9 +562,9 @@ def _csv_block(
 ) -> RawChunk:
     plain = None if quoted else _plain_block(records, rows, shape, joined)
     if plain is not None and shape.layout == "csv" and shape.before is None:
-        good, data, blank, failed = plain
+        good, data, blank, failed, scanned = plain
         good_rows = rows[np.asarray(good, dtype=np.int64)] if good else np.zeros(0, dtype=np.int64)
-        spans = _field_spans(data, shape.delimiter, shape.used[0], shape.width)
+        spans = _field_spans(data, shape.delimiter, shape.used[0], shape.width, scanned)
         return RawChunk(
             good_rows,
             _kept_frame(data, len(good), shape) if good else _empty_kept(shape),
@@ -556,7 +575,7 @@ def _csv_block(
             blank=blank,
         )
     if plain is not None:
-        good, data, blank, failed = plain
+        good, data, blank, failed, _ = plain
         frame = _split_fields(data.decode("utf-8"), len(good), shape.width, shape.delimiter)
         return _csv_raw(frame, records, rows, good, shape, failed, blank)
     failed = []
