@@ -302,9 +302,14 @@ def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.nda
     unseen = np.zeros(m, dtype=np.uint64)  # bit c: card c lies at this position or below
     mirror = np.zeros(m, dtype=np.uint64)  # the same set, bit n - 1 - c for card c
     top, top_bit, mask6 = np.uint64(n - 1), np.uint64(1 << (n - 1)), np.uint16(63)
+    # per card, as 16-bit words: 61 - c (wrapping) and 63 - c, for the key below
+    key_offset = (61 - c8.astype(np.int16)).astype(np.uint16)
+    key_back = (63 - c8.astype(np.int16)).astype(np.uint16)
     if want_next:  # the cyclic successor of each card: the top card follows the bottom one
         successor = c8 + np.uint8(1)
         successor[successor == n] = 0
+        succeeds = np.zeros((n, m), dtype=bool)  # the card follows the last one cyclically
+        np.equal(c8[1:], successor[:-1], out=succeeds[1:])
     for i in range(n - 1, -1, -1):
         c = c64[i]
         np.left_shift(_ONE, c, out=t)
@@ -333,12 +338,10 @@ def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.nda
         pu += pd
         np.left_shift(pu, 6, out=k, dtype=np.uint16)
         k += pd
-        k += np.uint16(61)
-        k -= c8[i]
+        k += key_offset[i]
         np.maximum(key, k, out=key)
         np.bitwise_and(key, mask6, out=k)
-        k += c8[i]
-        longest_hit = k == mask6  # 63 - start == 63 - c
+        longest_hit = k == key_back[i]  # 63 - start == 63 - c
         if want_longest:
             score["longest-run"] += longest_hit
         if want_next:
@@ -349,7 +352,7 @@ def _score_bitmask(cols: np.ndarray, names: tuple[str, ...]) -> dict[str, np.nda
             np.right_shift(unseen, nxt, out=t)
             t &= _ONE
             # right when the successor is shown; else, once it was seen, as longest-run
-            score["next-card"] += (c == nxt) | (longest_hit & (t == 0))
+            score["next-card"] += succeeds[i] | (longest_hit & (t == 0))
     if "strip" in names:
         _score_strip(c64, low_hit, score["strip"])
     return {name: score[name].astype(np.int64) for name in names}
@@ -378,14 +381,18 @@ def _score_strip(c64: np.ndarray, low_hit: np.ndarray, out: np.ndarray) -> None:
         np.right_shift(unseen, jump, out=t)
         t &= _ONE
         jump_hit = c == jump  # (then that card is unseen)
-        stop_jump = stop & (t == 0)
+        jump_seen = t == 0
         np.left_shift(_ONE, start, out=t)
         t -= _ONE
         t &= unseen  # the unseen cards above the packet (in reference order)
         np.right_shift(t, c, out=up)  # c is the highest of them when this is 1
         above = (up == _ONE) | ((t == 0) & low_hit[i])
         # right: the packet goes on; else the jump; else the card above the packet
-        out += (follows != 0) | (stop & jump_hit) | (stop_jump & above)
+        above &= jump_seen
+        above |= jump_hit
+        above &= stop
+        above |= follows != 0
+        out += above
         run *= follows
         run += _ONE
         np.left_shift(_ONE, c, out=t)
