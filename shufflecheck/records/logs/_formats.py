@@ -427,11 +427,10 @@ def _plain_block(
 ) -> tuple[list[int], bytes, int, list[BadRow], _Scan | None] | None:
     """Check a block without quotes with array operations.
 
-    Returns (indices of good records, their bytes joined, blank count, failed rows, the
-    line ends, delimiter offsets and each line's first delimiter when every record is
-    good, else None),
-    or None when some line needs the record-by-record loop (not UTF-8, a stray carriage
-    return). ``joined``: the records already joined.
+    Returns (indices of good records, their bytes joined, blank count, failed rows, and
+    when every record is good the :data:`_Scan` of those bytes, else None), or None when
+    some line needs the record-by-record loop (not UTF-8, a stray carriage return).
+    ``joined``: the records already joined.
     """
     data = b"".join(records) if joined is None else joined
     if not data.isascii():  # ASCII is UTF-8; only other bytes need decoding to be checked
