@@ -144,26 +144,30 @@ def _uniform_labels(
     positions, all decks at once.
     """
     decks, cards = segment.shape
-    rows = np.arange(decks)[:, None]
-    seg = segment.astype(np.intp)
-    opens = np.zeros((decks, cards), dtype=bool)
-    opens[:, 0] = True
-    opens[:, 1:] = seg[:, 1:] != seg[:, :-1]
-    first_at = first[rows, seg].astype(np.float64)
-    size_at = lengths[rows, seg].astype(np.float64)
     chance = rng.random((decks, cards))
-    labels = np.empty((decks, cards), dtype=bool)
+    sizes = lengths.ravel()
+
+    def spread(values: np.ndarray) -> np.ndarray:  # each segment's value at its positions
+        return np.repeat(values.ravel(), sizes).reshape(decks, cards)
+
+    # m, the positions left in the segment from each position on, and the threshold m u
+    # (a product of the same doubles as one position at a time)
+    offset = spread(starts.astype(np.int32))
+    np.subtract(np.arange(cards, dtype=np.int32), offset, out=offset)
+    threshold = spread(lengths.astype(np.float64))
+    threshold -= offset
+    threshold *= chance
+    # laid out position by position (one contiguous row of all decks per position)
+    threshold = threshold.T.copy()
+    opens = (offset == 0).T.copy()
+    first_at = spread(first.astype(np.int32)).T.copy()
+    labels = np.empty((cards, decks), dtype=bool)
     left = np.zeros(decks)
-    places = np.ones(decks)
     for i in range(cards):
-        new = opens[:, i]
-        left = np.where(new, first_at[:, i], left)
-        places = np.where(new, size_at[:, i], places)
-        take = chance[:, i] * places < left
-        labels[:, i] = take
-        left -= take
-        places -= 1.0
-    return labels
+        np.copyto(left, first_at[i], where=opens[i])
+        np.less(threshold[i], left, out=labels[i])
+        left -= labels[i]
+    return np.ascontiguousarray(labels.T)
 
 
 def _clumpy_labels(

@@ -35,7 +35,7 @@ from shufflecheck.common.sources import DIACONIS_1988, TRADE_PRACTICE
 from shufflecheck.core.distances import DistanceRow, row_from_groups
 from shufflecheck.models.base import Step, sample_step
 from shufflecheck.models.cut import centred_weights, check_spread, draw_from_weights
-from shufflecheck.models.permute import apply_in_blocks, apply_sources
+from shufflecheck.models.permute import apply_in_blocks, apply_sources, deck_dtype
 from shufflecheck.models.registry import ModelEntry, register_model
 
 __all__ = ["MAX_EXACT_CARDS", "Plug", "depth_law", "sample"]
@@ -84,8 +84,9 @@ class Plug(Step):
     def _sources(self, cards: int, depth: np.ndarray) -> np.ndarray:
         """``sources[d, i]``: old position of the card at new position ``i``."""
         rest = cards - self.cards
-        i = np.arange(cards)[None, :]
-        d = depth[:, None]
+        small = deck_dtype(cards)  # positions fit: fewer bytes through every pass
+        i = np.arange(cards, dtype=small)[None, :]
+        d = depth.astype(small)[:, None]
         if self.source == "bottom":  # packet = old rest..n-1, others = old 0..rest-1
             others = np.where(i < d, i, i - self.cards)
             return np.where((i >= d) & (i < d + self.cards), rest + (i - d), others)

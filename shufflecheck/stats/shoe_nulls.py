@@ -405,16 +405,22 @@ def greedy_guessing_law(counts: Sequence[int], *, budget: int | None = None) -> 
 @cache
 def _greedy_mean(parts: tuple[int, ...]) -> Fraction:
     n = sum(parts)
-    # Q_m(y) = prod_v sum_{x < m} C(c_v, x) y^x: remaining compositions with every count < m
-    mean_max = [Fraction(0)] * (n + 1)  # E[largest remaining count | r cards remain]
-    for m in range(1, max(parts) + 1):
+    top = max(parts)
+    # Q_m(y) = prod_v sum_{x < m} C(c_v, x) y^x: remaining compositions with every count < m;
+    # E[largest remaining count | r cards remain] = sum_{m=1}^{top} (1 - [y^r] Q_m / C(n, r))
+    # = top - B_r / C(n, r), with the integer B_r = sum_m [y^r] Q_m
+    binomials = {c: [math.comb(c, x) for x in range(c + 1)] for c in set(parts)}
+    below = [0] * (n + 1)
+    for m in range(1, top + 1):
         poly = [1]
         for c in parts:
-            poly = poly_multiply(poly, [math.comb(c, x) for x in range(min(c, m - 1) + 1)])
-        for r in range(1, n + 1):
-            below = poly[r] if r < len(poly) else 0
-            mean_max[r] += 1 - Fraction(below, math.comb(n, r))
-    return sum((mean_max[r] / r for r in range(1, n + 1)), Fraction(0))
+            poly = poly_multiply(poly, binomials[c][: min(c, m - 1) + 1])
+        for r in range(1, min(n, len(poly) - 1) + 1):
+            below[r] += poly[r]
+    total = Fraction(0)
+    for r in range(1, n + 1):
+        total += Fraction(top * math.comb(n, r) - below[r], r * math.comb(n, r))
+    return total
 
 
 def greedy_guessing_mean(counts: Sequence[int]) -> Fraction:

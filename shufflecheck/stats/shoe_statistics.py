@@ -152,21 +152,38 @@ def zone_counts(
 
 def greedy_scores(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarray) -> np.ndarray:
     """Correct guesses per shoe for a player who names a most frequent remaining class
-    (the lowest such class on ties) before each card and then sees it."""
-    counts = np.asarray(class_counts, dtype=np.int32)
+    (the lowest such class on ties) before each card and then sees it.
+
+    Every class ``c`` holds the key ``remaining[c] * V + (V - 1 - c)`` (``V`` classes):
+    keys are distinct, the largest names the guess, and a card is guessed right exactly
+    when its class holds the largest key. Keys are kept class by class (one contiguous row
+    of all shoes per class), so each position costs one maximum over ``V`` rows and one
+    gather and scatter of the cards' keys.
+    """
+    counts = np.asarray(class_counts, dtype=np.int64)
+    k = counts.size
     out = np.zeros(words.shape[0], dtype=np.int64)
+    if k == 0 or words.shape[0] == 0:
+        return out
+    top = (int(counts.max()) + 1) * k
+    wide = np.int16 if top < 1 << 15 else np.int32 if top < 1 << 31 else np.int64
+    start_keys = (counts * k + (k - 1 - np.arange(k))).astype(wide)
     for start in range(0, words.shape[0], _CHUNK):
-        cls = _classes_of(words[start : start + _CHUNK], classes).astype(np.intp)
-        m = cls.shape[0]
-        remaining = np.broadcast_to(counts, (m, counts.size)).copy()
-        rows = np.arange(m)
+        cls = _classes_of(words[start : start + _CHUNK], classes)
+        m, n = cls.shape
+        key = np.repeat(start_keys[:, None], m, axis=1)  # (classes, shoes)
+        flat = key.reshape(-1)
+        # flat index of each card's key, position by position: (n, shoes)
+        at = cls.T.astype(np.intp) * m + np.arange(m, dtype=np.intp)
         score = np.zeros(m, dtype=np.int64)
-        for i in range(cls.shape[1]):
-            guess = np.argmax(remaining, axis=1)
-            card = cls[:, i]
-            score += guess == card
-            remaining[rows, card] -= 1
-        out[start : start + _CHUNK] = score
+        best = np.empty(m, dtype=wide)
+        for i in range(n):
+            np.max(key, axis=0, out=best)
+            where = at[i]
+            mine = flat[where]
+            score += mine == best
+            flat[where] = mine - k
+        out[start : start + m] = score
     return out
 
 
@@ -209,8 +226,16 @@ def first_appearance_orders(words: np.ndarray, references: np.ndarray, kinds: in
     """
     count = words.shape[0]
     out = np.zeros((count, kinds), dtype=np.int16)
+    # one reference for every shoe (a broadcast row, as in a simulation from one starting
+    # order): its ranks are found once
+    shared = None
+    if references.ndim == 2 and references.shape[0] > 1 and references.strides[0] == 0:
+        shared = first_appearance_ranks(references[:1], kinds)
     for start in range(0, count, _CHUNK):
-        ranks = first_appearance_ranks(references[start : start + _CHUNK], kinds)
+        if shared is None:
+            ranks = first_appearance_ranks(references[start : start + _CHUNK], kinds)
+        else:
+            ranks = np.broadcast_to(shared, (min(count, start + _CHUNK) - start, kinds))
         own = first_appearance_ranks(words[start : start + _CHUNK], kinds)
         order = np.argsort(own, axis=1)  # the kinds in the order they first appear here
         out[start : start + _CHUNK] = np.take_along_axis(ranks, order, axis=1)
