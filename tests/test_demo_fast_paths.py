@@ -166,3 +166,112 @@ def _greedy_mean_before(parts):
 )
 def test_greedy_mean_same_fraction(counts):
     assert shoe_nulls.greedy_guessing_mean(counts) == _greedy_mean_before(sorted(counts))
+
+
+# ---------------------------------------------------------------------------------------
+# simulate: the card words looked up inside the composition, straight into the text
+
+
+@pytest.mark.parametrize("count", [1, 2, 17, 256, 1237])
+def test_composed_lookup_equals_labels_then_lookup(count):
+    from shufflecheck.models.procedures import composed_lookup, running_composition
+
+    rng = np.random.default_rng(count)
+    relative = rng.permuted(np.broadcast_to(np.arange(52, dtype=np.int16), (count, 52)), axis=1)
+    initial = rng.permutation(52).astype(np.int16)
+    decks = running_composition(relative, initial=initial)
+    table = (np.arange(52, dtype=np.uint16) * 7 + 3)[::-1].copy()
+    # a strided target, as the text matrix gives
+    text = np.zeros((count, 52 * 3), dtype=np.uint8)
+    target = np.ndarray((count, 52), np.uint16, text, 0, (text.strides[0], 3))
+    last = composed_lookup(relative, table, target, initial=initial)
+    assert np.array_equal(target, table[decks])
+    assert np.array_equal(last, decks[-1])
+    assert (text[:, 2::3] == 0).all()  # nothing written between the cells
+
+
+@pytest.mark.parametrize(
+    "options",
+    [
+        {},
+        {"reference": "first"},
+        {"table": "Table 9", "start": "2026-11-02T18:00"},
+        {"deck": "shoe(packs=2)", "procedure": "riffle x3, cut"},
+        {"cards": 40, "procedure": "riffle x2, cut"},  # integer labels of two widths
+        {"change": (70_000, "strip"), "repeats": 2},
+    ],
+)
+@pytest.mark.parametrize("suffix", [".csv", ".tsv"])
+def test_simulated_log_bytes_as_the_whole_writer(tmp_path, options, suffix):
+    # the log simulate writes block by block (composed inside the writer) against the
+    # previous path: every deck simulated first (simulate_play), then write_log
+    from shufflecheck.analyses.simulate import _columns, simulate_log
+    from shufflecheck.models.procedures import parse_procedure, simulate_play
+    from shufflecheck.records.cards import integer_deck, load_deck
+    from shufflecheck.records.logs import write_log
+    from shufflecheck.records.shoes import load_shoe
+
+    options = dict(options)
+    procedure = parse_procedure(options.pop("procedure", "riffle x2"))
+    change = options.pop("change", None)
+    if change is not None:
+        change = (change[0], parse_procedure(change[1]))
+    decks = 140_000 if change is not None else 12_345
+    table, start = options.pop("table", None), options.pop("start", None)
+    spec = options.get("deck")
+    simulate_log(
+        tmp_path / f"new{suffix}",
+        procedure,
+        decks=decks,
+        seed=4,
+        change=change,
+        table=table,
+        start=start,
+        **options,
+    )
+    shoe = load_shoe(spec) if spec else None
+    n = options.get("cards") or (shoe.size if shoe else 52)
+    orders = simulate_play(
+        procedure,
+        n,
+        decks,
+        rng=4,
+        reference=options.get("reference", "previous"),
+        repeats=options.get("repeats", 1),
+        change=change,
+    )
+    first = None
+    if start is not None:
+        import datetime as dt
+
+        first = dt.datetime.fromisoformat(start)
+    deck = shoe if shoe else (load_deck() if n == 52 else integer_deck(n))
+    write_log(
+        tmp_path / f"old{suffix}",
+        orders,
+        deck,
+        _columns(0, decks + 1, table, first, 120),
+        labels="codes" if n == 52 or shoe else "int1",
+    )
+    new = (tmp_path / f"new{suffix}").read_bytes()
+    assert new == (tmp_path / f"old{suffix}").read_bytes()
+    assert new.count(b"\n") == decks + 2
+
+
+def test_write_composed_without_fixed_words(tmp_path):
+    # integer labels of two widths: the writer composes the decks, then writes them
+    from shufflecheck.models.procedures import running_composition
+    from shufflecheck.records.cards import integer_deck
+    from shufflecheck.records.logs.writer import LogWriter
+
+    rng = np.random.default_rng(8)
+    relative = rng.permuted(np.broadcast_to(np.arange(30, dtype=np.int16), (500, 30)), axis=1)
+    start = np.arange(30, dtype=np.int16)
+    deck = integer_deck(30)
+    with LogWriter(tmp_path / "a.csv", deck, ["deck"], labels="int1", check=False) as log:
+        last = log.write_composed(relative, start, {"deck": range(500)})
+    with LogWriter(tmp_path / "b.csv", deck, ["deck"], labels="int1", check=False) as log:
+        decks = running_composition(relative, initial=start)
+        log.write(decks, {"deck": range(500)})
+    assert (tmp_path / "a.csv").read_bytes() == (tmp_path / "b.csv").read_bytes()
+    assert np.array_equal(last, decks[-1])

@@ -18,7 +18,8 @@ import numpy as np
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.files import check_output
-from shufflecheck.models.procedures import Procedure, simulate_play, simulated_chunks
+from shufflecheck.models.permute import deck_dtype
+from shufflecheck.models.procedures import Procedure, relative_chunks, simulate_play
 from shufflecheck.records.cards import DeckDefinition, integer_deck, load_deck
 from shufflecheck.records.logs.writer import LogWriter, write_log
 from shufflecheck.records.shoes import ShoeDefinition, load_shoe
@@ -122,12 +123,20 @@ def simulate_log(
     target = Path(out)
     names = ["deck", *(["table"] if table is not None else []), *(["recorded_at"] * bool(first))]
     if target.suffix.lower() in (".csv", ".tsv"):
-        chunks = simulated_chunks(procedure, n, decks, **options)
+        # the rows of simulated_chunks, composed inside the writer: the card words are
+        # looked up in the composition's last gather, straight into the text
+        chunks = relative_chunks(procedure, n, decks, **options)
         with LogWriter(target, log_deck, names, labels=labels, check=False, force=force) as log:
-            row = 0
-            for block in chunks:
-                log.write(block, _columns(row, len(block), table, first, every))
-                row += len(block)
+            previous = np.arange(n, dtype=deck_dtype(n))
+            log.write(previous[None, :], _columns(0, 1, table, first, every))
+            row = 1
+            for relative in chunks:
+                columns = _columns(row, len(relative), table, first, every)
+                if reference == "first":
+                    log.write(relative, columns)
+                else:
+                    previous = log.write_composed(relative, previous, columns)
+                row += len(relative)
     else:
         orders = simulate_play(procedure, n, decks, **options)
         write_log(

@@ -48,9 +48,11 @@ __all__ = [
     "SIMULATION_REFERENCES",
     "Procedure",
     "ProcedureItem",
+    "composed_lookup",
     "load_procedure",
     "parse_procedure",
     "procedure_from_argument",
+    "relative_chunks",
     "renamed_key",
     "running_composition",
     "simulate_play",
@@ -484,6 +486,25 @@ def simulated_chunks(
     return _composed_chunks(chunks, cards, reference)
 
 
+def relative_chunks(
+    procedure: Procedure,
+    cards: int,
+    decks: int,
+    *,
+    rng: np.random.Generator | int | None = None,
+    reference: str = "previous",
+    repeats: int = 1,
+    change: tuple[int, Procedure] | None = None,
+) -> Iterator[np.ndarray]:
+    """The relative permutations behind :func:`simulated_chunks` (same arguments, same
+    random stream), up to ``CHUNK_DECKS`` decks at a time: with ``reference="previous"``
+    deck ``t`` is deck ``t - 1`` composed with its row (:func:`running_composition`), with
+    ``reference="first"`` the rows are the decks. Arguments are checked before the first
+    draw."""
+    chunks = _relative_chunks(procedure, cards, decks, rng, reference, repeats, change)
+    return (relative for _, relative in chunks)
+
+
 def _composed_chunks(
     chunks: Iterator[tuple[int, np.ndarray]], cards: int, reference: str
 ) -> Iterator[np.ndarray]:
@@ -562,11 +583,36 @@ def running_composition(
     one gather per position, written straight into ``out``). Exact: the same permutations
     as composing one deck at a time.
     """
-    count, cards = relative.shape
     if out is None:
         out = np.empty_like(relative)
-    if count == 0:
-        return out
+    if relative.shape[0]:
+        _compose_into(relative, None, out, initial)
+    return out
+
+
+def composed_lookup(
+    relative: np.ndarray, table: np.ndarray, out: np.ndarray, initial: np.ndarray | None = None
+) -> np.ndarray:
+    """``out[t] = table[C_t]`` for the running composition ``C_t`` of
+    :func:`running_composition`, looked up in its last gather (no array of the labels
+    ``C_t`` is made: ``out`` may be a strided view, e.g. the cells of a text matrix).
+
+    Returns ``C_D``, the labels of the last row (``initial`` when there are no rows), to
+    continue the composition in the next block.
+    """
+    cards = relative.shape[1]
+    first = np.arange(cards, dtype=relative.dtype) if initial is None else np.asarray(initial)
+    if relative.shape[0] == 0:
+        return first.copy()
+    return _compose_into(relative, table, out, first)
+
+
+def _compose_into(
+    relative: np.ndarray, table: np.ndarray | None, out: np.ndarray, initial: np.ndarray | None
+) -> np.ndarray:
+    """The composition of :func:`running_composition` written into ``out`` (through
+    ``table`` when given); returns the last row's labels."""
+    count, cards = relative.shape
     width = max(1, math.isqrt(count))
     blocks = -(-count // width)
     whole = count // width  # blocks without padding
@@ -588,11 +634,15 @@ def running_composition(
     start[0] = np.arange(cards, dtype=relative.dtype) if initial is None else initial
     for b in range(1, blocks):
         start[b] = start[b - 1][prefix[-1, b - 1]]
-    flat = start.ravel()
-    rows = out[: whole * width].reshape(whole, width, cards).transpose(1, 0, 2)
+    looked = start if table is None else table[start]
+    flat = looked.ravel()
+    # a view of out (never a copy, which would drop the writes): out may be strided
+    rows = out[: whole * width].reshape(whole, width, cards, copy=False).transpose(1, 0, 2)
     for j in range(width):  # out[b, j, i] = start[b, prefix[j, b, i]]
         np.add(prefix[j], offsets, out=index)
         np.take(flat, index[:whole], out=rows[j], mode="clip")
-    if whole < blocks:
-        out[whole * width :] = start[whole][prefix[: count - whole * width, whole]]
-    return out
+    tail = count - whole * width
+    if tail:
+        out[whole * width :] = looked[whole][prefix[:tail, whole]]
+        return start[whole][prefix[tail - 1, whole]]
+    return start[-1][prefix[-1, -1]]

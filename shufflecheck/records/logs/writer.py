@@ -274,6 +274,57 @@ class LogWriter:
             self._handle.write(b"".join(pieces))
         self.rows += len(part)
 
+    def write_composed(
+        self,
+        relative: np.ndarray,
+        initial: np.ndarray,
+        columns: Mapping[str, Sequence[Any]] | None = None,
+    ) -> np.ndarray:
+        """Append the decks ``C_t[i] = C_{t-1}[relative_t[i]]`` (``C_0 = initial``), the
+        running composition of :func:`~shufflecheck.models.procedures.running_composition`,
+        with one value per deck of each column; returns the last deck.
+
+        The same bytes as ``write(running_composition(relative, initial=initial), columns)``;
+        where the rows have one width and the card words fit 1, 2, 4 or 8 bytes, the words
+        are looked up inside the composition's last gather, straight into the text (the
+        decks themselves are never built).
+        """
+        from shufflecheck.models.procedures import composed_lookup, running_composition
+
+        if self._handle is None:
+            raise RuntimeError("LogWriter.write_composed outside its with block")
+        relative = np.asarray(relative)
+        given = dict(columns or {})
+        if set(given) != set(self.columns):
+            raise InputError(
+                f"columns {sorted(given)} do not match the log's columns {self.columns}"
+            )
+        values = [_column_values(given[name]) for name in self.columns]
+        if any(len(v) != len(relative) for v in values):
+            raise InputError(f"columns must have one value for each of the {len(relative)} decks")
+        fields = [_csv_field(v, self.delimiter) for v in values]
+        runs = _equal_width_runs(fields, len(relative)) if len(relative) else None
+        width = None if self.codes is None else self.codes.dtype.itemsize - 1
+        if self.check or runs is None or width not in (1, 2, 4, 8):
+            decks = running_composition(relative, initial=initial)
+            self.write(decks, given)
+            return decks[-1].copy() if len(decks) else np.asarray(initial).copy()
+        assert self.codes is not None
+        words = _code_words(self.codes)
+        last = np.asarray(initial)
+        for lo, hi in runs:  # rows of one width: one byte matrix each
+            matrix, target = _csv_frame(
+                hi - lo,
+                relative.shape[1],
+                [f.rows(lo, hi) for f in fields],
+                self.codes,
+                self.delimiter,
+            )
+            last = composed_lookup(relative[lo:hi], words, target, initial=last)
+            self._handle.write(matrix)
+        self.rows += len(relative)
+        return last
+
 
 # --------------------------------------------------------------------------------------
 # CSV text as byte matrices: rows of equal width are filled column by column
@@ -461,8 +512,32 @@ def _csv_rows(
 ) -> np.ndarray:
     """Rows of equal width as one byte matrix: the cells, separators, the order words and
     a newline (the last word's space)."""
+    out, target = _csv_frame(decks.shape[0], decks.shape[1], columns, codes, delimiter)
+    if target is not None:
+        # the words gathered as unsigned integers into a strided view (one step per card)
+        target[...] = _code_words(codes)[decks]
+    else:
+        position = out.shape[1] - decks.shape[1] * codes.dtype.itemsize
+        out[:, position:].view(codes.dtype)[...] = codes[decks]
+        out[:, -1] = ord("\n")
+    return out
+
+
+def _code_words(codes: np.ndarray) -> np.ndarray:
+    """The card words of ``codes`` (without their space) as unsigned integers of their width."""
+    width = codes.dtype.itemsize - 1
+    return np.frombuffer(b"".join(c[:width] for c in codes.tolist()), f"u{width}")
+
+
+def _csv_frame(
+    rows: int, cards: int, columns: list[np.ndarray], codes: np.ndarray, delimiter: str
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """The byte matrix of :func:`_csv_rows` with the cells, separators, the spaces after
+    the words and the newlines in place, and (for words of 1, 2, 4 or 8 bytes) the strided
+    view of unsigned integers where the words go (None otherwise: nothing but the cells
+    written)."""
     front = sum(c.shape[1] + 1 for c in columns)
-    out = np.empty((decks.shape[0], front + decks.shape[1] * codes.dtype.itemsize), np.uint8)
+    out = np.empty((rows, front + cards * codes.dtype.itemsize), np.uint8)
     position = 0
     for cells in columns:
         out[:, position : position + cells.shape[1]] = cells
@@ -470,18 +545,14 @@ def _csv_rows(
         out[:, position] = ord(delimiter)
         position += 1
     code_width = codes.dtype.itemsize - 1  # the word, then its space
-    if code_width in (1, 2, 4, 8):
-        # the words gathered as unsigned integers into a strided view (one step per card)
-        out[:, position + code_width :: code_width + 1] = ord(" ")
-        words = np.frombuffer(b"".join(c[:code_width] for c in codes.tolist()), f"u{code_width}")
-        target = np.ndarray(
-            decks.shape, words.dtype, out, position, (out.strides[0], code_width + 1)
-        )
-        target[...] = words[decks]
-    else:
-        out[:, position:].view(codes.dtype)[...] = codes[decks]
+    if code_width not in (1, 2, 4, 8):
+        return out, None
+    out[:, position + code_width :: code_width + 1] = ord(" ")
+    target = np.ndarray(
+        (rows, cards), f"u{code_width}", out, position, (out.strides[0], code_width + 1)
+    )
     out[:, -1] = ord("\n")
-    return out
+    return out, target
 
 
 def _order_lines(decks: np.ndarray, words: list[str]) -> list[bytes]:
