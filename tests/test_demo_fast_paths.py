@@ -275,3 +275,42 @@ def test_write_composed_without_fixed_words(tmp_path):
         log.write(decks, {"deck": range(500)})
     assert (tmp_path / "a.csv").read_bytes() == (tmp_path / "b.csv").read_bytes()
     assert np.array_equal(last, decks[-1])
+
+
+def _zone_law_before(cards, marked, zones):
+    # the previous implementation: the products rebuilt (truncated at x^marked) per law
+    from collections import defaultdict
+
+    rest = cards - sum(zones)
+    outside = [math.comb(rest, t) for t in range(min(rest, marked) + 1)]
+    widths = defaultdict(int)
+    for width in zones:
+        widths[width] += 1
+    at_most = []
+    for m in range(max(zones) + 1):
+        poly = [1]
+        for width, times in widths.items():
+            base = [math.comb(width, t) for t in range(min(m, width) + 1)]
+            while times:
+                if times & 1:
+                    poly = poly_multiply(poly, base)[: marked + 1]
+                times >>= 1
+                if times:
+                    base = poly_multiply(base, base)[: marked + 1]
+        at_most.append(
+            sum(
+                poly[i] * outside[marked - i] for i in range(len(poly)) if marked - i < len(outside)
+            )
+        )
+    return [at_most[0]] + [at_most[m] - at_most[m - 1] for m in range(1, len(at_most))]
+
+
+@pytest.mark.parametrize(
+    ("cards", "zones"), [(312, (52,) * 6), (312, (40, 60, 100)), (40, (10,) * 4), (10, (3,))]
+)
+def test_zone_laws_share_their_products(cards, zones):
+    for marked in sorted({0, 1, 2, cards // 7, cards // 3, cards - sum(zones), cards}):
+        law = shoe_nulls.zone_maximum_law(cards, marked, zones)
+        counts = [0] * law.offset + list(law.counts)
+        before = _zone_law_before(cards, marked, zones)
+        assert counts + [0] * (len(before) - len(counts)) == before, marked

@@ -203,30 +203,39 @@ def matches_law(counts: Sequence[int]) -> Law:
 
 
 @cache
+def _zone_products(zones: tuple[int, ...]) -> tuple[tuple[int, ...], ...]:
+    """For ``m = 0 .. max(zones)``: the coefficients of ``prod_z sum_{t <= m} C(w_z, t) x^t``
+    (whole products, shared by every number of marked cards)."""
+    widths: dict[int, int] = defaultdict(int)
+    for width in zones:
+        widths[width] += 1
+    products = []
+    for m in range(max(zones) + 1):
+        poly = [1]
+        for width, times in widths.items():
+            base = [math.comb(width, t) for t in range(min(m, width) + 1)]
+            while times:  # powers by squaring
+                if times & 1:
+                    poly = poly_multiply(poly, base)
+                times >>= 1
+                if times:
+                    base = poly_multiply(base, base)
+        products.append(tuple(poly))
+    return tuple(products)
+
+
+@cache
 def _zone_maximum_law(cards: int, marked: int, zones: tuple[int, ...]) -> Law:
     # N(max <= m) = [x^marked] prod_z (sum_{t <= m} C(w_z, t) x^t) * (1 + x)^rest: the
     # positions outside every zone form one more, unscored zone.
     rest = cards - sum(zones)
     outside = [math.comb(rest, t) for t in range(min(rest, marked) + 1)]
-    widths: dict[int, int] = defaultdict(int)
-    for width in zones:
-        widths[width] += 1
     at_most = []
-    for m in range(max(zones) + 1):
-        poly = [1]
-        for width, times in widths.items():
-            base = [math.comb(width, t) for t in range(min(m, width) + 1)]
-            while times:  # powers by squaring, truncated at x^marked
-                if times & 1:
-                    poly = poly_multiply(poly, base)[: marked + 1]
-                times >>= 1
-                if times:
-                    base = poly_multiply(base, base)[: marked + 1]
+    for poly in _zone_products(zones):
         # coefficient of x^marked in poly * outside
+        low = max(0, marked - len(outside) + 1)
         at_most.append(
-            sum(
-                poly[i] * outside[marked - i] for i in range(len(poly)) if marked - i < len(outside)
-            )
+            sum(poly[i] * outside[marked - i] for i in range(low, min(len(poly), marked + 1)))
         )
     row = [at_most[0]] + [at_most[m] - at_most[m - 1] for m in range(1, len(at_most))]
     return Law.from_counts(row, math.comb(cards, marked))
