@@ -12,8 +12,14 @@ import pytest
 _FIGURES: list[str] = []
 
 
-def record(what: str, measured: float, target: float, unit: str = "s") -> None:
-    """Note one measured figure beside its target (lower is better)."""
+def record(
+    what: str, measured: float, target: float | None, unit: str = "s", note: str = ""
+) -> None:
+    """Note one measured figure beside its target (lower is better); a same-run baseline
+    has no target (``target=None``) and says what it is in ``note``."""
+    if target is None:
+        _FIGURES.append(f"{what}: {measured:.4g} {unit} ({note or 'same-run baseline'})")
+        return
     status = "meets target" if measured <= target else "MISSES target"
     _FIGURES.append(f"{what}: {measured:.4g} {unit} (target <= {target:g} {unit}; {status})")
 

@@ -75,8 +75,13 @@ def test_audit_against_the_pyarrow_floor(benchmark, figures, million):
     (_, _anchor_peak, anchor_cpu), (base, peak, cpu) = benchmark.pedantic(
         run, rounds=1, iterations=1
     )
-    figures(f"anchor: pyarrow read + int8 decode of {DECKS:,} decks, CPU", anchor_cpu, 1.6)
+    figures(
+        f"anchor: pyarrow read + int8 decode of {DECKS:,} decks, CPU",
+        anchor_cpu,
+        None,
+        note="same-run baseline; the issue measured about 1 to 1.6 s for it",
+    )
     figures(f"audit of {DECKS:,} decks (CSV, reference previous), CPU", cpu, 5.0)
-    figures("audit CPU / anchor CPU (same run)", cpu / anchor_cpu, 5.0 / 1.6, "x")
+    figures("audit CPU / anchor CPU (same run)", cpu / anchor_cpu, None, "x", "the ratio")
     figures("audit peak resident memory (whole process)", peak, 300, "MB")
     figures("audit peak memory above the imports", peak - base, 300, "MB")
