@@ -2,6 +2,12 @@
 
 Tests marked ``slow`` (exhaustive checks, large simulations) are skipped unless
 ``--run-slow`` is given or ``SHUFFLECHECK_SLOW=1`` is set; CI runs them when time allows.
+
+Property tests (hypothesis) draw the same examples on every run by default (profile
+``fixed``: derandomized, no example database), so the default run, and CI, pass or fail
+the same way each time. ``SHUFFLECHECK_HYPOTHESIS=explore`` draws fresh random examples
+(1,000 per test where a test sets no count of its own) to hunt for new counterexamples; a
+failure found that way is fixed, and kept as an explicit example where useful.
 """
 
 from __future__ import annotations
@@ -9,6 +15,11 @@ from __future__ import annotations
 import os
 
 import pytest
+from hypothesis import settings
+
+settings.register_profile("fixed", derandomize=True, database=None)
+settings.register_profile("explore", max_examples=1000, database=None)
+settings.load_profile(os.environ.get("SHUFFLECHECK_HYPOTHESIS", "fixed"))
 
 
 @pytest.fixture(scope="session")
