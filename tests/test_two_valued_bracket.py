@@ -109,3 +109,33 @@ def test_mix_shows_both_ends(tmp_path):
     rows = json.loads(result.output)["rows"]
     assert all(r["total_variation_lower"]["side"] == "lower" for r in rows)
     assert all(r["total_variation_lower"]["value"] <= r["total_variation"]["value"] for r in rows)
+
+
+class TestBlocksUpToRenaming:
+    """A start whose classes each fill one run, in any order of the classes, is a start in
+    blocks: renaming the classes maps words one to one onto words."""
+
+    @pytest.mark.parametrize("a", [2, 4, 8])
+    def test_separation_and_tv_against_all_arrangements(self, a):
+        # source: the word law summed over all 9! arrangements from the Bayer & Diaconis
+        # arrangement law (features.small_deck_law), no block formula on that side
+        from fractions import Fraction
+
+        for start, runs in (([2, 2, 2, 0, 0, 0, 1, 1, 1], (3, 3, 3)), ([1] * 5 + [0] * 4, (5, 4))):
+            assert features.block_runs(start) == runs
+            law = features.small_deck_law(start, a)
+            words = math.factorial(9) // math.prod(math.factorial(r) for r in runs)
+            least = min(law.values()) if len(law) == words else Fraction(0)
+            assert features.block_separation(runs, a) == 1 - words * least
+            if len(runs) == 2:
+                tv = sum(abs(p - Fraction(1, words)) for p in law.values()) / 2
+                tv += Fraction(words - len(law), 2 * words)
+                assert features.two_valued_block_tv(*runs, a) == tv
+
+    def test_a_reversed_two_valued_deck_is_exact(self):
+        row = features.feature_distances([1] * 13 + [0] * 13, 3)
+        assert row.total_variation.kind == "exact"
+        assert row.total_variation.value == pytest.approx(
+            float(features.two_valued_block_tv(13, 13, 8))
+        )
+        assert features.block_runs([0, 1, 0]) is None  # class 0 in two runs

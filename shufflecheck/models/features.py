@@ -11,7 +11,8 @@ cards (data processing; for separation: ``M P(w) >= M |coset| min P(sigma) = n! 
 which Bayer & Diaconis give exactly for any ``n`` ([1]); and ``TV <= separation``.
 
 **Exact separation for a start in blocks.** When the deck starts with all cards of class 0
-on top, then all of class 1, and so on, an ``a``-shuffle gives a word ``w`` with
+on top, then all of class 1, and so on (or any renaming of the classes: every class in one
+run, :func:`block_runs`), an ``a``-shuffle gives a word ``w`` with
 probability ``N_a(w) / a^n``, ``N_a(w)`` the number of label sequences (every new position
 gets one of ``a`` packet labels, [1]) whose reading in (label, position) order is the
 start. Swapping two adjacent cards ``x < y`` of a word into ``y x`` maps these sequences
@@ -83,6 +84,7 @@ __all__ = [
     "FEATURE_SOURCES_NOTE",
     "FeatureCurve",
     "FeatureDistances",
+    "block_runs",
     "block_separation",
     "feature_curve",
     "feature_curve_until",
@@ -115,6 +117,22 @@ def in_blocks(start: Sequence[int]) -> bool:
     return all(b - a in (0, 1) for a, b in itertools.pairwise(values)) and (
         not values or values[0] == 0
     )
+
+
+def block_runs(start: Sequence[int]) -> tuple[int, ...] | None:
+    """The run lengths, top first, when every class of ``start`` fills one contiguous run
+    (a start in blocks up to the names of the classes: ``2..2 0..0 1..1`` as well as
+    ``0..0 1..1 2..2``), else None. Renaming the classes maps words one to one onto words,
+    so the distances of a start in blocks depend only on these lengths."""
+    values = [int(x) for x in start]
+    runs: list[int] = []
+    seen: set[int] = set()
+    for value, group in itertools.groupby(values):
+        if value in seen:
+            return None
+        seen.add(value)
+        runs.append(sum(1 for _ in group))
+    return tuple(runs)
 
 
 def _class_counts(start: Sequence[int]) -> tuple[int, ...]:
@@ -350,7 +368,9 @@ def _feature_distances(values: tuple[int, ...], steps: int, hands: int) -> Featu
     sep = Quantity(full.separation, "bound", side="upper", method=distinct)
     kl = Quantity(full.kl_bits, "bound", side="upper", method=distinct, unit="bits")
     lower = None
-    if in_blocks(values):
+    runs = block_runs(values)
+    if runs is not None:
+        counts = runs  # the classes renamed in the order of their blocks
         exact_sep = float(block_separation(counts, packets))
         sep = Quantity(
             exact_sep, "exact", method="exact: least likely word of a start in blocks (derived)"
