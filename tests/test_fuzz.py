@@ -216,6 +216,33 @@ class TestJsonLinesReader:
         with pytest.raises(InputError, match="key 'order' appears twice"):
             _read_strict(b'{"order": ["AS"], "order": ["2S"]}\n', ".jsonl")
 
+    @pytest.mark.parametrize(
+        "line",
+        [
+            b'{"order": "AS", "extra": "\\ud800"}',  # half a surrogate pair in a kept value
+            b'{"ord\\udfffer": "AS"}',  # in a key
+            b'{"order": "AS", "x": [{"y": "a\\uDBFFb"}]}',  # nested, upper-case hex
+        ],
+    )
+    def test_half_a_surrogate_pair(self, line, tmp_path):
+        # regression (found by the long fuzz run): a JSON escape of half a surrogate pair
+        # parses to a text that is no Unicode and escaped as UnicodeEncodeError
+        from shufflecheck.records.logs import read_log
+
+        deck = " ".join(CODES)
+        good = json.dumps({"order": deck}).encode()
+        with pytest.raises(InputError, match="line 2: a text holds half of a surrogate pair"):
+            _read_strict(good + b"\n" + line + b"\n", ".jsonl")
+        path = tmp_path / "log.jsonl"
+        path.write_bytes(good + b"\n" + line + b"\n" + good + b"\n")
+        reader = read_log(path, quarantine=tmp_path / "set-aside.csv")
+        assert sum(len(chunk) for chunk in reader) == 2
+        assert reader.summary.set_aside == 1
+        assert "half of a surrogate pair" in (tmp_path / "set-aside.csv").read_text()
+        pair = json.dumps({"order": deck, "note": "\U0001f600"}).encode()  # a whole pair: fine
+        assert b"\\ud83d\\ude00" in pair
+        _read_strict(pair + b"\n", ".jsonl")
+
 
 def _read_strict(data: bytes, suffix: str, **options) -> None:
     from shufflecheck.records.logs import read_log

@@ -774,6 +774,26 @@ def _json_depth(line: bytes) -> int:
     return deepest
 
 
+#: a JSON escape of a UTF-16 surrogate (``\ud800`` to ``\udfff``): paired it is one
+#: character, alone it is no Unicode text at all
+_SURROGATE_ESCAPE = re.compile(rb"\\u[dD][89a-fA-F]")
+
+
+def _lone_surrogate(value: Any) -> bool:
+    """Whether a parsed JSON value holds a text (key or value) with a lone surrogate."""
+    if isinstance(value, str):
+        try:
+            value.encode("utf-8")
+        except UnicodeEncodeError:
+            return True
+        return False
+    if isinstance(value, dict):
+        return any(_lone_surrogate(k) or _lone_surrogate(v) for k, v in value.items())
+    if isinstance(value, list):
+        return any(_lone_surrogate(v) for v in value)
+    return False
+
+
 def _json_record(
     line: bytes, order_key: str = "order"
 ) -> tuple[list[object] | str, dict[str, Any] | None, tuple[str, str] | None]:
@@ -781,7 +801,9 @@ def _json_record(
 
     Refused as malformed before or while parsing: nesting deeper than
     :data:`MAX_JSON_DEPTH` arrays and objects, a key given twice in one object (JSON [2]
-    leaves duplicates undefined; the last would win silently), a number too long to read.
+    leaves duplicates undefined; the last would win silently), a number too long to read,
+    a text escaping half of a surrogate pair (``"\\ud800"`` alone: JSON's grammar admits it,
+    but it is no Unicode text and cannot be written back out).
     """
     depth = _json_depth(line)
     if depth > MAX_JSON_DEPTH:
@@ -801,6 +823,12 @@ def _json_record(
     except (ValueError, RecursionError) as exc:  # a number of more than 4,300 digits
         what = "a number too long to read" if "digits" in str(exc) else "a value too deep to read"
         return [], None, ("malformed-json", what)
+    if _SURROGATE_ESCAPE.search(line) and _lone_surrogate(value):
+        return (
+            [],
+            None,
+            ("malformed-json", "a text holds half of a surrogate pair (\\ud800-\\udfff)"),
+        )
     if not isinstance(value, dict):
         kind = _JSON_KIND.get(type(value).__name__, "true/false/null")
         return [], None, ("malformed-json", f"a line must be a JSON object, got {kind}")
