@@ -507,64 +507,96 @@ def _temporaries(folder: Path) -> list[Path]:
     return [p for p in folder.iterdir() if p.name.endswith((".incomplete", ".replaced"))]
 
 
-def _wait_for_temporary(folder: Path, process, least: int = 1, timeout: float = 120) -> Path:
-    """Wait until ``process`` has a temporary of at least ``least`` bytes in ``folder``."""
-    end = time.monotonic() + timeout
-    while time.monotonic() < end:
-        for path in _temporaries(folder):
-            try:
-                size = path.stat().st_size if path.is_file() else least
-            except FileNotFoundError:
-                continue
-            if size >= least:
-                return path
-        if process.poll() is not None:
-            pytest.fail(f"the run ended before writing: {process.stderr.read()}")
-        time.sleep(0.005)
-    pytest.fail("no temporary file appeared")
-
-
 class TestInterruptedWrites:
     """A run stopped mid-write leaves no partial target; a killed run's temporary is
     removed by the next run, and is plainly named a temporary until then."""
 
-    def _simulate(self, folder: Path, decks: int = 300_000):
-        args = [*CLI, "simulate", "riffle", "--out", "log.csv", "--decks", str(decks)]
+    def _simulate(self, folder: Path, signal_file: Path):
+        """``simulate riffle --out log.csv`` whose log writer stops for good after its
+        first block of decks and says so through ``signal_file`` (outside ``folder``), so
+        a signal lands mid-write every time, however fast the machine."""
+        code = (
+            "import sys, time\n"
+            "from pathlib import Path\n"
+            "from shufflecheck.records.logs import writer\n"
+            "def paused(real):\n"
+            "    def write(self, *args, **kwargs):\n"
+            "        out = real(self, *args, **kwargs)\n"
+            "        self._handle.flush()\n"
+            f"        Path({str(signal_file)!r}).write_text('1')\n"
+            "        time.sleep(600)\n"
+            "        return out\n"
+            "    return write\n"
+            "writer.LogWriter.write = paused(writer.LogWriter.write)\n"
+            "writer.LogWriter.write_composed = paused(writer.LogWriter.write_composed)\n"
+            "from shufflecheck.cli import app\n"
+            "sys.argv = ['shufflecheck', 'simulate', 'riffle', '--out', 'log.csv',\n"
+            "            '--decks', '300000']\n"
+            "app()\n"
+        )
         return subprocess.Popen(
-            args, cwd=folder, env=ENV, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True
+            [CLI[0], "-c", code],
+            cwd=folder,
+            env=ENV,
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+            text=True,
         )
 
+    @staticmethod
+    def _wait_for(signal_file: Path, process) -> None:
+        end = time.monotonic() + 120
+        while not signal_file.exists() and process.poll() is None and time.monotonic() < end:
+            time.sleep(0.01)
+        if not signal_file.exists():
+            pytest.fail(f"the run never paused mid-write: {process.stderr.read()}")
+
     def test_sigterm_cleans_up(self, tmp_path):
-        process = self._simulate(tmp_path)
-        _wait_for_temporary(tmp_path, process, least=1 << 16)
+        run, signal_file = tmp_path / "run", tmp_path / "paused"
+        run.mkdir()
+        process = self._simulate(run, signal_file)
+        self._wait_for(signal_file, process)
+        assert len(_temporaries(run)) == 1  # the log being written
         process.send_signal(signal.SIGTERM)
         assert process.wait(timeout=60) == 128 + signal.SIGTERM
         assert process.stderr.read() == "error: stopped by SIGTERM; no partial output was left\n"
-        assert list(tmp_path.iterdir()) == []
+        assert list(run.iterdir()) == []
 
     def test_sigkill_of_simulate(self, tmp_path):
-        process = self._simulate(tmp_path)
-        temporary = _wait_for_temporary(tmp_path, process, least=1 << 16)
+        run, signal_file = tmp_path / "run", tmp_path / "paused"
+        run.mkdir()
+        process = self._simulate(run, signal_file)
+        self._wait_for(signal_file, process)
+        (temporary,) = _temporaries(run)
+        assert temporary.stat().st_size > 0  # the first block is in it
         process.kill()
         process.wait(timeout=60)
-        assert not (tmp_path / "log.csv").exists()  # absent, never partial
+        assert not (run / "log.csv").exists()  # absent, never partial
         assert temporary.exists() and temporary.name.startswith(".log.csv.")
         assert temporary.name.endswith(".incomplete")  # plainly a temporary
-        again = run_cli("simulate", "riffle", "--out", "log.csv", "--decks", 50, cwd=tmp_path)
+        again = run_cli("simulate", "riffle", "--out", "log.csv", "--decks", 50, cwd=run)
         assert again.returncode == 0, again.stderr
-        assert sorted(p.name for p in tmp_path.iterdir()) == ["log.csv"]  # cleaned up
-        assert len((tmp_path / "log.csv").read_text().splitlines()) == 52
+        assert sorted(p.name for p in run.iterdir()) == ["log.csv"]  # cleaned up
+        assert len((run / "log.csv").read_text().splitlines()) == 52
 
     def test_sigkill_of_a_report_run(self, tmp_path):
-        # the report is rendered in memory and written in milliseconds: slow each file
-        # down so that the kill lands between two files of the report folder
+        # the report is rendered in memory and written in milliseconds: the patched writer
+        # stops for good after its second file and says so through a file outside the run's
+        # folder, so the kill lands between two files of the report folder every time
+        run, signal_file = tmp_path / "run", tmp_path / "two-files-written"
+        run.mkdir()
         code = (
             "import sys, time\n"
+            "from pathlib import Path\n"
             "from shufflecheck.report import writer\n"
             "real = writer._write_file\n"
+            "written = []\n"
             "def slow(path, content):\n"
             "    real(path, content)\n"
-            "    time.sleep(0.5)\n"
+            "    written.append(path)\n"
+            "    if len(written) == 2:\n"
+            f"        Path({str(signal_file)!r}).write_text('2')\n"
+            "        time.sleep(600)\n"
             "writer._write_file = slow\n"
             "from shufflecheck.cli import app\n"
             "sys.argv = ['shufflecheck', 'mix', 'riffle', '--report', 'report']\n"
@@ -572,25 +604,25 @@ class TestInterruptedWrites:
         )
         process = subprocess.Popen(
             [CLI[0], "-c", code],
-            cwd=tmp_path,
+            cwd=run,
             env=ENV,
             stdout=subprocess.PIPE,
             stderr=subprocess.PIPE,
             text=True,
         )
-        staging = _wait_for_temporary(tmp_path, process)
-        end = time.monotonic() + 60
-        while not any(staging.rglob("*.md")) and time.monotonic() < end:
+        end = time.monotonic() + 120
+        while not signal_file.exists() and process.poll() is None and time.monotonic() < end:
             time.sleep(0.01)
+        assert signal_file.exists(), process.stderr.read() if process.poll() is not None else ""
+        staging = _temporaries(run)
+        assert len(staging) == 1 and staging[0].is_dir()  # the folder being written
         process.kill()
         process.wait(timeout=60)
-        assert not (tmp_path / "report").exists()
-        again = run_cli("mix", "riffle", "--report", "report", cwd=tmp_path)
+        assert not (run / "report").exists()  # absent, never partial
+        again = run_cli("mix", "riffle", "--report", "report", cwd=run)
         assert again.returncode == 0, again.stderr
-        assert sorted(p.name for p in tmp_path.iterdir()) == ["report"]
+        assert sorted(p.name for p in run.iterdir()) == ["report"]  # the temporary is gone
         files = sorted(
-            str(p.relative_to(tmp_path / "report"))
-            for p in (tmp_path / "report").rglob("*")
-            if p.is_file()
+            str(p.relative_to(run / "report")) for p in (run / "report").rglob("*") if p.is_file()
         )
         assert files == ["figures/distance.png", "report.html", "report.json", "report.md"]
