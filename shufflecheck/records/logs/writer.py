@@ -244,17 +244,23 @@ class LogWriter:
         if self._handle is None:
             raise RuntimeError("LogWriter.write outside its with block")
         part = _checked_decks(decks, self.deck) if self.check else np.asarray(decks)
+        fields = self._fields(columns, len(part))
+        if len(part):
+            self._write_rows(part, fields)
+
+    def _fields(self, columns: Mapping[str, Sequence[Any]] | None, count: int) -> list[Any]:
+        """The kept columns as CSV fields, checked: the log's columns, one value per deck."""
         given = dict(columns or {})
         if set(given) != set(self.columns):
             raise InputError(
                 f"columns {sorted(given)} do not match the log's columns {self.columns}"
             )
         values = [_column_values(given[name]) for name in self.columns]
-        if any(len(v) != len(part) for v in values):
-            raise InputError(f"columns must have one value for each of the {len(part)} decks")
-        if not len(part):
-            return
-        fields = [_csv_field(v, self.delimiter) for v in values]
+        if any(len(v) != count for v in values):
+            raise InputError(f"columns must have one value for each of the {count} decks")
+        return [_csv_field(v, self.delimiter) for v in values]
+
+    def _write_rows(self, part: np.ndarray, fields: list[Any]) -> None:
         runs = _equal_width_runs(fields, len(part))
         if self.codes is not None and runs is not None:
             for lo, hi in runs:  # rows of one width: one byte matrix each
@@ -294,20 +300,13 @@ class LogWriter:
         if self._handle is None:
             raise RuntimeError("LogWriter.write_composed outside its with block")
         relative = np.asarray(relative)
-        given = dict(columns or {})
-        if set(given) != set(self.columns):
-            raise InputError(
-                f"columns {sorted(given)} do not match the log's columns {self.columns}"
-            )
-        values = [_column_values(given[name]) for name in self.columns]
-        if any(len(v) != len(relative) for v in values):
-            raise InputError(f"columns must have one value for each of the {len(relative)} decks")
-        fields = [_csv_field(v, self.delimiter) for v in values]
+        fields = self._fields(columns, len(relative))
         runs = _equal_width_runs(fields, len(relative)) if len(relative) else None
         width = None if self.codes is None else self.codes.dtype.itemsize - 1
         if self.check or runs is None or width not in (1, 2, 4, 8):
             decks = running_composition(relative, initial=initial)
-            self.write(decks, given)
+            if len(decks):
+                self._write_rows(_checked_decks(decks, self.deck) if self.check else decks, fields)
             return decks[-1].copy() if len(decks) else np.asarray(initial).copy()
         assert self.codes is not None
         words = _code_words(self.codes)
