@@ -534,6 +534,11 @@ class TestInterruptedWrites:
             "            '--decks', '300000']\n"
             "app()\n"
         )
+        return self._start(code, folder)
+
+    @staticmethod
+    def _start(code: str, folder: Path):
+        """``python -c code`` in ``folder``, as the command line runs."""
         return subprocess.Popen(
             [CLI[0], "-c", code],
             cwd=folder,
@@ -602,18 +607,8 @@ class TestInterruptedWrites:
             "sys.argv = ['shufflecheck', 'mix', 'riffle', '--report', 'report']\n"
             "app()\n"
         )
-        process = subprocess.Popen(
-            [CLI[0], "-c", code],
-            cwd=run,
-            env=ENV,
-            stdout=subprocess.PIPE,
-            stderr=subprocess.PIPE,
-            text=True,
-        )
-        end = time.monotonic() + 120
-        while not signal_file.exists() and process.poll() is None and time.monotonic() < end:
-            time.sleep(0.01)
-        assert signal_file.exists(), process.stderr.read() if process.poll() is not None else ""
+        process = self._start(code, run)
+        self._wait_for(signal_file, process)
         staging = _temporaries(run)
         assert len(staging) == 1 and staging[0].is_dir()  # the folder being written
         process.kill()
