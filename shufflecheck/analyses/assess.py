@@ -58,6 +58,7 @@ import numpy as np
 
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_cards, check_confidence
+from shufflecheck.common.distributions import clopper_pearson_lower, normal_quantile
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
 from shufflecheck.common.numbers import percent
@@ -213,11 +214,7 @@ def rigorous_upper_bounds(split: ProcedureBlocks) -> dict[str, Quantity]:
 
 def _clopper_pearson_lower(successes: int, trials: int, alpha: float) -> float:
     """One-sided lower confidence bound for a binomial probability (exact, [2])."""
-    from scipy.stats import beta
-
-    if successes <= 0 or trials <= 0:
-        return 0.0
-    return float(beta.ppf(alpha, successes, trials - successes + 1))
+    return clopper_pearson_lower(successes, trials, alpha)
 
 
 def bound_statistics(cards: int, strategies: tuple[str, ...]) -> tuple[Statistic, ...]:
@@ -587,9 +584,7 @@ def only_repeats(result: Assessment, counts: list[int] | tuple[int, ...]) -> Ass
 
 
 def _normal_quantile(p: float) -> float:
-    from scipy.stats import norm
-
-    return float(norm.ppf(p))
+    return normal_quantile(p)
 
 
 def assessment_json(result: Assessment) -> dict:

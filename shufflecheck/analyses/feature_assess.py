@@ -38,7 +38,6 @@ import math
 from collections.abc import Callable
 
 import numpy as np
-from scipy import stats
 
 from shufflecheck.analyses.assess import (
     MAX_DECKS,
@@ -49,6 +48,7 @@ from shufflecheck.analyses.assess import (
     rigorous_upper_bounds,
 )
 from shufflecheck.common.checks import check_confidence, check_integer
+from shufflecheck.common.distributions import clopper_pearson_lower, normal_quantile
 from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.distances import DistanceRow
@@ -77,12 +77,6 @@ def _halves(decks: int) -> tuple[int, int]:
 def feature_work(decks: int, repeats: int) -> int:
     """Progress units of :func:`assess_feature` (one per chunk of shoes and repetition)."""
     return sum(-(-half // CHUNK_DECKS) for half in _halves(decks)) * repeats
-
-
-def _lower_cp(successes: int, trials: int, alpha: float) -> float:
-    if successes <= 0 or trials <= 0:
-        return 0.0
-    return float(stats.beta.ppf(alpha, successes, trials - successes + 1))
 
 
 def _riffle_packets(procedure: Procedure, repeats: int) -> int | None:
@@ -226,7 +220,7 @@ def _row(
 ) -> AssessmentRow:
     chosen, measured = (int(h) for h in halves)
     n = shoe.size
-    z = float(stats.norm.ppf(0.5 + confidence / 2))
+    z = normal_quantile(0.5 + confidence / 2)
     # upper bounds: the distinct cards, then the feature's own riffle figures
     split = procedure_blocks(procedure, r + 1, n)
     upper: dict[str, Quantity] = {}
@@ -293,7 +287,7 @@ def _row(
         event = first > pmf
         successes = int(hist[r, s, 1][event].sum())
         uniform = float(pmf[event].sum())
-        low = _lower_cp(successes, measured, alpha_each)
+        low = clopper_pearson_lower(successes, measured, alpha_each)
         bounds.append(
             StatisticBound(
                 stat.name, stat.title, max(0.0, low - uniform), uniform, successes, measured

@@ -39,9 +39,9 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
-from scipy.stats import chi2
 
 from shufflecheck.common.checks import check_fraction
+from shufflecheck.common.distributions import chi_square_quantile
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity, estimate
 from shufflecheck.models.riffle_likelihood import (
@@ -378,7 +378,7 @@ def _interval(
     profile: Callable[[float], float], mle: float, peak: float, confidence: float
 ) -> tuple[float, float]:
     """Ends of ``{theta : profile(theta) >= peak - chi2_1(confidence)/2}`` around ``mle``."""
-    threshold = peak - chi2.ppf(confidence, 1) / 2.0
+    threshold = peak - chi_square_quantile(confidence, 1) / 2.0
 
     def gap(u: float) -> float:
         return profile(math.exp(u)) - threshold

@@ -48,10 +48,15 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import stats
 
 from shufflecheck.common.cautions import caution
 from shufflecheck.common.checks import check_confidence, check_fraction, check_integer
+from shufflecheck.common.distributions import (
+    clopper_pearson,
+    hypergeometric_pmf,
+    hypergeometric_sf,
+    normal_quantile,
+)
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import percent
 from shufflecheck.common.quantity import Quantity
@@ -197,21 +202,10 @@ def _watched(member: np.ndarray, window: int, first: int, stop: int) -> np.ndarr
 
 
 def _proportion(successes: int, trials: int, confidence: float, method: str) -> Quantity:
-    alpha = 1 - confidence
-    low = (
-        0.0
-        if successes == 0
-        else float(stats.beta.ppf(alpha / 2, successes, trials - successes + 1))
-    )
-    high = (
-        1.0
-        if successes == trials
-        else float(stats.beta.ppf(1 - alpha / 2, successes + 1, trials - successes))
-    )
     return Quantity(
         successes / trials,
         "estimate",
-        interval=(low, high),
+        interval=clopper_pearson(successes, trials, confidence),
         confidence=confidence,
         method=f"{method}; Clopper-Pearson interval",
     )
@@ -220,7 +214,7 @@ def _proportion(successes: int, trials: int, confidence: float, method: str) -> 
 def _mean(values: np.ndarray, confidence: float, method: str, unit: str = "cards") -> Quantity:
     mean = float(values.mean())
     se = float(values.std(ddof=1) / math.sqrt(values.size)) if values.size > 1 else 0.0
-    z = float(stats.norm.ppf(0.5 + confidence / 2))
+    z = normal_quantile(0.5 + confidence / 2)
     return Quantity(
         mean,
         "estimate",
@@ -337,16 +331,15 @@ def tracking_exposure(
         best_start = first + best + 1
         measured = table[half == 1, best]
         how = f"{how}: window chosen on {int((half == 0).sum()):,}, measured on {measured.size:,}"
-        hyper = stats.hypergeom(cards, length, window)
         chance_random = Quantity(
-            float(hyper.sf(at_least - 1)),
+            hypergeometric_sf(at_least - 1, cards, length, window),
             "exact",
             method="hypergeometric: a fixed window of a uniform shoe",
         )
         mean_random = Quantity(
             window * length / cards, "exact", unit="cards", method="hypergeometric mean"
         )
-        random_pmf = hyper.pmf(np.arange(window + 1))
+        random_pmf = hypergeometric_pmf(np.arange(window + 1), cards, length, window)
         notes.append(f"the best fixed window starts at position {best_start} (1 = top)")
     chance = _proportion(int((measured >= at_least).sum()), measured.size, confidence, how)
     random_span = _spans(_random_members(generator, min(shoes, 200_000), cards, length), keep)

@@ -51,6 +51,12 @@ from typing import Any
 import numpy as np
 
 from shufflecheck.common.checks import check_confidence, check_fraction, check_integer
+from shufflecheck.common.distributions import (
+    chi_square_upper_quantile,
+    noncentral_chi_square_sf,
+    normal_quantile,
+    normal_upper_quantile,
+)
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.limits import limit
 from shufflecheck.common.quantity import Kind, Quantity
@@ -109,9 +115,7 @@ class PowerRow:
         if self.decks is None:
             return None
         check_confidence(confidence)
-        from scipy import stats  # on first use: it costs an audit about 45 MB
-
-        z = float(stats.norm.isf((1 - confidence) / 2))
+        z = normal_upper_quantile((1 - confidence) / 2)
         size = abs(self.shift)
         spread = z * self.shift_standard_error
         base = self.decks - self.offset  # pairs of consecutive decks count one less
@@ -357,8 +361,6 @@ def _not_detected(
 def _sum_row(
     spec: Statistic, law: Law, x: np.ndarray, level: float, target: float, cap: int
 ) -> PowerRow:
-    from scipy import stats  # on first use: it costs an audit about 45 MB
-
     sims = x.size
     pairs = spec.shape == "consecutive"
     mean1 = float(x.mean())
@@ -382,8 +384,8 @@ def _sum_row(
             spec, shift, se, None, base, "no shift of the mean detectable in the simulated decks"
         )
     side = level / 2 if spec.alternative == "two-sided" else level
-    z_a = float(stats.norm.isf(side))
-    z_b = float(stats.norm.ppf(target))
+    z_a = normal_upper_quantile(side)
+    z_b = normal_quantile(target)
     guess = math.ceil(((z_a * sd0 + z_b * sd1) / abs(shift)) ** 2)
     pmf = np.bincount(x, minlength=law.high + 1).astype(float)
     pmf /= pmf.sum()
@@ -450,8 +452,6 @@ def _chi_square_row(
     noncentrality after ``D`` decks is ``per_deck * D * delta2`` (``delta2`` debiased from
     the simulation, ``null_sd`` its standard deviation under no departure); ``search`` is
     (level, target power, cap, unit counted)."""
-    from scipy import stats  # on first use: it costs an audit about 45 MB
-
     level, target, cap, unit = search
     if delta2 <= _RESOLUTION * null_sd:
         return _not_detected(
@@ -462,10 +462,10 @@ def _chi_square_row(
             base,
             "no departure of position frequencies detectable in the simulation",
         )
-    crit = float(stats.chi2.isf(level, df))
+    crit = chi_square_upper_quantile(level, df)
 
     def power_at(d: int) -> float:
-        return float(stats.ncx2.sf(crit, df, per_deck * d * delta2))
+        return noncentral_chi_square_sf(crit, df, per_deck * d * delta2)
 
     # normal approximation of the noncentral chi-square: lambda ~ crit - df + 2 sqrt(2 df)
     lam = max(1.0, crit - df + 2.0 * math.sqrt(2.0 * df))

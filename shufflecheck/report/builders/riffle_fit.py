@@ -113,9 +113,9 @@ def fit_figures(fit, level: float = 0.95) -> tuple[Figure, ...]:
 
 
 def _z(level: float) -> float:
-    from scipy.stats import norm
+    from shufflecheck.common.distributions import normal_quantile
 
-    return float(norm.ppf(0.5 + level / 2))
+    return normal_quantile(0.5 + level / 2)
 
 
 def _tests_table(tests) -> Table:
