@@ -6,6 +6,7 @@ commands on the shared :data:`app`, in the order ``--help`` lists them (the main
 
 from __future__ import annotations
 
+import ctypes
 import importlib
 import sys
 
@@ -32,12 +33,45 @@ for _module in COMMAND_MODULES:
 use_plain_help(app)
 
 
+#: glibc ``mallopt`` parameters (malloc.h): M_TRIM_THRESHOLD, M_MMAP_THRESHOLD
+_M_TRIM_THRESHOLD, _M_MMAP_THRESHOLD = -1, -3
+#: blocks from this size up are mapped and unmapped one by one (glibc's own ceiling for its
+#: sliding threshold); free memory above this at the top of the heap goes back to the system
+MMAP_THRESHOLD_BYTES = 32 << 20
+TRIM_THRESHOLD_BYTES = 64 << 20
+
+
+def keep_freed_memory() -> bool:
+    """Let glibc's allocator reuse freed blocks below 32 MB instead of handing them back.
+
+    A command is a short process that allocates and frees many arrays of a few megabytes
+    (decks in blocks, laws, figures); by default glibc maps most of them afresh, and every
+    new page costs a fault in the kernel: about 240,000 faults and 1 s of system time for
+    the demo, 80,000 and 0.5 s with these settings, for about 10 MB more peak memory
+    (measured on the demo). Larger arrays are still mapped and returned at once. Called by
+    :func:`main` only (never on import: a program using the library keeps its own
+    settings). Returns False where there is no glibc (nothing changes).
+    """
+    try:
+        libc = ctypes.CDLL(None)
+        mallopt = libc.mallopt
+    except (OSError, AttributeError):
+        return False
+    mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
+    mallopt.restype = ctypes.c_int
+    return bool(
+        mallopt(_M_MMAP_THRESHOLD, MMAP_THRESHOLD_BYTES)
+        and mallopt(_M_TRIM_THRESHOLD, TRIM_THRESHOLD_BYTES)
+    )
+
+
 def main() -> None:
     """Entry point of the ``shufflecheck`` console script.
 
     Output still buffered when the command ends is flushed here: if its reader has gone
     (``shufflecheck mix riffle | head -1``), that is a normal end (exit code 0, no message).
     """
+    keep_freed_memory()
     code: int | str | None = 0
     try:
         app()

@@ -51,6 +51,7 @@ from shufflecheck.core.counting import (
     stirling1_row,
     successions_row,
 )
+from shufflecheck.core.roots import brent_root
 
 __all__ = [
     "Law",
@@ -428,9 +429,7 @@ def _solve_tilt(log_q: np.ndarray, ks: np.ndarray, x: float) -> float:
         return lo
     if g_hi < 0:
         return hi
-    from scipy.optimize import brentq  # on first use (about 20 MB)
-
-    return brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
+    return brent_root(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
 
 
 def _bernstein_half_width(decks: int, variance: float, spread: float) -> float:
@@ -705,9 +704,7 @@ def mixed_sum_tail_logs(parts: list[tuple[Law, int]], total: int) -> tuple[float
     elif gap(hi) < 0:
         theta = hi
     else:
-        from scipy.optimize import brentq  # on first use (about 20 MB)
-
-        theta = brentq(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
+        theta = brent_root(gap, lo, hi, xtol=1e-10, rtol=1e-10, maxiter=200)
     r, log_ms = tilted_all(theta)
     means = r @ ks
     ends = np.array([len(law.counts) - 1 for law, _ in kept], dtype=float)
