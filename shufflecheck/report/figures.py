@@ -1003,6 +1003,10 @@ def heatmap_figure(
 # --------------------------------------------------------------------------- p-values
 
 
+#: gap between the right edge of the p-value bars' axes and the printed values (points)
+_VALUE_PAD_POINTS = 3.5
+
+
 def _draw_pvalues(
     tests: list[str],
     pvalues: np.ndarray,
@@ -1052,13 +1056,22 @@ def _draw_pvalues(
     for tick, f in zip(ax.get_yticklabels(), flagged, strict=True):
         if f:
             tick.set_fontweight("bold")
-    values = ax.secondary_yaxis("right")
-    values.set_yticks(y, [f"{texts[k]} ({how[k]})" + (" flagged" if flagged[k] else "") for k in y])
-    values.tick_params(length=0, labelsize=8)
-    values.spines["right"].set_visible(False)
-    for tick, f in zip(values.get_yticklabels(), flagged, strict=True):
-        if f:
-            tick.set_fontweight("bold")
+    # each value at the right end of its row, as a text beside the axes (a secondary axis
+    # would draw the same labels as its ticks, at the cost of a whole second axes)
+    for k in range(count):
+        ax.annotate(
+            f"{texts[k]} ({how[k]})" + (" flagged" if flagged[k] else ""),
+            xy=(1.0, y[k]),
+            xycoords=("axes fraction", "data"),
+            xytext=(_VALUE_PAD_POINTS, 0),
+            textcoords="offset points",
+            ha="left",
+            va="center",
+            fontsize=8,
+            color=_STYLE["ytick.color"],
+            fontweight="bold" if flagged[k] else "normal",
+            annotation_clip=False,
+        )
     from matplotlib.patches import Patch
 
     handles = [
