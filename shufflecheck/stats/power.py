@@ -390,6 +390,7 @@ def _sum_row(
     pmf = np.bincount(x, minlength=law.high + 1).astype(float)
     pmf /= pmf.sum()
 
+    @functools.cache  # the search ends where it has been: the found count is asked again
     def power_at(d: int) -> float:
         return sum_test_power(law, pmf, d, level, spec.alternative)
 
