@@ -102,6 +102,7 @@ class ProcedureBlocks:
 class _Group:
     steps: tuple[tuple[Step, int], ...]  # (step, times) runs
     start: int
+    kind: str  # "riffle" (ideal riffles), "shelf" (shelf passes) or "run" (one run)
 
     @property
     def count(self) -> int:
@@ -111,32 +112,36 @@ class _Group:
     def deterministic(self) -> bool:
         return all(step.deterministic for step, _ in self.steps)
 
-    @property
-    def kind(self) -> str:
-        first = self.steps[0][0]
-        if ideal_packets(first) is not None:
-            return "riffle"
-        if isinstance(first, Shelf):
-            return "shelf"
-        return "run"
+
+def _step_kind(step: Step) -> str:
+    if ideal_packets(step) is not None:
+        return "riffle"
+    if isinstance(step, Shelf):
+        return "shelf"
+    return "run"
 
 
 def _groups(procedure: Procedure, repeats: int) -> list[_Group]:
-    out: list[_Group] = []
+    # the kind of each distinct step is found once (a long repetition repeats few steps)
+    kinds: dict[int, str] = {}
+    runs: list[list[tuple[Step, int]]] = []
+    starts: list[int] = []
+    group_kinds: list[str] = []
     position = 0
     for step, times in procedure.runs(repeats):
-        kind = (
-            "riffle"
-            if ideal_packets(step) is not None
-            else ("shelf" if isinstance(step, Shelf) else None)
-        )
-        if out and kind is not None and out[-1].kind == kind:
-            last = out[-1]
-            out[-1] = _Group((*last.steps, (step, times)), last.start)
+        kind = kinds.get(id(step))
+        if kind is None:
+            kind = kinds[id(step)] = _step_kind(step)
+        if runs and kind != "run" and group_kinds[-1] == kind:
+            runs[-1].append((step, times))
         else:
-            out.append(_Group(((step, times),), position))
+            runs.append([(step, times)])
+            starts.append(position)
+            group_kinds.append(kind)
         position += times
-    return out
+    return [
+        _Group(tuple(r), start, k) for r, start, k in zip(runs, starts, group_kinds, strict=True)
+    ]
 
 
 @cache
