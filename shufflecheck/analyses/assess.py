@@ -212,11 +212,6 @@ def rigorous_upper_bounds(split: ProcedureBlocks) -> dict[str, Quantity]:
 # Monte Carlo
 
 
-def _clopper_pearson_lower(successes: int, trials: int, alpha: float) -> float:
-    """One-sided lower confidence bound for a binomial probability (exact, [2])."""
-    return clopper_pearson_lower(successes, trials, alpha)
-
-
 def bound_statistics(cards: int, strategies: tuple[str, ...]) -> tuple[Statistic, ...]:
     """The catalogue statistics behind the lower bounds (families of alternatives, such as
     one statistic per guessing strategy, count once: their member is picked on the first
@@ -436,7 +431,7 @@ def _row(
     from shufflecheck.core.counting import harmonic
 
     chosen, measured = (int(h) for h in tally.halves)
-    z = _normal_quantile(0.5 + confidence / 2)
+    z = normal_quantile(0.5 + confidence / 2)
     split = procedure_blocks(procedure, r + 1, cards)
     whole = split.whole
     names = tally.strategies
@@ -536,7 +531,7 @@ def _statistic_bounds(
         event = first > pmf
         successes = int(tally.hist[r, s, 1][event].sum())
         uniform = float(pmf[event].sum())
-        lower_p = _clopper_pearson_lower(successes, measured, alpha_each)
+        lower_p = clopper_pearson_lower(successes, measured, alpha_each)
         found = StatisticBound(
             stat.name, stat.title, max(0.0, lower_p - uniform), uniform, successes, measured
         )
@@ -552,7 +547,7 @@ def _statistic_bounds(
     if score is not None:
         uniform = score.uniform_probability()
         successes = int(tally.score_events[r])
-        lower_p = _clopper_pearson_lower(successes, measured, alpha_each)
+        lower_p = clopper_pearson_lower(successes, measured, alpha_each)
         bounds.append(
             StatisticBound(
                 RANK_SCORE,
@@ -581,10 +576,6 @@ def only_repeats(result: Assessment, counts: list[int] | tuple[int, ...]) -> Ass
     return dataclasses.replace(
         result, rows=tuple(row for row in result.rows if row.repeats in wanted)
     )
-
-
-def _normal_quantile(p: float) -> float:
-    return normal_quantile(p)
 
 
 def assessment_json(result: Assessment) -> dict:
