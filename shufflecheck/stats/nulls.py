@@ -55,6 +55,7 @@ from shufflecheck.core.roots import brent_root
 
 __all__ = [
     "Law",
+    "LawBracket",
     "SumDistribution",
     "adjacency_row",
     "adjacent_pairs_law",
@@ -159,6 +160,129 @@ class Law:
         out = np.array([c / self.total for c in self.counts])
         out.flags.writeable = False
         return out
+
+
+def _dyadic_law(pieces: dict[int, float], rest_at: int, low: int, high: int) -> Law:
+    """An exact law over ``low..high``: each float piece rounded down to a multiple of
+    ``2**-_DYADIC_BITS`` (floats are dyadic, so this is exact), the rest of the mass at
+    ``rest_at``."""
+    scale = 1 << _DYADIC_BITS
+    counts = [0] * (high - low + 1)
+    for value, mass in pieces.items():
+        if mass > 0:
+            counts[value - low] += math.floor(Fraction(mass) * scale)
+    used = sum(counts)
+    if used > scale:  # cannot happen for masses that add up to at most one; be safe
+        raise InputError("a law bracket's kept masses add up to more than one")
+    counts[rest_at - low] += scale - used
+    return Law.from_counts(counts, scale, offset=low)
+
+
+#: Bits of the common denominator of the bounding laws of a :class:`LawBracket`.
+_DYADIC_BITS = 160
+
+
+@dataclass(frozen=True)
+class LawBracket:
+    """A law known to within a stated bound, not exactly.
+
+    ``kept[k]`` is a lower bound (before the rounding allowance) on ``P(X = offset + k)``:
+    the mass a computation followed to the end. Mass it set aside is at most
+    ``set_aside`` in total; ``aside_low`` / ``aside_high`` give, piece by piece, the
+    smallest and largest value the set-aside mass can reach (``(value, mass)`` pairs).
+    Floating-point rounding is within a relative ``rounding`` of every kept mass (and of
+    the set-aside total, already included in ``set_aside``). Every value of ``X`` lies in
+    ``low..high``. So
+
+        kept[k] (1 - rounding) <= P(X = offset + k) <= kept[k] (1 + rounding) + set_aside
+
+    and the same for tails, where only set-aside pieces that can reach the tail count.
+    :meth:`lower_law` and :meth:`upper_law` are exact laws (dyadic denominators) that are
+    stochastically below and above ``X``, so any p-value computed from them brackets the
+    true one.
+    """
+
+    kept: tuple[float, ...]
+    offset: int
+    set_aside: float
+    rounding: float
+    low: int
+    high: int
+    aside_low: tuple[tuple[int, float], ...] = ()
+    aside_high: tuple[tuple[int, float], ...] = ()
+    method: str = ""
+    states: int = 0
+
+    def __post_init__(self) -> None:
+        if not self.low <= self.offset or self.offset + len(self.kept) - 1 > self.high:
+            raise InputError("a law bracket's kept values must lie within low..high")
+        if self.set_aside < 0 or not 0 <= self.rounding < 1:
+            raise InputError("a law bracket needs a set-aside bound >= 0 and rounding in [0, 1)")
+
+    def _kept(self, value: int) -> float:
+        k = value - self.offset
+        return self.kept[k] if 0 <= k < len(self.kept) else 0.0
+
+    @property
+    def kept_mass(self) -> float:
+        """Total kept mass (at most one)."""
+        return math.fsum(self.kept)
+
+    @property
+    def width(self) -> float:
+        """Largest width of the bracket on one probability: ``set_aside`` plus twice the
+        rounding of the largest kept mass."""
+        return self.set_aside + 2 * self.rounding * max(self.kept, default=0.0)
+
+    def probability_bounds(self, value: int) -> tuple[float, float]:
+        """``(lo, hi)`` with ``lo <= P(X = value) <= hi``."""
+        if value < self.low or value > self.high:
+            return 0.0, 0.0
+        kept = self._kept(value)
+        reach = math.fsum(m for v, m in self.aside_low if v <= value)
+        reach = min(reach, math.fsum(m for v, m in self.aside_high if v >= value))
+        aside = min(self.set_aside, reach * (1 + self.rounding))
+        return kept * (1 - self.rounding), min(1.0, kept * (1 + self.rounding) + aside)
+
+    def tail_bounds(self, value: int, alternative: str = "greater") -> tuple[float, float]:
+        """``(lo, hi)`` bracketing ``P(X >= value)`` (``greater``) or ``P(X <= value)``
+        (``less``)."""
+        if alternative == "greater":
+            kept = math.fsum(self._kept(v) for v in range(value, self.offset + len(self.kept)))
+            reach = math.fsum(m for v, m in self.aside_high if v >= value)
+        elif alternative == "less":
+            kept = math.fsum(self._kept(v) for v in range(self.offset, value + 1))
+            reach = math.fsum(m for v, m in self.aside_low if v <= value)
+        else:
+            raise InputError(f"alternative must be greater or less, got {alternative!r}")
+        aside = min(self.set_aside, reach * (1 + self.rounding))
+        return kept * (1 - self.rounding), min(1.0, kept * (1 + self.rounding) + aside)
+
+    def _pieces(self, aside: tuple[tuple[int, float], ...]) -> dict[int, float]:
+        shrink = 1 - self.rounding
+        pieces: dict[int, float] = {}
+        for k, mass in enumerate(self.kept):
+            pieces[self.offset + k] = mass * shrink
+        for value, mass in aside:
+            pieces[value] = pieces.get(value, 0.0) + mass * shrink
+        # rounding down once more keeps every piece below its true mass
+        return {v: math.nextafter(m, 0.0) for v, m in pieces.items() if m > 0}
+
+    @cached_property
+    def lower_law(self) -> Law:
+        """An exact law stochastically below ``X``: kept and set-aside pieces (shrunk by
+        the rounding allowance) at their lowest values, the rest at ``low``."""
+        return _dyadic_law(self._pieces(self.aside_low), self.low, self.low, self.high)
+
+    @cached_property
+    def upper_law(self) -> Law:
+        """An exact law stochastically above ``X``: kept and set-aside pieces (shrunk by
+        the rounding allowance) at their highest values, the rest at ``high``."""
+        return _dyadic_law(self._pieces(self.aside_high), self.high, self.low, self.high)
+
+    def mean_bounds(self) -> tuple[Fraction, Fraction]:
+        """Exact bounds on the mean (the means of :attr:`lower_law` and :attr:`upper_law`)."""
+        return self.lower_law.mean, self.upper_law.mean
 
 
 # --------------------------------------------------------------------------- per-deck laws

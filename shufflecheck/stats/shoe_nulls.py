@@ -40,15 +40,21 @@ from collections.abc import Sequence
 from fractions import Fraction
 from functools import cache
 
+import numpy as np
+
 from shufflecheck.common.errors import InputError
-from shufflecheck.core.counting import poly_multiply
-from shufflecheck.stats.nulls import Law
+from shufflecheck.core.counting import poly_multiply, stirling1_row
+from shufflecheck.stats.nulls import Law, LawBracket
 
 __all__ = [
+    "GREEDY_BRACKET_STATES",
+    "GREEDY_BRACKET_THRESHOLD",
     "GREEDY_STATE_BUDGET",
     "GuessingOutOfReach",
+    "greedy_guessing_bracket",
     "greedy_guessing_law",
     "greedy_guessing_mean",
+    "greedy_guessing_null",
     "greedy_state_estimate",
     "matches_law",
     "multinomial",
@@ -441,3 +447,260 @@ def greedy_guessing_mean(counts: Sequence[int]) -> Fraction:
     Diaconis & Graham 1981 for the expected score).
     """
     return _greedy_mean(tuple(sorted(_counts(counts))))
+
+
+# --------------------------------------------------------------------------- guessing, bracketed
+
+#: Mass below which a (state, score) entry of :func:`greedy_guessing_bracket` is set aside.
+GREEDY_BRACKET_THRESHOLD = 1e-18
+#: Most live (state, score) entries one layer of :func:`greedy_guessing_bracket` may hold.
+GREEDY_BRACKET_STATES = 4_000_000
+
+_UNIT_ROUNDOFF = 2.0**-53
+
+
+def _records_probabilities(k: int) -> np.ndarray:
+    """``P(R = s)``, ``s = 0..k``, for the records ``R`` of a uniform permutation of ``k``:
+    unsigned Stirling numbers of the first kind over ``k!`` (each rounded once)."""
+    row = stirling1_row(k)
+    return np.array([c / math.factorial(k) for c in row])
+
+
+def _touch_table(top_cap: int, cap: int) -> np.ndarray:
+    """``T[a, y]``: an upper bound (rounded up) on the chance that a class of ``cap`` cards
+    with ``y`` already placed ever draws level with the class of ``top_cap`` cards that
+    holds ``a > y`` (reversed deal, see :func:`greedy_guessing_bracket`)."""
+    table = np.ones((top_cap + 1, cap + 1))
+    if cap >= top_cap:
+        return table  # it ends at least as high, so it must draw level on the way
+    for a in range(top_cap + 1):
+        for y in range(min(a, cap + 1)):
+            if cap < a:
+                table[a, y] = 0.0
+                continue
+            # reflection: touching paths from (a, y) to (top_cap, cap) <-> all paths from
+            # (y, a); out of all paths from (a, y)
+            level = math.comb((top_cap - y) + (cap - a), cap - a)
+            paths = math.comb((top_cap - a) + (cap - y), cap - y)
+            table[a, y] = math.nextafter(level / paths, math.inf)
+    return table
+
+
+def greedy_guessing_bracket(
+    counts: Sequence[int],
+    *,
+    threshold: float = GREEDY_BRACKET_THRESHOLD,
+    max_states: int = GREEDY_BRACKET_STATES,
+) -> LawBracket:
+    """The law of the greedy guessing score to within a stated bound, for compositions the
+    exact programme (:func:`greedy_guessing_law`) cannot reach.
+
+    Method. *Stages* ([1]_ for the game; the decomposition is derived in docs/shoes.md and
+    checked against the exact programme): let the level be the largest remaining count.
+    It falls one step at a time from ``max(counts)`` to 1; when it first equals ``L``, some
+    ``k_L`` classes hold exactly ``L`` cards. While it stays at ``L`` each of them is drawn
+    once, in an order that is uniform whatever else happens, and the greedy guess is right
+    exactly at the draw of the class it names, so the stage scores the number of records
+    ``R(k_L)`` of a uniform permutation of ``k_L`` (law ``c(k, s) / k!``, unsigned Stirling
+    numbers of the first kind), independently given the ``k_L``; the score is
+    ``sum_L R(k_L)``. Read backwards, a uniform arrangement is again uniform: cards are
+    *placed* one at a time, the level is the largest placed count, and ``k_L`` is the number
+    of classes at ``L`` when the first class reaches ``L + 1`` (or when the deck is full,
+    for the top level). The programme runs over the placed counts (sorted within classes of
+    equal size), in floating point, one layer per placed card (states packed in 64-bit
+    integers, merged with ``numpy.unique``); the score is added stage by stage.
+
+    Two things are set aside, and their mass is added up: (i) an entry whose mass is below
+    ``threshold``; (ii) when one class is strictly ahead, the chance that another class
+    ever draws level with it, bounded by the reflection principle on the two classes alone
+    (``C((c_u - y) + (c_v - a), c_v - a) / C((c_u - a) + (c_v - y), c_v - y)`` for counts
+    ``a > y`` out of ``c_u > c_v``) and summed over the others: if none does, every later
+    stage has one class and scores 1, so the rest of the score is known; the entry is
+    finished when its mass times that bound is below ``threshold``. Each set-aside piece
+    keeps the least and the most it can still score (one and at most the classes of at
+    least ``L`` cards, at each level left). Rounding: every kept mass is a sum of products
+    of non-negative terms, so its relative error is at most ``K u / (1 - K u)`` with ``u =
+    2**-53`` and ``K`` the longest chain of operations (counted as the programme runs);
+    see :class:`~shufflecheck.stats.nulls.LawBracket` for what is guaranteed.
+
+    Raises :class:`GuessingOutOfReach` when a layer would hold more than ``max_states``
+    entries, or when the counts do not pack into 62 bits.
+    """
+    parts = tuple(sorted(_counts(counts), reverse=True))
+    threshold = float(threshold)
+    if not 0 <= threshold < 1:
+        raise InputError(f"threshold must be in [0, 1), got {threshold!r}", argument="threshold")
+    size = len(parts)
+    n = sum(parts)
+    top_cap = parts[0]
+    caps = np.array(parts, dtype=np.int64)
+    bits = [max(1, c.bit_length()) for c in parts]
+    score_bits = (n + 1).bit_length()
+    shifts = [0] * size
+    at = score_bits
+    for i in range(size - 1, -1, -1):
+        shifts[i] = at
+        at += bits[i]
+    if at > 62:
+        raise GuessingOutOfReach(
+            f"the bracketed guessing law for counts {parts} needs {at} bits per state (at most 62)"
+        )
+    score_mask = (1 << score_bits) - 1
+    first_of_group = [i == 0 or parts[i - 1] != parts[i] for i in range(size)]
+    group = np.cumsum(first_of_group) - 1
+    records = {k: _records_probabilities(k) for k in range(1, size + 1)}
+    # least / most a state at level a can still score (levels a..top, at least 1 each,
+    # at most the classes with at least L cards each)
+    at_least = [sum(1 for c in parts if c >= level) for level in range(top_cap + 1)]
+    future_low = np.array([top_cap - max(a, 1) + 1 for a in range(top_cap + 1)])
+    future_high = np.array([sum(at_least[max(a, 1) :]) for a in range(top_cap + 1)])
+    tops = sorted(set(parts))
+    touch = {(cu, cv): _touch_table(cu, cv) for cu in tops for cv in tops}
+
+    codes = np.zeros(1, dtype=np.int64)
+    mass = np.ones(1)
+    final = np.zeros(n + 2)
+    aside_low = np.zeros(n + 2)
+    aside_high = np.zeros(n + 2)
+    finished_terms = 0
+    visited = 0
+    fan_in = size * size  # predecessors of one entry: a class and a records value
+    for placed in range(n):
+        count = codes.size
+        if not count:
+            break  # every path finished or set aside
+        visited += count
+        y = np.empty((count, size), dtype=np.int64)
+        for i in range(size):
+            y[:, i] = (codes >> shifts[i]) & ((1 << bits[i]) - 1)
+        score = codes & score_mask
+        top = y.max(axis=1)
+        tied = (y == top[:, None]).sum(axis=1)
+        done = np.zeros(count, dtype=bool)
+        ahead = np.flatnonzero((tied == 1) & (top >= 1))
+        if ahead.size:
+            leader = np.argmax(y[ahead], axis=1)
+            bound = np.zeros(ahead.size)
+            for cu in tops:
+                for i in range(size):
+                    sel = (caps[leader] == cu) & (leader != i)
+                    if sel.any():
+                        rows = ahead[sel]
+                        bound[sel] += touch[(cu, parts[i])][y[rows, leader[sel]], y[rows, i]]
+            ok = (bound < 1) & (mass[ahead] * bound <= threshold)
+            rows = ahead[ok]
+            if rows.size:
+                a = top[rows]
+                rest = caps[leader[ok]] - a + 1
+                final += np.bincount(
+                    score[rows] + rest, mass[rows] * (1 - bound[ok]), minlength=n + 2
+                )
+                finished_terms = max(finished_terms, rows.size)
+                piece = mass[rows] * bound[ok]
+                aside_low += np.bincount(score[rows] + future_low[a], piece, minlength=n + 2)
+                aside_high += np.bincount(score[rows] + future_high[a], piece, minlength=n + 2)
+                done[rows] = True
+        if done.any():
+            keep = ~done
+            codes, mass, y, score, top, tied = (
+                codes[keep],
+                mass[keep],
+                y[keep],
+                score[keep],
+                top[keep],
+                tied[keep],
+            )
+        out_codes = [np.zeros(0, dtype=np.int64)]
+        out_mass = [np.zeros(0)]
+        left = n - placed
+        for i in range(size):
+            valid = y[:, i] < parts[i]
+            if not first_of_group[i]:
+                valid &= y[:, i - 1] > y[:, i]  # place on the first copy of equal counts
+            if not valid.any():
+                continue
+            same = np.zeros(codes.size, dtype=np.int64)
+            for j in range(size):
+                if group[j] == group[i]:
+                    same += y[:, j] == y[:, i]
+            weight = mass * ((same * (parts[i] - y[:, i])) / left)
+            moved = codes + (1 << shifts[i])
+            up = valid & (y[:, i] == top) & (top >= 1)  # the first class to pass the level
+            flat = valid & ~up
+            out_codes.append(moved[flat])
+            out_mass.append(weight[flat])
+            if up.any():
+                for k in np.unique(tied[up]):
+                    sel = up & (tied == k)
+                    probs = records[int(k)]
+                    for s in range(1, int(k) + 1):
+                        out_codes.append(moved[sel] + s)
+                        out_mass.append(weight[sel] * probs[s])
+        merged, where = np.unique(np.concatenate(out_codes), return_inverse=True)
+        summed = np.bincount(where.ravel(), weights=np.concatenate(out_mass))
+        small = summed < threshold
+        if small.any():
+            lost = merged[small]
+            a = np.zeros(lost.size, dtype=np.int64)
+            for i in range(size):
+                a = np.maximum(a, (lost >> shifts[i]) & ((1 << bits[i]) - 1))
+            s_lost = lost & score_mask
+            aside_low += np.bincount(s_lost + future_low[a], summed[small], minlength=n + 2)
+            aside_high += np.bincount(s_lost + future_high[a], summed[small], minlength=n + 2)
+            finished_terms = max(finished_terms, lost.size)
+            merged, summed = merged[~small], summed[~small]
+        if merged.size > max_states:
+            raise GuessingOutOfReach(
+                f"the bracketed guessing law for counts {parts} needs more than "
+                f"{max_states:,} entries in one layer at threshold {threshold:g}"
+            )
+        codes, mass = merged, summed
+    visited += codes.size
+    ktop = sum(1 for c in parts if c == top_cap)
+    score = codes & score_mask
+    for s in range(1, ktop + 1):
+        final += np.bincount(score + s, mass * records[ktop][s], minlength=n + 2)
+    finished_terms = max(finished_terms, codes.size)
+    # longest chain: per layer three roundings (weight, records, product) and a sum of at
+    # most fan_in terms; one more layer's sum into the tallies (at most finished_terms
+    # terms), one addition per layer into them, and a few for the reported sums
+    chain = n * (3 + fan_in) + finished_terms + 2 * n + 16
+    rounding = chain * _UNIT_ROUNDOFF / (1 - chain * _UNIT_ROUNDOFF)
+    set_aside = math.fsum(aside_low) * (1 + rounding)
+    nonzero = np.flatnonzero(final)
+    if nonzero.size == 0:
+        raise GuessingOutOfReach(f"threshold {threshold:g} set aside every path for {parts}")
+    low_k, high_k = int(nonzero[0]), int(nonzero[-1])
+    return LawBracket(
+        kept=tuple(float(x) for x in final[low_k : high_k + 1]),
+        offset=low_k,
+        set_aside=set_aside,
+        rounding=rounding,
+        low=top_cap,
+        high=n,
+        aside_low=tuple((int(v), float(aside_low[v])) for v in np.flatnonzero(aside_low)),
+        aside_high=tuple((int(v), float(aside_high[v])) for v in np.flatnonzero(aside_high)),
+        method=(
+            "stage decomposition read backwards, floating-point dynamic programme over the "
+            f"placed counts; entries below {threshold:g} of mass and bounded chances of a "
+            f"later tie set aside (at most {set_aside:.2g} in all); relative rounding at "
+            f"most {rounding:.2g}"
+        ),
+        states=visited,
+    )
+
+
+def greedy_guessing_null(
+    counts: Sequence[int],
+    *,
+    budget: int = GREEDY_STATE_BUDGET,
+    threshold: float = GREEDY_BRACKET_THRESHOLD,
+    max_states: int = GREEDY_BRACKET_STATES,
+) -> Law | LawBracket:
+    """The guessing game's null for ``counts``: the exact law (:func:`greedy_guessing_law`)
+    when its programme fits ``budget`` states, otherwise the bracket of
+    :func:`greedy_guessing_bracket` (which says what it set aside)."""
+    parts = _counts(counts)
+    if greedy_state_estimate(parts) <= budget:
+        return greedy_guessing_law(parts)
+    return greedy_guessing_bracket(parts, threshold=threshold, max_states=max_states)
