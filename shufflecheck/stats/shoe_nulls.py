@@ -19,6 +19,8 @@ integers and returns a :class:`~shufflecheck.stats.nulls.Law` over that total:
 * :func:`greedy_guessing_law` -- correct guesses in the guessing game with complete
   feedback when the player always names a most frequent remaining class (the optimal
   strategy under the null, [1]_), by dynamic programming over the remaining counts;
+  :func:`greedy_guessing_bracket` -- the same law to within a stated bound (a
+  :class:`~shufflecheck.stats.nulls.LawBracket`) where the exact programme is out of reach;
 * runs of equal classes are :func:`shufflecheck.stats.nulls.runs_law`.
 
 References
@@ -30,6 +32,10 @@ References
        polynomials; permutations with restricted positions).
 .. [3] R. P. Stanley, *Enumerative Combinatorics*, vol. 1, 2nd ed., Cambridge University
        Press, 2012, section 2.1 (inclusion-exclusion).
+.. [4] W. Feller, *An Introduction to Probability Theory and Its Applications*, vol. 1,
+       3rd ed., Wiley, 1968, ch. III.1-2 (the reflection principle for lattice paths).
+.. [5] N. J. Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed., SIAM, 2002,
+       ch. 3-4 (rounding error bounds ``gamma_n = n u / (1 - n u)`` for sums and products).
 """
 
 from __future__ import annotations
@@ -498,8 +504,8 @@ def greedy_guessing_bracket(
     Method. *Stages* ([1]_ for the game; the decomposition is derived in docs/shoes.md and
     checked against the exact programme): let the level be the largest remaining count.
     It falls one step at a time from ``max(counts)`` to 1; when it first equals ``L``, some
-    ``k_L`` classes hold exactly ``L`` cards. While it stays at ``L`` each of them is drawn
-    once, in an order that is uniform whatever else happens, and the greedy guess is right
+    ``k_L`` classes hold exactly ``L`` cards. While it stays at ``L`` each of them falls from
+    ``L`` once, in an order that is uniform whatever else happens, and the greedy guess is right
     exactly at the draw of the class it names, so the stage scores the number of records
     ``R(k_L)`` of a uniform permutation of ``k_L`` (law ``c(k, s) / k!``, unsigned Stirling
     numbers of the first kind), independently given the ``k_L``; the score is
@@ -512,15 +518,15 @@ def greedy_guessing_bracket(
 
     Two things are set aside, and their mass is added up: (i) an entry whose mass is below
     ``threshold``; (ii) when one class is strictly ahead, the chance that another class
-    ever draws level with it, bounded by the reflection principle on the two classes alone
-    (``C((c_u - y) + (c_v - a), c_v - a) / C((c_u - a) + (c_v - y), c_v - y)`` for counts
+    ever draws level with it, bounded by the reflection principle ([4]_) on the two classes
+    alone (``C((c_u - y) + (c_v - a), c_v - a) / C((c_u - a) + (c_v - y), c_v - y)`` for counts
     ``a > y`` out of ``c_u > c_v``) and summed over the others: if none does, every later
     stage has one class and scores 1, so the rest of the score is known; the entry is
     finished when its mass times that bound is below ``threshold``. Each set-aside piece
     keeps the least and the most it can still score (one and at most the classes of at
     least ``L`` cards, at each level left). Rounding: every kept mass is a sum of products
     of non-negative terms, so its relative error is at most ``K u / (1 - K u)`` with ``u =
-    2**-53`` and ``K`` the longest chain of operations (counted as the programme runs);
+    2**-53`` and ``K`` the longest chain of operations (counted as the programme runs; [5]_);
     see :class:`~shufflecheck.stats.nulls.LawBracket` for what is guaranteed.
 
     Raises :class:`GuessingOutOfReach` when a layer would hold more than ``max_states``
