@@ -259,3 +259,43 @@ class TestLawBracket:
             LawBracket(kept=(1.0,), offset=0, set_aside=0.0, rounding=0.0, low=1, high=3)
         with pytest.raises(InputError, match="set-aside"):
             LawBracket(kept=(1.0,), offset=1, set_aside=-1.0, rounding=0.0, low=1, high=3)
+
+
+class TestAuditWithBracket:
+    """The shoe battery with the guessing game beyond the exact budget: its p-value is a
+    bound that brackets the exact p-value (computed with the exact law, within budget)."""
+
+    @pytest.mark.parametrize("ordered", [False, True])
+    def test_p_value_bracket_holds_the_exact_one(self, ordered):
+        import dataclasses
+
+        from shufflecheck.records.shoes import shoe
+        from shufflecheck.stats.catalogue import ShoeContext
+        from shufflecheck.stats.summary import BatterySummary
+
+        exact_ctx = ShoeContext.of(shoe(1), "blackjack")
+        bracket_ctx = dataclasses.replace(exact_ctx, guess_budget=10, guess_threshold=1e-9)
+        rng = np.random.default_rng(11)
+        kinds = shoe(1).physical_kinds()
+        words = kinds[np.argsort(rng.random((201, 52)), axis=1)]
+        if ordered:
+            # a faulty machine: one shoe in ten deals its tens first, which the guesser
+            # (who names tens while they lead) exploits
+            ten = int(np.argmax(exact_ctx.class_counts))
+            is_ten = np.asarray(exact_ctx.classes)[words[1::10]] == ten
+            order = np.argsort(~is_ten, axis=1, kind="stable")
+            words[1::10] = np.take_along_axis(words[1::10], order, axis=1)
+        results = {}
+        for name, ctx in (("exact", exact_ctx), ("bracket", bracket_ctx)):
+            summary = BatterySummary.empty(52, shoe=ctx)
+            summary.update(words[1:], words[1:], references=words[:-1])
+            results[name] = summary.finish(rng=np.random.default_rng(0)).overall
+        exact = results["exact"].test("guess-most-frequent")
+        bound = results["bracket"].test("guess-most-frequent")
+        assert exact.method == "exact" and bound.method == "bound"
+        assert "known to within" in bound.detail and "p-value between" in bound.detail
+        # the reported (larger) end is an upper bound on the exact p-value, close to it
+        assert bound.log10_p_value >= exact.log10_p_value - 1e-9
+        assert bound.log10_p_value - exact.log10_p_value < 0.05
+        assert bound.effect.expected == exact.effect.expected  # the exact mean either way
+        assert (exact.log10_p_value < -3) == ordered  # the fault is found

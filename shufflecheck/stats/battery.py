@@ -30,6 +30,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from shufflecheck.common.errors import InputError
 from shufflecheck.common.numbers import percent
 from shufflecheck.stats import nulls
 from shufflecheck.stats.catalogue import Statistic
@@ -146,6 +147,11 @@ def run_battery(
             rows.append((stat, test.statistic, test.log_p, test.method, test.detail, effect))
             continue
         law = laws[stat.name]
+        if isinstance(law, nulls.LawBracket):
+            row = _bracket_row(stat, law, tallies.hist[stat.name])
+            if row is not None:
+                rows.append(row)
+            continue
         assert isinstance(law, Law)
         hist = tallies.hist[stat.name]
         count = int(hist.sum())
@@ -188,6 +194,30 @@ def run_battery(
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
+def _bracket_row(stat: Statistic, law: nulls.LawBracket, hist: np.ndarray) -> tuple | None:
+    """The test of a statistic whose law is known to within a bound: the p-values of the
+    exact laws stochastically below and above it bracket the true p-value; the larger end
+    is the one tested (Holm uses it), so the test stays valid."""
+    if stat.alternative == "two-sided":
+        raise InputError(f"{stat.name}: a bracketed law supports one-sided tests only")
+    count = int(hist.sum())
+    if count == 0:
+        return None
+    total = int(np.arange(hist.size, dtype=np.int64) @ hist)
+    ends = [
+        nulls.sum_p_value(bound, count, total, stat.alternative)
+        for bound in (law.lower_law, law.upper_law)
+    ]
+    low, high = min(ends), max(ends)
+    detail = (
+        f"sum over {count} shoes against the {count}-fold convolutions of two exact laws "
+        f"below and above the per-shoe law, which is known to within {law.width:.2g} "
+        f"({law.method}); p-value between {math.exp(low):.3g} and {math.exp(high):.3g}, the "
+        f"larger reported ({stat.alternative})"
+    )
+    return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law))
+
+
 def _since_when(
     series: Mapping[str, Sequence[np.ndarray]],
     tests: tuple[TestResult, ...],
@@ -196,7 +226,9 @@ def _since_when(
     unit: str = "deck",
     level: float = SINCE_WHEN_LEVEL,
 ) -> SinceWhen | None:
-    candidates = [t for t in tests if t.flagged and t.name in series]
+    candidates = [
+        t for t in tests if t.flagged and t.name in series and isinstance(laws[t.name], Law)
+    ]
     if not candidates:
         return None
     best = min(candidates, key=lambda t: (t.log10_p_adjusted, t.log10_p_value))

@@ -84,6 +84,7 @@ __all__ = [
     "deck_bytes",
     "deck_values",
     "guess_statistic",
+    "guessing_null_for",
     "law_sources",
     "lower_bound_statistics",
     "statistic",
@@ -122,7 +123,10 @@ class ShoeContext:
     when the classes are values in order); ``segment = (start, length)`` the reference
     positions (0-based) whose cards the zone test follows into ``zones`` (widths of
     consecutive zones of the new shoe from the top); ``guess_budget`` the most states the
-    exact law of the guessing game may take.
+    exact law of the guessing game may take; ``guess_threshold``, when set, lets the
+    guessing game run beyond that budget against a bracketed law
+    (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold),
+    its p-value then a bound. Audits only: power planning and monitoring need exact laws.
     """
 
     copies: tuple[int, ...]
@@ -133,6 +137,7 @@ class ShoeContext:
     segment: tuple[int, int] | None = None
     zones: tuple[int, ...] | None = None
     guess_budget: int = shoe_nulls.GREEDY_STATE_BUDGET
+    guess_threshold: float | None = None
 
     def __post_init__(self) -> None:
         if len(self.classes) != len(self.copies) or not self.copies:
@@ -203,7 +208,9 @@ class ShoeContext:
             return self.ordered and len(self.names) > 1
         if need == "guessing":
             counts = self.class_counts
-            return shoe_nulls.greedy_state_estimate(counts) <= self.guess_budget
+            if shoe_nulls.greedy_state_estimate(counts) <= self.guess_budget:
+                return True
+            return self.guess_threshold is not None and shoe_nulls.greedy_bracket_fits(counts)
         if need == "equal-copies":
             return len(set(self.copies)) == 1 and len(self.copies) > 1
         return False
@@ -772,13 +779,26 @@ _SHOE: tuple[Statistic, ...] = (
         values=lambda v: shoe_statistics.greedy_scores(
             v.absolute, _shoe(v.context).class_array(), np.asarray(_shoe(v.context).class_counts)
         ),
-        law=lambda c: shoe_nulls.greedy_guessing_law(_shoe(c).class_counts),
-        law_source="dynamic programme over the remaining counts (exact integers)",
+        law=lambda c: guessing_null_for(_shoe(c)),
+        law_source="dynamic programme over the remaining counts (exact integers); beyond its "
+        "budget, when asked, a bracket (the stage decomposition in floating point, the mass "
+        "set aside stated with the p-value, which is then a bound)",
         sentence=_shoe_guess_sentence,
         need="guessing",
         lower_bound=True,
     ),
 )
+
+
+def guessing_null_for(shoe: ShoeContext) -> nulls.Law | nulls.LawBracket:
+    """The null of the greedy guessing game for ``shoe``: exact, or the bracket that the
+    shoe asks for (``guess_threshold``) beyond the exact budget."""
+    if shoe.guess_threshold is None:
+        return shoe_nulls.greedy_guessing_law(shoe.class_counts)
+    return shoe_nulls.greedy_guessing_null(
+        shoe.class_counts, budget=shoe.guess_budget, threshold=shoe.guess_threshold
+    )
+
 
 _SHOE_REPEAT = Statistic(
     "shoe-repeat-positions",

@@ -212,6 +212,7 @@ class LawBracket:
     aside_high: tuple[tuple[int, float], ...] = ()
     method: str = ""
     states: int = 0
+    exact_mean: Fraction | None = None
 
     def __post_init__(self) -> None:
         if not self.low <= self.offset or self.offset + len(self.kept) - 1 > self.high:
@@ -222,6 +223,22 @@ class LawBracket:
     def _kept(self, value: int) -> float:
         k = value - self.offset
         return self.kept[k] if 0 <= k < len(self.kept) else 0.0
+
+    @property
+    def mean(self) -> Fraction:
+        """The exact mean when the computation knows it (``exact_mean``), else the midpoint
+        of :meth:`mean_bounds`."""
+        if self.exact_mean is not None:
+            return self.exact_mean
+        low, high = self.mean_bounds()
+        return (low + high) / 2
+
+    @property
+    def pmf(self) -> np.ndarray:
+        """The kept masses as floats (lower bounds, values ``offset`` onwards)."""
+        out = np.array(self.kept)
+        out.flags.writeable = False
+        return out
 
     @property
     def kept_mass(self) -> float:

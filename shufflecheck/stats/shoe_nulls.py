@@ -57,6 +57,7 @@ __all__ = [
     "GREEDY_BRACKET_THRESHOLD",
     "GREEDY_STATE_BUDGET",
     "GuessingOutOfReach",
+    "greedy_bracket_fits",
     "greedy_guessing_bracket",
     "greedy_guessing_law",
     "greedy_guessing_mean",
@@ -693,7 +694,15 @@ def greedy_guessing_bracket(
             f"most {rounding:.2g}"
         ),
         states=visited,
+        exact_mean=greedy_guessing_mean(parts),
     )
+
+
+def greedy_bracket_fits(counts: Sequence[int]) -> bool:
+    """Whether :func:`greedy_guessing_bracket` can pack the states of ``counts`` (placed
+    counts of every class and the score in 62 bits)."""
+    parts = _counts(counts)
+    return (sum(parts) + 1).bit_length() + sum(max(1, c.bit_length()) for c in parts) <= 62
 
 
 def greedy_guessing_null(

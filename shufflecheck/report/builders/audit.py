@@ -155,11 +155,11 @@ def audit_figures(audit, prefix: str = "") -> tuple:
         if shoe is None:
             law = guessing_null(n)
         else:
-            from shufflecheck.stats.shoe_nulls import greedy_guessing_law
+            from shufflecheck.stats.catalogue import guessing_null_for
 
-            law = greedy_guessing_law(shoe.class_counts)
+            law = guessing_null_for(shoe)
         pmf = np.zeros(max(n + 1, hist.size))
-        pmf[law.offset : law.offset + len(law.counts)] = law.pmf
+        pmf[law.offset : law.offset + len(law.pmf)] = law.pmf
         scores = np.repeat(np.arange(hist.size), hist)
         figures.append(
             score_histogram_figure(
