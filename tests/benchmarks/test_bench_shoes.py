@@ -135,13 +135,17 @@ def test_guessing_bracket_six_pack(benchmark, figures):
     figures("exact guessing null, one pack, blackjack values, CPU", baseline, None)
     for threshold, (seconds, bracket) in out.items():
         low, high = bracket.mean_bounds()
+        # no target status here: the target asks for the law, and a bracket this wide is
+        # not it (the width is printed beside the time)
         figures(
-            f"bracketed guessing null, six-pack blackjack values, threshold {threshold:g}: "
-            f"{bracket.states:,} entries visited, bracket width {bracket.width:.3g} (mass set "
-            f"aside), mean in [{float(low):.6f}, {float(high):.6f}] against the exact "
-            f"{exact_mean:.6f}; {seconds / baseline:.0f} x the one-pack exact law; CPU",
+            f"bracketed guessing null, six-pack blackjack values, threshold {threshold:g}, CPU",
             seconds,
-            5,
+            None,
+            note=(
+                f"{seconds / baseline:.0f} x the one-pack exact law; {bracket.states:,} entries "
+                f"visited; bracket width {bracket.width:.3g} (mass set aside); mean in "
+                f"[{float(low):.6f}, {float(high):.6f}] against the exact {exact_mean:.6f}"
+            ),
         )
 
 
