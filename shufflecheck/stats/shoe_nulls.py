@@ -532,6 +532,11 @@ def greedy_guessing_bracket(
 
     Raises :class:`GuessingOutOfReach` when a layer would hold more than ``max_states``
     entries, or when the counts do not pack into 62 bits.
+
+    Measured (CPU, shared machine; docs/shoes.md): a six-pack read as blackjack values,
+    ``[24] * 9 + [96]``, takes about 1 s at ``threshold=1e-8`` (``4.2e-3`` set aside), 3 s
+    at ``1e-9`` (``1.0e-3``), 8 s at ``1e-10`` (``2.2e-4``) and 50 s at ``1e-12``
+    (``7.9e-6``); one pack's blackjack values take 0.05 s with nothing set aside.
     """
     parts = tuple(sorted(_counts(counts), reverse=True))
     threshold = float(threshold)
