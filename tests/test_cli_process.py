@@ -53,3 +53,35 @@ def test_a_command_still_runs_and_exits_with_its_code():
         text=True,
     )
     assert bad.returncode == 2
+
+
+BLAS = """
+import shufflecheck.cli as cli
+from threadpoolctl import threadpool_info
+print(cli.one_blas_thread(), sorted({i["num_threads"] for i in threadpool_info()
+                                      if i["user_api"] == "blas"}))
+"""
+
+
+def test_blas_on_one_thread_unless_the_user_chose():
+    import os
+
+    clean = {
+        k: v
+        for k, v in os.environ.items()
+        if k not in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS")
+    }
+    out = subprocess.run(
+        [sys.executable, "-c", BLAS], capture_output=True, text=True, check=True, env=clean
+    )
+    applied, counts = out.stdout.split(maxsplit=1)
+    assert applied == "True"
+    assert counts.strip() in ("[1]", "[]")  # [] where numpy has no threaded BLAS
+    chosen = subprocess.run(
+        [sys.executable, "-c", BLAS],
+        capture_output=True,
+        text=True,
+        check=True,
+        env={**clean, "OPENBLAS_NUM_THREADS": "2"},
+    )
+    assert chosen.stdout.split()[0] == "False"
