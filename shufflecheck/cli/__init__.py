@@ -55,9 +55,9 @@ def keep_freed_memory() -> bool:
     settings). Returns False where there is no glibc (nothing changes).
     """
     try:
-        libc = ctypes.CDLL(None)
+        libc = ctypes.CDLL(None)  # the running process's own symbols (glibc on Linux)
         mallopt = libc.mallopt
-    except (OSError, AttributeError):
+    except (OSError, AttributeError, TypeError):  # no such symbol, or no process handle
         return False
     mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
     mallopt.restype = ctypes.c_int
