@@ -49,8 +49,8 @@ from functools import cache
 import numpy as np
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.core.counting import poly_multiply, stirling1_row
-from shufflecheck.stats.nulls import Law, LawBracket
+from shufflecheck.core.counting import poly_multiply
+from shufflecheck.stats.nulls import Law, LawBracket, cycles_law
 
 __all__ = [
     "GREEDY_BRACKET_STATES",
@@ -468,9 +468,21 @@ _UNIT_ROUNDOFF = 2.0**-53
 
 def _records_probabilities(k: int) -> np.ndarray:
     """``P(R = s)``, ``s = 0..k``, for the records ``R`` of a uniform permutation of ``k``:
-    unsigned Stirling numbers of the first kind over ``k!`` (each rounded once)."""
-    row = stirling1_row(k)
-    return np.array([c / math.factorial(k) for c in row])
+    the law of its cycles (:func:`~shufflecheck.stats.nulls.cycles_law`, unsigned Stirling
+    numbers of the first kind over ``k!``, each rounded once)."""
+    law = cycles_law(k)
+    out = np.zeros(k + 1)
+    out[law.offset : law.offset + len(law.pmf)] = law.pmf
+    return out
+
+
+#: bits of a packed state of :func:`greedy_guessing_bracket` (placed counts and score)
+_PACKED_BITS = 62
+
+
+def _packing(parts: Sequence[int]) -> tuple[int, list[int]]:
+    """(bits of the score, bits of each class's placed count) in a packed state."""
+    return (sum(parts) + 1).bit_length(), [max(1, c.bit_length()) for c in parts]
 
 
 def _touch_table(top_cap: int, cap: int) -> np.ndarray:
@@ -546,16 +558,16 @@ def greedy_guessing_bracket(
     n = sum(parts)
     top_cap = parts[0]
     caps = np.array(parts, dtype=np.int64)
-    bits = [max(1, c.bit_length()) for c in parts]
-    score_bits = (n + 1).bit_length()
+    score_bits, bits = _packing(parts)
     shifts = [0] * size
     at = score_bits
     for i in range(size - 1, -1, -1):
         shifts[i] = at
         at += bits[i]
-    if at > 62:
+    if at > _PACKED_BITS:
         raise GuessingOutOfReach(
-            f"the bracketed guessing law for counts {parts} needs {at} bits per state (at most 62)"
+            f"the bracketed guessing law for counts {parts} needs {at} bits per state "
+            f"(at most {_PACKED_BITS})"
         )
     score_mask = (1 << score_bits) - 1
     first_of_group = [i == 0 or parts[i - 1] != parts[i] for i in range(size)]
@@ -707,7 +719,8 @@ def greedy_bracket_fits(counts: Sequence[int]) -> bool:
     """Whether :func:`greedy_guessing_bracket` can pack the states of ``counts`` (placed
     counts of every class and the score in 62 bits)."""
     parts = _counts(counts)
-    return (sum(parts) + 1).bit_length() + sum(max(1, c.bit_length()) for c in parts) <= 62
+    score_bits, bits = _packing(parts)
+    return score_bits + sum(bits) <= _PACKED_BITS
 
 
 def greedy_guessing_null(
