@@ -188,8 +188,9 @@ class LawBracket:
 
     ``kept[k]`` is a lower bound (before the rounding allowance) on ``P(X = offset + k)``:
     the mass a computation followed to the end. Mass it set aside is at most
-    ``set_aside`` in total; ``aside_low`` / ``aside_high`` give, piece by piece, the
-    smallest and largest value the set-aside mass can reach (``(value, mass)`` pairs).
+    ``set_aside`` in total; ``aside_low`` / ``aside_high`` (``(value, mass)`` pairs) are
+    that mass placed stochastically below and above where it truly lies: piece by piece at
+    the smallest and largest value it can reach, or spread over a law that bounds it.
     Floating-point rounding is within a relative ``rounding`` of every kept mass (and of
     the set-aside total, already included in ``set_aside``). Every value of ``X`` lies in
     ``low..high``. So

@@ -505,6 +505,24 @@ def _touch_table(top_cap: int, cap: int) -> np.ndarray:
     return table
 
 
+def _ahead_laws(at_least: Sequence[int], top_cap: int, records: dict) -> list[np.ndarray]:
+    """``U[a]``: the law of ``sum_{L = max(a, 1)}^{top_cap} R(K_L)`` with independent
+    records ``R(K_L)`` of ``K_L = at_least[L]`` (the classes of at least ``L`` cards).
+
+    It is stochastically above the score still to come from any state of level ``a``,
+    whatever else is known of the path: given the path, each stage's score is a sum of
+    independent Bernoulli(1/j) for ``j = 1..k_L`` (a guesser breaking ties at random
+    scores the same law), and ``k_L <= K_L``.
+    """
+    laws: list[np.ndarray] = [np.ones(1)] * (top_cap + 1)
+    law = np.ones(1)
+    for level in range(top_cap, 0, -1):
+        law = np.convolve(records[at_least[level]], law)
+        laws[level] = law
+    laws[0] = laws[1] if top_cap >= 1 else law
+    return laws
+
+
 def greedy_guessing_bracket(
     counts: Sequence[int],
     *,
@@ -536,8 +554,12 @@ def greedy_guessing_bracket(
     ``a > y`` out of ``c_u > c_v``) and summed over the others: if none does, every later
     stage has one class and scores 1, so the rest of the score is known; the entry is
     finished when its mass times that bound is below ``threshold``. Each set-aside piece
-    keeps the least and the most it can still score (one and at most the classes of at
-    least ``L`` cards, at each level left). Rounding: every kept mass is a sum of products
+    keeps the least it can still score (one at each level left) and a law stochastically
+    above what it can still score (at each level ``L`` left, the records of a uniform
+    permutation of all ``K_L`` classes of at least ``L`` cards, independently: given the
+    path, a stage scores a sum of independent Bernoulli(1/j), ``j = 1..k_L``, and ``k_L <=
+    K_L``), so the upper law spreads that mass rather than piling it on the largest
+    score. Rounding: every kept mass is a sum of products
     of non-negative terms, so its relative error is at most ``K u / (1 - K u)`` with ``u =
     2**-53`` and ``K`` the longest chain of operations (counted as the programme runs; [5]_);
     see :class:`~shufflecheck.stats.nulls.LawBracket` for what is guaranteed.
@@ -573,11 +595,12 @@ def greedy_guessing_bracket(
     first_of_group = [i == 0 or parts[i - 1] != parts[i] for i in range(size)]
     group = np.cumsum(first_of_group) - 1
     records = {k: _records_probabilities(k) for k in range(1, size + 1)}
-    # least / most a state at level a can still score (levels a..top, at least 1 each,
-    # at most the classes with at least L cards each)
+    # the least a state at level a can still score (levels a..top, at least 1 each) and a
+    # law stochastically above what it can still score (records of all the classes of at
+    # least L cards, at each level L)
     at_least = [sum(1 for c in parts if c >= level) for level in range(top_cap + 1)]
     future_low = np.array([top_cap - max(a, 1) + 1 for a in range(top_cap + 1)])
-    future_high = np.array([sum(at_least[max(a, 1) :]) for a in range(top_cap + 1)])
+    laws_ahead = _ahead_laws(at_least, top_cap, records)
     tops = sorted(set(parts))
     touch = {(cu, cv): _touch_table(cu, cv) for cu in tops for cv in tops}
 
@@ -585,7 +608,8 @@ def greedy_guessing_bracket(
     mass = np.ones(1)
     final = np.zeros(n + 2)
     aside_low = np.zeros(n + 2)
-    aside_high = np.zeros(n + 2)
+    width = n + 2
+    aside_at = np.zeros((top_cap + 1) * width)  # set-aside mass by (level, score so far)
     finished_terms = 0
     visited = 0
     fan_in = size * size  # predecessors of one entry: a class and a records value
@@ -622,7 +646,7 @@ def greedy_guessing_bracket(
                 finished_terms = max(finished_terms, rows.size)
                 piece = mass[rows] * bound[ok]
                 aside_low += np.bincount(score[rows] + future_low[a], piece, minlength=n + 2)
-                aside_high += np.bincount(score[rows] + future_high[a], piece, minlength=n + 2)
+                aside_at += np.bincount(a * width + score[rows], piece, minlength=aside_at.size)
                 done[rows] = True
         if done.any():
             keep = ~done
@@ -670,7 +694,7 @@ def greedy_guessing_bracket(
                 a = np.maximum(a, (lost >> shifts[i]) & ((1 << bits[i]) - 1))
             s_lost = lost & score_mask
             aside_low += np.bincount(s_lost + future_low[a], summed[small], minlength=n + 2)
-            aside_high += np.bincount(s_lost + future_high[a], summed[small], minlength=n + 2)
+            aside_at += np.bincount(a * width + s_lost, summed[small], minlength=aside_at.size)
             finished_terms = max(finished_terms, lost.size)
             merged, summed = merged[~small], summed[~small]
         if merged.size > max_states:
@@ -689,7 +713,16 @@ def greedy_guessing_bracket(
     # most fan_in terms; one more layer's sum into the tallies (at most finished_terms
     # terms), one addition per layer into them, and a few for the reported sums
     chain = n * (3 + fan_in) + finished_terms + 2 * n + 16
+    # the laws ahead (a product and a sum of at most size + 1 terms per level) and the
+    # spread of the set-aside mass over them (a product and a sum over levels and scores)
+    chain += top_cap * (size + 2) + (top_cap + 1) * width + 1
     rounding = chain * _UNIT_ROUNDOFF / (1 - chain * _UNIT_ROUNDOFF)
+    aside_by_level = aside_at.reshape(top_cap + 1, width)
+    aside_high = np.zeros(width)
+    for a in np.flatnonzero(aside_by_level.any(axis=1)):
+        spread = np.convolve(aside_by_level[a], laws_ahead[a])
+        aside_high[:n] += spread[:n]
+        aside_high[n] += spread[n:].sum()  # no score exceeds the cards
     set_aside = math.fsum(aside_low) * (1 + rounding)
     nonzero = np.flatnonzero(final)
     if nonzero.size == 0:
