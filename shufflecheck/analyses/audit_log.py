@@ -553,7 +553,10 @@ def _definition(
     if labels not in ("codes", "cards"):
         raise InputError(f"{shown}: a shoe log names its cards by code", argument="labels")
     span = None if segment is None else (int(segment[0]) - 1, int(segment[1]))
-    context = ShoeContext.of(shoe, feature or "rank", segment=span)
+    # an audit may test the guessing game against a bracket computed in advance
+    context = dataclasses.replace(
+        ShoeContext.of(shoe, feature or "rank", segment=span), guess_tables=True
+    )
     return shoe, context, max(1000, chunk_rows * 52 // shoe.size)
 
 

@@ -95,6 +95,8 @@ KIND_LINESTYLES: dict[str, Any] = {
     "estimate": ":",
     "conjectured": (0, (4, 1.5, 1, 1.5, 1, 1.5)),
 }
+#: how a score figure names the law its expected counts come from
+_LAW_WORDS = {"exact": "exact", "estimate": "estimated", "bound": "bracketed"}
 #: A lower bound: short dashes (an upper bound has long ones, an estimate fine dots).
 LOWER_BOUND_LINESTYLE: Any = (0, (1.8, 1.5))
 _THRESHOLD = {"color": "#333333", "linestyle": "-.", "linewidth": 1.1}
@@ -1182,13 +1184,14 @@ def _draw_scores(
     sample_label: str = "recorded decks",
     null_label: str = "a random deck",
     null_kind: str = "exact",
+    first: int = 0,
 ) -> Any:
     fig = _new_figure((7.2, 4.2))
     ax = fig.add_subplot()
-    k = np.arange(shown)
+    k = np.arange(first, shown)
     ax.bar(
         k,
-        observed[:shown],
+        observed[first:shown],
         width=0.72,
         color=OKABE_ITO["sky blue"],
         edgecolor=_INK,
@@ -1198,7 +1201,7 @@ def _draw_scores(
     )
     ax.step(
         k,
-        expected[:shown],
+        expected[first:shown],
         where="mid",
         color=_INK,
         linewidth=1.0,
@@ -1207,12 +1210,12 @@ def _draw_scores(
     )
     ax.plot(
         k,
-        expected[:shown],
+        expected[first:shown],
         color=_INK,
         marker="o",
         markersize=4.5,
         linestyle="none",
-        label=f"expected under {null_label} ({null_kind} law)",
+        label=f"expected under {null_label} ({_LAW_WORDS[null_kind]} law)",
         zorder=4,
     )
     ax.axvline(
@@ -1220,7 +1223,7 @@ def _draw_scores(
         color=_INK,
         linewidth=1.0,
         linestyle=KIND_LINESTYLES[null_kind],
-        label=f"mean under {null_label} ({null_kind})",
+        label=f"mean under {null_label} ({_LAW_WORDS[null_kind]})",
         zorder=1,
     )
     ax.axvline(
@@ -1234,7 +1237,7 @@ def _draw_scores(
     from matplotlib.ticker import MaxNLocator
 
     ax.xaxis.set_major_locator(MaxNLocator(integer=True))
-    ax.set_xlim(-0.6, shown - 0.4)
+    ax.set_xlim(first - 0.6, shown - 0.4)
     ax.set_ylim(bottom=0)
     ax.set_xlabel(score_name)
     ax.set_ylabel(count_name)
@@ -1272,15 +1275,18 @@ def score_histogram_figure(
     sample_label, null_label : str
         How the bars and the reference law are named in the legend (``recorded shoes``,
         ``a random shoe``).
-    null_kind : {"exact", "estimate"}
-        How the reference law was obtained (its line style follows).
+    null_kind : {"exact", "estimate", "bound"}
+        How the reference law was obtained (its line style follows); ``bound`` for a law
+        known to within a stated bracket (the caption should say how wide).
 
     Returns
     -------
     Figure
-        The score axis stops after the last score that was recorded or whose expected count
-        is at least 0.5; ``data`` holds the whole law.
+        The score axis runs from just before the first to just after the last score that
+        was recorded or whose expected count is at least 0.5; ``data`` holds the whole law.
     """
+    if null_kind not in _LAW_WORDS:
+        raise InputError(f"score figure: null_kind must be one of {sorted(_LAW_WORDS)}")
     pmf = _numbers(null_pmf, "score figure: null_pmf")
     if len(pmf) == 0 or np.any(pmf < 0) or abs(float(pmf.sum()) - 1.0) > 1e-9:
         raise InputError("score figure: null_pmf must be probabilities summing to 1")
@@ -1299,6 +1305,8 @@ def score_histogram_figure(
     visible = np.flatnonzero((observed > 0) | (expected >= 0.5))
     shown = int(visible.max()) + 2 if len(visible) else len(pmf)
     shown = min(shown, len(pmf))
+    # and starts just before the first (a shoe's score cannot fall below its largest count)
+    first = max(0, int(visible.min()) - 1) if len(visible) else 0
     null_mean = float(np.dot(np.arange(len(pmf)), pmf))
     observed_mean = float(ints.mean())
     with _style():
@@ -1313,6 +1321,7 @@ def score_histogram_figure(
             sample_label=sample_label,
             null_label=null_label,
             null_kind=null_kind,
+            first=first,
         )
         if caption is None:
             caption = (

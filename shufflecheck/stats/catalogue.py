@@ -67,7 +67,14 @@ import numpy as np
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.records.shoes import ShoeDefinition
-from shufflecheck.stats import nulls, ranks, shoe_nulls, shoe_statistics, statistics
+from shufflecheck.stats import (
+    guessing_tables,
+    nulls,
+    ranks,
+    shoe_nulls,
+    shoe_statistics,
+    statistics,
+)
 from shufflecheck.stats.guessing import DEFAULT_STRATEGIES, check_strategies, guess_scores_many
 from shufflecheck.stats.nulls import Law
 from shufflecheck.stats.statistics import as_decks, category_codes
@@ -123,10 +130,13 @@ class ShoeContext:
     when the classes are values in order); ``segment = (start, length)`` the reference
     positions (0-based) whose cards the zone test follows into ``zones`` (widths of
     consecutive zones of the new shoe from the top); ``guess_budget`` the most states the
-    exact law of the guessing game may take; ``guess_threshold``, when set, lets the
-    guessing game run beyond that budget against a bracketed law
-    (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold),
-    its p-value then a bound. Audits only: power planning and monitoring need exact laws.
+    exact law of the guessing game may take; beyond that budget the guessing game runs
+    against a bracketed law, its p-value then a bound: with ``guess_tables`` the bracket
+    computed in advance for these counts when one is stored
+    (:mod:`~shufflecheck.stats.guessing_tables`: blackjack and baccarat values of 3 to 6
+    packs), else, when ``guess_threshold`` is set, one computed now
+    (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold).
+    Audits only: power planning and monitoring need exact laws.
     """
 
     copies: tuple[int, ...]
@@ -138,6 +148,7 @@ class ShoeContext:
     zones: tuple[int, ...] | None = None
     guess_budget: int = shoe_nulls.GREEDY_STATE_BUDGET
     guess_threshold: float | None = None
+    guess_tables: bool = False
 
     def __post_init__(self) -> None:
         if len(self.classes) != len(self.copies) or not self.copies:
@@ -209,6 +220,8 @@ class ShoeContext:
         if need == "guessing":
             counts = self.class_counts
             if shoe_nulls.greedy_state_estimate(counts) <= self.guess_budget:
+                return True
+            if self.guess_tables and guessing_tables.stored_bracket(counts) is not None:
                 return True
             return self.guess_threshold is not None and shoe_nulls.greedy_bracket_fits(counts)
         if need == "equal-copies":
@@ -781,8 +794,9 @@ _SHOE: tuple[Statistic, ...] = (
         ),
         law=lambda c: guessing_null_for(_shoe(c)),
         law_source="dynamic programme over the remaining counts (exact integers); beyond its "
-        "budget, when asked, a bracket (the stage decomposition in floating point, the mass "
-        "set aside stated with the p-value, which is then a bound)",
+        "budget a bracket (the stage decomposition in floating point, for 3 to 6 packs of "
+        "blackjack or baccarat values computed in advance and shipped; the mass set aside "
+        "stated with the p-value, which is then a bound)",
         sentence=_shoe_guess_sentence,
         need="guessing",
         lower_bound=True,
@@ -791,12 +805,14 @@ _SHOE: tuple[Statistic, ...] = (
 
 
 def guessing_null_for(shoe: ShoeContext) -> nulls.Law | nulls.LawBracket:
-    """The null of the greedy guessing game for ``shoe``: exact, or the bracket that the
-    shoe asks for (``guess_threshold``) beyond the exact budget."""
-    if shoe.guess_threshold is None:
-        return shoe_nulls.greedy_guessing_law(shoe.class_counts)
-    return shoe_nulls.greedy_guessing_null(
-        shoe.class_counts, budget=shoe.guess_budget, threshold=shoe.guess_threshold
+    """The null of the greedy guessing game for ``shoe``: exact within its budget, else
+    the bracket the shoe allows (stored with ``guess_tables``, computed with
+    ``guess_threshold``)."""
+    return guessing_tables.guessing_null(
+        shoe.class_counts,
+        budget=shoe.guess_budget,
+        stored=shoe.guess_tables,
+        threshold=shoe.guess_threshold,
     )
 
 

@@ -552,7 +552,7 @@ class BatterySummary:
                 (
                     "guess-most-frequent",
                     f"its exact null law would take about {states:,} count states, beyond the "
-                    f"budget of {self.shoe.guess_budget:,}",
+                    f"budget of {self.shoe.guess_budget:,}, and no bracket of it is stored",
                 )
             )
         return tuple(out)

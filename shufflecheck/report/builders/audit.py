@@ -18,6 +18,7 @@ from shufflecheck.common.sources import (
 from shufflecheck.report.document import MethodNote, Report, Section, Table
 from shufflecheck.report.provenance import Provenance
 from shufflecheck.stats.catalogue import catalogue, law_sources
+from shufflecheck.stats.nulls import LawBracket
 
 __all__ = [
     "audit_figure_count",
@@ -161,17 +162,34 @@ def audit_figures(audit, prefix: str = "") -> tuple:
         pmf = np.zeros(max(n + 1, hist.size))
         pmf[law.offset : law.offset + len(law.pmf)] = law.pmf
         scores = np.repeat(np.arange(hist.size), hist)
+        score_name = (
+            f"correct guesses per {'deck' if shoe is None else 'shoe'} "
+            f"({best.title.split(', ')[-1]})"
+        )
+        null_kind, caption = "exact", None
+        if isinstance(law, LawBracket):
+            # the mass followed to the end, rescaled: each point is within the bracket's
+            # width of the true chance
+            pmf /= pmf.sum()
+            null_kind = "bound"
+            caption = (
+                f"{score_name[:1].upper()}{score_name[1:]} in the recorded shoes (bars) "
+                "against the number expected under a random shoe (points on a step line), "
+                f"from a law known to within {law.width:.2g} (a bracket; the mass it followed "
+                "to the end, rescaled). The dotted line is the mean of the recorded shoes, "
+                "the dashed line the mean under a random shoe."
+            )
         figures.append(
             score_histogram_figure(
                 scores.tolist(),
                 pmf[: max(hist.size, n + 1)].tolist(),
-                score_name=(
-                    f"correct guesses per {'deck' if shoe is None else 'shoe'} "
-                    f"({best.title.split(', ')[-1]})"
-                ),
+                score_name=score_name,
+                count_name="number of decks" if shoe is None else "number of shoes",
                 name=f"{prefix}guessing",
+                caption=caption,
                 sample_label="recorded decks" if shoe is None else "recorded shoes",
                 null_label="a random deck" if shoe is None else "a random shoe",
+                null_kind=null_kind,
             )
         )
     counts = np.asarray(audit.positions, dtype=float)
@@ -336,6 +354,15 @@ def audit_methods(alpha: float, *, shoes: bool = False) -> tuple[MethodNote, ...
                 "maxima, the greedy guessing game by dynamic programming, matches between "
                 "shoes by rook polynomials",
                 (STANLEY, DIACONIS_GRAHAM, RIORDAN_1958),
+            ),
+            MethodNote(
+                "guessing game beyond the exact programme",
+                "bound",
+                "for shoes whose exact guessing law is out of reach (blackjack or baccarat "
+                "values of 3 to 6 packs) the law is a bracket computed in advance: exact laws "
+                "stochastically below and above it give p-values that bracket the true one, "
+                "and the larger is reported and used by Holm (the test's row says bound)",
+                (DIACONIS_GRAHAM,),
             ),
             MethodNote(
                 "position-by-value test",
