@@ -156,6 +156,47 @@ class TestSixPackAudit:
         )
 
 
+class TestSixPackPlan:
+    """Power planning for six-pack shoes plans the guessing game against the end of the
+    stored bracket that the audit tests with."""
+
+    def _plan(self, faulty: bool):
+        import dataclasses
+
+        from shufflecheck.records.shoes import shoe
+        from shufflecheck.stats import plan_shoes
+        from shufflecheck.stats.catalogue import ShoeContext
+
+        six = shoe(6)
+        ctx = dataclasses.replace(ShoeContext.of(six, "blackjack"), guess_tables=True)
+        kinds = six.physical_kinds()
+        ten = int(np.argmax(ctx.class_counts))
+
+        def sample(count, rng):
+            words = kinds[np.argsort(rng.random((count + 1, kinds.size)), axis=1)]
+            if faulty:  # every shoe deals all its tens first
+                is_ten = np.asarray(ctx.classes)[words] == ten
+                order = np.argsort(~is_ten, axis=1, kind="stable")
+                words = np.take_along_axis(words, order, axis=1)
+            return words
+
+        return plan_shoes(sample, ctx, simulate=300, rng=3)
+
+    def test_guessing_row_planned_against_the_bracket(self):
+        plan = self._plan(faulty=True)
+        (row,) = [r for r in plan.rows if r.test == "guess-most-frequent"]
+        assert plan.bracketed == ("guessing game, most frequent value",)
+        assert "upper end of a bracket" in plan.null_text()
+        # about ten extra correct guesses per shoe against a spread of 1.55: a few shoes
+        assert row.decks is not None and row.decks <= 5
+        assert plan.as_json()["bracketed_nulls"] == ["guessing game, most frequent value"]
+
+    def test_uniform_shoes_need_many(self):
+        plan = self._plan(faulty=False)
+        (row,) = [r for r in plan.rows if r.test == "guess-most-frequent"]
+        assert row.decks is None or row.decks > 1000
+
+
 @pytest.mark.slow
 def test_stored_brackets_recomputed(tmp_path):
     # every stored bracket computed again from scratch (about ten minutes, 2.5 GB) equals

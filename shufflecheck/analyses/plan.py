@@ -7,6 +7,7 @@ the procedure) and uses the built-in deck's suits and colours for 52-card decks.
 
 from __future__ import annotations
 
+import dataclasses
 from typing import Any
 
 from shufflecheck.models.procedures import Procedure
@@ -73,7 +74,8 @@ def plan_shoe_power(
     from shufflecheck.stats.catalogue import ShoeContext
 
     proc.check_cards(shoe.size)
-    context = ShoeContext.of(shoe, feature)
+    # the battery the audit runs, with the guessing game on a stored bracket where one is
+    context = dataclasses.replace(ShoeContext.of(shoe, feature), guess_tables=True)
     kinds = shoe.physical_kinds()
     plans = []
     for r in counts:

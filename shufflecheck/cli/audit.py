@@ -595,7 +595,7 @@ def _print_power(plans, proc, shoes: bool = False) -> None:
     )
     echo(
         f"Estimates from {first.simulated_decks:,} simulated {unit} per repetition count; "
-        "null laws exact."
+        f"{first.null_text()}."
     )
     echo()
     headers = ["test", *(f"r = {r}" for r, _ in plans)]

@@ -136,7 +136,8 @@ class ShoeContext:
     (:mod:`~shufflecheck.stats.guessing_tables`: blackjack and baccarat values of 3 to 6
     packs), else, when ``guess_threshold`` is set, one computed now
     (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold).
-    Audits only: power planning and monitoring need exact laws.
+    Audits and power planning (which plans against the end of the bracket the audit tests
+    with); assessments' lower bounds and monitoring need exact laws.
     """
 
     copies: tuple[int, ...]

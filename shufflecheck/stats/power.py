@@ -70,7 +70,7 @@ from shufflecheck.stats.catalogue import (
     deck_bytes,
 )
 from shufflecheck.stats.guessing import DEFAULT_STRATEGIES
-from shufflecheck.stats.nulls import Law, law_bytes, sum_distribution
+from shufflecheck.stats.nulls import Law, LawBracket, law_bytes, sum_distribution
 from shufflecheck.stats.positions import position_counts
 from shufflecheck.stats.statistics import as_decks
 
@@ -176,6 +176,18 @@ class PowerPlan:
     simulated_decks: int
     rows: tuple[PowerRow, ...]
     confidence: float = 0.95
+    #: tests whose null is a bracketed law, planned against the end the audit tests with
+    bracketed: tuple[str, ...] = ()
+
+    def null_text(self) -> str:
+        """How the null laws were obtained, in one phrase."""
+        if not self.bracketed:
+            return "null laws exact"
+        return (
+            "null laws exact, or for "
+            + ", ".join(f"'{t}'" for t in self.bracketed)
+            + " the upper end of a bracket computed in advance (what the audit tests with)"
+        )
 
     def best(self) -> PowerRow | None:
         """The test needing the fewest decks (None if no test detects the procedure)."""
@@ -194,6 +206,7 @@ class PowerPlan:
             "confidence": self.confidence,
             "fewest_decks": None if best is None else best.decks,
             "fewest_decks_test": None if best is None else best.test,
+            "bracketed_nulls": list(self.bracketed),
             "kind": "estimate",
             "rows": [r.as_json(self.confidence) for r in self.rows],
         }
@@ -347,7 +360,9 @@ def plan_decks(
             continue
         assert stat.values is not None and stat.law is not None
         x = stat.values(view)
-        rows.append(_sum_row(stat, stat.law(context), x, level, power, max_decks))
+        rows.append(
+            _sum_row(stat, _tested_law(stat, stat.law(context)), x, level, power, max_decks)
+        )
     return PowerPlan(cards, alpha, power, m, level, simulate, tuple(rows), confidence)
 
 
@@ -585,6 +600,8 @@ def plan_shoes(
     over the simulated references, and shoes are treated as independent draws from it (an
     approximation). The position-by-value test uses the noncentral chi-square with
     ``(n-1)(V-1)`` degrees of freedom. ``confidence`` is the level of the counts' intervals.
+    A statistic whose null is a bracket (the guessing game on a stored bracket) is planned
+    against the end the audit tests with, and named in ``bracketed``.
     """
     n = shoe.cards
     _check_plan(n, alpha, power, simulate, max_decks, shoe=True)
@@ -599,6 +616,7 @@ def plan_shoes(
     m = len(statistics)
     level = alpha / m
     rows = []
+    bracketed: list[str] = []
     for stat in statistics:
         if stat.shape == "class-positions":
             rows.append(_class_position_row(stat, view.absolute, shoe, level, power, max_decks))
@@ -606,7 +624,8 @@ def plan_shoes(
         if stat.shape == "consecutive":
             assert stat.values is not None and stat.law is not None
             x = stat.values(DeckView(words, words, context))
-            rows.append(_sum_row(stat, stat.law(context), x, level, power, max_decks))
+            law = _tested_law(stat, stat.law(context))
+            rows.append(_sum_row(stat, law, x, level, power, max_decks))
             continue
         assert stat.values is not None
         x = stat.values(view)
@@ -618,9 +637,25 @@ def plan_shoes(
             )
         else:
             assert stat.law is not None
-            law = stat.law(context)
+            raw = stat.law(context)
+            if isinstance(raw, LawBracket):
+                bracketed.append(stat.title)
+            law = _tested_law(stat, raw)
         rows.append(_sum_row(stat, law, x, level, power, max_decks))
-    return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows), confidence)
+    return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows), confidence, tuple(bracketed))
+
+
+def _tested_law(stat: Statistic, law: Law | LawBracket) -> Law:
+    """The exact law an audit tests ``stat`` against: the law itself, or for a bracketed law
+    the end whose p-value the audit reports (the upper law for ``greater``, the lower for
+    ``less``), so that a plan's critical values are the audit's."""
+    if not isinstance(law, LawBracket):
+        return law
+    if stat.alternative == "greater":
+        return law.upper_law
+    if stat.alternative == "less":
+        return law.lower_law
+    raise InputError(f"{stat.name}: a bracketed law supports one-sided tests only")
 
 
 def _counted(keys: np.ndarray) -> list[tuple[int, int]]:

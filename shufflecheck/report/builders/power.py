@@ -78,7 +78,7 @@ def power_section(plans: list[tuple[int, Any]], procedure: str, *, figure=None) 
             f"Each test at level {first.per_test_level:.2g} (Bonferroni over "
             f"{first.tests_in_battery} tests, conservative for Holm's method).",
             f"Laws under the procedure estimated from {first.simulated_decks:,} simulated decks; "
-            "null laws exact.",
+            f"{first.null_text()}.",
             f"Intervals ({percent(first.confidence)}) carry the Monte Carlo error of the "
             "simulated shift of each test's mean over to the count, rounded outward to whole "
             "decks.",
