@@ -202,6 +202,7 @@ class TestLegendText:
                 steps=k,
                 value=lambda m, k=k, kind=kind: Value(kind=kind, value=0.5 / k),
                 total_variation_lower=None,
+                total_variation_estimate=None,
             )
             for k, kind in ((1, "exact"), (2, "bound"))
         ]

@@ -251,7 +251,7 @@ def _row(
     sure_separation: Quantity | None = None  # the feature's exact separation, where known
     packets = _riffle_packets(procedure, r + 1)
     if feature != "distinct" and packets is not None:
-        own = features.feature_distances(start_classes.tolist(), 1, hands=packets)
+        own = features.feature_distances(start_classes.tolist(), 1, hands=packets, samples=0)
         values = {m: own.value(m) for m in _METRICS}
         if all(q.kind == "exact" for q in values.values()):
             exact = DistanceRow(

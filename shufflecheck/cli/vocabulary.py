@@ -79,7 +79,7 @@ OPTIONS: dict[str, str] = {
     "--show-shapes": "how many shapes the terminal lists per eigenvalue",
     "--simulate": "simulated decks (or shoes) behind an estimate",
     "--slug": "the reference positions of a slug of cards, START:CARDS",
-    "--start": "the order of the deck before the first step (reference or blocks)",
+    "--start": "the order of the deck before the first step (reference, blocks or alternating)",
     "--start-time": "the recorded time of the first simulated deck",
     "--table": "the table (or machine) the decks belong to",
     "--target": "the distance to random that a count of steps must reach",

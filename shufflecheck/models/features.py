@@ -44,6 +44,11 @@ checked against brute force.
 shoe): :mod:`shufflecheck.models.two_valued` sums the same additive likelihood ratio on a
 grid, with rigorous lower and upper ends.
 
+**Alternating two-valued starts** (Conger & Viswanath's other start):
+:mod:`shufflecheck.models.alternating` gives each word's exact chance; distances are exact
+up to 18 cards, and beyond, the total variation gets a Monte Carlo estimate over uniform
+words with its interval (the upper bounds stay the distinct-card ones).
+
 **Exact everything for small decks**: for ``n <= 9`` (any start, any feature) the law of
 the word is summed from the exact law of the arrangement over all ``n!`` arrangements.
 
@@ -78,9 +83,19 @@ from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.counting import stirling2_row
 from shufflecheck.core.distances import kl_term
 from shufflecheck.models import riffle
+from shufflecheck.models.alternating import (
+    ESTIMATE_SAMPLES,
+    ESTIMATE_WORK,
+    alternating_class,
+    alternating_distances,
+    alternating_tv_estimate,
+    estimate_work,
+)
+from shufflecheck.models.alternating import EXACT_WORDS as ALTERNATING_EXACT_WORDS
 
 __all__ = [
     "ENUMERATION_CARDS",
+    "ESTIMATE_FLOOR",
     "FEATURE_SOURCES_NOTE",
     "FeatureCurve",
     "FeatureDistances",
@@ -99,8 +114,12 @@ FEATURE_SOURCES_NOTE = (
     "Upper bounds come from the distinct-card distances (a feature is never farther); exact "
     "values where the feature's law is known in closed form; for a two-valued deck in blocks "
     "too large for the exact sum, rigorous lower and upper bounds from its likelihood ratios "
-    "summed on a grid (docs/models.md)."
+    "summed on a grid; for an alternating two-valued start too large for the exact sum, a "
+    "Monte Carlo estimate of the exact total variation with its confidence interval "
+    "(docs/models.md)."
 )
+#: A feature curve stops estimating after the first estimate below this.
+ESTIMATE_FLOOR = 0.01
 #: Largest deck whose word law is summed over all ``n!`` arrangements.
 ENUMERATION_CARDS = 9
 #: Unsettled partial words the two-valued dynamic programme may hold.
@@ -300,6 +319,9 @@ class FeatureDistances:
     #: a rigorous lower bound on the total variation, where one is computed (the exact
     #: value needs none)
     total_variation_lower: Quantity | None = None
+    #: a Monte Carlo estimate of the exact total variation, where one is computed (an
+    #: alternating two-valued start too large for the exact sum)
+    total_variation_estimate: Quantity | None = None
 
     def value(self, metric: str) -> Quantity:
         return getattr(self, metric)
@@ -324,6 +346,8 @@ class FeatureDistances:
         }
         if self.total_variation_lower is not None:
             out["total_variation_lower"] = self.total_variation_lower.as_json()
+        if self.total_variation_estimate is not None:
+            out["total_variation_estimate"] = self.total_variation_estimate.as_json()
         return out
 
 
@@ -342,14 +366,31 @@ def _small_distances(start: tuple[int, ...], hands: int) -> tuple[float, float, 
     return float(tv / 2), float(separation), kl / math.log(2)
 
 
-def feature_distances(start: Sequence[int], steps: int, *, hands: int = 2) -> FeatureDistances:
+def feature_distances(
+    start: Sequence[int],
+    steps: int,
+    *,
+    hands: int = 2,
+    samples: int = ESTIMATE_SAMPLES,
+    seed: int = 0,
+) -> FeatureDistances:
     """The best labelled distances known for the word after ``steps`` riffles (``hands``
-    packets each) of a deck whose reference position ``i`` holds class ``start[i]``."""
-    return _feature_distances(tuple(int(x) for x in start), int(steps), int(hands))
+    packets each) of a deck whose reference position ``i`` holds class ``start[i]``.
+
+    A two-valued start that alternates (:mod:`shufflecheck.models.alternating`) gets exact
+    distances up to :data:`~shufflecheck.models.alternating.EXACT_WORDS` words and beyond
+    that, when ``samples > 0`` and the work stays within
+    :data:`~shufflecheck.models.alternating.ESTIMATE_WORK`, a Monte Carlo estimate of its
+    exact total variation from ``samples`` uniform words drawn with ``seed``."""
+    return _feature_distances(
+        tuple(int(x) for x in start), int(steps), int(hands), int(samples), int(seed)
+    )
 
 
 @lru_cache(maxsize=256)
-def _feature_distances(values: tuple[int, ...], steps: int, hands: int) -> FeatureDistances:
+def _feature_distances(
+    values: tuple[int, ...], steps: int, hands: int, samples: int = 0, seed: int = 0
+) -> FeatureDistances:
     n = len(values)
     counts = _class_counts(values)
     packets = hands**steps
@@ -368,6 +409,9 @@ def _feature_distances(values: tuple[int, ...], steps: int, hands: int) -> Featu
     sep = Quantity(full.separation, "bound", side="upper", method=distinct)
     kl = Quantity(full.kl_bits, "bound", side="upper", method=distinct, unit="bits")
     lower = None
+    top = alternating_class(values)
+    if top is not None:
+        return _alternating(values, steps, packets, samples, seed, tv, sep, kl)
     runs = block_runs(values)
     if runs is not None:
         counts = runs  # the classes renamed in the order of their blocks
@@ -388,6 +432,48 @@ def _feature_distances(values: tuple[int, ...], steps: int, hands: int) -> Featu
             else:
                 tv, lower = _bracketed(tv, counts, packets)
     return FeatureDistances(steps, tv, sep, kl, lower)
+
+
+def _alternating(
+    values: tuple[int, ...],
+    steps: int,
+    packets: int,
+    samples: int,
+    seed: int,
+    tv: Quantity,
+    sep: Quantity,
+    kl: Quantity,
+) -> FeatureDistances:
+    """Distances of an alternating two-valued start: exact while the words are few, else
+    the upper bounds given and (``samples > 0``) an estimate of the exact total variation."""
+    n = len(values)
+    if math.comb(n, n // 2) <= ALTERNATING_EXACT_WORDS:
+        t, s, k = alternating_distances(n, packets)
+        how = (
+            f"exact: alternating two-valued start, each word's chance (derived) summed over "
+            f"all {math.comb(n, n // 2):,} words"
+        )
+        return FeatureDistances(
+            steps,
+            Quantity(t, "exact", method=how),
+            Quantity(s, "exact", method=how),
+            Quantity(k, "exact", method=how, unit="bits"),
+        )
+    estimate = None
+    if samples > 0 and estimate_work(n, packets, samples) <= ESTIMATE_WORK:
+        found = alternating_tv_estimate(n, packets, samples=samples, rng=seed)
+        estimate = Quantity(
+            found.value,
+            "estimate",
+            stderr=found.stderr,
+            interval=(found.low, found.high),
+            confidence=found.confidence,
+            method=(
+                f"Monte Carlo over {found.samples:,} uniform words (seed {seed}), each word's "
+                "exact chance for the alternating start (derived)"
+            ),
+        )
+    return FeatureDistances(steps, tv, sep, kl, None, estimate)
 
 
 def _bracketed(tv: Quantity, counts: tuple[int, ...], packets: int):
@@ -440,14 +526,22 @@ def feature_curve(
     start_name: str = "",
     names: Sequence[str] = (),
     progress: Callable[[int], None] | None = None,
+    samples: int = ESTIMATE_SAMPLES,
+    seed: int = 0,
 ) -> FeatureCurve:
     """:func:`feature_distances` for ``k = 1..max_steps`` riffles; ``progress(k)`` is called
-    after each row."""
+    after each row. Monte Carlo estimates (``samples`` words, ``seed``) stop after the first
+    row estimated below :data:`ESTIMATE_FLOOR` (the total variation never grows with more
+    riffles, and each row costs about twice the one before)."""
     values = tuple(int(x) for x in start)
     counts = _class_counts(values)
     rows = []
     for k in range(1, max_steps + 1):
-        rows.append(feature_distances(values, k, hands=hands))
+        row = feature_distances(values, k, hands=hands, samples=samples, seed=seed)
+        rows.append(row)
+        found = row.total_variation_estimate
+        if found is not None and found.value < ESTIMATE_FLOOR:
+            samples = 0
         if progress is not None:
             progress(k)
     return FeatureCurve(feature, start_name, len(values), hands, tuple(names), counts, tuple(rows))
@@ -465,6 +559,8 @@ def feature_curve_until(
     start_name: str = "",
     names: Sequence[str] = (),
     progress: Callable[[int], None] | None = None,
+    samples: int = ESTIMATE_SAMPLES,
+    seed: int = 0,
 ) -> FeatureCurve:
     """:func:`feature_curve` over ``max_steps`` riffles when given; otherwise over
     ``default_steps``, doubled up to the exact riffle law's limit
@@ -477,6 +573,8 @@ def feature_curve_until(
         "start_name": start_name,
         "names": names,
         "progress": progress,
+        "samples": samples,
+        "seed": seed,
     }
     if max_steps is not None or target is None:
         return feature_curve(start, default_steps if max_steps is None else max_steps, **options)
