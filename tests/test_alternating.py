@@ -166,6 +166,12 @@ class TestCommand:
         assert row["total_variation_estimate"]["kind"] == "estimate"
         low, high = row["total_variation_estimate"]["interval"]
         assert 0.5 < low < high < 0.8  # three riffles: about 0.67
+        folder = tmp_path / "report"
+        result = runner.invoke(app, [*args, "--simulate", "200", "--report", str(folder)])
+        assert result.exit_code == 0, result.output
+        text = (folder / "report.md").read_text()
+        assert "Monte Carlo estimate (certifies nothing)" in text
+        assert "total variation, estimate" in text and "99% confidence band" in text
         result = runner.invoke(
             app, ["mix", "riffle", "--feature", "rank", "--start", "alternating"]
         )

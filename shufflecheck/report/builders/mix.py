@@ -222,6 +222,13 @@ def feature_mixing_report(
         f"After {last.steps} riffles: total variation {last.total_variation_text()}, separation "
         f"{last.separation.text()}."
     )
+    estimated = [r for r in curve.rows if r.total_variation_estimate is not None]
+    if estimated:
+        shown = estimated[-1]
+        answer.append(
+            f"Monte Carlo estimate (certifies nothing): total variation "
+            f"{shown.total_variation_estimate.text()} after {shown.steps} riffles."
+        )
     estimated = any(r.total_variation_estimate is not None for r in curve.rows)
     rows = tuple(
         (
