@@ -398,7 +398,8 @@ def _alternating_start(classes: list[int], feature: str) -> list[int]:
     if len(counts) != 2 or abs(len(classes) - 2 * max(counts.values())) > 1:
         raise InputError(
             f"--start alternating needs a feature of two classes whose counts differ by at "
-            f"most one (e.g. colour); '{feature}' has {len(counts)} classes",
+            f"most one (e.g. colour); '{feature}' has {len(counts)} classes of "
+            f"{', '.join(str(c) for c in sorted(counts.values(), reverse=True))} cards",
             argument="start",
         )
     first = classes[0]

@@ -50,7 +50,7 @@ __all__ = [
     "write_tables",
 ]
 
-#: first line of meaning of the stored file
+#: the format the stored file declares
 FORMAT = "shufflecheck guessing brackets, version 1"
 
 #: the compositions stored, with the threshold each was computed at: blackjack (and
@@ -115,7 +115,7 @@ def bracket_from_record(record: dict, where: str = "record") -> LawBracket:
 
 
 @cache
-def _stored() -> dict[tuple[int, ...], tuple[LawBracket, str]]:
+def _stored() -> dict[tuple[int, ...], LawBracket]:
     source = resources.files("shufflecheck.stats").joinpath(*_FILE)
     where = "/".join(("shufflecheck/stats", *_FILE))
     try:
@@ -133,7 +133,8 @@ def _stored() -> dict[tuple[int, ...], tuple[LawBracket, str]]:
             f"computed in advance ({record.get('seconds', '?')} s of CPU at threshold "
             f"{record.get('threshold')}) and shipped with the package"
         )
-        out[_key(record["counts"])] = (bracket, note)
+        # one object per composition, so that its bounding laws are built once
+        out[_key(record["counts"])] = replace(bracket, method=f"{bracket.method}; {note}")
     return out
 
 
@@ -145,11 +146,7 @@ def stored_counts() -> tuple[tuple[int, ...], ...]:
 def stored_bracket(counts: Sequence[int]) -> LawBracket | None:
     """The stored bracket of ``counts`` (in any order), or None. Its ``method`` says how
     and when it was computed."""
-    found = _stored().get(_key(counts))
-    if found is None:
-        return None
-    bracket, note = found
-    return replace(bracket, method=f"{bracket.method}; {note}")
+    return _stored().get(_key(counts))
 
 
 def guessing_null(
