@@ -84,6 +84,30 @@ class TestChances:
         assert alternating.alternating_class([0, 1, 2]) is None
 
 
+class TestObservedStructure:
+    """An observation, not used by any computation (conjectured in general): a word's
+    chance depends only on how many times its path (+1 for class 1, -1 for class 0) crosses
+    each level, and distinct crossing profiles number (m + 3) 2^(m - 2) for 2m cards."""
+
+    @pytest.mark.parametrize("n", [8, 10, 12, 14])
+    def test_chance_is_a_function_of_the_crossing_profile(self, n):
+        words = np.array(all_words(n))
+        heights = np.concatenate(
+            [np.zeros((len(words), 1), int), np.cumsum(np.where(words == 1, 1, -1), axis=1)],
+            axis=1,
+        )
+        lows = np.minimum(heights[:, :-1], heights[:, 1:])
+        profiles = [tuple(sorted(Counter(row.tolist()).items())) for row in lows]
+        chances = np.stack([alternating.word_chances(words, a) for a in (2, 3, 5, 8)], axis=1)
+        groups: dict = {}
+        for profile, row in zip(profiles, chances, strict=True):
+            groups.setdefault(profile, []).append(row)
+        for rows in groups.values():
+            assert np.allclose(rows, rows[0], rtol=1e-12, atol=0)
+        m = n // 2
+        assert len(groups) == (m + 3) * 2 ** (m - 2)
+
+
 class TestDistances:
     @pytest.mark.parametrize("n", [8, 9])
     @pytest.mark.parametrize("k", [1, 2, 3, 4])
