@@ -147,6 +147,11 @@ class TestSixPackAudit:
         assert test.method == "bound"
         assert "computed in advance" in test.detail or "known to within" in test.detail
         p = 10**test.log10_p_value
+        # both ends of the p-value bracket, in the JSON too
+        assert test.log10_p_value_low is not None
+        assert test.log10_p_value_low <= test.log10_p_value
+        record = test.as_json()
+        assert record["p_value_low"] <= record["p_value"]
         if faulty:
             assert p < 1e-6
         else:

@@ -94,6 +94,7 @@ def run_battery(
     """
     cards = tallies.positions.shape[0]
     rows = []
+    lows: dict[str, float] = {}  # natural log of the smaller end of a bracketed p-value
     skipped: list[tuple[str, str]] = []
     for stat in statistics:
         if stat.shape == "class-positions":
@@ -150,7 +151,9 @@ def run_battery(
         if isinstance(law, nulls.LawBracket):
             row = _bracket_row(stat, law, tallies.hist[stat.name])
             if row is not None:
-                rows.append(row)
+                *row, low = row
+                rows.append(tuple(row))
+                lows[stat.name] = low
             continue
         assert isinstance(law, Law)
         hist = tallies.hist[stat.name]
@@ -183,6 +186,7 @@ def run_battery(
             alternative=stat.alternative,
             effect=effect,
             flagged=bool(adj <= level),
+            log10_p_value_low=None if stat.name not in lows else lows[stat.name] / _LN10,
         )
         for (stat, value, log_p, method, detail, effect), adj in zip(rows, adjusted, strict=True)
     )
@@ -197,7 +201,8 @@ def run_battery(
 def _bracket_row(stat: Statistic, law: nulls.LawBracket, hist: np.ndarray) -> tuple | None:
     """The test of a statistic whose law is known to within a bound: the p-values of the
     exact laws stochastically below and above it bracket the true p-value; the larger end
-    is the one tested (Holm uses it), so the test stays valid."""
+    is the one tested (Holm uses it), so the test stays valid. The row ends with the
+    smaller end's natural log."""
     if stat.alternative == "two-sided":
         raise InputError(f"{stat.name}: a bracketed law supports one-sided tests only")
     count = int(hist.sum())
@@ -215,7 +220,7 @@ def _bracket_row(stat: Statistic, law: nulls.LawBracket, hist: np.ndarray) -> tu
         f"({law.method}); p-value between {math.exp(low):.3g} and {math.exp(high):.3g}, the "
         f"larger reported ({stat.alternative})"
     )
-    return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law))
+    return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law), low)
 
 
 def _since_when(

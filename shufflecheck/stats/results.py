@@ -85,6 +85,9 @@ class TestResult:
     alternative: str
     effect: Effect
     flagged: bool
+    #: for a test against a bracketed law (method ``bound``), the smaller end of the
+    #: p-value bracket (``log10_p_value`` is the larger, the one reported and adjusted)
+    log10_p_value_low: float | None = None
 
     @property
     def p_value(self) -> float:
@@ -114,6 +117,14 @@ class TestResult:
             "alternative": self.alternative,
             "flagged": self.flagged,
             "effect": self.effect.as_json(),
+            **(
+                {}
+                if self.log10_p_value_low is None
+                else {
+                    "p_value_low": max(10.0**self.log10_p_value_low, P_FLOOR),
+                    "log10_p_value_low": self.log10_p_value_low,
+                }
+            ),
         }
 
 
