@@ -74,7 +74,7 @@ def plan_shoe_power(
     from shufflecheck.stats.catalogue import ShoeContext
 
     proc.check_cards(shoe.size)
-    # the battery the audit runs, with the guessing game on a stored bracket where one is
+    # the battery the audit runs: the guessing game on a stored bracket where one is stored
     context = dataclasses.replace(ShoeContext.of(shoe, feature), guess_tables=True)
     kinds = shoe.physical_kinds()
     plans = []
