@@ -97,6 +97,8 @@ KIND_LINESTYLES: dict[str, Any] = {
 }
 #: how a score figure names the law its expected counts come from
 _LAW_WORDS = {"exact": "exact", "estimate": "estimated", "bound": "bracketed"}
+#: and the style of the line it draws (:data:`KIND_LINESTYLES`)
+_LINE_WORDS = {"exact": "solid", "estimate": "dotted", "bound": "dashed"}
 #: A lower bound: short dashes (an upper bound has long ones, an estimate fine dots).
 LOWER_BOUND_LINESTYLE: Any = (0, (1.8, 1.5))
 _THRESHOLD = {"color": "#333333", "linestyle": "-.", "linewidth": 1.1}
@@ -1257,6 +1259,7 @@ def score_histogram_figure(
     sample_label: str = "recorded decks",
     null_label: str = "a random deck",
     null_kind: str = "exact",
+    null_note: str = "",
 ) -> Figure:
     """Histogram of per-deck scores of a log against the exact null law of the score.
 
@@ -1277,7 +1280,10 @@ def score_histogram_figure(
         ``a random shoe``).
     null_kind : {"exact", "estimate", "bound"}
         How the reference law was obtained (its line style follows); ``bound`` for a law
-        known to within a stated bracket (the caption should say how wide).
+        known to within a stated bracket (say how wide in ``null_note``).
+    null_note : str
+        Added to the default caption after the kind of the reference law (how wide a
+        bracket is, say).
 
     Returns
     -------
@@ -1324,11 +1330,13 @@ def score_histogram_figure(
             first=first,
         )
         if caption is None:
+            note = f"; {null_note}" if null_note else ""
             caption = (
-                f"{score_name[:1].upper()}{score_name[1:]} in the recorded decks (bars) "
-                "against the number expected under a random deck (points on a step line, "
-                "exact law). The dotted line is the mean of the recorded decks, the solid "
-                "line the mean under a random deck."
+                f"{score_name[:1].upper()}{score_name[1:]} in the {sample_label} (bars) "
+                f"against the number expected under {null_label} (points on a step line, "
+                f"{_LAW_WORDS[null_kind]} law{note}). The dotted line is the mean of the "
+                f"{sample_label}, the {_LINE_WORDS[null_kind]} line the mean under "
+                f"{null_label}."
             )
         data = {
             "kind": "scores",

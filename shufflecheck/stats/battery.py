@@ -149,11 +149,10 @@ def run_battery(
             continue
         law = laws[stat.name]
         if isinstance(law, nulls.LawBracket):
-            row = _bracket_row(stat, law, tallies.hist[stat.name])
-            if row is not None:
-                *row, low = row
-                rows.append(tuple(row))
-                lows[stat.name] = low
+            found = _bracket_row(stat, law, tallies.hist[stat.name])
+            if found is not None:
+                rows.append(found[0])
+                lows[stat.name] = found[1]
             continue
         assert isinstance(law, Law)
         hist = tallies.hist[stat.name]
@@ -198,10 +197,12 @@ def run_battery(
     return BatteryResult(tallies.decks, alpha, flagged, tests, tuple(skipped), when, unit)
 
 
-def _bracket_row(stat: Statistic, law: nulls.LawBracket, hist: np.ndarray) -> tuple | None:
+def _bracket_row(
+    stat: Statistic, law: nulls.LawBracket, hist: np.ndarray
+) -> tuple[tuple, float] | None:
     """The test of a statistic whose law is known to within a bound: the p-values of the
     exact laws stochastically below and above it bracket the true p-value; the larger end
-    is the one tested (Holm uses it), so the test stays valid. The row ends with the
+    is the one tested (Holm uses it), so the test stays valid. Returns the row and the
     smaller end's natural log."""
     if stat.alternative == "two-sided":
         raise InputError(f"{stat.name}: a bracketed law supports one-sided tests only")
@@ -220,7 +221,7 @@ def _bracket_row(stat: Statistic, law: nulls.LawBracket, hist: np.ndarray) -> tu
         f"({law.method}); p-value between {math.exp(low):.3g} and {math.exp(high):.3g}, the "
         f"larger reported ({stat.alternative})"
     )
-    return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law), low)
+    return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law)), low
 
 
 def _since_when(

@@ -160,15 +160,13 @@ def guessing_null(
     ``budget`` states; else the stored bracket (when ``stored``); else a bracket computed
     now at ``threshold``. Raises
     :class:`~shufflecheck.stats.shoe_nulls.GuessingOutOfReach` when none applies."""
-    if shoe_nulls.greedy_state_estimate(counts) <= budget:
-        return shoe_nulls.greedy_guessing_law(counts)
-    if stored:
+    if stored and shoe_nulls.greedy_state_estimate(counts) > budget:
         found = stored_bracket(counts)
         if found is not None:
             return found
     if threshold is None:
-        return shoe_nulls.greedy_guessing_law(counts, budget=budget)  # raises, saying why
-    return shoe_nulls.greedy_guessing_bracket(counts, threshold=threshold)
+        return shoe_nulls.greedy_guessing_law(counts, budget=budget)  # or raises, saying why
+    return shoe_nulls.greedy_guessing_null(counts, budget=budget, threshold=threshold)
 
 
 def write_tables(

@@ -606,9 +606,9 @@ def greedy_guessing_bracket(
 
     codes = np.zeros(1, dtype=np.int64)
     mass = np.ones(1)
-    final = np.zeros(n + 2)
-    aside_low = np.zeros(n + 2)
-    width = n + 2
+    width = n + 2  # scores 0..n, and one beyond
+    final = np.zeros(width)
+    aside_low = np.zeros(width)
     aside_at = np.zeros((top_cap + 1) * width)  # set-aside mass by (level, score so far)
     finished_terms = 0
     visited = 0
@@ -641,11 +641,11 @@ def greedy_guessing_bracket(
                 a = top[rows]
                 rest = caps[leader[ok]] - a + 1
                 final += np.bincount(
-                    score[rows] + rest, mass[rows] * (1 - bound[ok]), minlength=n + 2
+                    score[rows] + rest, mass[rows] * (1 - bound[ok]), minlength=width
                 )
                 finished_terms = max(finished_terms, rows.size)
                 piece = mass[rows] * bound[ok]
-                aside_low += np.bincount(score[rows] + future_low[a], piece, minlength=n + 2)
+                aside_low += np.bincount(score[rows] + future_low[a], piece, minlength=width)
                 aside_at += np.bincount(a * width + score[rows], piece, minlength=aside_at.size)
                 done[rows] = True
         if done.any():
@@ -693,7 +693,7 @@ def greedy_guessing_bracket(
             for i in range(size):
                 a = np.maximum(a, (lost >> shifts[i]) & ((1 << bits[i]) - 1))
             s_lost = lost & score_mask
-            aside_low += np.bincount(s_lost + future_low[a], summed[small], minlength=n + 2)
+            aside_low += np.bincount(s_lost + future_low[a], summed[small], minlength=width)
             aside_at += np.bincount(a * width + s_lost, summed[small], minlength=aside_at.size)
             finished_terms = max(finished_terms, lost.size)
             merged, summed = merged[~small], summed[~small]
@@ -707,7 +707,7 @@ def greedy_guessing_bracket(
     ktop = sum(1 for c in parts if c == top_cap)
     score = codes & score_mask
     for s in range(1, ktop + 1):
-        final += np.bincount(score + s, mass * records[ktop][s], minlength=n + 2)
+        final += np.bincount(score + s, mass * records[ktop][s], minlength=width)
     finished_terms = max(finished_terms, codes.size)
     # longest chain: per layer three roundings (weight, records, product) and a sum of at
     # most fan_in terms; one more layer's sum into the tallies (at most finished_terms

@@ -166,19 +166,13 @@ def audit_figures(audit, prefix: str = "") -> tuple:
             f"correct guesses per {'deck' if shoe is None else 'shoe'} "
             f"({best.title.split(', ')[-1]})"
         )
-        null_kind, caption = "exact", None
+        null_kind, note = "exact", ""
         if isinstance(law, LawBracket):
             # the mass followed to the end, rescaled: each point is within the bracket's
             # width of the true chance
             pmf /= pmf.sum()
             null_kind = "bound"
-            caption = (
-                f"{score_name[:1].upper()}{score_name[1:]} in the recorded shoes (bars) "
-                "against the number expected under a random shoe (points on a step line), "
-                f"from a law known to within {law.width:.2g} (a bracket; the mass it followed "
-                "to the end, rescaled). The dotted line is the mean of the recorded shoes, "
-                "the dashed line the mean under a random shoe."
-            )
+            note = f"known to within {law.width:.2g}; the mass it followed to the end, rescaled"
         figures.append(
             score_histogram_figure(
                 scores.tolist(),
@@ -186,7 +180,7 @@ def audit_figures(audit, prefix: str = "") -> tuple:
                 score_name=score_name,
                 count_name="number of decks" if shoe is None else "number of shoes",
                 name=f"{prefix}guessing",
-                caption=caption,
+                null_note=note,
                 sample_label="recorded decks" if shoe is None else "recorded shoes",
                 null_label="a random deck" if shoe is None else "a random shoe",
                 null_kind=null_kind,
