@@ -284,6 +284,7 @@ def _mix_feature(
     steps = len(curve.rows)
     extended = default if steps > default else None
     minimum = {chosen: curve.minimum(chosen, goal)}
+    estimated = any(r.total_variation_estimate is not None for r in curve.rows)
     payload = {
         "model": model,
         "deck": definition.describe(),
@@ -292,8 +293,8 @@ def _mix_feature(
         "feature_description": feat.title,
         "start": start,
         "hands": hands,
-        "samples": samples if any(r.total_variation_estimate for r in curve.rows) else None,
-        "seed": seed if any(r.total_variation_estimate for r in curve.rows) else None,
+        "samples": samples if estimated else None,
+        "seed": seed if estimated else None,
         "classes": list(feat.names),
         "class_counts": list(definition.class_counts(feature)),
         "target": goal,
@@ -348,7 +349,6 @@ def _mix_feature(
         echo(f"Target: {_LABELS[chosen]} <= {goal:g}")
     echo()
     rows = []
-    estimated = any(r.total_variation_estimate is not None for r in curve.rows)
     for r in curve.rows:
         row = [r.steps, r.total_variation_text(), r.separation.text(), r.kl_bits.text()]
         if estimated:

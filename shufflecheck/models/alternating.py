@@ -214,8 +214,7 @@ def alternating_tv_estimate(
     base = np.zeros(n, dtype=np.int8)
     base[n - n // 2 :] = 1
     words = base[np.argsort(generator.random((samples, n)), axis=1)]
-    log_words = math.lgamma(n + 1) - math.lgamma(n // 2 + 1) - math.lgamma(n - n // 2 + 1)
-    ratio = word_chances(words, hands) * math.exp(log_words)
+    ratio = word_chances(words, hands) * float(math.comb(n, n // 2))
     below = np.maximum(1.0 - ratio, 0.0)
     value = float(below.mean())
     stderr = float(below.std(ddof=1) / math.sqrt(samples))

@@ -229,7 +229,6 @@ def feature_mixing_report(
             f"Monte Carlo estimate (certifies nothing): total variation "
             f"{shown.total_variation_estimate.text()} after {shown.steps} riffles."
         )
-    estimated = any(r.total_variation_estimate is not None for r in curve.rows)
     rows = tuple(
         (
             str(r.steps),
