@@ -120,8 +120,9 @@ def mix(
         typer.Option(
             "--simulate",
             metavar="<int>",
-            help="Alternating start too large for the exact sum: simulated decks (uniformly "
-            "random words) behind the Monte Carlo estimate of the exact total variation.",
+            help="A start in blocks (three or more classes) or alternating, too large for the "
+            "exact sum: simulated decks (uniformly random words) behind the Monte Carlo "
+            "estimate of the exact total variation.",
         ),
     ] = 2000,
     seed: SeedOption = 0,
@@ -313,7 +314,7 @@ def _mix_feature(
             target=goal,
             metric=_METRIC_AXIS[chosen],
             steps_name=entry("riffle").steps_word,
-            level=0.99,  # the estimates' intervals (alternating starts)
+            level=0.99,  # the estimates' intervals
         )
         if plot is not None:
             from shufflecheck.common.files import atomic_write
@@ -362,9 +363,9 @@ def _mix_feature(
     if estimated:
         echo(
             f"Estimates: Monte Carlo over {samples:,} uniform words (seed {seed}), each word's "
-            "exact chance for the alternating start; '-' after the first estimate below "
+            f"exact chance for {_start_kind(words)}; '-' after the first estimate below "
             "0.01 (more riffles never increase the distance) or beyond the estimate's work "
-            "limit (about 15 s a row). Estimates certify nothing: the minimum below uses "
+            "limit (about 15 s of CPU). Estimates certify nothing: the minimum below uses "
             "exact values and rigorous upper bounds only."
         )
     echo()
@@ -407,6 +408,13 @@ def _alternating_start(classes: list[int], feature: str) -> list[int]:
         first = next(c for c in counts if c != first)  # the larger class goes on top
     second = next(c for c in counts if c != first)
     return [first if i % 2 == 0 else second for i in range(len(classes))]
+
+
+def _start_kind(words: list[int]) -> str:
+    """Which exact chance an estimate rests on: an alternating start or one in blocks."""
+    from shufflecheck.models.alternating import alternating_class
+
+    return "the alternating start" if alternating_class(words) is not None else "a start in blocks"
 
 
 def _estimate_cell(found) -> str:

@@ -27,10 +27,9 @@ n/2)`` words while they number at most :data:`EXACT_WORDS`.
 
 **Large decks** (a 52-card colour deck): the total variation is ``E_U[(1 - M P(W))^+]``
 for a uniformly random word ``W`` (``M`` words), estimated from uniform words with each
-word's exact chance; the estimate carries a normal-theory interval (when every sampled
-word gives the same end of ``[0, 1]``, the exact binomial bound on the share of words that
-could differ). Every estimate is labelled as such; the rigorous upper bound stays the
-distinct-card distance.
+word's exact chance (:mod:`shufflecheck.models.word_estimate`: a normal-theory interval, or
+the exact binomial bound when every sampled word gives the same end of ``[0, 1]``). Every
+estimate is labelled as such; the rigorous upper bound stays the distinct-card distance.
 
 References
 ----------
@@ -45,19 +44,17 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
 
 import numpy as np
 
-from shufflecheck.common.distributions import normal_upper_quantile
 from shufflecheck.common.errors import InputError
 from shufflecheck.core.distances import kl_term
+from shufflecheck.models.word_estimate import WordEstimate, shortfall_estimate
 
 __all__ = [
     "ESTIMATE_SAMPLES",
     "ESTIMATE_WORK",
     "EXACT_WORDS",
-    "AlternatingEstimate",
     "alternating_class",
     "alternating_distances",
     "alternating_tv_estimate",
@@ -177,19 +174,6 @@ def alternating_distances(n: int, hands: int) -> tuple[float, float, float]:
     return tv, separation, kl / math.log(2)
 
 
-@dataclass(frozen=True)
-class AlternatingEstimate:
-    """A Monte Carlo estimate of the exact total variation: ``value`` with its standard
-    error and interval at ``confidence`` (normal theory), from ``samples`` uniform words."""
-
-    value: float
-    stderr: float
-    low: float
-    high: float
-    confidence: float
-    samples: int
-
-
 def estimate_work(n: int, hands: int, samples: int) -> int:
     """Multiply-adds of :func:`alternating_tv_estimate` (compare :data:`ESTIMATE_WORK`)."""
     return (int(hands) + 1) * int(n) * ((int(n) + 1) // 2 + 1) * int(samples)
@@ -202,7 +186,7 @@ def alternating_tv_estimate(
     samples: int = ESTIMATE_SAMPLES,
     rng: np.random.Generator | int | None = 0,
     confidence: float = 0.99,
-) -> AlternatingEstimate:
+) -> WordEstimate:
     """Estimate the total variation of the word after an ``a``-shuffle (``a = hands``) of
     ``n`` cards alternating from class 0: the mean of ``(1 - M P(W))^+`` over ``samples``
     uniformly random words ``W`` (``M = C(n, n/2)``), each chance exact (:func:`word_chances`)."""
@@ -215,15 +199,4 @@ def alternating_tv_estimate(
     base[n - n // 2 :] = 1
     words = base[np.argsort(generator.random((samples, n)), axis=1)]
     ratio = word_chances(words, hands) * float(math.comb(n, n // 2))
-    below = np.maximum(1.0 - ratio, 0.0)
-    value = float(below.mean())
-    stderr = float(below.std(ddof=1) / math.sqrt(samples))
-    tail = (1 - confidence) / 2
-    z = normal_upper_quantile(tail)
-    low, high = max(0.0, value - z * stderr), min(1.0, value + z * stderr)
-    if stderr == 0.0:
-        # every word gave the same end of [0, 1] (after one riffle no sampled word can be
-        # reached): the exact binomial bound on the share of words that could differ
-        share = -math.log(tail) / samples
-        low, high = (1.0 - share, 1.0) if value == 1.0 else (0.0, min(1.0, share))
-    return AlternatingEstimate(value, stderr, low, high, confidence, samples)
+    return shortfall_estimate(np.maximum(1.0 - ratio, 0.0), confidence)

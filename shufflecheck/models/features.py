@@ -49,13 +49,21 @@ grid, with rigorous lower and upper ends.
 up to 18 cards, and beyond, the total variation gets a Monte Carlo estimate over uniform
 words with its interval (the upper bounds stay the distinct-card ones).
 
+**Starts in three or more blocks** (the suits of a deck in new-deck order):
+:mod:`shufflecheck.models.block_words` gives each word's exact chance; total variation and
+KL are exact while the words number at most
+:data:`~shufflecheck.models.block_words.EXACT_WORDS`, and beyond, the total variation gets
+the same kind of Monte Carlo estimate (the upper bounds stay the ones above).
+
 **Exact everything for small decks**: for ``n <= 9`` (any start, any feature) the law of
 the word is summed from the exact law of the arrangement over all ``n!`` arrangements.
 
-Anything else (e.g. blackjack values of a six-pack shoe) gets the upper bounds here and
-Monte Carlo lower bounds from an assessment, each labelled. Assaf, Diaconis & Soundararajan
-[3] study decks where only some values matter and give asymptotic rules; their exact
-formulas are not implemented here.
+Anything else (e.g. blackjack values of a six-pack shoe in its reference order, which is not
+in blocks) gets the upper bounds here and Monte Carlo lower bounds from an assessment, each
+labelled. Assaf, Diaconis & Soundararajan [3] study decks in blocks where only some values
+matter, with formulas and an asymptotic rule of their own; the counting in
+:mod:`~shufflecheck.models.block_words` was derived independently and is not checked
+against theirs.
 
 References
 ----------
@@ -82,7 +90,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
 from shufflecheck.core.counting import stirling2_row
 from shufflecheck.core.distances import kl_term
-from shufflecheck.models import riffle
+from shufflecheck.models import block_words, riffle
 from shufflecheck.models.alternating import (
     ESTIMATE_SAMPLES,
     ESTIMATE_WORK,
@@ -92,6 +100,7 @@ from shufflecheck.models.alternating import (
     estimate_work,
 )
 from shufflecheck.models.alternating import EXACT_WORDS as ALTERNATING_EXACT_WORDS
+from shufflecheck.models.word_estimate import WordEstimate
 
 __all__ = [
     "ENUMERATION_CARDS",
@@ -114,9 +123,9 @@ FEATURE_SOURCES_NOTE = (
     "Upper bounds come from the distinct-card distances (a feature is never farther); exact "
     "values where the feature's law is known in closed form; for a two-valued deck in blocks "
     "too large for the exact sum, rigorous lower and upper bounds from its likelihood ratios "
-    "summed on a grid; for an alternating two-valued start too large for the exact sum, a "
-    "Monte Carlo estimate of the exact total variation with its confidence interval "
-    "(docs/models.md)."
+    "summed on a grid; for an alternating two-valued start, or a start in three or more "
+    "blocks, too large for the exact sum, a Monte Carlo estimate of the exact total variation "
+    "with its confidence interval (docs/models.md)."
 )
 #: A feature curve stops estimating after the first estimate below this.
 ESTIMATE_FLOOR = 0.01
@@ -381,7 +390,11 @@ def feature_distances(
     distances up to :data:`~shufflecheck.models.alternating.EXACT_WORDS` words and beyond
     that, when ``samples > 0`` and the work stays within
     :data:`~shufflecheck.models.alternating.ESTIMATE_WORK`, a Monte Carlo estimate of its
-    exact total variation from ``samples`` uniform words drawn with ``seed``."""
+    exact total variation from ``samples`` uniform words drawn with ``seed``. A start in
+    three or more blocks (:mod:`shufflecheck.models.block_words`) gets exact total variation
+    and KL up to :data:`~shufflecheck.models.block_words.EXACT_WORDS` words and beyond that
+    the same kind of estimate (within
+    :data:`~shufflecheck.models.block_words.ESTIMATE_WORK`)."""
     return _feature_distances(
         tuple(int(x) for x in start), int(steps), int(hands), int(samples), int(seed)
     )
@@ -431,7 +444,55 @@ def _feature_distances(
                 )
             else:
                 tv, lower = _bracketed(tv, counts, packets)
+        elif len(counts) > 2 and max(counts) > 1:
+            return _many_blocks(counts, steps, packets, samples, seed, tv, sep, kl)
     return FeatureDistances(steps, tv, sep, kl, lower)
+
+
+def _many_blocks(
+    counts: tuple[int, ...],
+    steps: int,
+    packets: int,
+    samples: int,
+    seed: int,
+    tv: Quantity,
+    sep: Quantity,
+    kl: Quantity,
+) -> FeatureDistances:
+    """Distances of a start in three or more blocks (:mod:`shufflecheck.models.block_words`):
+    exact while the words are few, else the bounds given and (``samples > 0``) an estimate
+    of the exact total variation."""
+    words = block_words.word_count(counts)
+    if words <= block_words.EXACT_WORDS:
+        t, _, k = block_words.block_distances(counts, packets)
+        how = (
+            f"exact: start in blocks, each word's chance (derived) summed over all {words:,} words"
+        )
+        return FeatureDistances(
+            steps,
+            Quantity(t, "exact", method=how),
+            sep,
+            Quantity(k, "exact", method=how, unit="bits"),
+        )
+    estimate = None
+    if samples > 0 and block_words.estimate_work(counts, samples) <= block_words.ESTIMATE_WORK:
+        found = block_words.block_tv_estimate(counts, packets, samples=samples, seed=seed)
+        estimate = _estimate_quantity(found, seed, "the start in blocks")
+    return FeatureDistances(steps, tv, sep, kl, None, estimate)
+
+
+def _estimate_quantity(found: WordEstimate, seed: int, start: str) -> Quantity:
+    return Quantity(
+        found.value,
+        "estimate",
+        stderr=found.stderr,
+        interval=(found.low, found.high),
+        confidence=found.confidence,
+        method=(
+            f"Monte Carlo over {found.samples:,} uniform words (seed {seed}), each word's "
+            f"exact chance for {start} (derived)"
+        ),
+    )
 
 
 def _alternating(
@@ -462,17 +523,7 @@ def _alternating(
     estimate = None
     if samples > 0 and estimate_work(n, packets, samples) <= ESTIMATE_WORK:
         found = alternating_tv_estimate(n, packets, samples=samples, rng=seed)
-        estimate = Quantity(
-            found.value,
-            "estimate",
-            stderr=found.stderr,
-            interval=(found.low, found.high),
-            confidence=found.confidence,
-            method=(
-                f"Monte Carlo over {found.samples:,} uniform words (seed {seed}), each word's "
-                "exact chance for the alternating start (derived)"
-            ),
-        )
+        estimate = _estimate_quantity(found, seed, "the alternating start")
     return FeatureDistances(steps, tv, sep, kl, None, estimate)
 
 

@@ -202,6 +202,7 @@ def feature_mixing_report(
 ) -> Report:
     """Report of ``mix riffle --feature``: the labelled distances of what a game sees."""
     from shufflecheck.common.sources import CONGER_VISWANATH
+    from shufflecheck.models.block_words import EXACT_WORDS as BLOCK_WORDS
     from shufflecheck.models.features import FEATURE_SOURCES_NOTE
 
     label = METRIC_LABELS[metric]
@@ -302,9 +303,11 @@ def feature_mixing_report(
                 "exact",
                 "separation of a start in blocks (least likely word, closed form); total "
                 "variation of two-valued decks in blocks (closed form summed over all words); "
-                "distances of alternating two-valued starts up to 18 cards (each word's "
-                "chance summed over all words); decks of at most 9 cards summed over all "
-                "arrangements; derived in this project and checked by brute force",
+                "distances of alternating two-valued starts up to 18 cards, and total "
+                f"variation and KL of starts in three or more blocks up to {BLOCK_WORDS:,} "
+                "words (each word's chance summed over all words); decks of at most 9 cards "
+                "summed over all arrangements; derived in this project and checked by brute "
+                "force",
                 (*model.sources, CONGER_VISWANATH),
             ),
             MethodNote(
@@ -321,11 +324,13 @@ def feature_mixing_report(
                     MethodNote(
                         "estimates",
                         "estimate",
-                        "total variation of an alternating two-valued start too large for the "
-                        "exact sum: the mean of (1 - M P(W))+ over uniformly random words W, "
-                        "each word's chance P exact (labels of the a-shuffle by phase, a "
-                        "product of small matrices; derived in this project, checked by brute "
-                        "force), with a normal-theory 99% interval",
+                        "total variation of an alternating two-valued start, or of a start in "
+                        "three or more blocks, too large for the exact sum: the mean of "
+                        "(1 - M P(W))+ over uniformly random words W, each word's chance P "
+                        "exact (alternating: labels of the a-shuffle by phase, a product of "
+                        "small matrices; blocks: surjective labellings counted class by class; "
+                        "both derived in this project and checked by brute force), with a "
+                        "normal-theory 99% interval",
                         (*model.sources, CONGER_VISWANATH),
                     ),
                 )
