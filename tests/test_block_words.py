@@ -238,3 +238,34 @@ class TestCommand:
         assert result.exit_code == 0, result.output
         text = (folder / "report.md").read_text()
         assert "three or more blocks" in text and "Monte Carlo estimate" in text
+
+    def test_estimated_minimum_beside_the_certified_one(self):
+        from typer.testing import CliRunner
+
+        from shufflecheck.cli import app
+
+        runner = CliRunner()
+        args = ["mix", "riffle", "--feature", "suit", "--target", "0.1"]
+        result = runner.invoke(app, [*args, "--json"])
+        assert result.exit_code == 0, result.output
+        payload = json.loads(result.output)
+        # certified from the distinct-card distance: 0.167 after 8 riffles, 0.085 after 9
+        # (Bayer & Diaconis 1992, Table 1)
+        assert payload["minimum_steps"] == {"total_variation": 9}
+        k = payload["minimum_steps_estimate"]["total_variation"]
+        rows = payload["rows"]
+        assert rows[k - 1]["total_variation_estimate"]["interval"][1] <= 0.1
+        assert rows[k - 2]["total_variation_estimate"]["interval"][1] > 0.1
+        assert k < 9
+        flat = " ".join(runner.invoke(app, args).output.split())
+        assert f"Monte Carlo estimate (certifies nothing): total variation <= 0.1 from {k}" in flat
+        assert "Minimum riffles for total variation <= 0.1: 9 (rigorous upper bound)" in flat
+
+    def test_alternating_needs_a_feature(self):
+        from typer.testing import CliRunner
+
+        from shufflecheck.cli import app
+
+        result = CliRunner().invoke(app, ["mix", "riffle", "--start", "alternating"])
+        assert result.exit_code == 2
+        assert "--start alternating needs a feature of two classes" in result.output

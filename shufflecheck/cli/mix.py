@@ -148,6 +148,14 @@ def mix(
     from shufflecheck.models import default_max_steps, distance_curve_until
 
     goal = check_target(target)
+    if start is Start.alternating and feature is FeatureName.distinct:
+        from shufflecheck.common.errors import InputError
+
+        raise InputError(
+            "--start alternating needs a feature of two classes (e.g. --feature colour); "
+            "distinct cards are riffled from the reference order",
+            argument="start",
+        )
     if feature is not FeatureName.distinct or deck is not None:
         _mix_feature(
             model.value,
@@ -286,6 +294,7 @@ def _mix_feature(
     extended = default if steps > default else None
     minimum = {chosen: curve.minimum(chosen, goal)}
     estimated = any(r.total_variation_estimate is not None for r in curve.rows)
+    guess = curve.estimated_minimum(goal) if estimated and chosen == "total_variation" else None
     payload = {
         "model": model,
         "deck": definition.describe(),
@@ -302,6 +311,13 @@ def _mix_feature(
         "metric": chosen,
         "rows": [row.as_json() for row in curve.rows],
         "minimum_steps": minimum,
+        # the Monte Carlo estimate's view (its interval's upper end meets the target): an
+        # estimate that certifies nothing, beside the certified minimum above
+        "minimum_steps_estimate": (
+            {chosen: None if guess is None else guess[0]}
+            if estimated and chosen == "total_variation" and goal is not None
+            else None
+        ),
         "range_extended_from": extended,
         "caution": caution("the idealised model"),
     }
@@ -383,6 +399,8 @@ def _mix_feature(
             q = curve.rows[k - 1].value(chosen)
             how = "exact" if q.kind == "exact" else "rigorous upper bound"
             echo(f"Minimum riffles for {label} <= {goal:g}: {k} ({how})")
+        if estimated and chosen == "total_variation":
+            echo(_estimated_minimum_text(guess, goal))
     echo(FEATURE_SOURCES_NOTE)
     echo(caution("the idealised model"))
     if plot is not None:
@@ -408,6 +426,21 @@ def _alternating_start(classes: list[int], feature: str) -> list[int]:
         first = next(c for c in counts if c != first)  # the larger class goes on top
     second = next(c for c in counts if c != first)
     return [first if i % 2 == 0 else second for i in range(len(classes))]
+
+
+def _estimated_minimum_text(guess, goal: float) -> str:
+    """The estimate's view of the minimum, in one line that says it certifies nothing."""
+    if guess is None:
+        return (
+            f"Monte Carlo estimate: no estimated row has its 99% upper end at or below "
+            f"{goal:g} (estimates stop after the first below 0.01)."
+        )
+    k, q = guess
+    return (
+        f"Monte Carlo estimate (certifies nothing): total variation <= {goal:g} from {k} "
+        f"riffles on, the first row whose 99% interval lies below it (estimate "
+        f"{q.number_text()})."
+    )
 
 
 def _start_kind(words: list[int]) -> str:

@@ -567,6 +567,18 @@ class FeatureCurve:
                     return row.steps
         return None
 
+    def estimated_minimum(self, target: float | None) -> tuple[int, Quantity] | None:
+        """First ``k`` whose Monte Carlo estimate of the total variation has the upper end
+        of its interval at most ``target``, with that estimate; None when no estimated row
+        meets it. An estimate, not a certificate: :meth:`minimum` is the certified count."""
+        if target is None:
+            return None
+        for row in self.rows:
+            q = row.total_variation_estimate
+            if q is not None and q.interval is not None and q.interval[1] <= target:
+                return row.steps, q
+        return None
+
 
 def feature_curve(
     start: Sequence[int],

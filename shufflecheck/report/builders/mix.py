@@ -224,7 +224,15 @@ def feature_mixing_report(
         f"{last.separation.text()}."
     )
     estimated = [r for r in curve.rows if r.total_variation_estimate is not None]
-    if estimated:
+    guess = curve.estimated_minimum(target) if metric == "total_variation" else None
+    if guess is not None:
+        k, q = guess
+        answer.append(
+            f"Monte Carlo estimate (certifies nothing): total variation at most {target:g} "
+            f"from {k} riffles on, the first row whose 99% interval lies below it "
+            f"({q.text()})."
+        )
+    elif estimated:
         shown = estimated[-1]
         answer.append(
             f"Monte Carlo estimate (certifies nothing): total variation "
