@@ -207,8 +207,28 @@ class TestEstimate:
                 assert q.kind == "estimate" and q.interval[0] <= q.value <= q.interval[1]
                 assert q.value <= row.total_variation.value
 
+    def test_skipped_estimates_say_why(self):
+        from shufflecheck.models.features import estimate_skipped
+
+        suits = [v for v in range(4) for _ in range(78)]  # a six-pack shoe sorted by suit
+        work = block_words.estimate_work((78,) * 4, 2000)
+        assert work > block_words.ESTIMATE_WORK
+        fits = 2000 * block_words.ESTIMATE_WORK // work
+        text = estimate_skipped(suits, 2000)
+        assert text is not None and f"--simulate {fits:,} or fewer fits" in text
+        assert estimate_skipped(suits, fits) is None
+        assert estimate_skipped([v for v in range(4) for _ in range(13)], 2000) is None
+        assert estimate_skipped([v % 4 for v in range(52)], 2000) is None  # not in blocks
+        assert estimate_skipped([v for v in range(4) for _ in range(3)], 2000) is None  # exact
+        row = feature_distances(suits, 1, samples=2000)
+        assert row.total_variation_estimate is None
+
     def test_work_and_samples_checked(self):
-        assert block_words.estimate_work((13, 13, 13, 13), 2000) == 2000 * 52 * 3 * 14**2 * 13
+        # classes below the top: (cards above + 1) (c + 1)^2 c each
+        assert block_words.estimate_work((13, 13, 13, 13), 2000) == 2000 * 81 * 14**2 * 13
+        # the deck is taken the cheaper way up: the large class on top costs nothing
+        assert block_words.estimate_work((2, 2, 9), 1) == block_words.estimate_work((9, 2, 2), 1)
+        assert block_words.estimate_work((9, 2, 2), 1) == 10 * 9 * 2 + 12 * 9 * 2
         with pytest.raises(InputError, match="at least 2"):
             block_words.block_tv_estimate((13, 13, 13, 13), 2, samples=1)
 

@@ -247,7 +247,11 @@ def _mix_feature(
 
     check_integer(samples, "--simulate", low=2)
     from shufflecheck.models import default_max_steps
-    from shufflecheck.models.features import FEATURE_SOURCES_NOTE, feature_curve_until
+    from shufflecheck.models.features import (
+        FEATURE_SOURCES_NOTE,
+        estimate_skipped,
+        feature_curve_until,
+    )
     from shufflecheck.records.cards import load_deck
     from shufflecheck.records.shoes import load_shoe, shoe
 
@@ -294,6 +298,7 @@ def _mix_feature(
     extended = default if steps > default else None
     minimum = {chosen: curve.minimum(chosen, goal)}
     estimated = any(r.total_variation_estimate is not None for r in curve.rows)
+    skipped = None if estimated else estimate_skipped(words, samples, hands=hands)
     guess = curve.estimated_minimum(goal) if estimated and chosen == "total_variation" else None
     payload = {
         "model": model,
@@ -319,6 +324,7 @@ def _mix_feature(
             else None
         ),
         "range_extended_from": extended,
+        "estimate_skipped": skipped,
         "caution": caution("the idealised model"),
     }
     if plot is not None or report is not None:
@@ -376,6 +382,8 @@ def _mix_feature(
     if estimated:
         headers.append("total variation, estimate (99% CI)")
     echo(format_table(headers, rows))
+    if skipped is not None:
+        echo(skipped)
     if estimated:
         echo(
             f"Estimates: Monte Carlo over {samples:,} uniform words (seed {seed}), each word's "

@@ -110,6 +110,7 @@ __all__ = [
     "FeatureDistances",
     "block_runs",
     "block_separation",
+    "estimate_skipped",
     "feature_curve",
     "feature_curve_until",
     "feature_distances",
@@ -492,6 +493,36 @@ def _estimate_quantity(found: WordEstimate, seed: int, start: str) -> Quantity:
             f"Monte Carlo over {found.samples:,} uniform words (seed {seed}), each word's "
             f"exact chance for {start} (derived)"
         ),
+    )
+
+
+def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> str | None:
+    """One line saying why a start that takes a Monte Carlo estimate (alternating, or in
+    three or more blocks, too large for the exact sum) gets none even after one riffle:
+    ``samples`` words would exceed the work limit. None when an estimate is made, exact
+    values are given, or the start takes no estimate."""
+    values = tuple(int(x) for x in start)
+    n, samples = len(values), int(samples)
+    if samples <= 0 or n <= ENUMERATION_CARDS:
+        return None
+    if alternating_class(values) is not None:
+        if math.comb(n, n // 2) <= ALTERNATING_EXACT_WORDS:
+            return None
+        work, limit = estimate_work(n, hands, samples), ESTIMATE_WORK
+    else:
+        runs = block_runs(values)
+        if runs is None or len(runs) < 3 or max(runs) == 1:
+            return None
+        if block_words.word_count(runs) <= block_words.EXACT_WORDS:
+            return None
+        work, limit = block_words.estimate_work(runs, samples), block_words.ESTIMATE_WORK
+    if work <= limit:
+        return None
+    fits = samples * limit // work
+    advice = f"--simulate {fits:,} or fewer fits" if fits >= 2 else "no sample size fits"
+    return (
+        f"No Monte Carlo estimate: {samples:,} words would take about {work:.1e} "
+        f"multiply-adds, beyond the limit of {limit:.0e} (about 15 s of CPU); {advice}."
     )
 
 
