@@ -118,6 +118,14 @@ class TestChances:
         q = block_words.word_chances(turned, counts[::-1], a)[0]
         assert p == pytest.approx(q, rel=1e-12)
 
+    @pytest.mark.parametrize("c", [1, 2, 3, 7, 13, 24, 40])
+    def test_float_weights_are_the_exact_ones(self, c):
+        exact = np.array(block_words._weights(c), dtype=float)
+        found = block_words._float_weights(c)
+        assert found.shape == exact.shape
+        assert ((exact == 0) == (found == 0)).all()
+        assert np.allclose(found, exact, rtol=1e-13, atol=0)
+
     def test_bad_input(self):
         with pytest.raises(InputError, match="2-d array with 4 columns"):
             block_words.word_chances(np.zeros((2, 3), dtype=int), (2, 1, 1), 2)
@@ -129,6 +137,9 @@ class TestChances:
             block_words.word_chances(np.array([[0, 0, 1, 2]]), (2, 1, 1), 0)
         with pytest.raises(InputError, match="at least one card"):
             block_words.word_count((2, 0, 1))
+        big = block_words.MAX_CLASS + 1
+        with pytest.raises(InputError, match=f"a class of {big} cards"):
+            block_words.word_chances(np.array([[0, 1] + [2] * big]), (1, 1, big), 2)
 
 
 class TestExactDistances:

@@ -389,7 +389,7 @@ def _mix_feature(
             f"Estimates: Monte Carlo over {samples:,} uniform words (seed {seed}), each word's "
             f"exact chance for {_start_kind(words)}; '-' after the first estimate below "
             "0.01 (more riffles never increase the distance) or beyond the estimate's work "
-            "limit (about 15 s of CPU). Estimates certify nothing: the minimum below uses "
+            "limit (10 to 15 s of CPU). Estimates certify nothing: the minimum below uses "
             "exact values and rigorous upper bounds only."
         )
     echo()

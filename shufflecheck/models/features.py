@@ -445,7 +445,7 @@ def _feature_distances(
                 )
             else:
                 tv, lower = _bracketed(tv, counts, packets)
-        elif len(counts) > 2 and max(counts) > 1:
+        elif len(counts) > 2 and 1 < max(counts) <= block_words.MAX_CLASS:
             return _many_blocks(counts, steps, packets, samples, seed, tv, sep, kl)
     return FeatureDistances(steps, tv, sep, kl, lower)
 
@@ -511,7 +511,7 @@ def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> s
         work, limit = estimate_work(n, hands, samples), ESTIMATE_WORK
     else:
         runs = block_runs(values)
-        if runs is None or len(runs) < 3 or max(runs) == 1:
+        if runs is None or len(runs) < 3 or not 1 < max(runs) <= block_words.MAX_CLASS:
             return None
         if block_words.word_count(runs) <= block_words.EXACT_WORDS:
             return None
@@ -522,7 +522,7 @@ def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> s
     advice = f"--simulate {fits:,} or fewer fits" if fits >= 2 else "no sample size fits"
     return (
         f"No Monte Carlo estimate: {samples:,} words would take about {work:.1e} "
-        f"multiply-adds, beyond the limit of {limit:.0e} (about 15 s of CPU); {advice}."
+        f"multiply-adds, beyond the limit of {limit:.0e} (10 to 15 s of CPU); {advice}."
     )
 
 
