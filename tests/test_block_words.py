@@ -300,3 +300,18 @@ class TestCommand:
         result = CliRunner().invoke(app, ["mix", "riffle", "--start", "alternating"])
         assert result.exit_code == 2
         assert "--start alternating needs a feature of two classes" in result.output
+
+    def test_rows_with_upper_bounds_only_name_the_lower_bound_command(self):
+        from typer.testing import CliRunner
+
+        from shufflecheck.cli import app
+
+        runner = CliRunner()
+        args = ["mix", "riffle", "--deck", "shoe(packs=2)", "--feature", "blackjack", "-k", "3"]
+        flat = " ".join(runner.invoke(app, args).output.split())
+        command = "shufflecheck assess riffle --deck 'shoe(packs=2)' --feature blackjack -r 1-3"
+        assert "Rows 1-3 carry upper bounds only" in flat and command in flat
+        # the suits' rows with estimates are not named; the later ones are
+        flat = " ".join(runner.invoke(app, ["mix", "riffle", "--feature", "suit"]).output.split())
+        assert "Rows 9-14 carry upper bounds only" in flat
+        assert "assess riffle --deck 'shoe(packs=1)' --feature suit -r 9-14" in flat

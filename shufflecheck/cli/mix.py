@@ -410,6 +410,9 @@ def _mix_feature(
         if estimated and chosen == "total_variation":
             echo(_estimated_minimum_text(guess, goal))
     echo(FEATURE_SOURCES_NOTE)
+    hint = _lower_bound_hint(curve, deck, feature, hands, start)
+    if hint is not None:
+        echo(hint)
     echo(caution("the idealised model"))
     if plot is not None:
         echo(f"Wrote {plot}")
@@ -434,6 +437,30 @@ def _alternating_start(classes: list[int], feature: str) -> list[int]:
         first = next(c for c in counts if c != first)  # the larger class goes on top
     second = next(c for c in counts if c != first)
     return [first if i % 2 == 0 else second for i in range(len(classes))]
+
+
+def _lower_bound_hint(curve, deck, feature: str, hands: int, start: str) -> str | None:
+    """Where rows have an upper bound only, the command that gives Monte Carlo lower bounds
+    for them (``assess`` starts from the shoe's reference order)."""
+    bare = [
+        r.steps
+        for r in curve.rows
+        if r.total_variation.kind == "bound"
+        and r.total_variation_lower is None
+        and r.total_variation_estimate is None
+    ]
+    if not bare or hands != 2 or start != "reference":
+        return None
+    shoe = deck if deck is not None else "shoe(packs=1)"
+    return (
+        f"Rows {bare[0]}-{bare[-1]} carry upper bounds only; Monte Carlo lower bounds at a stated "
+        f"confidence: shufflecheck assess riffle --deck '{shoe}' --feature {feature} "
+        f"-r {bare[0]}-{bare[-1]}"
+        if len(bare) > 1
+        else f"Row {bare[0]} carries an upper bound only; a Monte Carlo lower bound at a stated "
+        f"confidence: shufflecheck assess riffle --deck '{shoe}' --feature {feature} "
+        f"-r {bare[0]}"
+    )
 
 
 def _estimated_minimum_text(guess, goal: float) -> str:
