@@ -4,12 +4,13 @@ chance of every word after an ``a``-shuffle, exact distances for small decks, an
 Carlo estimate of the exact total variation for large ones.
 
 **The chance of a word** (derived in this project; checked against brute force over every
-label sequence, against Bayer & Diaconis [1]_ for distinct cards and against the project's
-closed form for two classes). In the inverse description of an ``a``-shuffle ([1]_) every
-position of the new deck gets a label and the deck is sorted stably by label; the word
-``w`` arises when the sorted word is the start. For a start in blocks that says: classes
-rise along the order by (label, position), i.e. the last card of class ``v`` in that order,
-``T_v = (l, p)``, comes before every card of class ``v + 1``. Count *surjective* labellings
+label sequence, against Bayer & Diaconis [1]_ for distinct cards and against the
+arrangement law summed over all orders of 9 cards). In the inverse description of an
+``a``-shuffle ([1]_) every position of the new deck gets a label and the deck is sorted
+stably by label; the word ``w`` arises when the sorted word is the start. For a start in
+blocks that says: classes rise along the order by (label, position), i.e. the last card of
+class ``v`` in that order, ``T_v = (l, p)``, comes before every card of class ``v + 1``.
+Count *surjective* labellings
 onto ``1..j`` (``S_j(w)`` of them); then ``N_a(w) = sum_j C(a, j) S_j(w)`` and ``P_a(w) =
 N_a(w) / a^n``, for every ``a`` at once. Class ``v + 1`` (``c`` cards at ``x_1 < .. <
 x_c``, ``m`` of them above ``p``) moves ``T`` to ``(l + d, x_i)``; its cards must cover the
@@ -26,8 +27,9 @@ number of ways is
 (``S`` Stirling numbers of the second kind; ``d = 0`` only when every card of the class
 lies below ``p`` and takes label ``l``). The weight depends on the word only through
 ``m``, so a dynamic programme over the classes with state ``(l, i)`` costs about
-``n sum_v c_v^3`` operations per word, all on non-negative numbers (floating point, with
-a per-word scale).
+``sum_v L_v c_v^3`` operations per word (``L_v`` the cards above class ``v``; the top class
+costs nothing, and the deck is taken the cheaper way up), all on non-negative numbers
+(floating point, with a per-word scale).
 
 **Exact distances** (total variation, separation, KL) sum those chances over all
 ``multinomial(n; c)`` words while they number at most :data:`EXACT_WORDS`.
