@@ -10,16 +10,15 @@ arrangement law summed over all orders of 9 cards). In the inverse description o
 stably by label; the word ``w`` arises when the sorted word is the start. For a start in
 blocks that says: classes rise along the order by (label, position), i.e. the last card of
 class ``v`` in that order, ``T_v = (l, p)``, comes before every card of class ``v + 1``.
-Count *surjective* labellings
-onto ``1..j`` (``S_j(w)`` of them); then ``N_a(w) = sum_j C(a, j) S_j(w)`` and ``P_a(w) =
-N_a(w) / a^n``, for every ``a`` at once. Class ``v + 1`` (``c`` cards at ``x_1 < .. <
-x_c``, ``m`` of them above ``p``) moves ``T`` to ``(l + d, x_i)``; its cards must cover the
-new labels ``l + 1 .. l + d``, those above ``p`` cannot take label ``l`` and those below
-``x_i`` cannot take ``l + d``. With ``A, B, C, D`` the numbers of its other cards above
-``x_i`` and above ``p`` / above ``x_i`` and below ``p`` / below ``x_i`` and above ``p`` /
-below both, each card either takes one of the ``d - 1`` labels that must be covered or one
-of its spare labels (A: ``l + d``; B: ``l`` or ``l + d``; C: none; D: ``l``), so the
-number of ways is
+Count *surjective* labellings onto ``1..j`` (``S_j(w)`` of them); then ``N_a(w) = sum_j
+C(a, j) S_j(w)`` and ``P_a(w) = N_a(w) / a^n``, for every ``a`` at once. Class ``v + 1``
+(``c`` cards at ``x_1 < .. < x_c``, ``m`` of them above ``p``) moves ``T`` to ``(l + d,
+x_i)``; its cards must cover the new labels ``l + 1 .. l + d``, those above ``p`` cannot
+take label ``l`` and those below ``x_i`` cannot take ``l + d``. With ``A, B, C, D`` the
+numbers of its other cards above ``x_i`` and above ``p`` / above ``x_i`` and below ``p`` /
+below ``x_i`` and above ``p`` / below both, each card either takes one of the ``d - 1``
+labels that must be covered or one of its spare labels (A: ``l + d``; B: ``l`` or ``l +
+d``; C: none; D: ``l``), so the number of ways is
 
     t(d, m, i) = sum_s e_s (d - 1)! S(c - 1 - s, d - 1),
     e_s = sum_b C(B, b) 2^b C(A + D, s - b)
