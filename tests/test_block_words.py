@@ -315,3 +315,58 @@ class TestCommand:
         flat = " ".join(runner.invoke(app, ["mix", "riffle", "--feature", "suit"]).output.split())
         assert "Rows 9-14 carry upper bounds only" in flat
         assert "assess riffle --deck 'shoe(packs=1)' --feature suit -r 9-14" in flat
+
+
+class TestAssess:
+    """``assess`` on a shoe read through a feature: runs of ideal riffles carry the estimate
+    of the exact total variation beside their bounds; anything else carries none."""
+
+    def _assess(self, text: str, feature: str = "suit", repeats: int = 4):
+        from shufflecheck.analyses.feature_assess import assess_feature
+        from shufflecheck.models.procedures import parse_procedure
+        from shufflecheck.records.shoes import shoe
+
+        return assess_feature(
+            parse_procedure(text), shoe(1), feature, repeats=repeats, decks=4000, rng=4
+        )
+
+    def test_riffles_carry_the_estimate(self):
+        result = self._assess("riffle x2")
+        suits = [v for v in range(4) for _ in range(13)]
+        found = [row.estimated.get("total_variation") for row in result.rows]
+        assert found[0] is not None and found[0].kind == "estimate"
+        # the same estimate as mix's for four packets (seed = the assessment's)
+        same = feature_distances(suits, 1, hands=4, samples=2000, seed=4)
+        assert found[0].value == same.total_variation_estimate.value
+        for row, q in zip(result.rows, found, strict=True):
+            if q is None:
+                continue
+            assert q.interval[0] <= row.upper["total_variation"].value  # rigorous
+            assert q.interval[1] >= row.lower["total_variation"].value  # 99% lower bound
+        first_small = next(i for i, q in enumerate(found) if q.value < 0.01)
+        assert all(q is None for q in found[first_small + 1 :])
+
+    def test_other_procedures_and_starts_carry_none(self):
+        assert not any(row.estimated for row in self._assess("riffle x2, cut", repeats=2).rows)
+        # blackjack values of a pack in its reference order are not in blocks
+        assert not any(row.estimated for row in self._assess("riffle", "blackjack", 2).rows)
+
+    def test_command(self, tmp_path):
+        from typer.testing import CliRunner
+
+        from shufflecheck.cli import app
+
+        runner = CliRunner()
+        args = ["assess", "riffle x2", "--deck", "shoe(packs=1)", "--feature", "suit"]
+        args += ["-r", "1-2", "--simulate", "4000"]
+        result = runner.invoke(app, [*args, "--json"])
+        assert result.exit_code == 0, result.output
+        row = json.loads(result.output)["rows"][0]
+        assert row["estimated"]["total_variation"]["kind"] == "estimate"
+        flat = " ".join(runner.invoke(app, args).output.split())
+        assert "TV estimate" in flat and "ideal riffles from a start in blocks" in flat
+        folder = tmp_path / "report"
+        assert runner.invoke(app, [*args, "--report", str(folder)]).exit_code == 0
+        text = (folder / "report.md").read_text()
+        assert "estimates of the exact total variation" in text
+        assert "total variation: estimate" in text

@@ -31,6 +31,7 @@ ROW_KEYS = {
     "upper_bound_extra",
     "upper_bound_blocks",
     "conjectured",
+    "estimated",
     "lower_bound",
     "lower_bound_by_statistic",
     "guessing",

@@ -126,8 +126,10 @@ class AssessmentRow:
     """Everything known about ``repeats`` runs of the procedure, each number labelled.
 
     ``upper`` holds the rigorous upper bounds of the three metrics, ``upper_extra`` the
-    bounds on the largest likelihood ratio ``n! max P`` and the chi-square distance, and
-    ``conjectured`` the figures of the interleaving conjecture (never bounds).
+    bounds on the largest likelihood ratio ``n! max P`` and the chi-square distance,
+    ``conjectured`` the figures of the interleaving conjecture (never bounds), and
+    ``estimated`` Monte Carlo estimates of exact values where each word's chance is known
+    (ideal riffles of a shoe read through a feature; never bounds).
     """
 
     repeats: int
@@ -142,6 +144,7 @@ class AssessmentRow:
     uniform_guesses: float
     upper_extra: dict[str, Quantity] = field(default_factory=dict)
     conjectured: dict[str, Quantity] = field(default_factory=dict)
+    estimated: dict[str, Quantity] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -606,6 +609,7 @@ def assessment_json(result: Assessment) -> dict:
                 "upper_bound_extra": {k: q.as_json() for k, q in row.upper_extra.items()},
                 "upper_bound_blocks": list(row.upper_blocks),
                 "conjectured": {k: q.as_json() for k, q in row.conjectured.items()},
+                "estimated": {k: q.as_json() for k, q in row.estimated.items()},
                 "lower_bound": {k: q.as_json() for k, q in row.lower.items()},
                 "lower_bound_by_statistic": [
                     {

@@ -18,6 +18,11 @@ the uniform law of the feature's multiset (every arrangement of the values equal
   reach), each read from the shoe's reference order; Bonferroni over them, Clopper-Pearson
   for each event ([1]); separation at least total variation, KL at least
   ``2 TV^2 / ln 2`` bits (Pinsker, [2]);
+* **estimates of the exact total variation** (Monte Carlo, certifying nothing) for runs of
+  ideal riffles where each word's exact chance is known (a start in three or more blocks or
+  an alternating two-valued start, :mod:`shufflecheck.models.features`), from uniformly
+  random words; they stop after the first below
+  :data:`~shufflecheck.models.features.ESTIMATE_FLOOR`;
 * **exploitability** (an estimate): correct guesses per shoe of a player who names a most
   frequent remaining value, against the exact mean for a random shoe
   (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_mean`, [3]).
@@ -164,6 +169,9 @@ def assess_feature(
                     progress(done)
     null_mean = float(greedy_guessing_mean(context_shoe.class_counts))
     start_classes = shoe.feature_classes(feature)
+    estimates = _estimates(
+        procedure, feature, start_classes, repeats, rng if isinstance(rng, int) else 0
+    )
     rows = tuple(
         _row(
             procedure,
@@ -178,6 +186,7 @@ def assess_feature(
             halves,
             null_mean,
             confidence,
+            estimates[r],
         )
         for r in range(repeats)
     )
@@ -204,6 +213,28 @@ def assess_feature(
     )
 
 
+def _estimates(
+    procedure: Procedure, feature: str, start_classes: np.ndarray, repeats: int, seed: int
+) -> list[Quantity | None]:
+    """The Monte Carlo estimate of the exact total variation for each ``r`` whose runs are
+    ideal riffles only and whose start takes one (:func:`features.feature_distances`,
+    ``seed``), up to the first below :data:`features.ESTIMATE_FLOOR`; None elsewhere."""
+    out: list[Quantity | None] = []
+    samples = features.ESTIMATE_SAMPLES if feature != "distinct" else 0
+    for r in range(repeats):
+        packets = _riffle_packets(procedure, r + 1)
+        found = None
+        if packets is not None and samples:
+            row = features.feature_distances(
+                start_classes.tolist(), 1, hands=packets, samples=samples, seed=seed
+            )
+            found = row.total_variation_estimate
+            if found is not None and found.value < features.ESTIMATE_FLOOR:
+                samples = 0
+        out.append(found)
+    return out
+
+
 def _row(
     procedure,
     shoe,
@@ -217,6 +248,7 @@ def _row(
     halves,
     null_mean,
     confidence,
+    estimate: Quantity | None = None,
 ) -> AssessmentRow:
     chosen, measured = (int(h) for h in halves)
     n = shoe.size
@@ -365,4 +397,5 @@ def _row(
         best_strategy=GREEDY,
         extra_guesses=extra,
         uniform_guesses=null_mean,
+        estimated={} if estimate is None else {"total_variation": estimate},
     )

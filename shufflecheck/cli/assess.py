@@ -198,6 +198,17 @@ def _range(row, metric: str) -> tuple[str, str]:
     return f"{lo} to {hi}", how
 
 
+def _estimate_cell(found) -> str:
+    """An estimate and its interval to three digits (the interval's own width)."""
+    from shufflecheck.common.numbers import format_number
+
+    low, high = found.interval
+    return (
+        f"{format_number(found.value, 3)} ({format_number(low, 3, 'down')} to "
+        f"{format_number(high, 3, 'up')})"
+    )
+
+
 def _print(result) -> None:
     from shufflecheck.report.render.terminal import format_table
 
@@ -229,6 +240,9 @@ def _print(result) -> None:
     ]
     if conjectures:
         headers.insert(3, "conjectured TV")
+    estimates = any(row.estimated for row in result.rows)
+    if estimates:
+        headers.insert(3, "TV estimate (99% CI)")
     rows = []
     for row in result.rows:
         tv, how = _range(row, "total_variation")
@@ -246,8 +260,11 @@ def _print(result) -> None:
         if conjectures:
             guess = row.conjectured.get("total_variation")
             line.insert(3, f"<= {_num(guess.value, 'up')}" if guess is not None else "-")
+        if estimates:
+            found = row.estimated.get("total_variation")
+            line.insert(3, "-" if found is None else _estimate_cell(found))
         rows.append(line)
-    echo(format_table(headers, rows, align="rllllll" if conjectures else "rlllll"))
+    echo(format_table(headers, rows, align="r" + "l" * (len(headers) - 1)))
     echo()
     first = result.rows[0]
     echo("How each number was obtained:")
@@ -259,6 +276,10 @@ def _print(result) -> None:
         f"              Clopper-Pearson ({percent(result.confidence)}), "
         "Bonferroni over the statistics"
     )
+    if estimates:
+        echo("  estimate    Monte Carlo over 2,000 uniform words, each word's exact chance after")
+        echo("              ideal riffles from a start in blocks or alternating; '-' after the")
+        echo("              first below 0.01 or beyond the work limit; certifies nothing")
     if conjectures:
         echo("  conjectured NOT a bound: the unproven interleaving conjecture (steps between")
         echo("              ideal riffles never raise the separation); never used to certify")
@@ -306,6 +327,18 @@ def assessment_series(result) -> list[dict]:
                 "kind": "exact",
                 "steps": [r.repeats for r in exact],
                 "values": [r.exact.total_variation for r in exact],
+            }
+        )
+    estimated = [r for r in result.rows if "total_variation" in r.estimated]
+    if estimated:
+        series.append(
+            {
+                "label": "Monte Carlo estimate of the exact value",
+                "kind": "estimate",
+                "steps": [r.repeats for r in estimated],
+                "values": [r.estimated["total_variation"].value for r in estimated],
+                "low": [r.estimated["total_variation"].interval[0] for r in estimated],
+                "high": [r.estimated["total_variation"].interval[1] for r in estimated],
             }
         )
     conjectured = [r for r in result.rows if "total_variation" in r.conjectured]

@@ -105,6 +105,7 @@ from shufflecheck.models.word_estimate import WordEstimate
 __all__ = [
     "ENUMERATION_CARDS",
     "ESTIMATE_FLOOR",
+    "ESTIMATE_SAMPLES",
     "FEATURE_SOURCES_NOTE",
     "FeatureCurve",
     "FeatureDistances",

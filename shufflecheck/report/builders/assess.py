@@ -36,8 +36,21 @@ def _distance_cells(row, metric: str) -> tuple[Quantity | None, Quantity | None]
     return as_value(row.lower.get(metric)), as_value(row.upper.get(metric))
 
 
-def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
-    """Method notes shared by the assessment and policy reports."""
+def assessment_methods(confidence: float, *, estimated: bool = False) -> tuple[MethodNote, ...]:
+    """Method notes shared by the assessment and policy reports (``estimated``: some row
+    carries a Monte Carlo estimate of an exact value, whose note is added)."""
+    estimates = (
+        MethodNote(
+            "estimates of the exact total variation",
+            "estimate",
+            "runs of ideal riffles of a shoe read through a feature, from a start in three or "
+            "more blocks or an alternating two-valued start: the mean of (1 - M P(W))+ over "
+            "2,000 uniformly random words W, each word's exact chance (derived in this "
+            "project, checked by brute force; docs/models.md), with a normal-theory 99% "
+            "interval; they stop after the first below 0.01 and certify nothing",
+            (BAYER_DIACONIS,),
+        ),
+    )
     return (
         MethodNote(
             "distance when the repeated procedure is one exactly analysed model",
@@ -65,6 +78,7 @@ def assessment_methods(confidence: float) -> tuple[MethodNote, ...]:
             "total-variation analogue is false; never used to certify",
             (BAYER_DIACONIS,),
         ),
+        *(estimates if estimated else ()),
         MethodNote(
             "lower bounds",
             "bound",
@@ -89,6 +103,7 @@ def assessment_table(result, metric: str = "total_variation") -> Table:
     """Distance (exact, or lower and upper bounds; the conjectured figure beside them when
     there is one) and the guessing edge for every r."""
     conjectures = any(metric in row.conjectured for row in result.rows)
+    estimates = any(metric in row.estimated for row in result.rows)
     rows = []
     for row in result.rows:
         low, high = _distance_cells(row, metric)
@@ -96,6 +111,8 @@ def assessment_table(result, metric: str = "total_variation") -> Table:
         cells = [str(row.repeats), low, high]
         if conjectures:
             cells.append(as_value(row.conjectured.get(metric)))
+        if estimates:
+            cells.append(as_value(row.estimated.get(metric), digits=3))
         cells += [as_value(extra), row.best_strategy]
         rows.append(tuple(cells))
     name = {
@@ -113,6 +130,13 @@ def assessment_table(result, metric: str = "total_variation") -> Table:
         notes.append(
             "The conjectured column rests on the unproven interleaving conjecture: it is not "
             "a bound and certifies nothing."
+        )
+    if estimates:
+        columns.append(f"{name}: estimate")
+        notes.append(
+            "The estimate column is a Monte Carlo estimate of the exact value (each word's "
+            "exact chance, uniformly random words; empty after the first below 0.01): it "
+            "certifies nothing."
         )
     columns += ["extra correct guesses per deck", "best strategy"]
     return Table(
@@ -134,10 +158,12 @@ def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Pr
             answer.append(f"After {row.repeats} repetition(s): total variation {low}.")
         else:
             guess = as_value(row.conjectured.get("total_variation"))
+            found = as_value(row.estimated.get("total_variation"), digits=3)
             answer.append(
                 f"After {row.repeats} repetition(s): total variation {low}"
                 + (f", {high}" if high is not None else "")
                 + (f"; {guess}, resting on an unproven conjecture" if guess is not None else "")
+                + (f"; Monte Carlo {found}, certifying nothing" if found is not None else "")
                 + "."
             )
     edge = first.extra_guesses
@@ -183,6 +209,8 @@ def assessment_report(result, *, payload: dict[str, Any], figure, provenance: Pr
         answer=tuple(answer),
         reproducibility=provenance,
         sections=tuple(sections),
-        methods=assessment_methods(result.confidence),
+        methods=assessment_methods(
+            result.confidence, estimated=any(row.estimated for row in result.rows)
+        ),
         data=payload,
     )
