@@ -172,6 +172,15 @@ class TestExactDistances:
         )
 
 
+def test_every_class_one_card_is_exact():
+    # the word is the arrangement: Bayer & Diaconis (1992), Table 1 (52 cards): 0.924,
+    # 0.614, 0.334, 0.167 after 5 to 8 riffles
+    for k, published in zip(range(5, 9), (0.924, 0.614, 0.334, 0.167), strict=True):
+        row = feature_distances(list(range(52)), k)
+        assert row.total_variation.kind == "exact" and row.kl_bits.kind == "exact"
+        assert round(row.total_variation.value, 3) == published
+
+
 class TestEstimate:
     @pytest.mark.parametrize("k", [2, 3, 4])
     def test_interval_covers_the_exact_value(self, k):

@@ -55,6 +55,9 @@ KL are exact while the words number at most
 :data:`~shufflecheck.models.block_words.EXACT_WORDS`, and beyond, the total variation gets
 the same kind of Monte Carlo estimate (the upper bounds stay the ones above).
 
+**Every class one card** (the codes of one pack): the word is the arrangement, so the
+distinct-card distances are exact, not only upper bounds.
+
 **Exact everything for small decks**: for ``n <= 9`` (any start, any feature) the law of
 the word is summed from the exact law of the arrangement over all ``n!`` arrangements.
 
@@ -419,6 +422,14 @@ def _feature_distances(
             Quantity(kl, "exact", method=how, unit="bits"),
         )
     full = riffle.exact_distances(n, steps, hands=hands)
+    if max(counts) == 1:  # every class one card: the word is the arrangement itself
+        how = "exact: every class one card, so the word is the arrangement (Bayer & Diaconis 1992)"
+        return FeatureDistances(
+            steps,
+            Quantity(full.total_variation, "exact", method=how),
+            Quantity(full.separation, "exact", method=how),
+            Quantity(full.kl_bits, "exact", method=how, unit="bits"),
+        )
     distinct = "distinct-card distance (Bayer & Diaconis 1992): a feature is never farther"
     tv = Quantity(full.total_variation, "bound", side="upper", method=distinct)
     sep = Quantity(full.separation, "bound", side="upper", method=distinct)
