@@ -380,7 +380,7 @@ def _mix_feature(
         rows.append(row)
     headers = ["riffles", "total variation", "separation", "KL (bits)"]
     if estimated:
-        headers.append("total variation, estimate (99% CI)")
+        headers.append("TV estimate (99% CI)")
     echo(format_table(headers, rows))
     if skipped is not None:
         echo(skipped)
