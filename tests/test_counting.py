@@ -10,6 +10,7 @@ import pytest
 import sympy
 from sympy.functions.combinatorial.numbers import stirling
 
+from shufflecheck.common.errors import InputError
 from shufflecheck.core import counting
 from tests._brute import cycle_count
 
@@ -160,3 +161,18 @@ def test_bad_input():
         counting.eulerian_row(-1)
     with pytest.raises(ValueError, match="must be an integer"):
         counting.mahonian_row(2.5)
+
+
+def test_multinomial():
+    # bridge deals, 52! / (13!)^4 = 53,644,737,765,488,792,839,237,440,000 (a figure of the
+    # card trade, recalled from memory; the same value from factorials here)
+    assert counting.multinomial((13, 13, 13, 13)) == 53_644_737_765_488_792_839_237_440_000
+    for counts in [(0,), (3,), (2, 3), (1, 1, 1, 1), (4, 0, 2), (24,) * 9 + (96,)]:
+        expected = math.factorial(sum(counts))
+        for c in counts:
+            expected //= math.factorial(c)
+        assert counting.multinomial(counts) == expected
+    # brute force: distinct arrangements of a small multiset
+    assert counting.multinomial((2, 1, 2)) == len(set(itertools.permutations("aabcc")))
+    with pytest.raises(InputError, match="a count must be >= 0"):
+        counting.multinomial((2, -1))

@@ -22,6 +22,7 @@ References
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from fractions import Fraction
 from functools import cache
 
@@ -32,6 +33,7 @@ __all__ = [
     "eulerian_row",
     "harmonic",
     "mahonian_row",
+    "multinomial",
     "no_succession_count",
     "poly_multiply",
     "rencontres_row",
@@ -213,6 +215,18 @@ def binomial_row(n: int) -> tuple[int, ...]:
     """Binomial coefficients ``C(n, k)``, k = 0..n."""
     _check_n(n)
     return tuple(math.comb(n, k) for k in range(n + 1))
+
+
+def multinomial(counts: Sequence[int]) -> int:
+    """The multinomial coefficient ``(c_0 + c_1 + ...)! / (c_0! c_1! ...)``: the number of
+    arrangements of a multiset with ``counts[v]`` copies of value ``v`` (a product of
+    binomials, exact)."""
+    out, seen = 1, 0
+    for c in counts:
+        _check_n(c, "a count")
+        seen += c
+        out *= math.comb(seen, c)
+    return out
 
 
 @cache

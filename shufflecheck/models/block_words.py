@@ -58,7 +58,7 @@ from functools import lru_cache
 import numpy as np
 
 from shufflecheck.common.errors import InputError
-from shufflecheck.core.counting import stirling2_row
+from shufflecheck.core.counting import multinomial, stirling2_row
 from shufflecheck.models.word_estimate import WordEstimate, shortfall_estimate
 
 __all__ = [
@@ -94,11 +94,7 @@ def _check_counts(counts: Sequence[int]) -> tuple[int, ...]:
 
 def word_count(counts: Sequence[int]) -> int:
     """``multinomial(n; counts)``: the number of distinct words."""
-    out, seen = 1, 0
-    for c in _check_counts(counts):
-        seen += c
-        out *= math.comb(seen, c)
-    return out
+    return multinomial(_check_counts(counts))
 
 
 @lru_cache(maxsize=64)

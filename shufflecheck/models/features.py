@@ -91,7 +91,7 @@ import numpy as np
 
 from shufflecheck.common.errors import InputError
 from shufflecheck.common.quantity import Quantity
-from shufflecheck.core.counting import stirling2_row
+from shufflecheck.core.counting import multinomial, stirling2_row
 from shufflecheck.core.distances import kl_term
 from shufflecheck.models import block_words, riffle
 from shufflecheck.models.alternating import (
@@ -178,14 +178,6 @@ def _class_counts(start: Sequence[int]) -> tuple[int, ...]:
     return tuple(c for c in out if c)
 
 
-def _multinomial(counts: Sequence[int]) -> int:
-    out, seen = 1, 0
-    for c in counts:
-        seen += c
-        out *= math.comb(seen, c)
-    return out
-
-
 @cache
 def _reversed_sequences(counts: tuple[int, ...], hands: int) -> int:
     """``N_a`` of the reversed word for a start in blocks (module docstring)."""
@@ -210,7 +202,7 @@ def block_separation(counts: Sequence[int], hands: int) -> Fraction:
     hands = riffle.check_hands(hands) if hands >= 2 else int(hands)
     n = sum(parts)
     least = _reversed_sequences(parts, hands)
-    return 1 - Fraction(_multinomial(parts) * least, hands**n)
+    return 1 - Fraction(multinomial(parts) * least, hands**n)
 
 
 def _two_valued_table(p: int, q: int, a: int) -> list[list[int]]:
@@ -368,7 +360,7 @@ class FeatureDistances:
 def _small_distances(start: tuple[int, ...], hands: int) -> tuple[float, float, float]:
     law = small_deck_law(start, hands)
     counts = _class_counts(start)
-    words = _multinomial(counts)
+    words = multinomial(counts)
     uniform = Fraction(1, words)
     tv = sum((abs(p - uniform) for p in law.values()), Fraction(0)) + uniform * (words - len(law))
     separation = 1 - words * min(law.values()) if len(law) == words else Fraction(1)

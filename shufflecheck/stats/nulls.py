@@ -47,6 +47,7 @@ from shufflecheck.common.errors import InputError
 from shufflecheck.core.counting import (
     eulerian_row,
     mahonian_row,
+    multinomial,
     rencontres_row,
     stirling1_row,
     successions_row,
@@ -480,17 +481,9 @@ def runs_row(counts: tuple[int, ...]) -> tuple[int, ...]:
     return tuple(row)
 
 
-def _multinomial(parts: tuple[int, ...]) -> int:
-    out, seen = 1, 0
-    for c in parts:
-        seen += c
-        out *= math.comb(seen, c)
-    return out
-
-
 @cache
 def _runs_law(parts: tuple[int, ...]) -> Law:
-    return Law.from_counts(runs_row(parts), _multinomial(parts))
+    return Law.from_counts(runs_row(parts), multinomial(parts))
 
 
 def runs_law(category_counts: tuple[int, ...] | list[int] | np.ndarray) -> Law:

@@ -49,6 +49,7 @@ from functools import cache
 import numpy as np
 
 from shufflecheck.common.errors import InputError
+from shufflecheck.core import counting
 from shufflecheck.core.counting import poly_multiply
 from shufflecheck.stats.nulls import Law, LawBracket, cycles_law
 
@@ -90,12 +91,8 @@ def _counts(counts: Sequence[int], *, keep_zeros: bool = False) -> tuple[int, ..
 
 
 def multinomial(counts: Sequence[int]) -> int:
-    """Number of arrangements of a multiset: ``n! / prod counts[v]!``."""
-    out, seen = 1, 0
-    for c in _counts(counts):
-        seen += c
-        out *= math.comb(seen, c)
-    return out
+    """Number of arrangements of a multiset: ``n! / prod counts[v]!`` (checked)."""
+    return counting.multinomial(_counts(counts))
 
 
 # --------------------------------------------------------------------------- successions
