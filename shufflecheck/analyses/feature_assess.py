@@ -169,7 +169,7 @@ def assess_feature(
                     progress(done)
     null_mean = float(greedy_guessing_mean(context_shoe.class_counts))
     start_classes = shoe.feature_classes(feature)
-    estimates = _estimates(
+    own_rows = _own_rows(
         procedure, feature, start_classes, repeats, rng if isinstance(rng, int) else 0
     )
     rows = tuple(
@@ -177,7 +177,6 @@ def assess_feature(
             procedure,
             shoe,
             feature,
-            start_classes,
             r,
             hist,
             laws,
@@ -186,7 +185,7 @@ def assess_feature(
             halves,
             null_mean,
             confidence,
-            estimates[r],
+            own_rows[r],
         )
         for r in range(repeats)
     )
@@ -213,25 +212,27 @@ def assess_feature(
     )
 
 
-def _estimates(
+def _own_rows(
     procedure: Procedure, feature: str, start_classes: np.ndarray, repeats: int, seed: int
-) -> list[Quantity | None]:
-    """The Monte Carlo estimate of the exact total variation for each ``r`` whose runs are
-    ideal riffles only and whose start takes one (:func:`features.feature_distances`,
-    ``seed``), up to the first below :data:`features.ESTIMATE_FLOOR`; None elsewhere."""
-    out: list[Quantity | None] = []
-    samples = features.ESTIMATE_SAMPLES if feature != "distinct" else 0
+) -> list[features.FeatureDistances | None]:
+    """The feature's own riffle distances (:func:`features.feature_distances`) for each
+    ``r`` whose runs are ideal riffles only, None elsewhere; with a Monte Carlo estimate of
+    the exact total variation (``seed``) where the start takes one, up to the first below
+    :data:`features.ESTIMATE_FLOOR`."""
+    out: list[features.FeatureDistances | None] = []
+    samples = features.ESTIMATE_SAMPLES
     for r in range(repeats):
         packets = _riffle_packets(procedure, r + 1)
-        found = None
-        if packets is not None and samples:
-            row = features.feature_distances(
-                start_classes.tolist(), 1, hands=packets, samples=samples, seed=seed
-            )
-            found = row.total_variation_estimate
-            if found is not None and found.value < features.ESTIMATE_FLOOR:
-                samples = 0
-        out.append(found)
+        if feature == "distinct" or packets is None:
+            out.append(None)
+            continue
+        row = features.feature_distances(
+            start_classes.tolist(), 1, hands=packets, samples=samples, seed=seed
+        )
+        found = row.total_variation_estimate
+        if found is not None and found.value < features.ESTIMATE_FLOOR:
+            samples = 0
+        out.append(row)
     return out
 
 
@@ -239,7 +240,6 @@ def _row(
     procedure,
     shoe,
     feature,
-    start_classes,
     r,
     hist,
     laws,
@@ -248,7 +248,7 @@ def _row(
     halves,
     null_mean,
     confidence,
-    estimate: Quantity | None = None,
+    own: features.FeatureDistances | None = None,
 ) -> AssessmentRow:
     chosen, measured = (int(h) for h in halves)
     n = shoe.size
@@ -281,9 +281,7 @@ def _row(
     exact: DistanceRow | None = None
     sure_low: Quantity | None = None  # a rigorous lower bound of the feature's own riffle law
     sure_separation: Quantity | None = None  # the feature's exact separation, where known
-    packets = _riffle_packets(procedure, r + 1)
-    if feature != "distinct" and packets is not None:
-        own = features.feature_distances(start_classes.tolist(), 1, hands=packets, samples=0)
+    if own is not None:  # ideal riffles only: the feature's own figures
         values = {m: own.value(m) for m in _METRICS}
         if all(q.kind == "exact" for q in values.values()):
             exact = DistanceRow(
@@ -397,5 +395,9 @@ def _row(
         best_strategy=GREEDY,
         extra_guesses=extra,
         uniform_guesses=null_mean,
-        estimated={} if estimate is None else {"total_variation": estimate},
+        estimated=(
+            {}
+            if own is None or own.total_variation_estimate is None
+            else {"total_variation": own.total_variation_estimate}
+        ),
     )
