@@ -452,6 +452,18 @@ def echo(text: str = "") -> None:
     typer.echo("\n".join(wrap_line(line) for line in str(text).split("\n")))
 
 
+def estimate_cell(found: Any) -> str:
+    """A Monte Carlo estimate and its interval in a terminal table cell, three digits each
+    (the interval's own width): ``0.158 (0.146 to 0.169)``, the ends rounded outward."""
+    from shufflecheck.common.numbers import format_number
+
+    low, high = found.interval
+    return (
+        f"{format_number(found.value, 3)} ({format_number(low, 3, 'down')} to "
+        f"{format_number(high, 3, 'up')})"
+    )
+
+
 def warn(text: str) -> None:
     """A notice on stderr (never mixed into ``--json`` output)."""
     typer.echo(text, err=True)

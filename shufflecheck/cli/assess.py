@@ -17,6 +17,7 @@ from shufflecheck.cli._app import (
     check_outputs,
     echo,
     emit_json,
+    estimate_cell,
     plot_option,
     procedure_inputs,
     progress,
@@ -198,17 +199,6 @@ def _range(row, metric: str) -> tuple[str, str]:
     return f"{lo} to {hi}", how
 
 
-def _estimate_cell(found) -> str:
-    """An estimate and its interval to three digits (the interval's own width)."""
-    from shufflecheck.common.numbers import format_number
-
-    low, high = found.interval
-    return (
-        f"{format_number(found.value, 3)} ({format_number(low, 3, 'down')} to "
-        f"{format_number(high, 3, 'up')})"
-    )
-
-
 def _print(result) -> None:
     from shufflecheck.report.render.terminal import format_table
 
@@ -262,7 +252,7 @@ def _print(result) -> None:
             line.insert(3, f"<= {_num(guess.value, 'up')}" if guess is not None else "-")
         if estimates:
             found = row.estimated.get("total_variation")
-            line.insert(3, "-" if found is None else _estimate_cell(found))
+            line.insert(3, "-" if found is None else estimate_cell(found))
         rows.append(line)
     echo(format_table(headers, rows, align="r" + "l" * (len(headers) - 1)))
     echo()

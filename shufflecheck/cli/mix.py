@@ -17,6 +17,7 @@ from shufflecheck.cli._app import (
     check_outputs,
     echo,
     emit_json,
+    estimate_cell,
     plot_option,
     progress,
     save_report,
@@ -376,7 +377,7 @@ def _mix_feature(
         row = [r.steps, r.total_variation_text(), r.separation.text(), r.kl_bits.text()]
         if estimated:
             found = r.total_variation_estimate
-            row.append("-" if found is None else _estimate_cell(found))
+            row.append("-" if found is None else estimate_cell(found))
         rows.append(row)
     headers = ["riffles", "total variation", "separation", "KL (bits)"]
     if estimated:
@@ -483,16 +484,6 @@ def _start_kind(words: list[int]) -> str:
     from shufflecheck.models.alternating import alternating_class
 
     return "the alternating start" if alternating_class(words) is not None else "a start in blocks"
-
-
-def _estimate_cell(found) -> str:
-    from shufflecheck.common.numbers import format_number
-
-    low, high = found.interval
-    return (
-        f"{format_number(found.value, 3)} ({format_number(low, 3, 'down')} to "
-        f"{format_number(high, 3, 'up')})"
-    )
 
 
 def _payload(curve, goal, metric, minimum, bound_minimum, extended=None) -> dict:
