@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from collections import defaultdict
+from collections import Counter, defaultdict
 from fractions import Fraction
 
 
@@ -125,3 +125,19 @@ def cycle_lengths(p) -> tuple[int, ...]:
 def cycle_count(p) -> int:
     """Number of cycles of the permutation ``i -> p[i]``."""
     return len(cycle_lengths(p))
+
+
+def words_by_label_sequences(start: tuple[int, ...], a: int) -> Counter:
+    """How many label sequences of an a-shuffle give each word, from a deck whose reference
+    position ``i`` holds class ``start[i]``: every position of the new deck gets one of
+    ``a`` labels, the positions sorted stably by label take the start's cards in order
+    (the inverse description of Bayer & Diaconis 1992). ``a^n`` sequences, for small decks."""
+    n = len(start)
+    tally: Counter = Counter()
+    for labels in itertools.product(range(a), repeat=n):
+        order = sorted(range(n), key=lambda p: (labels[p], p))
+        word = [0] * n
+        for rank, position in enumerate(order):
+            word[position] = start[rank]
+        tally[tuple(word)] += 1
+    return tally

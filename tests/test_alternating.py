@@ -1,10 +1,10 @@
 """Two-valued decks that start alternating (:mod:`shufflecheck.models.alternating`): each
 word's chance after an a-shuffle against brute force over every label sequence of the
-a-shuffle (the inverse description of Bayer & Diaconis 1992, written out here), the
-distances against the arrangement law summed over all n! orders (``features``, itself
-checked against Bayer & Diaconis), the symmetry of the a-shuffle under turning the deck
-over, and the Monte Carlo estimate against the exact sum. No published table of
-Conger & Viswanath's alternating start was at hand to compare with."""
+a-shuffle (the inverse description of Bayer & Diaconis 1992, written out in
+tests/_brute.py), the distances against the arrangement law summed over all n! orders
+(``features``, itself checked against Bayer & Diaconis), the symmetry of the a-shuffle under
+turning the deck over, and the Monte Carlo estimate against the exact sum. No published
+table of Conger & Viswanath's alternating start was at hand to compare with."""
 
 from __future__ import annotations
 
@@ -21,20 +21,12 @@ from hypothesis import strategies as st
 from shufflecheck.common.errors import InputError
 from shufflecheck.models import alternating
 from shufflecheck.models.features import ESTIMATE_FLOOR, feature_curve, feature_distances
+from tests._brute import words_by_label_sequences
 
 
 def brute_chances(n: int, a: int) -> Counter:
-    """Label sequences of an a-shuffle giving each word: sort the positions stably by
-    label; the word arises when the sorted classes read 0, 1, 0, 1, ... (the start)."""
-    start = tuple(i % 2 for i in range(n))
-    tally: Counter = Counter()
-    for labels in itertools.product(range(a), repeat=n):
-        order = sorted(range(n), key=lambda p: (labels[p], p))
-        word = [0] * n
-        for rank, position in enumerate(order):
-            word[position] = start[rank]
-        tally[tuple(word)] += 1
-    return tally
+    """Label sequences of an a-shuffle giving each word of the alternating start 0, 1, 0, ..."""
+    return words_by_label_sequences(tuple(i % 2 for i in range(n)), a)
 
 
 def all_words(n: int) -> list[tuple[int, ...]]:

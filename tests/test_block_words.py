@@ -1,14 +1,14 @@
-"""Decks that start in blocks of three or more classes (:mod:`shufflecheck.models.block_words`):
-each word's chance after an a-shuffle against brute force over every label sequence of the
-a-shuffle (the inverse description of Bayer & Diaconis 1992, written out here); distinct
-cards against Bayer & Diaconis's formula ``C(a + n - r, n) / a^n`` (their Theorem 1); the
-distances against the arrangement law summed over all n! orders (``features``, itself
-checked against Bayer & Diaconis); the separation against the least-likely-word formula;
-merging two classes (the merged word's chance is a sum of chances); turning the deck over;
-the Monte Carlo estimate against the exact sum, and at 52 cards against words dealt by the
-project's riffle sampler. No published table of these distances was at hand to compare
-with (Assaf, Diaconis & Soundararajan 2011 study the setting; their text was not
-available here)."""
+"""Decks that start in blocks of three or more classes
+(:mod:`shufflecheck.models.block_words`): each word's chance after an a-shuffle against
+brute force over every label sequence of the a-shuffle (the inverse description of Bayer &
+Diaconis 1992, written out in tests/_brute.py); distinct cards against Bayer & Diaconis's
+formula ``C(a + n - r, n) / a^n`` (their Theorem 1); the distances against the arrangement
+law summed over all n! orders (``features``, itself checked against Bayer & Diaconis); the
+separation against the least-likely-word formula; merging two classes (the merged word's
+chance is a sum of chances); turning the deck over; the Monte Carlo estimate against the
+exact sum, and at 52 cards against words dealt by the project's riffle sampler. No published
+table of these distances was at hand to compare with (Assaf, Diaconis & Soundararajan 2011
+study the setting; their text was not available here)."""
 
 from __future__ import annotations
 
@@ -30,21 +30,13 @@ from shufflecheck.models.features import (
     feature_curve,
     feature_distances,
 )
+from tests._brute import words_by_label_sequences
 
 
 def brute_counts(counts: tuple[int, ...], a: int) -> Counter:
-    """Label sequences of an a-shuffle giving each word: sort the positions stably by
-    label; the word arises when the sorted classes read the start (class 0 block on top)."""
-    start = [v for v, c in enumerate(counts) for _ in range(c)]
-    n = len(start)
-    tally: Counter = Counter()
-    for labels in itertools.product(range(a), repeat=n):
-        order = sorted(range(n), key=lambda p: (labels[p], p))
-        word = [0] * n
-        for rank, position in enumerate(order):
-            word[position] = start[rank]
-        tally[tuple(word)] += 1
-    return tally
+    """Label sequences of an a-shuffle giving each word of the start in blocks (class 0 on
+    top)."""
+    return words_by_label_sequences(tuple(v for v, c in enumerate(counts) for _ in range(c)), a)
 
 
 def words_of(counts: tuple[int, ...]) -> list[tuple[int, ...]]:
