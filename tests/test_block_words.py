@@ -29,6 +29,8 @@ from shufflecheck.models.features import (
     block_separation,
     feature_curve,
     feature_distances,
+    merged_lower_bound,
+    two_valued_block_tv,
 )
 from tests._brute import words_by_label_sequences
 
@@ -245,6 +247,49 @@ class TestEstimate:
             block_words.block_tv_estimate((13, 13, 13, 13), 2, samples=1)
 
 
+class TestMergedLowerBound:
+    """The classes above a cut between blocks merged against those below: a two-valued deck
+    in blocks whose bracket's lower end bounds the finer word's total variation."""
+
+    @pytest.mark.parametrize("counts", [(2, 3, 4), (3, 3, 3), (4, 4, 4), (2, 2, 2, 2, 2)])
+    @pytest.mark.parametrize("k", [1, 2, 3, 4, 6])
+    def test_below_the_exact_value(self, counts, k):
+        exact, _, _ = block_words.block_distances(counts, 2**k)
+        found = merged_lower_bound(counts, 2**k)
+        assert found is not None and found.kind == "bound" and found.side == "lower"
+        assert 0 < found.value <= exact
+
+    @pytest.mark.parametrize("k", [1, 2, 4])
+    def test_the_best_cut_is_the_merged_decks_exact_value(self, k):
+        # (2, 3, 4): cuts give 2 | 7 and 5 | 4; each merged deck's exact total variation by
+        # the two-valued sum over all words, itself checked against brute force
+        merged = [float(two_valued_block_tv(p, 9 - p, 2**k)) for p in (2, 5)]
+        found = merged_lower_bound((2, 3, 4), 2**k)
+        assert found.value == pytest.approx(max(merged), abs=1e-6)
+
+    def test_52_suits(self):
+        # the top suit against the other three: the bracket of 13 | 39 cards
+        from shufflecheck.models.two_valued import two_valued_tv_bracket
+
+        suits = [v for v in range(4) for _ in range(13)]
+        for k in (2, 4, 6):
+            row = feature_distances(suits, k, samples=1000, seed=k)
+            low = row.total_variation_lower
+            assert low is not None and "merged" in low.method
+            assert low.value == pytest.approx(two_valued_tv_bracket(13, 39, 2**k).lower, abs=1e-6)
+            assert low.value <= row.total_variation_estimate.interval[1]
+            assert low.value <= row.total_variation.value
+        assert feature_distances(suits, 2).total_variation_lower.value == pytest.approx(
+            0.4095, abs=1e-4
+        )
+
+    def test_classes_too_large_for_the_estimate_still_get_it(self):
+        start = [0] * 20 + [1] * 160 + [2] * 20  # a class above block_words.MAX_CLASS
+        row = feature_distances(start, 3)
+        assert row.total_variation_estimate is None
+        assert row.total_variation_lower is not None and row.total_variation_lower.value > 0
+
+
 class TestCommand:
     def test_mix_suits(self, tmp_path):
         from typer.testing import CliRunner
@@ -312,10 +357,9 @@ class TestCommand:
         flat = " ".join(runner.invoke(app, args).output.split())
         command = "shufflecheck assess riffle --deck 'shoe(packs=2)' --feature blackjack -r 1-3"
         assert "Rows 1-3 carry upper bounds only" in flat and command in flat
-        # the suits' rows with estimates are not named; the later ones are
+        # every row of the suits carries a lower bound (classes merged): none is named
         flat = " ".join(runner.invoke(app, ["mix", "riffle", "--feature", "suit"]).output.split())
-        assert "Rows 9-14 carry upper bounds only" in flat
-        assert "assess riffle --deck 'shoe(packs=1)' --feature suit -r 9-14" in flat
+        assert "carry upper bounds only" not in flat and "(bounds)" in flat
 
 
 class TestAssess:

@@ -301,6 +301,7 @@ def _mix_feature(
     estimated = any(r.total_variation_estimate is not None for r in curve.rows)
     skipped = None if estimated else estimate_skipped(words, samples, hands=hands)
     guess = curve.estimated_minimum(goal) if estimated and chosen == "total_variation" else None
+    short = curve.proven_short(chosen, goal)
     payload = {
         "model": model,
         "deck": definition.describe(),
@@ -317,6 +318,11 @@ def _mix_feature(
         "metric": chosen,
         "rows": [row.as_json() for row in curve.rows],
         "minimum_steps": minimum,
+        # fewer riffles than this are proven too few (an exact value or rigorous lower bound
+        # above the target one row before)
+        "minimum_steps_at_least": (
+            None if goal is None else {chosen: 1 if short is None else short[0] + 1}
+        ),
         # the Monte Carlo estimate's view (its interval's upper end meets the target): an
         # estimate that certifies nothing, beside the certified minimum above
         "minimum_steps_estimate": (
@@ -408,6 +414,11 @@ def _mix_feature(
             q = curve.rows[k - 1].value(chosen)
             how = "exact" if q.kind == "exact" else "rigorous upper bound"
             echo(f"Minimum riffles for {label} <= {goal:g}: {k} ({how})")
+        from shufflecheck.report.builders.mix import proven_short_sentence
+
+        line = proven_short_sentence(short, label, goal, k)
+        if line is not None:
+            echo(line)
         if estimated and chosen == "total_variation":
             echo(_estimated_minimum_text(guess, goal))
     echo(FEATURE_SOURCES_NOTE)

@@ -6,7 +6,9 @@ of a like size, so the ratios carry from machine to machine).
   exact chance for 2,000 uniform words, one sample serving all 12 rows of the estimate;
 * the same words' chances alone, per word;
 * the alternating colour deck (52 cards, rows 1 to 8): each row its own sample;
-* the exact sum for 4 suits of 3 cards (369,600 words).
+* the exact sum for 4 suits of 3 cards (369,600 words);
+* the rigorous lower bounds beside the estimates: the walk extremes of the alternating
+  colour deck after 1 to 5 riffles, and the merged classes of the suits after 1 to 12.
 
 CPU time (the machine is shared); no issue target, nothing asserted against a time.
 """
@@ -41,11 +43,16 @@ def test_feature_estimates(benchmark, figures):
         colour = [i % 2 for i in range(52)]
         alternating_time, _ = _cpu(feature_curve, colour, 8, samples=2000, seed=0)
         exact_time, _ = _cpu(block_words.block_distances, (3, 3, 3, 3), 8)
-        return baseline, suit_time, chance_time, alternating_time, exact_time, curve
+        walk_time = sum(_cpu(walk_tv_lower, 52, 2**k)[0] for k in range(1, 6))
+        merged_time = sum(_cpu(merged_lower_bound, (13, 13, 13, 13), 2**k)[0] for k in range(1, 13))
+        times = (suit_time, chance_time, alternating_time, exact_time, walk_time, merged_time)
+        return baseline, times, curve
 
-    baseline, suit_time, chance_time, alternating_time, exact_time, curve = benchmark.pedantic(
-        run, rounds=1, iterations=1
-    )
+    from shufflecheck.models.alternating_walk import walk_tv_lower
+    from shufflecheck.models.features import merged_lower_bound
+
+    baseline, times, curve = benchmark.pedantic(run, rounds=1, iterations=1)
+    suit_time, chance_time, alternating_time, exact_time, walk_time, merged_time = times
     figures("anchor: riffle sampler, 2,000 decks of 52 after 6 riffles, CPU", baseline, None)
     estimated = sum(r.total_variation_estimate is not None for r in curve.rows)
     figures(
@@ -72,4 +79,16 @@ def test_feature_estimates(benchmark, figures):
         exact_time,
         None,
         note=f"{exact_time / baseline:.0f} x the anchor",
+    )
+    figures(
+        "alternating colour deck of 52: walk-extremes lower bound, 1 to 5 riffles, CPU",
+        walk_time,
+        None,
+        note=f"{walk_time / baseline:.0f} x the anchor",
+    )
+    figures(
+        "suits of 52: merged-class lower bound, 1 to 12 riffles, CPU",
+        merged_time,
+        None,
+        note=f"{merged_time / baseline:.0f} x the anchor",
     )

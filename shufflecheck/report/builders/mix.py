@@ -147,6 +147,24 @@ def mixing_report(
     )
 
 
+def proven_short_sentence(short, label: str, goal: float, certified: int | None) -> str | None:
+    """The rigorous other side of the minimum: fewer than ``k + 1`` riffles are proven too
+    few. None when no row is proven above the target, or the certified minimum is the row
+    right after (then the minimum is pinned and says so itself)."""
+    if short is None:
+        return None
+    k, q = short
+    if certified is not None and certified == k + 1 and q.kind == "exact":
+        return None
+    from shufflecheck.common.numbers import format_number
+
+    how = "exact" if q.kind == "exact" else "rigorous lower bound"
+    return (
+        f"At least {k + 1} riffles are needed: after {k}, {label} is "
+        f"{format_number(q.value, 4, 'down')} or more ({how}), above {goal:g}."
+    )
+
+
 def feature_series(curve, metric: str) -> list[dict]:
     """The feature curve of one metric as figure series, one per kind of number (with the
     total variation's lower bounds where there are any)."""
@@ -218,12 +236,21 @@ def feature_mixing_report(
             answer.append(
                 f"No k up to {curve.rows[-1].steps} is certified for {label} <= {target:g}."
             )
+        line = proven_short_sentence(curve.proven_short(metric, target), label, target, k)
+        if line is not None:
+            answer.append(line)
     last = curve.rows[-1]
     answer.append(
         f"After {last.steps} riffles: total variation {last.total_variation_text()}, separation "
         f"{last.separation.text()}."
     )
     estimated = [r for r in curve.rows if r.total_variation_estimate is not None]
+    # lower bounds other than the two-valued bracket's (which has a note of its own)
+    lowered = any(
+        r.total_variation_lower is not None
+        and r.total_variation_lower.method.startswith("lower bound:")
+        for r in curve.rows
+    )
     guess = curve.estimated_minimum(target) if metric == "total_variation" else None
     if guess is not None:
         k, q = guess
@@ -326,6 +353,25 @@ def feature_mixing_report(
                 "grid by dynamic programming; the grid's rounding is bounded on both sides "
                 "(derived in this project; checked against the exact sum and brute force)",
                 (*model.sources, CONGER_VISWANATH),
+            ),
+            *(
+                (
+                    MethodNote(
+                        "lower bounds",
+                        "bound",
+                        "total variation of an alternating two-valued start too large for the "
+                        "exact sum: the exact laws, shuffled and uniform, of the highest and "
+                        "lowest points of the walk that steps up for one class and down for the "
+                        "other (a shuffle into a packets keeps the walk's range within a); of a "
+                        "start in three or more blocks: the classes above a cut between blocks "
+                        "merged against those below, a two-valued deck in blocks with the bounds "
+                        "above; a function of the word is never farther from uniform (derived in "
+                        "this project; checked by brute force)",
+                        (*model.sources, CONGER_VISWANATH),
+                    ),
+                )
+                if lowered
+                else ()
             ),
             *(
                 (
