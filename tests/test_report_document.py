@@ -182,6 +182,18 @@ class TestTable:
         assert table.header_text(3) == "text" and table.cell_text(1, 3) == ""
         assert table.is_numeric_column(1) and not table.is_numeric_column(3)
 
+    def test_text_beside_numbers_keeps_the_label_in_each_cell(self):
+        # a two-sided "x to y (bounds)" written as text among upper bounds: a shared
+        # "upper bound" in the header would misdescribe it; a placeholder "-" does not
+        table = Table(
+            "t",
+            ("tv", "estimate"),
+            [("0.2880 to 1.000 (bounds)", "-"), (upper_bound(0.6136), upper_bound(0.5))],
+        )
+        assert table.column_label(0) is None
+        assert table.cell_text(1, 0) == "≤ 0.6136 (upper bound)"
+        assert table.column_label(1) == "upper bound"
+
     def test_every_numeric_cell_text_carries_a_label(self):
         report = example_report(with_figure=False)
         for _, _, table in report.numbered_tables():

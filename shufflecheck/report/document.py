@@ -55,6 +55,8 @@ FORMAT_NAME = "shufflecheck-report"
 FORMAT_VERSION = 1
 
 _PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+#: Text cells that stand for "no number here" and leave a column's shared label alone.
+_PLACEHOLDERS = frozenset({"", "-", "\u2014", "n/a"})
 _FIGURE_NAME = re.compile(r"^[a-z0-9][a-z0-9_-]{0,63}$")
 
 
@@ -145,8 +147,13 @@ class Table:
         object.__setattr__(self, "marked_rows", marked)
 
     def column_label(self, column: int) -> str | None:
-        """The label text shared by every number in a column, or None (mixed or no numbers)."""
-        labels = {row[column].label_text for row in self.rows if isinstance(row[column], Quantity)}
+        """The label text shared by every number in a column, or None (mixed or no numbers;
+        also when some cell is text other than a placeholder such as ``-``, e.g. a two-sided
+        ``0.1 to 0.2 (bounds)``, which the shared label would misdescribe)."""
+        cells = [row[column] for row in self.rows]
+        if any(isinstance(c, str) and c.strip() not in _PLACEHOLDERS for c in cells):
+            return None
+        labels = {c.label_text for c in cells if isinstance(c, Quantity)}
         return labels.pop() if len(labels) == 1 else None
 
     def is_numeric_column(self, column: int) -> bool:
