@@ -177,10 +177,31 @@ class TestBound:
         assert found.uniform_outside > 1 - 3e-7
         assert found.lower > 1 - 3e-7
 
+    def test_beyond_the_work_limit_the_wide_walks_alone(self):
+        # a six-pack colour shoe after 4 riffles: the shuffled law is out of reach, the
+        # uniform chance of a walk wider than 16 is not (no shuffled word is that wide)
+        assert walk_work(312, 16) > alternating_walk.WALK_WORK
+        found = walk_tv_lower(312, 16)
+        assert found is not None and not found.whole
+        wide = 1 - sum(uniform_extremes_law(312, 16).values())
+        assert found.lower == pytest.approx(wide - alternating_walk.ROUNDING, abs=1e-15)
+        assert 0.8 < found.lower < 0.9  # measured: 0.8353
+        assert walk_tv_lower(312, 256) is None  # no walk of 312 cards is that wide
+
+    @pytest.mark.parametrize("n", [9, 20, 52])
+    def test_wide_tail_bounds_the_uniform_chance(self, n):
+        for a in range(1, n // 2 + 2):
+            wide = 1 - sum(uniform_extremes_law(n, a).values())
+            assert alternating_walk._wide_tail(n, a) >= wide - 1e-12
+
     def test_work_limit(self):
         assert walk_work(52, 32) <= alternating_walk.WALK_WORK < walk_work(52, 64)
         assert walk_tv_lower(52, 64) is None
-        assert walk_tv_lower(52, 16, work=walk_work(52, 16) - 1) is None
+        fallback = walk_tv_lower(52, 16, work=walk_work(52, 16) - 1)
+        assert fallback is not None and not fallback.whole
+        assert fallback.lower == pytest.approx(fallback.uniform_outside, abs=1e-8)
+        assert fallback.lower < walk_tv_lower(52, 16).lower
+        assert walk_tv_lower(52, 16, work=0) is None
 
     def test_bad_input(self):
         with pytest.raises(InputError, match="at least 2 cards"):

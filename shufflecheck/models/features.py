@@ -613,14 +613,16 @@ def _alternating(
     lower = None
     walk = walk_tv_lower(n, packets)
     if walk is not None and walk.lower > 0:
+        how = (
+            "the exact law of the highest and lowest points of the word's walk"
+            if walk.whole
+            else f"the uniform chance of a walk wider than {packets}, which the shuffle never gives"
+        )
         lower = Quantity(
             walk.lower,
             "bound",
             side="lower",
-            method=(
-                "lower bound: the exact law of the highest and lowest points of the word's "
-                "walk (derived; a function of the word is never farther)"
-            ),
+            method=f"lower bound: {how} (derived; a function of the word is never farther)",
         )
     return FeatureDistances(steps, tv, sep, kl, lower, estimate)
 
