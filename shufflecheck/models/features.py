@@ -495,7 +495,8 @@ def _many_blocks(
             Quantity(k, "exact", method=how, unit="bits"),
         )
     estimate = None
-    if samples > 0 and block_words.estimate_work(counts, samples) <= block_words.ESTIMATE_WORK:
+    start = tuple(v for v, c in enumerate(counts) for _ in range(c))
+    if _estimate_fits(start, packets, samples):
         found = block_words.block_tv_estimate(counts, packets, samples=samples, seed=seed)
         estimate = _estimate_quantity(found, seed, "the start in blocks")
     return FeatureDistances(steps, tv, sep, kl, merged_lower_bound(counts, packets), estimate)
@@ -551,28 +552,40 @@ def _estimate_quantity(found: WordEstimate, seed: int, start: str) -> Quantity:
     )
 
 
-def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> str | None:
-    """One line saying why a start that takes a Monte Carlo estimate (alternating, or in
-    three or more blocks, too large for the exact sum) gets none even after one riffle:
-    ``samples`` words would exceed the work limit. None when an estimate is made, exact
-    values are given, or the start takes no estimate."""
-    values = tuple(int(x) for x in start)
-    n, samples = len(values), int(samples)
+def _estimate_cost(values: tuple[int, ...], packets: int, samples: int) -> tuple[int, int] | None:
+    """``(work, limit)`` of the Monte Carlo estimate that ``values`` takes after one
+    ``packets``-shuffle: a start that alternates, or lies in three or more blocks, too large
+    for the exact sum (the routes of :func:`feature_distances`). None when it takes none."""
+    n = len(values)
     if samples <= 0 or n <= ENUMERATION_CARDS:
         return None
     if alternating_class(values) is not None:
         if math.comb(n, n // 2) <= ALTERNATING_EXACT_WORDS:
             return None
-        work, limit = estimate_work(n, hands, samples), ESTIMATE_WORK
-    else:
-        runs = block_runs(values)
-        if runs is None or len(runs) < 3 or not 1 < max(runs) <= block_words.MAX_CLASS:
-            return None
-        if block_words.word_count(runs) <= block_words.EXACT_WORDS:
-            return None
-        work, limit = block_words.estimate_work(runs, samples), block_words.ESTIMATE_WORK
-    if work <= limit:
+        return estimate_work(n, packets, samples), ESTIMATE_WORK
+    runs = block_runs(values)
+    if runs is None or len(runs) < 3 or not 1 < max(runs) <= block_words.MAX_CLASS:
         return None
+    if block_words.word_count(runs) <= block_words.EXACT_WORDS:
+        return None
+    return block_words.estimate_work(runs, samples), block_words.ESTIMATE_WORK
+
+
+def _estimate_fits(values: tuple[int, ...], packets: int, samples: int) -> bool:
+    cost = _estimate_cost(values, packets, samples)
+    return cost is not None and cost[0] <= cost[1]
+
+
+def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> str | None:
+    """One line saying why a start that takes a Monte Carlo estimate (alternating, or in
+    three or more blocks, too large for the exact sum) gets none even after one riffle:
+    ``samples`` words would exceed the work limit. None when an estimate is made, exact
+    values are given, or the start takes no estimate."""
+    samples = int(samples)
+    cost = _estimate_cost(tuple(int(x) for x in start), int(hands), samples)
+    if cost is None or cost[0] <= cost[1]:
+        return None
+    work, limit = cost
     fits = samples * limit // work
     advice = f"--simulate {fits:,} or fewer fits" if fits >= 2 else "no sample size fits"
     return (
@@ -607,7 +620,7 @@ def _alternating(
             Quantity(k, "exact", method=how, unit="bits"),
         )
     estimate = None
-    if samples > 0 and estimate_work(n, packets, samples) <= ESTIMATE_WORK:
+    if _estimate_fits(values, packets, samples):
         found = alternating_tv_estimate(n, packets, samples=samples, rng=seed)
         estimate = _estimate_quantity(found, seed, "the alternating start")
     lower = None
