@@ -176,6 +176,24 @@ class TestSummary:
         assert result.overall.test("segment-zone").flagged
         assert result.overall.unit == "shoe" and "uniform shoe" in result.overall.verdict()
 
+    @pytest.mark.parametrize(
+        "packs, feature, hint",
+        [
+            (3, "rank", "--feature blackjack or baccarat"),
+            (8, "blackjack", "stored brackets cover 3 to 6 packs"),
+        ],
+    )
+    def test_guessing_game_out_of_reach_says_why(self, packs, feature, hint):
+        definition = shoe(packs)
+        ctx = ShoeContext.of(definition, feature)
+        rng = np.random.default_rng(5)
+        words = definition.physical_kinds()[np.argsort(rng.random((11, definition.size)), axis=1)]
+        summary = BatterySummary.empty(definition.size, shoe=ctx, keep_series=False)
+        summary.update(words[1:], words[1:], references=words[:-1])
+        reasons = dict(summary.finish(since_when=False).overall.skipped)
+        assert "no bracket of it is stored" in reasons["guess-most-frequent"]
+        assert hint in reasons["guess-most-frequent"]
+
     def test_words_are_checked(self):
         with pytest.raises(InputError, match=r"row 2: kind 0 appears 3 times, 2 expected"):
             check_words(np.array([[0, 0, 1, 1, 2, 3, 3], [0, 0, 0, 1, 2, 3, 3]]), np.array(COPIES))
