@@ -111,6 +111,23 @@ def test_mix_shows_both_ends(tmp_path):
     assert all(r["total_variation_lower"]["value"] <= r["total_variation"]["value"] for r in rows)
 
 
+def test_both_ends_pin_the_minimum():
+    # 26 above 26 of the other colour: 0.05251 or more after 5 riffles, at most 0.02628
+    # after 6 (the bracket), so a target of 0.05 needs exactly 6
+    from typer.testing import CliRunner
+
+    from shufflecheck.cli import app
+
+    args = ["mix", "riffle", "--feature", "colour", "--start", "blocks", "--target", "0.05"]
+    result = CliRunner().invoke(app, [*args, "--json"])
+    assert result.exit_code == 0, result.output
+    payload = json.loads(result.output)
+    assert payload["minimum_steps"] == {"total_variation": 6}
+    assert payload["minimum_steps_at_least"] == {"total_variation": 6}
+    flat = " ".join(CliRunner().invoke(app, args).output.split())
+    assert "So exactly 6 riffles: after 5, total variation is 0.05251 or more" in flat
+
+
 class TestBlocksUpToRenaming:
     """A start whose classes each fill one run, in any order of the classes, is a start in
     blocks: renaming the classes maps words one to one onto words."""

@@ -149,8 +149,9 @@ def mixing_report(
 
 def proven_short_sentence(short, label: str, goal: float, certified: int | None) -> str | None:
     """The rigorous other side of the minimum: fewer than ``k + 1`` riffles are proven too
-    few. None when no row is proven above the target, or the certified minimum is the row
-    right after (then the minimum is pinned and says so itself)."""
+    few. When the certified minimum is ``k + 1`` the minimum is pinned, and the sentence
+    says so. None when no row is proven above the target, or when an exact value pins the
+    minimum (the minimum's own line says exact)."""
     if short is None:
         return None
     k, q = short
@@ -159,9 +160,14 @@ def proven_short_sentence(short, label: str, goal: float, certified: int | None)
     from shufflecheck.common.numbers import format_number
 
     how = "exact" if q.kind == "exact" else "rigorous lower bound"
+    lead = (
+        f"So exactly {k + 1} riffles"
+        if certified == k + 1
+        else f"At least {k + 1} riffles are needed"
+    )
     return (
-        f"At least {k + 1} riffles are needed: after {k}, {label} is "
-        f"{format_number(q.value, 4, 'down')} or more ({how}), above {goal:g}."
+        f"{lead}: after {k}, {label} is {format_number(q.value, 4, 'down')} or more "
+        f"({how}), above {goal:g}."
     )
 
 
