@@ -176,23 +176,31 @@ class TestSummary:
         assert result.overall.test("segment-zone").flagged
         assert result.overall.unit == "shoe" and "uniform shoe" in result.overall.verdict()
 
-    @pytest.mark.parametrize(
-        "packs, feature, hint",
-        [
-            (3, "rank", "--feature blackjack or baccarat"),
-            (8, "blackjack", "stored brackets cover 3 to 6 packs"),
-        ],
-    )
-    def test_guessing_game_out_of_reach_says_why(self, packs, feature, hint):
+    @pytest.mark.parametrize("packs, feature", [(3, "rank"), (8, "blackjack"), (6, "rank")])
+    def test_guessing_game_out_of_reach_runs_as_a_bet(self, packs, feature):
+        # no exact law within budget and no stored bracket: the betting form runs instead
         definition = shoe(packs)
         ctx = ShoeContext.of(definition, feature)
+        assert not ctx.provides("guessing") and ctx.provides("guessing-bet")
         rng = np.random.default_rng(5)
         words = definition.physical_kinds()[np.argsort(rng.random((11, definition.size)), axis=1)]
         summary = BatterySummary.empty(definition.size, shoe=ctx, keep_series=False)
         summary.update(words[1:], words[1:], references=words[:-1])
-        reasons = dict(summary.finish(since_when=False).overall.skipped)
-        assert "no bracket of it is stored" in reasons["guess-most-frequent"]
-        assert hint in reasons["guess-most-frequent"]
+        result = summary.finish(since_when=False).overall
+        assert "guess-most-frequent" not in dict(result.skipped)
+        test = result.test("guess-most-frequent-bet")
+        assert test.method == "bound" and test.alternative == "greater"
+        assert 0 < 10**test.log10_p_value <= 1
+        assert "beyond the chance of each guess" in test.effect.text
+        assert not result.test("guess-most-frequent-bet").flagged
+
+    def test_guessing_game_within_reach_is_not_a_bet(self):
+        import dataclasses
+
+        ctx = ShoeContext.of(shoe(6), "blackjack")
+        stored = dataclasses.replace(ctx, guess_tables=True)  # as audits read it
+        assert stored.provides("guessing") and not stored.provides("guessing-bet")
+        assert ShoeContext.of(shoe(2), "rank").provides("guessing")  # exact within budget
 
     def test_words_are_checked(self):
         with pytest.raises(InputError, match=r"row 2: kind 0 appears 3 times, 2 expected"):

@@ -40,10 +40,11 @@ from shufflecheck.stats.effects import (
     position_effect,
     sum_effect,
 )
+from shufflecheck.stats.guessing_bet import TILTS, bet_outcome
 from shufflecheck.stats.holm import holm_log
 from shufflecheck.stats.nulls import Law
 from shufflecheck.stats.positions import class_position_test, position_test
-from shufflecheck.stats.results import BatteryResult, SinceWhen, TestResult
+from shufflecheck.stats.results import BatteryResult, Effect, SinceWhen, TestResult
 from shufflecheck.stats.timeline import change_interval, change_point, describe
 
 __all__ = ["Tallies", "run_battery"]
@@ -136,6 +137,13 @@ def run_battery(
             effect = keyed_sum_effect(stat, table, keyed)
             rows.append((stat, float(total), log_p, "exact", detail, effect))
             continue
+        if stat.shape == "bet":
+            row = _bet_row(stat, tallies.hist[stat.name], tallies.decks)
+            if row is None:
+                skipped.append((stat.name, "no guesses to test"))
+            else:
+                rows.append(row)
+            continue
         if stat.shape == "positions":
             test = position_test(
                 tallies.positions,
@@ -222,6 +230,28 @@ def _bracket_row(
         f"larger reported ({stat.alternative})"
     )
     return (stat, float(total), high, "bound", detail, sum_effect(stat, hist, law)), low
+
+
+def _bet_row(stat: Statistic, table: np.ndarray, decks: int) -> tuple | None:
+    """The guessing game as a test martingale (:mod:`shufflecheck.stats.guessing_bet`): its
+    p-value ``1/E`` is a bound, reported with method ``bound``."""
+    if decks == 0 or not table.any():
+        return None
+    found = bet_outcome(table)
+    extra = (found.right - found.chance) / decks
+    se = math.sqrt(found.variance) / decks
+    observed, expected = found.right / decks, found.chance / decks
+    text = (
+        f"{extra:+.3g} correct guesses per shoe beyond the chance of each guess "
+        f"({observed:.4g} per shoe vs {expected:.4g} expected from the cards left at each guess)"
+    )
+    detail = (
+        f"test martingale over {found.guesses:,} guesses of {decks:,} shoes: equal bets on "
+        f"{len(TILTS)} tilts, e-value {math.exp(min(found.log_e, 700.0)):.3g} (best tilt "
+        f"{found.tilt:g}); p-value 1/E, a bound with no null law needed ({stat.alternative})"
+    )
+    effect = Effect(extra, stat.unit, observed, expected, se, text)
+    return (stat, float(found.right), found.log_p, "bound", detail, effect)
 
 
 def _since_when(

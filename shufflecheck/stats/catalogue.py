@@ -110,8 +110,10 @@ def deck_bytes(cards: int) -> int:
 
 
 Alternative = Literal["two-sided", "greater", "less"]
-Shape = Literal["per-deck", "positions", "class-positions", "consecutive"]
-Need = Literal["colours", "suits", "multiset", "ordered", "guessing", "equal-copies"]
+Shape = Literal["per-deck", "positions", "class-positions", "consecutive", "bet"]
+Need = Literal[
+    "colours", "suits", "multiset", "ordered", "guessing", "guessing-bet", "equal-copies"
+]
 
 
 def default_segment(cards: int) -> tuple[int, int]:
@@ -135,7 +137,9 @@ class ShoeContext:
     computed in advance for these counts when one is stored
     (:mod:`~shufflecheck.stats.guessing_tables`: blackjack and baccarat values of 3 to 6
     packs), else, when ``guess_threshold`` is set, one computed now
-    (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold).
+    (:func:`~shufflecheck.stats.shoe_nulls.greedy_guessing_bracket` at that threshold);
+    where none of these reaches, the game is played as a bet
+    (:mod:`~shufflecheck.stats.guessing_bet`, need ``guessing-bet``).
     Audits and power planning (which plans against the end of the bracket the audit tests
     with); assessments' lower bounds and monitoring need exact laws.
     """
@@ -225,6 +229,8 @@ class ShoeContext:
             if self.guess_tables and guessing_tables.stored_bracket(counts) is not None:
                 return True
             return self.guess_threshold is not None and shoe_nulls.greedy_bracket_fits(counts)
+        if need == "guessing-bet":  # the betting form, where the exact and bracketed are not
+            return len(self.names) > 1 and not self.provides("guessing")
         if need == "equal-copies":
             return len(set(self.copies)) == 1 and len(self.copies) > 1
         return False
@@ -273,7 +279,7 @@ class DeckContext:
         """Whether a statistic with this ``need`` applies to the decks of this context."""
         if self.shoe is not None:
             return self.shoe.provides(need)
-        if need in ("multiset", "ordered", "guessing", "equal-copies"):
+        if need in ("multiset", "ordered", "guessing", "guessing-bet", "equal-copies"):
             return False
         return need is None or getattr(self, need) is not None
 
@@ -367,18 +373,23 @@ class Statistic:
         Noun phrase for effect sentences ("rising sequences").
     unit : str
         Unit of the effect ("rising sequences per deck").
-    shape : {"per-deck", "positions", "consecutive"}
+    shape : {"per-deck", "positions", "class-positions", "consecutive", "bet"}
     values : callable or None
         ``values(view)``: one int per deck (per-deck) or per consecutive pair in the chunk
-        (consecutive); None for ``positions``.
+        (consecutive); for ``bet`` one code per deck and guess
+        (:func:`~shufflecheck.stats.shoe_statistics.greedy_steps`), tested by
+        :mod:`~shufflecheck.stats.guessing_bet`; None for ``positions``.
     law : callable or None
         ``law(context)``: exact per-deck (or per-pair) law under a uniform deck.
     law_source : str
         How that law is obtained, with its source (a table cell in reports).
-    need : {"colours", "suits", "multiset", "ordered", "guessing"} or None
+    need : str or None
+        One of ``colours``, ``suits``, ``multiset``, ``ordered``, ``guessing``,
+        ``guessing-bet``, ``equal-copies`` (or None).
         What the deck definition must provide for the statistic to apply (``multiset``:
         a shoe; ``ordered``: a shoe whose feature is an order of values; ``guessing``: a
-        shoe whose guessing law is within reach). None: decks of distinct cards.
+        shoe whose guessing law is within reach; ``guessing-bet``: a shoe whose guessing law
+        is not). None: decks of distinct cards.
     shown_offset : int
         Added to the mean before it is shown (1 for positions counted from 1 = top).
     sentence : callable or None
@@ -801,6 +812,21 @@ _SHOE: tuple[Statistic, ...] = (
         sentence=_shoe_guess_sentence,
         need="guessing",
         lower_bound=True,
+    ),
+    Statistic(
+        "guess-most-frequent-bet",
+        "guessing game, most frequent value (betting)",
+        "greater",
+        "correct guesses naming a most frequent remaining value",
+        "extra correct guesses per shoe",
+        shape="bet",
+        values=lambda v: shoe_statistics.greedy_steps(
+            v.absolute, _shoe(v.context).class_array(), np.asarray(_shoe(v.context).class_counts)
+        ),
+        law_source="none needed: a test martingale (each guess a Bernoulli of the chance the "
+        "record shows, M/r; equal bets on 8 tilts; p = 1/E, a bound by Ville's inequality), "
+        "for shoes whose exact or bracketed law is out of reach",
+        need="guessing-bet",
     ),
 )
 

@@ -70,8 +70,10 @@ from shufflecheck.stats.catalogue import (
     deck_bytes,
 )
 from shufflecheck.stats.guessing import DEFAULT_STRATEGIES
+from shufflecheck.stats.guessing_bet import TILTS, shoe_gains
 from shufflecheck.stats.nulls import Law, LawBracket, law_bytes, sum_distribution
 from shufflecheck.stats.positions import position_counts
+from shufflecheck.stats.shoe_statistics import greedy_step_cells
 from shufflecheck.stats.statistics import as_decks
 
 __all__ = [
@@ -181,13 +183,16 @@ class PowerPlan:
 
     def null_text(self) -> str:
         """How the null laws were obtained, in one phrase."""
-        if not self.bracketed:
-            return "null laws exact"
-        return (
-            "null laws exact, or for "
-            + ", ".join(f"'{t}'" for t in self.bracketed)
-            + " the upper end of a bracket computed in advance (what the audit tests with)"
-        )
+        text = "null laws exact"
+        if self.bracketed:
+            text += (
+                ", or for "
+                + ", ".join(f"'{t}'" for t in self.bracketed)
+                + " the upper end of a bracket computed in advance (what the audit tests with)"
+            )
+        if any(r.test == "guess-most-frequent-bet" for r in self.rows):
+            text += "; the betting guessing game needs none (a test martingale)"
+        return text
 
     def best(self) -> PowerRow | None:
         """The test needing the fewest decks (None if no test detects the procedure)."""
@@ -621,6 +626,10 @@ def plan_shoes(
         if stat.shape == "class-positions":
             rows.append(_class_position_row(stat, view.absolute, shoe, level, power, max_decks))
             continue
+        if stat.shape == "bet":
+            assert stat.values is not None
+            rows.append(_bet_row(stat, stat.values(view), shoe, level, power, max_decks))
+            continue
         if stat.shape == "consecutive":
             assert stat.values is not None and stat.law is not None
             x = stat.values(DeckView(words, words, context))
@@ -643,6 +652,40 @@ def plan_shoes(
             law = _tested_law(stat, raw)
         rows.append(_sum_row(stat, law, x, level, power, max_decks))
     return PowerPlan(n, alpha, power, m, level, simulate, tuple(rows), confidence, tuple(bracketed))
+
+
+def _bet_row(
+    spec: Statistic, codes: np.ndarray, shoe: ShoeContext, level: float, target: float, cap: int
+) -> PowerRow:
+    """Shoes the betting guessing test (:mod:`shufflecheck.stats.guessing_bet`) needs: each
+    simulated shoe adds ``g_j = lambda_j S - sum log(1 - p + p e^lambda_j)`` to the log of
+    tilt ``j``'s martingale; with the best tilt's mean ``mu`` and spread ``sigma`` per shoe,
+    ``D`` shoes reach the e-value ``len(TILTS) / level`` with chance about ``target`` when
+    ``D mu - z sigma sqrt(D) >= log(len(TILTS) / level)`` (normal working model)."""
+    _, cols = greedy_step_cells(np.asarray(shoe.class_counts))
+    sims = codes.shape[0]
+    gains = shoe_gains(codes, cols)
+    means = gains.mean(axis=0)
+    best = int(np.argmax(means))
+    mu = float(means[best])
+    sigma = float(gains[:, best].std(ddof=1)) if sims > 1 else 0.0
+    se = sigma / math.sqrt(sims) if sims > 0 else math.inf
+    base = (
+        f"test martingale, {len(TILTS)} tilts: the best tilt's gain per shoe over {sims} "
+        "simulated shoes, normal working model for the sum; shift = mean log-gain per shoe"
+    )
+    if not mu > _RESOLUTION * se:
+        return _not_detected(
+            spec, mu, se, None, base, "no gain of the bet detectable in the simulated shoes"
+        )
+    goal = math.log(len(TILTS) / level)
+    z = normal_quantile(target)
+    root = (z * sigma + math.sqrt((z * sigma) ** 2 + 4 * mu * goal)) / (2 * mu)
+    decks = max(1, math.ceil(root**2))
+    rel_se = 2 * se / mu
+    if decks > cap:
+        return _not_detected(spec, mu, se, rel_se, base, f"needs more than {cap} shoes")
+    return PowerRow(spec.name, spec.title, decks, target, mu, se, rel_se, "estimate", base, "")
 
 
 def _tested_law(stat: Statistic, law: Law | LawBracket) -> Law:

@@ -13,7 +13,8 @@ loops only over positions, never over shoes.
 * :func:`zone_counts` -- per shoe, the cards in each zone whose kind occurs in a segment of
   the reference shoe, and how many such cards the shoe holds;
 * :func:`greedy_scores` -- correct guesses when always naming a most frequent remaining
-  class (lowest class on ties);
+  class (lowest class on ties); :func:`greedy_steps` -- each of those guesses with its
+  chance under a uniform shoe (for the betting test of :mod:`shufflecheck.stats.guessing_bet`);
 * :func:`first_appearance_orders` -- the order in which the codes first appear, relative
   to the reference shoe's (order kept from the previous shoe; a uniform permutation under
   the null when every code has the same number of copies);
@@ -37,6 +38,8 @@ __all__ = [
     "first_appearance_orders",
     "first_appearance_ranks",
     "greedy_scores",
+    "greedy_step_cells",
+    "greedy_steps",
     "value_successions",
     "zone_counts",
 ]
@@ -160,9 +163,36 @@ def greedy_scores(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarr
     of all shoes per class), so each position costs one maximum over ``V`` rows and one
     gather and scatter of the cards' keys.
     """
+    return _greedy_pass(words, classes, class_counts, steps=False)
+
+
+def greedy_steps(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarray) -> np.ndarray:
+    """Every guess of :func:`greedy_scores`, one cell per shoe and position: ``(shoes, n)``
+    codes ``cell = M * 2 (n + 1) + 2 r + X`` of the largest remaining count ``M`` before the
+    card, the cards remaining ``r = n - i`` (the guess is right with chance ``M / r`` under
+    a uniform shoe, whatever came before) and ``X = 1`` when the guess was right. The
+    codes fit :func:`greedy_step_cells` ``(M + 1) x 2 (n + 1)`` cells."""
+    return _greedy_pass(words, classes, class_counts, steps=True)
+
+
+def greedy_step_cells(class_counts: np.ndarray) -> tuple[int, int]:
+    """Shape ``(largest count + 1, 2 (n + 1))`` of the table the codes of
+    :func:`greedy_steps` index (row ``M``, column ``2 r + X``)."""
+    counts = np.asarray(class_counts, dtype=np.int64)
+    return int(counts.max(initial=0)) + 1, 2 * (int(counts.sum()) + 1)
+
+
+def _greedy_pass(
+    words: np.ndarray, classes: np.ndarray, class_counts: np.ndarray, *, steps: bool
+) -> np.ndarray:
     counts = np.asarray(class_counts, dtype=np.int64)
     k = counts.size
-    out = np.zeros(words.shape[0], dtype=np.int64)
+    n = words.shape[1] if words.ndim == 2 else 0
+    rows, cols = greedy_step_cells(counts)
+    code = np.uint16 if rows * cols <= 1 << 16 else np.uint32
+    out = np.zeros(
+        (words.shape[0], n) if steps else words.shape[0], dtype=code if steps else np.int64
+    )
     if k == 0 or words.shape[0] == 0:
         return out
     top = (int(counts.max()) + 1) * k
@@ -181,9 +211,15 @@ def greedy_scores(words: np.ndarray, classes: np.ndarray, class_counts: np.ndarr
             np.max(key, axis=0, out=best)
             where = at[i]
             mine = flat[where]
-            score += mine == best
+            right = mine == best
+            if steps:
+                # the largest remaining count is the best key's count: key // V
+                out[start : start + m, i] = (best // k).astype(code) * cols + 2 * (n - i) + right
+            else:
+                score += right
             flat[where] = mine - k
-        out[start : start + m] = score
+        if not steps:
+            out[start : start + m] = score
     return out
 
 

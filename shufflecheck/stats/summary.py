@@ -42,7 +42,11 @@ from shufflecheck.stats.guessing import DEFAULT_STRATEGIES, check_strategies
 from shufflecheck.stats.nulls import Law
 from shufflecheck.stats.positions import position_counts
 from shufflecheck.stats.results import AuditResult
-from shufflecheck.stats.shoe_statistics import check_words, class_position_counts
+from shufflecheck.stats.shoe_statistics import (
+    check_words,
+    class_position_counts,
+    greedy_step_cells,
+)
 from shufflecheck.stats.statistics import as_decks
 
 __all__ = ["MAX_GROUPS", "BatterySummary"]
@@ -101,6 +105,10 @@ class _State:
             if isinstance(v, tuple):  # (values, law keys)
                 cells = v[1].astype(np.int64) * hist.shape[1] + v[0]
                 hist += np.bincount(cells, minlength=hist.size).reshape(hist.shape)
+                continue
+            if v.ndim == 2:  # codes of cells, one per deck and step (a table, no series)
+                flat = np.bincount(v.reshape(-1).astype(np.int64), minlength=hist.size)
+                hist += flat.reshape(hist.shape)
                 continue
             hist += np.bincount(v, minlength=hist.size)
             if self.series is not None:
@@ -227,6 +235,9 @@ class BatterySummary:
                 law = stat.law(self.context)
                 self.laws[stat.name] = law
                 self._lengths[stat.name] = law.high + 1
+            elif stat.shape == "bet":  # a table of guesses by (M, 2 r + X), no law
+                assert shoe is not None
+                self._lengths[stat.name] = greedy_step_cells(np.asarray(shoe.class_counts))
 
     @classmethod
     def empty(
@@ -337,7 +348,7 @@ class BatterySummary:
         view = DeckView(rel, ab, self.context, reference=references)
         values: dict = {}
         for stat in self.statistics:
-            if stat.shape != "per-deck" or stat.values is None:
+            if stat.shape not in ("per-deck", "bet") or stat.values is None:
                 continue
             if (stat.law_keys is not None or stat.needs_reference) and references is None:
                 continue
@@ -544,7 +555,7 @@ class BatterySummary:
         out = []
         if not self.shoe.provides("ordered"):
             out.append(("value-successions", f"the classes of {self.shoe.feature} have no order"))
-        if not self.shoe.provides("guessing"):
+        if not self.shoe.provides("guessing") and not self.shoe.provides("guessing-bet"):
             from shufflecheck.stats.shoe_nulls import greedy_state_estimate
 
             states = greedy_state_estimate(self.shoe.class_counts)

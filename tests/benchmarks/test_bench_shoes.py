@@ -80,6 +80,24 @@ def test_audit_100k_shoes(benchmark, figures, shoe_log):
     )
 
 
+def test_audit_100k_shoes_rank(benchmark, figures, shoe_log):
+    # the default feature (rank): the guessing game has no law within reach and runs as a
+    # bet (a table of guesses instead of a histogram of scores)
+    from shufflecheck.analyses.audit_log import audit_log
+
+    def run():
+        anchor, _ = _cpu(_read_only, shoe_log)
+        measured, result = _cpu(audit_log, shoe_log, deck="shoe(packs=6)")
+        return anchor, measured, result
+
+    anchor, measured, result = benchmark.pedantic(run, rounds=1, iterations=1)
+    assert "guess-most-frequent-bet" in {t.name for t in result.result.overall.tests}
+    figures(
+        "audit of 100,000 six-pack shoes, default feature rank (betting game), CPU", measured, 60
+    )
+    figures("  audit / reading ratio", measured / anchor, 60 / anchor, "x")
+
+
 def test_audit_100k_shoes_memory(benchmark, figures, shoe_log):
     setup = f"""
     from shufflecheck.analyses.audit_log import audit_log
