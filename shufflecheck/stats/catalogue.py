@@ -824,7 +824,7 @@ _SHOE: tuple[Statistic, ...] = (
             v.absolute, _shoe(v.context).class_array(), np.asarray(_shoe(v.context).class_counts)
         ),
         law_source="none needed: a test martingale (each guess a Bernoulli of the chance the "
-        "record shows, M/r; equal bets on 8 tilts; p = 1/E, a bound by Ville's inequality), "
+        "record shows, M/r; equal bets on 12 tilts; p = 1/E, a bound by Ville's inequality), "
         "for shoes whose exact or bracketed law is out of reach",
         need="guessing-bet",
     ),
