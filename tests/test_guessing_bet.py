@@ -170,3 +170,19 @@ def test_audit_command_runs_it(tmp_path):
         runner.invoke(app, ["audit", str(log), "--deck", "shoe(packs=6)"]).output.split()
     )
     assert "guessing game, most frequent value (betting)" in flat
+    # the report: no score histogram for it (it keeps a table of guesses and has no law),
+    # its p-value labelled a bound in the figure
+    from shufflecheck.report.figures import keep_drawn
+
+    folder = tmp_path / "report"
+    with keep_drawn() as drawn:
+        written = runner.invoke(
+            app, ["audit", str(log), "--deck", "shoe(packs=6)", "--report", str(folder)]
+        )
+    assert written.exit_code == 0, written.output
+    assert "guessing game, most frequent value (betting)" in (folder / "report.md").read_text()
+    names = [name for name, _ in drawn]
+    assert "pvalues" in names and "guessing" not in names
+    figure = dict(drawn)["pvalues"]
+    labels = [t.get_text() for t in figure.axes[0].texts]
+    assert any("(bound)" in text for text in labels)

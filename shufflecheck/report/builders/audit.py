@@ -31,7 +31,12 @@ __all__ = [
 ]
 
 #: how a p-value was obtained, in the report's three labels
-_P_LABEL = {"exact": "exact", "asymptotic": "estimate", "monte-carlo": "estimate"}
+_P_LABEL = {
+    "exact": "exact",
+    "bound": "bound",  # an upper bound on the p-value (bracketed law, betting game)
+    "asymptotic": "estimate",
+    "monte-carlo": "estimate",
+}
 
 
 def p_cell(log10_p: float, method: str):
@@ -72,14 +77,27 @@ def _tests_table(battery, caption: str) -> Table:
             f"uniformly random deck at family-wise level {battery.alpha:g}.",
             "Effects are estimates from the recorded decks (observed mean minus the exact "
             "mean for a random deck) with their standard errors.",
+            *(
+                (
+                    "The betting guessing game's effect is the correct guesses minus the sum "
+                    "of each guess's chance (the cards left at each guess), per shoe.",
+                )
+                if any(t.name == "guess-most-frequent-bet" for t in battery.tests)
+                else ()
+            ),
         ),
     )
 
 
 def _guessing_histogram(audit):
-    """(test, histogram) of the strongest guessing strategy when it has scores, else None."""
+    """(test, histogram) of the strongest guessing strategy when it has scores, else None
+    (the betting form keeps a table of guesses, not a histogram of scores, and no law)."""
     tests = audit.result.overall.by_adjusted_p()
-    guesses = [t for t in tests if t.name.startswith("guess-")]  # one per strategy
+    guesses = [  # one per strategy
+        t
+        for t in tests
+        if t.name.startswith("guess-") and np.ndim(audit.histograms.get(t.name, 0)) == 1
+    ]
     if not guesses:
         return None
     best = min(guesses, key=lambda t: t.log10_p_value)
