@@ -559,18 +559,11 @@ class BatterySummary:
             from shufflecheck.stats.shoe_nulls import greedy_state_estimate
 
             states = greedy_state_estimate(self.shoe.class_counts)
-            stored = (
-                "stored brackets cover 3 to 6 packs"
-                if self.shoe.feature in ("blackjack", "baccarat")
-                else "brackets are stored for blackjack and baccarat values of 3 to 6 packs: "
-                "--feature blackjack or baccarat"
-            )
             out.append(
                 (
                     "guess-most-frequent",
                     f"its exact null law would take about {states:,} count states, beyond the "
-                    f"budget of {self.shoe.guess_budget:,}, and no bracket of it is stored "
-                    f"({stored})",
+                    f"budget of {self.shoe.guess_budget:,}, and no bracket of it is stored",
                 )
             )
         return tuple(out)
