@@ -495,8 +495,7 @@ def _many_blocks(
             Quantity(k, "exact", method=how, unit="bits"),
         )
     estimate = None
-    start = tuple(v for v, c in enumerate(counts) for _ in range(c))
-    if _estimate_fits(start, packets, samples):
+    if _fits(_blocks_cost(counts, samples), samples):
         found = block_words.block_tv_estimate(counts, packets, samples=samples, seed=seed)
         estimate = _estimate_quantity(found, seed, "the start in blocks")
     return FeatureDistances(steps, tv, sep, kl, merged_lower_bound(counts, packets), estimate)
@@ -552,6 +551,20 @@ def _estimate_quantity(found: WordEstimate, seed: int, start: str) -> Quantity:
     )
 
 
+def _alternating_cost(n: int, packets: int, samples: int) -> tuple[int, int]:
+    """``(work, limit)`` of the Monte Carlo estimate of an alternating start."""
+    return estimate_work(n, packets, samples), ESTIMATE_WORK
+
+
+def _blocks_cost(runs: tuple[int, ...], samples: int) -> tuple[int, int]:
+    """``(work, limit)`` of the Monte Carlo estimate of a start in blocks of ``runs``."""
+    return block_words.estimate_work(runs, samples), block_words.ESTIMATE_WORK
+
+
+def _fits(cost: tuple[int, int], samples: int) -> bool:
+    return samples > 0 and cost[0] <= cost[1]
+
+
 def _estimate_cost(values: tuple[int, ...], packets: int, samples: int) -> tuple[int, int] | None:
     """``(work, limit)`` of the Monte Carlo estimate that ``values`` takes after one
     ``packets``-shuffle: a start that alternates, or lies in three or more blocks, too large
@@ -562,18 +575,13 @@ def _estimate_cost(values: tuple[int, ...], packets: int, samples: int) -> tuple
     if alternating_class(values) is not None:
         if math.comb(n, n // 2) <= ALTERNATING_EXACT_WORDS:
             return None
-        return estimate_work(n, packets, samples), ESTIMATE_WORK
+        return _alternating_cost(n, packets, samples)
     runs = block_runs(values)
     if runs is None or len(runs) < 3 or not 1 < max(runs) <= block_words.MAX_CLASS:
         return None
     if block_words.word_count(runs) <= block_words.EXACT_WORDS:
         return None
-    return block_words.estimate_work(runs, samples), block_words.ESTIMATE_WORK
-
-
-def _estimate_fits(values: tuple[int, ...], packets: int, samples: int) -> bool:
-    cost = _estimate_cost(values, packets, samples)
-    return cost is not None and cost[0] <= cost[1]
+    return _blocks_cost(runs, samples)
 
 
 def estimate_skipped(start: Sequence[int], samples: int, *, hands: int = 2) -> str | None:
@@ -620,7 +628,7 @@ def _alternating(
             Quantity(k, "exact", method=how, unit="bits"),
         )
     estimate = None
-    if _estimate_fits(values, packets, samples):
+    if _fits(_alternating_cost(n, packets, samples), samples):
         found = alternating_tv_estimate(n, packets, samples=samples, rng=seed)
         estimate = _estimate_quantity(found, seed, "the alternating start")
     lower = None

@@ -81,10 +81,9 @@ def _table(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return rows, cols, table[rows, cols].astype(np.float64)
 
 
-def log_evalues(cells: np.ndarray, tilts: tuple[float, ...] = TILTS) -> np.ndarray:
-    """Natural logs of each tilt's martingale at the end of the table ``cells`` (module
-    notes): ``lambda S - sum log(1 - p + p e^lambda)``."""
-    rows, cols, counts = _table(cells)
+def _logs(
+    rows: np.ndarray, cols: np.ndarray, counts: np.ndarray, tilts: tuple[float, ...]
+) -> np.ndarray:
     remaining = cols // 2
     if np.any(remaining < 1) or np.any(rows > remaining):
         raise InputError("a table of guesses needs 1 <= r and M <= r in every occupied cell")
@@ -96,13 +95,18 @@ def log_evalues(cells: np.ndarray, tilts: tuple[float, ...] = TILTS) -> np.ndarr
     return out
 
 
+def log_evalues(cells: np.ndarray, tilts: tuple[float, ...] = TILTS) -> np.ndarray:
+    """Natural logs of each tilt's martingale at the end of the table ``cells`` (module
+    notes): ``lambda S - sum log(1 - p + p e^lambda)``."""
+    return _logs(*_table(cells), tilts)
+
+
 def bet_outcome(cells: np.ndarray, tilts: tuple[float, ...] = TILTS) -> BetOutcome:
     """The betting test of the guesses in ``cells`` (:func:`log_evalues`, mixed with equal
     weights over ``tilts``)."""
     rows, cols, counts = _table(cells)
-    remaining = np.maximum(cols // 2, 1)
-    chance = rows / remaining
-    logs = log_evalues(cells, tilts)
+    logs = _logs(rows, cols, counts, tilts)  # checks 1 <= r and M <= r
+    chance = rows / (cols // 2)
     log_e = float(logsumexp(logs) - math.log(len(tilts)))
     return BetOutcome(
         right=int(counts[cols % 2 == 1].sum()),
